@@ -1,0 +1,83 @@
+"""Command line: ``planner plan``, ``planner new``, ``planner climate``, ``planner life``.
+
+Each command lives in its own module of this package and is imported only when
+used, so ``planner --help`` stays fast. Errors the user can fix are
+:class:`planner.errors.InputError`: one line on stderr, exit code 2, and a
+traceback only with ``--debug``.
+"""
+
+from __future__ import annotations
+
+import importlib
+import sys
+import traceback
+
+import click
+
+from planner import __version__
+from planner.errors import InputError
+
+EXIT_OK = 0
+EXIT_BAD_INPUT = 2
+EXIT_INFEASIBLE = 3
+
+_COMMANDS = {
+    "plan": ("planner.cli.plan", "plan_command"),
+    "new": ("planner.cli.new", "new_command"),
+    "climate": ("planner.cli.climate", "climate_command"),
+    "life": ("planner.cli.life", "life_command"),
+}
+
+
+class _LazyGroup(click.Group):
+    def list_commands(self, ctx):
+        return sorted(_COMMANDS)
+
+    def get_command(self, ctx, name):
+        if name not in _COMMANDS:
+            return None
+        module_name, attr = _COMMANDS[name]
+        return getattr(importlib.import_module(module_name), attr)
+
+    def invoke(self, ctx):
+        try:
+            return super().invoke(ctx)
+        except InputError as err:
+            if ctx.obj and ctx.obj.get("debug"):
+                traceback.print_exc()
+            click.echo(f"error: {err}", err=True)
+            ctx.exit(EXIT_BAD_INPUT)
+
+
+@click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, "--version", prog_name="planner")
+@click.option("--quiet", is_flag=True, help="No progress bar and no summary on the console.")
+@click.option("--debug", is_flag=True, help="Show a traceback for errors.")
+@click.pass_context
+def cli(ctx, quiet, debug):
+    """Plan batteries for remote, unattended sites: chemistry, oversizing, charge
+    voltage and replacement visits at the lowest lifetime cost.
+
+    \b
+    Example:
+      planner plan scenarios/highmoor.toml
+    """
+    ctx.ensure_object(dict)
+    ctx.obj["quiet"] = quiet
+    ctx.obj["debug"] = debug
+
+
+def main(argv=None):
+    """Console entry point."""
+    return cli.main(args=argv, prog_name="planner")
+
+
+def options(ctx: click.Context) -> dict:
+    """The group's options (quiet, debug) seen from a sub-command."""
+    root = ctx.find_root()
+    return root.obj or {}
+
+
+def progress_enabled(ctx: click.Context) -> bool:
+    """A progress bar only on a terminal and without --quiet."""
+    return not options(ctx).get("quiet") and sys.stderr.isatty()

@@ -1,0 +1,24 @@
+"""The project's own exceptions.
+
+Every problem with what the user supplied (study file, sites table, climate file,
+command-line value) is an :class:`InputError` whose message is one line naming the
+file, the key path or row/column, what was found and what was expected. The command
+line turns it into that line on stderr and exit code 2, with no traceback unless
+``--debug`` is given.
+"""
+
+
+class InputError(ValueError):
+    """Bad user input. ``str(err)`` is the one-line message shown to the user."""
+
+    def __init__(self, message: str, *, source: str | None = None):
+        self.source = source
+        super().__init__(f"{source}: {message}" if source else message)
+
+
+class InfeasibleError(RuntimeError):
+    """The study has no feasible plan; ``reasons`` lists one line per cause."""
+
+    def __init__(self, reasons: list[str]):
+        self.reasons = list(reasons)
+        super().__init__("; ".join(self.reasons) if self.reasons else "no feasible plan")
