@@ -1,0 +1,116 @@
+"""``planner new DIR``: a starter study that validates and runs as it is."""
+
+from __future__ import annotations
+
+import csv
+import io
+from pathlib import Path
+
+import click
+
+from planner.errors import InputError
+from planner.fileio import write_text_atomic
+from planner.schema import NAMED_SECTIONS, SECTIONS, SITE_COLUMNS, Field
+
+# Two invented example sites: a river gauge in the mountains and a desert pipeline monitor.
+EXAMPLE_SITES = [
+    {"id": "gauge-01", "name": "Upper weir gauge", "region": "mountains", "climate": "alpine",
+     "enclosure": "cabinet-sun", "load_w": "2.5", "burst_w": "20", "burst_s": "6",
+     "burst_every_min": "15", "charging": "pv", "pv_wp": "60", "autonomy_days": "7",
+     "system_voltage_v": "12"},
+    {"id": "pipe-01", "name": "Valve station monitor", "region": "desert", "climate": "hot-desert",
+     "enclosure": "cabinet-sun", "load_w": "4", "charging": "pv", "pv_wp": "80",
+     "autonomy_days": "4", "system_voltage_v": "12"},
+]
+
+EXAMPLE_REGIONS = {
+    "mountains": {"trip_cost": 6000.0, "access_months": (6, 7, 8, 9, 10)},
+    "desert": {"trip_cost": 1200.0},
+}
+
+
+@click.command("new")
+@click.argument("directory", type=click.Path(file_okay=False, path_type=Path))
+@click.option("--force", is_flag=True, help="Overwrite study.toml and sites.csv if they exist.")
+def new_command(directory, force):
+    """Write a starter study into DIRECTORY: a commented study.toml and a sites.csv
+    with every column and two example rows. It validates and runs as it is.
+
+    \b
+    Example:
+      planner new my-network && planner plan my-network/study.toml
+    """
+    directory.mkdir(parents=True, exist_ok=True)
+    study_path, sites_path = directory / "study.toml", directory / "sites.csv"
+    for path in (study_path, sites_path):
+        if path.exists() and not force:
+            raise InputError("already exists; expected a new folder (or use --force)",
+                             source=str(path))
+    write_text_atomic(sites_path, starter_sites_csv())
+    write_text_atomic(study_path, starter_study_toml())
+    click.echo(f"wrote {study_path} and {sites_path}", err=True)
+
+
+def _toml_value(spec: Field, value) -> str:
+    if spec.kind in ("floats", "strs", "months"):
+        return "[" + ", ".join(_scalar(v) for v in value) + "]"
+    return _scalar(value)
+
+
+def _scalar(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, str):
+        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(value, float) and value.is_integer():
+        return f"{value:.1f}"
+    return str(value)
+
+
+def _comment(spec: Field) -> str:
+    parts = [spec.doc] if spec.doc else []
+    if spec.unit:
+        parts.append(f"[{spec.unit}]")
+    parts.append(f"({spec.expectation()})")
+    return "  # " + " ".join(parts)
+
+
+def starter_study_toml() -> str:
+    """A commented study file listing every key with its default."""
+    out = ["# Starter study written by `planner new`. Every key is shown with its default;",
+           "# delete what you do not need. Costs are illustrative placeholders.", ""]
+    for section, specs in SECTIONS.items():
+        out.append(f"[{section}]")
+        for spec in specs:
+            value = "sites.csv" if spec.name == "sites_file" else spec.default
+            line = f"{spec.name} = {_toml_value(spec, value)}"
+            if spec.name == "name" and section == "study":
+                line = 'name = "Starter network"'
+            out.append(line + _comment(spec))
+        out.append("")
+    out.append("# Per-chemistry prices (optional): [prices.<chemistry id>]")
+    out.append("[prices.lfp]")
+    for spec in NAMED_SECTIONS["prices"]:
+        out.append(f"{spec.name} = {_toml_value(spec, spec.default)}" + _comment(spec))
+    out.append("")
+    out.append("# Per-region trip costs and access months (optional): [regions.<region>]")
+    for region, values in EXAMPLE_REGIONS.items():
+        out.append(f"[regions.{region}]")
+        for spec in NAMED_SECTIONS["regions"]:
+            if spec.name in values:
+                out.append(f"{spec.name} = {_toml_value(spec, values[spec.name])}" + _comment(spec))
+        out.append("")
+    out.append("# A user climate file (optional): [climates.<name>], then name it in the sites'")
+    out.append("# climate column. See docs/climate.md for the options, for example:")
+    out.append('# [climates.my-logger]\n# file = "logger.csv"\n# temperature_unit = "C"')
+    return "\n".join(out) + "\n"
+
+
+def starter_sites_csv() -> str:
+    """The sites table header with every column and two example rows."""
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=[s.name for s in SITE_COLUMNS], lineterminator="\n")
+    writer.writeheader()
+    for row in EXAMPLE_SITES:
+        writer.writerow(row)
+    return buffer.getvalue()

@@ -1,0 +1,191 @@
+"""The study-file and sites-table vocabulary: every key, its unit, default and range.
+
+One table drives validation (:mod:`planner.scenario`), the reference in
+``docs/study-file.md``, the starter study written by ``planner new`` and the
+inputs listed in the workbook's assumptions sheet, so the four can never drift apart.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+from typing import Any
+
+REQUIRED = object()
+
+
+@dataclass(frozen=True)
+class Field:
+    """One key of the study file or one column of the sites table."""
+
+    name: str
+    kind: str  # "float", "int", "str", "bool", "months", "floats", "strs"
+    default: Any = REQUIRED
+    unit: str = ""
+    minimum: float | None = None
+    maximum: float | None = None
+    exclusive_minimum: bool = False
+    choices: tuple[str, ...] | None = None
+    doc: str = ""
+
+    @property
+    def required(self) -> bool:
+        return self.default is REQUIRED
+
+    def expectation(self) -> str:
+        """Plain words for what a valid value looks like, for error messages."""
+        what = {
+            "float": "a number",
+            "int": "a whole number",
+            "str": "text",
+            "bool": "true or false",
+            "months": "months 1-12 (e.g. 6-9 or 5;6;7)",
+            "floats": "a list of numbers",
+            "strs": "a list of names",
+        }[self.kind]
+        if self.choices:
+            return "one of " + ", ".join(self.choices)
+        bounds = []
+        if self.minimum is not None:
+            bounds.append(f"{'>' if self.exclusive_minimum else '>='} {self.minimum:g}")
+        if self.maximum is not None:
+            bounds.append(f"<= {self.maximum:g}")
+        return what + (" " + " and ".join(bounds) if bounds else "")
+
+
+def closest(name: str, valid) -> str:
+    """A ``; did you mean 'x'?`` suffix for a mistyped key, or an empty string."""
+    match = difflib.get_close_matches(name, list(valid), n=1, cutoff=0.6)
+    return f"; did you mean '{match[0]}'?" if match else ""
+
+
+F = Field
+
+STUDY = (
+    F("name", "str", "", doc="Title shown in the plan; defaults to the file name."),
+    F("sites_file", "str", doc="Sites table (CSV or XLSX), relative to the study file."),
+    F("horizon_years", "int", 20, "years", 1, 60, doc="Planning horizon."),
+    F("discount_rate_frac", "float", 0.03, "1/year", 0.0, 0.5,
+      doc="Real discount rate (NIST Handbook 135 convention: constant money, real rate)."),
+    F("inflation_frac", "float", 0.0, "1/year", -0.1, 0.5,
+      doc="Used only with nominal_rate_frac: real = (1 + nominal)/(1 + inflation) - 1."),
+    F("nominal_rate_frac", "float", -1.0, "1/year", -1.0, 0.5,
+      doc="Optional nominal discount rate; when given (>= 0) it replaces discount_rate_frac."),
+    F("currency", "str", "EUR", doc="Currency label written beside every amount."),
+    F("start_year", "int", 2027, "calendar year", 1990, 2100,
+      doc="Calendar year of the plan's year 0; ages of installed packs count to it."),
+    F("warming_k", "float", 0.0, "K", -5.0, 10.0,
+      doc="Added to every hourly air temperature (climate-change sensitivity)."),
+    F("report_soh_frac", "float", 0.8, "fraction", 0.5, 0.99,
+      doc="State of health used to report a 'life' figure (planning uses the site requirement)."),
+)
+
+CANDIDATES = (
+    F("chemistries", "strs", ("vrla", "lfp", "nmc", "lto", "lisocl2"),
+      doc="Chemistries the optimizer may choose from."),
+    F("oversize_factors", "floats", (1.0, 1.25, 1.5, 2.0, 3.0), "x 1x size", 1.0, 10.0,
+      doc="Pack sizes tried, as multiples of the 1x reference size."),
+    F("aging_factor", "float", 1.25, "factor", 1.0, 2.0,
+      doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
+    F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
+      doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+)
+
+COSTS = (
+    F("trip_cost", "float", 2500.0, "currency/trip", 0.0,
+      doc="Mobilisation cost of one planned trip to a region (vehicle, helicopter, travel)."),
+    F("site_visit_cost", "float", 150.0, "currency/site", 0.0,
+      doc="Extra cost of each site visited on a trip."),
+    F("labour_hours_per_replacement", "float", 3.0, "h", 0.0, 200.0,
+      doc="Crew hours to swap one pack."),
+    F("labour_rate_per_h", "float", 85.0, "currency/h", 0.0),
+    F("disposal_per_kg", "float", 1.5, "currency/kg", 0.0,
+      doc="Disposal or recycling of a removed pack."),
+    F("unplanned_trip_cost", "float", -1.0, "currency/trip", -1.0,
+      doc="Cost of an emergency trip after a failure; -1 means 1.5 x trip_cost."),
+    F("downtime_cost_per_day", "float", 200.0, "currency/day", 0.0,
+      doc="Penalty for each day a site is off air."),
+    F("illustrative", "bool", True,
+      doc="Mark the costs as illustrative in the workbook (set false for quoted prices)."),
+)
+
+PRICE = (
+    F("price_per_kwh", "float", -1.0, "currency/kWh", -1.0,
+      doc="Pack price per nominal kWh; -1 takes the chemistry library's illustrative price."),
+    F("fixed_price", "float", 0.0, "currency/pack", 0.0,
+      doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
+)
+
+REGION = (
+    F("trip_cost", "float", -1.0, "currency/trip", -1.0, doc="-1 takes [costs].trip_cost."),
+    F("site_visit_cost", "float", -1.0, "currency/site", -1.0, doc="-1 takes [costs].site_visit_cost."),
+    F("access_months", "months", tuple(range(1, 13)), "month numbers",
+      doc="Months when crews can reach the region's sites."),
+)
+
+LIMITS = (
+    F("crew_site_visits_per_year", "int", 0, "sites/year", 0, doc="0 means no limit."),
+    F("annual_budget", "float", 0.0, "currency/year", 0.0, doc="0 means no limit."),
+    F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, doc="0 means no limit."),
+)
+
+SOLVER = (
+    F("name", "str", "auto", choices=("auto", "highs", "cbc"),
+      doc="MILP solver: HiGHS where installed, CBC otherwise."),
+    F("time_limit_s", "float", 60.0, "s", 1.0, 86400.0),
+    F("gap_rel_frac", "float", 0.005, "fraction", 0.0, 0.5, doc="Relative optimality gap to stop at."),
+)
+
+OUTPUT = (
+    F("workbook", "str", "", doc="Workbook path; default output/<study file name>.xlsx."),
+    F("json", "str", "", doc="Optional JSON path for the same plan."),
+    F("fade_chart_sites", "int", 20, "sites", 0, 200,
+      doc="Capacity-fade charts are drawn for this many of the most expensive sites."),
+    F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
+)
+
+SECTIONS = {
+    "study": STUDY,
+    "candidates": CANDIDATES,
+    "costs": COSTS,
+    "limits": LIMITS,
+    "solver": SOLVER,
+    "output": OUTPUT,
+}
+# Sections whose sub-tables are named by the user: [prices.<chemistry>], [regions.<name>],
+# [climates.<name>] (options for a user climate file, checked by planner.climate).
+NAMED_SECTIONS = {"prices": PRICE, "regions": REGION, "climates": None}
+
+SITE_COLUMNS = (
+    F("id", "str", doc="Unique site id."),
+    F("name", "str", "", doc="Site name; defaults to the id."),
+    F("region", "str", doc="Trip region: one planned trip serves every site of its region visited that year."),
+    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry, or an EPW/TMY3/TMY2 file."),
+    F("enclosure", "str", "cabinet-sun", choices=("cabinet-sun", "cabinet-shade", "vault", "shelter"),
+      doc="Enclosure kind (sets the thermal model's defaults)."),
+    F("load_w", "float", unit="W", minimum=0.0, maximum=5000.0, doc="Continuous load (mean power)."),
+    F("burst_w", "float", 0.0, "W", 0.0, 20000.0, doc="Extra power during a transmit burst."),
+    F("burst_s", "float", 0.0, "s", 0.0, 3600.0, doc="Length of each burst."),
+    F("burst_every_min", "float", 0.0, "min", 0.0, 1440.0, doc="Time between burst starts; 0 = no bursts."),
+    F("charging", "str", "pv", choices=("pv", "mains", "none"), doc="Charging source."),
+    F("pv_wp", "float", 0.0, "Wp", 0.0, 20000.0, doc="PV array size (with charging = pv)."),
+    F("pv_tilt_deg", "float", -1.0, "deg", -1.0, 90.0, doc="-1: tilt = |latitude| + 15 (winter bias)."),
+    F("pv_azimuth_deg", "float", -1.0, "deg", -1.0, 360.0, doc="-1: facing the equator."),
+    F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
+    F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
+    F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,
+      doc="Days the pack must carry the load with no charging."),
+    F("system_voltage_v", "float", 12.0, "V", 1.0, 60.0, doc="Nominal DC bus voltage."),
+    F("access_months", "months", (), "month numbers", doc="Months the site can be reached; blank = its region's."),
+    F("heater_setpoint_c", "float", -100.0, "°C", -100.0, 40.0,
+      doc="Battery heater thermostat; -100 or blank = no heater."),
+    F("electronics_heat_w", "float", -1.0, "W", -1.0, 5000.0,
+      doc="Heat released in the enclosure by electronics; -1 = the load's mean power."),
+    F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),
+    F("existing_chemistry", "str", "", doc="Chemistry of the pack installed today (blank: new pack at start)."),
+    F("existing_capacity_wh", "float", 0.0, "Wh", 0.0, 1e7),
+    F("existing_installed_year", "int", 0, "calendar year", 0, 2100),
+    F("existing_soh_frac", "float", 0.0, "fraction", 0.0, 1.0,
+      doc="Measured capacity / rated capacity, if known (0: predict from age)."),
+    F("notes", "str", "", doc="Free text, copied to the plan."),
+)
