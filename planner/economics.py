@@ -1,0 +1,333 @@
+"""Life-cycle cost arithmetic: present-value factors and the present cost of a
+replacement schedule at one site.
+
+Conventions follow NIST Handbook 135 (Fuller & Petersen, 1996, *Life-Cycle Costing
+Manual for the Federal Energy Management Program*, NIST HB 135, ch. 4-5 and App. D):
+
+* constant (real) money with a real discount rate;
+* every one-time cost is discounted from the end of the year it falls in, so a cost in
+  year ``t`` (counted from the start, year 0 = today) has present value ``c * SPV(d, t)``;
+* the residual value of the pack in service at the end of the study period is its
+  purchase price prorated linearly over its life, discounted from the horizon year.
+
+All functions accept numpy arrays and broadcast; money carries no unit in the name
+(it is the study's currency).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+# Days per month of a 365-day typical year (leap day dropped, as everywhere in the planner).
+DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31], dtype=float)
+
+
+def spv(rate, years):
+    """Single present value factor.
+
+    ``SPV = 1 / (1 + d)**t``: NIST Handbook 135 (Fuller & Petersen 1996), eq. D.2.1.1.
+
+    Parameters
+    ----------
+    rate : float or array
+        Real discount rate per year, fraction (0.03 = 3 %).
+    years : float or array
+        Years from the base date to the cash flow (end-of-year convention).
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Present value of one unit of money paid ``years`` from now.
+    """
+    return np.power(1.0 + np.asarray(rate, dtype=float), -np.asarray(years, dtype=float))
+
+
+def upv(rate, years):
+    """Uniform present value factor (annuity factor, ESPWF).
+
+    ``UPV = ((1 + d)**n - 1) / (d (1 + d)**n)``: NIST Handbook 135 (Fuller & Petersen
+    1996), App. D, uniform present value. At ``d = 0`` the limit ``n`` is returned.
+
+    Parameters
+    ----------
+    rate : float or array
+        Real discount rate per year, fraction.
+    years : float or array
+        Number of equal end-of-year payments.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Present value of one unit paid at the end of each of ``years`` years.
+    """
+    d = np.asarray(rate, dtype=float)
+    n = np.asarray(years, dtype=float)
+    safe_d = np.where(d == 0.0, 1.0, d)
+    # expm1/log1p keep full precision for tiny rates, where 1 - (1+d)**-n cancels
+    factor = -np.expm1(-n * np.log1p(safe_d)) / safe_d
+    return np.where(d == 0.0, n, factor)
+
+
+def upv_escalating(rate, escalation_rate, years):
+    """Uniform present value factor for a yearly cost escalating at ``e``.
+
+    ``UPV* = (1 + e)/(d - e) * (1 - ((1 + e)/(1 + d))**n)``: NIST Handbook 135 (Fuller &
+    Petersen 1996), App. D, modified uniform present value. At ``d = e`` the limit
+    ``n (1 + e)/(1 + d)`` is returned.
+
+    Parameters
+    ----------
+    rate : float or array
+        Real discount rate per year, fraction.
+    escalation_rate : float or array
+        Real yearly escalation of the cost, fraction.
+    years : float or array
+        Number of end-of-year payments.
+    """
+    d = np.asarray(rate, dtype=float)
+    e = np.asarray(escalation_rate, dtype=float)
+    n = np.asarray(years, dtype=float)
+    same = np.isclose(d, e)
+    diff = np.where(same, 1.0, d - e)
+    factor = (1.0 + e) / diff * (1.0 - np.power((1.0 + e) / (1.0 + d), n))
+    return np.where(same, n * (1.0 + e) / (1.0 + d), factor)
+
+
+def crf(rate, years):
+    """Capital recovery factor ``CRF = 1 / UPV(d, n)``.
+
+    NIST Handbook 135 (Fuller & Petersen 1996), App. D; multiplies a present value into
+    the equivalent uniform annual cost.
+
+    Parameters
+    ----------
+    rate : float or array
+        Real discount rate per year, fraction.
+    years : float or array
+        Study period, years.
+    """
+    return 1.0 / upv(rate, years)
+
+
+def real_rate(nominal_rate, inflation_rate):
+    """Real discount rate from a nominal rate and general inflation.
+
+    ``d = (1 + D) / (1 + I) - 1``: NIST Handbook 135 (Fuller & Petersen 1996), ch. 4
+    (constant versus current money).
+
+    Parameters
+    ----------
+    nominal_rate : float or array
+        Nominal discount rate D per year, fraction.
+    inflation_rate : float or array
+        General inflation I per year, fraction.
+    """
+    return (1.0 + np.asarray(nominal_rate, dtype=float)) / (
+        1.0 + np.asarray(inflation_rate, dtype=float)
+    ) - 1.0
+
+
+def nominal_rate(real_rate_frac, inflation_rate):
+    """Nominal rate ``D = (1 + d)(1 + I) - 1``, the inverse of :func:`real_rate`."""
+    return (1.0 + np.asarray(real_rate_frac, dtype=float)) * (
+        1.0 + np.asarray(inflation_rate, dtype=float)
+    ) - 1.0
+
+
+def residual_fraction(service_years, life_years):
+    """Fraction of a pack's price still owed to it when the study ends.
+
+    Linear prorating of the initial cost over the life, the NIST Handbook 135 default
+    when no better estimate exists (Fuller & Petersen 1996, ch. 5, residual values):
+    ``max(0, life - service) / life``.
+
+    Parameters
+    ----------
+    service_years : float or array
+        Years the pack has served when the study ends.
+    life_years : float or array
+        Years the pack can carry the site.
+    """
+    life = np.asarray(life_years, dtype=float)
+    served = np.asarray(service_years, dtype=float)
+    return np.clip((life - served) / life, 0.0, 1.0)
+
+
+def expected_wait_days(access_months):
+    """Expected days from a failure to the start of the next month the site can be reached.
+
+    A failure is equally likely at any moment of the 365-day year. Failing inside an
+    accessible month costs no wait (the unplanned visit goes that month); failing in a
+    closed month waits the rest of that month plus every following closed month.
+
+    Parameters
+    ----------
+    access_months : sequence of int
+        Months 1-12 in which the site can be reached. Empty means never: ``inf``.
+
+    Returns
+    -------
+    float
+        Expected wait, days.
+    """
+    is_open = np.zeros(12, dtype=bool)
+    months = [int(m) for m in access_months]
+    if not months:
+        return float("inf")
+    is_open[np.asarray(months) - 1] = True
+    wait = 0.0
+    for m in range(12):  # 12 months, not a data loop
+        if is_open[m]:
+            continue
+        after = 0.0
+        k = (m + 1) % 12
+        while not is_open[k]:
+            after += DAYS_PER_MONTH[k]
+            k = (k + 1) % 12
+        # uniform failure time inside month m: half the month on average, then the closed run
+        wait += DAYS_PER_MONTH[m] / 365.0 * (DAYS_PER_MONTH[m] / 2.0 + after)
+    return float(wait)
+
+
+def failure_risk_cost(start_year, service_years, failure_prob_by_age, failure_cost, rate):
+    """Expected present cost of unplanned failures of a pack during its planned service.
+
+    The pack installed in ``start_year`` serves ``service_years`` whole years. Element
+    ``i`` of ``failure_prob_by_age`` is the probability that it can no longer carry the
+    site before age ``i + 1`` years (a cumulative distribution, non-decreasing; ages past
+    its end keep the last value). A failure in year ``a`` of service is paid at the end of
+    that year (NIST HB 135 end-of-year convention), so the expected cost is
+    ``sum_a (F(a) - F(a-1)) * cost * SPV(d, start + a)``.
+
+    Parameters
+    ----------
+    start_year : int
+        Year the pack goes in.
+    service_years : int
+        Whole years it is planned to serve.
+    failure_prob_by_age : sequence of float or None
+        Cumulative failure probability at ages 1, 2, ... years; None means no risk.
+    failure_cost : float
+        Cost of one unplanned failure (emergency trip plus downtime penalty).
+    rate : float
+        Real discount rate per year, fraction.
+    """
+    n = int(service_years)
+    if failure_prob_by_age is None or n <= 0 or failure_cost == 0.0:
+        return 0.0
+    probs = np.asarray(failure_prob_by_age, dtype=float)
+    if probs.size == 0:
+        return 0.0
+    ages = np.arange(1, n + 1)
+    cdf = probs[np.minimum(ages, probs.size) - 1]
+    pdf = np.diff(np.concatenate(([0.0], cdf)))
+    return float(np.sum(pdf * failure_cost * spv(rate, start_year + ages)))
+
+
+@dataclass(frozen=True)
+class CostBreakdown:
+    """Present cost of one site's plan, by kind. ``residual`` is a credit (<= 0)."""
+
+    packs: float = 0.0
+    labour: float = 0.0
+    trips: float = 0.0
+    disposal: float = 0.0
+    residual: float = 0.0
+    failure_risk: float = 0.0
+
+    @property
+    def total(self) -> float:
+        return self.packs + self.labour + self.trips + self.disposal + self.residual + self.failure_risk
+
+    def to_dict(self) -> dict:
+        return {f.name: float(getattr(self, f.name)) for f in fields(self)}
+
+    def __add__(self, other: "CostBreakdown") -> "CostBreakdown":
+        return CostBreakdown(
+            **{f.name: getattr(self, f.name) + getattr(other, f.name) for f in fields(self)}
+        )
+
+
+def schedule_present_cost(
+    replacement_years,
+    *,
+    horizon_years: int,
+    rate: float,
+    pack_cost: float,
+    life_years: float,
+    install_cost: float = 0.0,
+    disposal_cost: float = 0.0,
+    trip_cost=0.0,
+    existing_disposal_cost: float | None = None,
+    failure_prob_by_age=None,
+    failure_cost: float = 0.0,
+    existing_failure_prob_by_age=None,
+    residual_value: bool = True,
+) -> CostBreakdown:
+    """Present cost of one site's replacement schedule with one design.
+
+    Cash flows (NIST Handbook 135 conventions; Fuller & Petersen 1996):
+
+    * each replacement year ``t`` pays pack price, installation labour and the trip
+      (``trip_cost``: a scalar, or one value per replacement for a shared trip's share),
+      all times ``SPV(d, t)``;
+    * disposal of the pack taken out is paid in the year it comes out; the first
+      replacement removes the existing pack (``existing_disposal_cost``) or, when
+      ``existing_disposal_cost`` is None, is the site's initial purchase and removes
+      nothing;
+    * the last pack's residual value ``pack_cost * max(0, L - (H - t)) / L`` is credited
+      at ``SPV(d, H)``;
+    * the failure risk of each pack over its planned service (see
+      :func:`failure_risk_cost`); with an existing pack, its risk until the first
+      replacement uses ``existing_failure_prob_by_age``.
+
+    Parameters
+    ----------
+    replacement_years : sequence of int
+        Years (0 = start) at which a new pack goes in, strictly increasing, < horizon.
+    horizon_years : int
+        Study period H, years.
+    rate : float
+        Real discount rate per year, fraction.
+    pack_cost, install_cost, disposal_cost : float
+        Purchase (including the fixed part), labour and disposal per pack.
+    life_years : float
+        Years a pack of this design can carry the site (used for the residual value).
+    trip_cost : float or sequence of float
+        Trip cost charged to this site at each replacement.
+    residual_value : bool
+        Credit the residual value of the last pack (True, HB 135 practice).
+
+    Returns
+    -------
+    CostBreakdown
+    """
+    years = np.asarray(list(replacement_years), dtype=int)
+    h = int(horizon_years)
+    if years.size == 0:
+        risk = failure_risk_cost(0, h, existing_failure_prob_by_age, failure_cost, rate)
+        return CostBreakdown(failure_risk=risk)
+    factors = spv(rate, years)
+    trips = np.broadcast_to(np.asarray(trip_cost, dtype=float), years.shape)
+    removed = np.full(years.shape, float(disposal_cost))
+    removed[0] = 0.0 if existing_disposal_cost is None else float(existing_disposal_cost)
+    served = np.diff(np.concatenate((years, [h])))
+    risk = sum(
+        failure_risk_cost(int(t), int(n), failure_prob_by_age, failure_cost, rate)
+        for t, n in zip(years, served)
+    )
+    if existing_disposal_cost is not None:
+        risk += failure_risk_cost(0, int(years[0]), existing_failure_prob_by_age, failure_cost, rate)
+    residual = 0.0
+    if residual_value:
+        residual = -pack_cost * float(residual_fraction(served[-1], life_years)) * float(spv(rate, h))
+    return CostBreakdown(
+        packs=float(pack_cost * factors.sum()),
+        labour=float(install_cost * factors.sum()),
+        trips=float(np.sum(trips * factors)),
+        disposal=float(np.sum(removed * factors)),
+        residual=residual,
+        failure_risk=float(risk),
+    )
