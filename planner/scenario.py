@@ -72,7 +72,7 @@ class Study:
     @property
     def discount_rate_frac(self) -> float:
         s = self.settings["study"]
-        if s["nominal_rate_frac"] >= 0:
+        if s["nominal_rate_frac"] is not None:
             return (1 + s["nominal_rate_frac"]) / (1 + s["inflation_frac"]) - 1
         return s["discount_rate_frac"]
 
@@ -80,11 +80,11 @@ class Study:
         """Region settings with the study-wide cost defaults filled in."""
         costs = self.settings["costs"]
         given = self.regions.get(name, {})
-        trip = given.get("trip_cost", -1.0)
-        visit = given.get("site_visit_cost", -1.0)
+        trip = given.get("trip_cost")
+        visit = given.get("site_visit_cost")
         return {
-            "trip_cost": costs["trip_cost"] if trip < 0 else trip,
-            "site_visit_cost": costs["site_visit_cost"] if visit < 0 else visit,
+            "trip_cost": costs["trip_cost"] if trip is None else trip,
+            "site_visit_cost": costs["site_visit_cost"] if visit is None else visit,
             "access_months": tuple(given.get("access_months", ALL_MONTHS)),
         }
 

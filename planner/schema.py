@@ -69,8 +69,8 @@ STUDY = (
       doc="Real discount rate (NIST Handbook 135 convention: constant money, real rate)."),
     F("inflation_frac", "float", 0.0, "1/year", -0.1, 0.5,
       doc="Used only with nominal_rate_frac: real = (1 + nominal)/(1 + inflation) - 1."),
-    F("nominal_rate_frac", "float", -1.0, "1/year", -1.0, 0.5,
-      doc="Optional nominal discount rate; when given (>= 0) it replaces discount_rate_frac."),
+    F("nominal_rate_frac", "float", None, "1/year", 0.0, 0.5,
+      doc="Optional nominal discount rate; when given it replaces discount_rate_frac."),
     F("currency", "str", "EUR", doc="Currency label written beside every amount."),
     F("start_year", "int", 2027, "calendar year", 1990, 2100,
       doc="Calendar year of the plan's year 0; ages of installed packs count to it."),
@@ -101,8 +101,8 @@ COSTS = (
     F("labour_rate_per_h", "float", 85.0, "currency/h", 0.0),
     F("disposal_per_kg", "float", 1.5, "currency/kg", 0.0,
       doc="Disposal or recycling of a removed pack."),
-    F("unplanned_trip_cost", "float", -1.0, "currency/trip", -1.0,
-      doc="Cost of an emergency trip after a failure; -1 means 1.5 x trip_cost."),
+    F("unplanned_trip_cost", "float", None, "currency/trip", 0.0,
+      doc="Cost of an emergency trip after a failure; default 1.5 x the region's trip cost."),
     F("downtime_cost_per_day", "float", 200.0, "currency/day", 0.0,
       doc="Penalty for each day a site is off air."),
     F("illustrative", "bool", True,
@@ -110,15 +110,15 @@ COSTS = (
 )
 
 PRICE = (
-    F("price_per_kwh", "float", -1.0, "currency/kWh", -1.0,
-      doc="Pack price per nominal kWh; -1 takes the chemistry library's illustrative price."),
+    F("price_per_kwh", "float", None, "currency/kWh", 0.0,
+      doc="Pack price per nominal kWh; default the chemistry library's illustrative price."),
     F("fixed_price", "float", 0.0, "currency/pack", 0.0,
       doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
 )
 
 REGION = (
-    F("trip_cost", "float", -1.0, "currency/trip", -1.0, doc="-1 takes [costs].trip_cost."),
-    F("site_visit_cost", "float", -1.0, "currency/site", -1.0, doc="-1 takes [costs].site_visit_cost."),
+    F("trip_cost", "float", None, "currency/trip", 0.0, doc="Default [costs].trip_cost."),
+    F("site_visit_cost", "float", None, "currency/site", 0.0, doc="Default [costs].site_visit_cost."),
     F("access_months", "months", tuple(range(1, 13)), "month numbers",
       doc="Months when crews can reach the region's sites."),
 )
@@ -169,18 +169,18 @@ SITE_COLUMNS = (
     F("burst_every_min", "float", 0.0, "min", 0.0, 1440.0, doc="Time between burst starts; 0 = no bursts."),
     F("charging", "str", "pv", choices=("pv", "mains", "none"), doc="Charging source."),
     F("pv_wp", "float", 0.0, "Wp", 0.0, 20000.0, doc="PV array size (with charging = pv)."),
-    F("pv_tilt_deg", "float", -1.0, "deg", -1.0, 90.0, doc="-1: tilt = |latitude| + 15 (winter bias)."),
-    F("pv_azimuth_deg", "float", -1.0, "deg", -1.0, 360.0, doc="-1: facing the equator."),
+    F("pv_tilt_deg", "float", None, "deg", 0.0, 90.0, doc="Blank: |latitude| + 15, capped at 90 (favours winter)."),
+    F("pv_azimuth_deg", "float", None, "deg", 0.0, 360.0, doc="Blank: facing the equator (180 north of it, 0 south)."),
     F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
     F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
     F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,
       doc="Days the pack must carry the load with no charging."),
     F("system_voltage_v", "float", 12.0, "V", 1.0, 60.0, doc="Nominal DC bus voltage."),
     F("access_months", "months", (), "month numbers", doc="Months the site can be reached; blank = its region's."),
-    F("heater_setpoint_c", "float", -100.0, "°C", -100.0, 40.0,
-      doc="Battery heater thermostat; -100 or blank = no heater."),
-    F("electronics_heat_w", "float", -1.0, "W", -1.0, 5000.0,
-      doc="Heat released in the enclosure by electronics; -1 = the load's mean power."),
+    F("heater_setpoint_c", "float", None, "°C", -40.0, 40.0,
+      doc="Battery heater thermostat; blank = no heater."),
+    F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
+      doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
     F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),
     F("existing_chemistry", "str", "", doc="Chemistry of the pack installed today (blank: new pack at start)."),
     F("existing_capacity_wh", "float", 0.0, "Wh", 0.0, 1e7),
@@ -189,3 +189,52 @@ SITE_COLUMNS = (
       doc="Measured capacity / rated capacity, if known (0: predict from age)."),
     F("notes", "str", "", doc="Free text, copied to the plan."),
 )
+
+
+def reference_markdown() -> str:
+    """The study-file reference (``docs/study-file.md``), generated from the tables above."""
+
+    def rows(specs):
+        out = ["| key | unit | default | allowed | meaning |", "|---|---|---|---|---|"]
+        for spec in specs:
+            default = "required" if spec.required else _shown_default(spec.default)
+            out.append(f"| `{spec.name}` | {spec.unit or ''} | {default} | {spec.expectation()} "
+                       f"| {spec.doc} |")
+        return out
+
+    lines = [
+        "# Study file reference",
+        "",
+        "Generated from `planner/schema.py` (a test keeps the two equal). A study is a TOML file",
+        "with the sections below, plus a sites table (CSV or XLSX) named by `[study].sites_file`.",
+        "Unknown keys, sections and columns are errors (the closest valid name is suggested).",
+        "Money is in `[study].currency`, in constant (real) terms.",
+        "",
+    ]
+    for section, specs in SECTIONS.items():
+        lines += [f"## [{section}]", "", *rows(specs), ""]
+    lines += ["## [prices.<chemistry>]", "",
+              "Optional, one table per chemistry id (`vrla`, `lfp`, `nmc`, `lto`, `lisocl2`).", "",
+              *rows(NAMED_SECTIONS["prices"]), ""]
+    lines += ["## [regions.<region>]", "",
+              "Optional, one table per region named in the sites table.", "",
+              *rows(NAMED_SECTIONS["regions"]), ""]
+    lines += ["## [climates.<name>]", "",
+              "Optional: a user climate file and how to read it (`file` plus the reading options",
+              "in `docs/climate.md`); sites then name it in their `climate` column.", ""]
+    lines += ["## Sites table columns", "",
+              "One row per site. Months are written `6-9`, `11-3` (wrapping), `5;6;7` or `all`.", "",
+              *rows(SITE_COLUMNS), ""]
+    lines += ["## Complete example", "", "`scenarios/corvale.toml` with `scenarios/corvale_sites.csv`;",
+              "`planner new DIR` writes a commented starter with every key.", ""]
+    return "\n".join(lines)
+
+
+def _shown_default(value) -> str:
+    if isinstance(value, tuple):
+        return "[" + ", ".join(str(v) for v in value) + "]" if value else "(blank)"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if value == "" or value is None:
+        return "(blank)"
+    return f"{value:g}" if isinstance(value, float) else str(value)

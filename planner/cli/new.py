@@ -83,6 +83,9 @@ def starter_study_toml() -> str:
         out.append(f"[{section}]")
         for spec in specs:
             value = "sites.csv" if spec.name == "sites_file" else spec.default
+            if value is None:
+                out.append(f"# {spec.name} =" + _comment(spec))
+                continue
             line = f"{spec.name} = {_toml_value(spec, value)}"
             if spec.name == "name" and section == "study":
                 line = 'name = "Starter network"'
@@ -90,8 +93,8 @@ def starter_study_toml() -> str:
         out.append("")
     out.append("# Per-chemistry prices (optional): [prices.<chemistry id>]")
     out.append("[prices.lfp]")
-    for spec in NAMED_SECTIONS["prices"]:
-        out.append(f"{spec.name} = {_toml_value(spec, spec.default)}" + _comment(spec))
+    out.append("price_per_kwh = 450.0" + _comment(NAMED_SECTIONS["prices"][0]))
+    out.append("fixed_price = 60.0" + _comment(NAMED_SECTIONS["prices"][1]))
     out.append("")
     out.append("# Per-region trip costs and access months (optional): [regions.<region>]")
     for region, values in EXAMPLE_REGIONS.items():

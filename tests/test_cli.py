@@ -1,0 +1,62 @@
+"""Command-line behaviour: help, version, exit codes, starter study (issue: foundation)."""
+
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from planner import __version__
+from planner.cli import cli
+from planner.scenario import load_study
+
+REPO = Path(__file__).resolve().parents[1]
+
+
+@pytest.fixture
+def runner():
+    return CliRunner()
+
+
+def test_version(runner):
+    result = runner.invoke(cli, ["--version"])
+    assert result.exit_code == 0 and __version__ in result.output
+
+
+@pytest.mark.parametrize("command", [[], ["plan"], ["new"], ["climate"], ["life"]])
+def test_every_command_has_help_with_an_example(runner, command):
+    result = runner.invoke(cli, [*command, "--help"])
+    assert result.exit_code == 0, result.output
+    assert "Example" in result.output
+
+
+def test_unknown_command_is_a_usage_error(runner):
+    result = runner.invoke(cli, ["planify"])
+    assert result.exit_code == 2
+
+
+def test_bad_study_exits_2_with_one_line_and_no_traceback(runner, tmp_path):
+    study = tmp_path / "s.toml"
+    study.write_text('[study]\nsites_file = "x.csv"\nhorizon_yaers = 3\n')
+    result = runner.invoke(cli, ["plan", str(study)])
+    assert result.exit_code == 2
+    assert "s.toml: unknown key [study].horizon_yaers; did you mean 'horizon_years'?" in result.output
+    assert "Traceback" not in result.output
+
+
+def test_debug_flag_shows_traceback(runner, tmp_path):
+    study = tmp_path / "s.toml"
+    study.write_text("[study\n")
+    result = runner.invoke(cli, ["--debug", "plan", str(study)])
+    assert result.exit_code == 2
+    assert "Traceback" in result.output
+
+
+def test_new_writes_a_starter_that_validates(runner, tmp_path):
+    target = tmp_path / "net"
+    result = runner.invoke(cli, ["new", str(target)])
+    assert result.exit_code == 0, result.output
+    study = load_study(target / "study.toml")
+    assert len(study.sites) == 2
+    # A second run must not overwrite the planner's files.
+    again = runner.invoke(cli, ["new", str(target)])
+    assert again.exit_code == 2 and "already exists" in again.output
