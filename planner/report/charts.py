@@ -1,0 +1,100 @@
+"""Native chart builders (openpyxl ``chart``), never pictures of charts.
+
+openpyxl 3.1 hides chart axes unless ``delete`` is set to False, so every builder sets it.
+"""
+
+from __future__ import annotations
+
+from openpyxl.chart import BarChart, LineChart, Reference, ScatterChart, Series
+from openpyxl.chart.series import SeriesLabel
+
+from planner.report.cells import neutralise_text
+from planner.report.styles import SERIES_COLOURS
+
+CHART_WIDTH_CM = 16.0
+CHART_HEIGHT_CM = 7.5
+
+
+def _show_axes(chart) -> None:
+    chart.x_axis.delete = False
+    chart.y_axis.delete = False
+
+
+def _colour(series, index: int, *, dashed: bool = False) -> None:
+    colour = SERIES_COLOURS[index % len(SERIES_COLOURS)]
+    series.graphicalProperties.line.solidFill = colour
+    series.graphicalProperties.line.width = 19050  # 1.5 pt in EMU; thin enough for many series
+    if dashed:
+        series.graphicalProperties.line.dashStyle = "dash"
+
+
+def bar_chart(ws, *, title: str, categories: Reference, values: Reference, y_title: str,
+              y_format: str, anchor: str) -> BarChart:
+    """Column chart of one series (e.g. fleet present cost per chemistry)."""
+    chart = BarChart()
+    chart.type = "col"
+    chart.title = neutralise_text(title)
+    chart.legend = None
+    chart.add_data(values, titles_from_data=False)
+    chart.set_categories(categories)
+    chart.y_axis.title = y_title
+    chart.y_axis.numFmt = y_format
+    chart.y_axis.majorGridlines = None
+    chart.series[0].graphicalProperties.solidFill = SERIES_COLOURS[0]
+    chart.series[0].graphicalProperties.line.solidFill = SERIES_COLOURS[0]
+    chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM
+    _show_axes(chart)
+    ws.add_chart(chart, anchor)
+    return chart
+
+
+def soh_chart(ws, *, title: str, x_values: Reference, series: list[tuple[str, Reference, bool]],
+              anchor: str, y_min: float = 0.0) -> ScatterChart:
+    """State of health over the horizon: straight-line scatter so the x axis is in years.
+
+    ``series`` holds (label, y reference, dashed) per line; monthly points draw the
+    replacement saw-tooth as a near-vertical rise.
+    """
+    chart = ScatterChart()
+    chart.title = neutralise_text(title)
+    chart.style = 2
+    for index, (label, y_ref, dashed) in enumerate(series):
+        s = Series(y_ref, x_values)
+        s.tx = SeriesLabel(v=neutralise_text(label))
+        s.marker.symbol = "none"
+        s.smooth = False
+        _colour(s, index, dashed=dashed)
+        chart.series.append(s)
+    chart.x_axis.title = "Years from start"
+    chart.x_axis.scaling.min = 0
+    chart.y_axis.title = "State of health"
+    chart.y_axis.numFmt = "0%"
+    chart.y_axis.scaling.min = y_min
+    chart.y_axis.scaling.max = 1.05
+    chart.legend.position = "b"
+    chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM
+    _show_axes(chart)
+    ws.add_chart(chart, anchor)
+    return chart
+
+
+def monthly_temperature_chart(ws, *, title: str, categories: Reference,
+                              series: list[tuple[str, Reference]], anchor: str) -> LineChart:
+    """Monthly mean air and battery temperature of one site (one line each)."""
+    chart = LineChart()
+    chart.title = neutralise_text(title)
+    for index, (label, ref) in enumerate(series):
+        s = Series(ref)
+        s.tx = SeriesLabel(v=neutralise_text(label))
+        s.marker.symbol = "none"
+        s.smooth = False
+        _colour(s, index)
+        chart.series.append(s)
+    chart.set_categories(categories)
+    chart.y_axis.title = "Temperature [°C]"
+    chart.y_axis.numFmt = "0"
+    chart.legend.position = "b"
+    chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM
+    _show_axes(chart)
+    ws.add_chart(chart, anchor)
+    return chart
