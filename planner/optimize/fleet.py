@@ -1,0 +1,432 @@
+"""The fleet replacement and visit model: one path per site, trips shared per region.
+
+Decision variables (per trip group g = region x access month, year t = 0..H-1):
+
+* ``f[a]`` flow on arc a of a site's time graph (:mod:`planner.optimize.schedule`);
+* ``y[g, t]`` number of trips of group g in year t (binary unless a payload limit can
+  need several).
+
+Constraints: one unit of flow per site through its graph (flow conservation per design
+node, so a site keeps one design); a pack goes in only on a trip of its group
+(``sum_{a out of t} f[a] <= y[g, t]``, one row per site and year, the strong
+disaggregated form); optional payload per trip, fleet-wide site-visits per year and
+annual budget. Objective: present cost of every arc plus discounted trip mobilisation.
+This is the opportunistic replacement problem (Patriksson, Strömberg & Wojciechowski
+2015, Annals of OR 224:25-50) with per-site design choice, written in path form.
+
+Decomposition: trip groups share nothing but the fleet-wide limits, so each group is
+solved as its own model. Without side constraints a site's flow is integral once the
+trips are fixed (network matrix), so only ``y`` is declared integer. When the combined
+plan breaks a fleet-wide limit, the groups are re-solved as one joint model with
+integer flows (the sum of group optima stays a valid lower bound).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner import economics as ec
+from planner.errors import InputError
+from planner.optimize.candidates import screen_site, whole_years
+from planner.optimize.problem import (
+    FleetProblem, FleetSolution, SiteOptions, SitePlan, Trip, Unserved,
+)
+from planner.optimize.schedule import COST_PARTS, SiteGraphs, build_graphs, trace_paths
+from planner.optimize.solver import gap, pick_solver, solve_milp
+
+_TOL = 1e-6
+
+
+@dataclass
+class _Group:
+    region: str
+    month: int
+    trip_cost: float
+    graphs: SiteGraphs
+
+
+def _validate(problem: FleetProblem) -> None:
+    src = "fleet problem"
+    if int(problem.horizon_years) < 1:
+        raise InputError(f"horizon_years is {problem.horizon_years}, expected a whole number >= 1", source=src)
+    if not problem.discount_rate_frac > -1.0:
+        raise InputError(f"discount_rate_frac is {problem.discount_rate_frac}, expected > -1", source=src)
+    for s in problem.sites:
+        if s.region not in problem.trip_cost_by_region:
+            raise InputError(f"site {s.site_id}: region {s.region!r} has no trip cost in trip_cost_by_region "
+                             f"(known: {', '.join(sorted(problem.trip_cost_by_region)) or 'none'})", source=src)
+        bad = [m for m in s.access_months if not 1 <= int(m) <= 12]
+        if bad:
+            raise InputError(f"site {s.site_id}: access month {bad[0]} is outside 1-12", source=src)
+    ids = [s.site_id for s in problem.sites]
+    if len(set(ids)) != len(ids):
+        dup = sorted({i for i in ids if ids.count(i) > 1})[0]
+        raise InputError(f"site id {dup!r} appears more than once", source=src)
+
+
+def _keeps_to_horizon(site: SiteOptions, h: int) -> bool:
+    return site.existing is not None and site.existing.remaining_life_years >= h - 1e-9
+
+
+def _trip_groups(sites: list[SiteOptions]) -> list[tuple[str, int, list[int]]]:
+    """Split each region's sites into trip groups that can travel in one month.
+
+    Greedy: the month open to most of the region's remaining sites (earliest on ties)
+    forms a group; repeat. Sites that need no visit sit in a group of month 0.
+    """
+    out = []
+    regions = sorted({s.region for s in sites})
+    for region in regions:
+        idx = [i for i, s in enumerate(sites) if s.region == region]
+        no_visit = [i for i in idx if not sites[i].access_months]
+        left = [i for i in idx if sites[i].access_months]
+        while left:
+            counts = np.zeros(13, dtype=int)
+            for i in left:
+                counts[sorted(set(int(m) for m in sites[i].access_months))] += 1
+            month = int(np.argmax(counts))
+            members = [i for i in left if month in sites[i].access_months]
+            out.append((region, month, members))
+            left = [i for i in left if month not in sites[i].access_months]
+        if no_visit:
+            out.append((region, 0, no_visit))
+    return out
+
+
+def _group_matrix(g: _Group, rate: float, payload: float | None, integer_flows: bool):
+    """Columns [arcs | existing arcs | y(t)] and rows of one trip group (local indices)."""
+    gr = g.graphs
+    h = gr.horizon_years
+    n_arc, n_ex = gr.arc_pair.size, gr.ex_site.size
+    y0 = n_arc + n_ex
+    n_col = y0 + h
+    has_ex = np.array([s.existing is not None for s in gr.sites], dtype=bool)
+    a_site = gr.arc_site
+    rows, cols, vals, lo, hi = [], [], [], [], []
+    n_row = 0
+
+    def add(r, c, v):
+        rows.append(np.asarray(r, dtype=np.int64))
+        cols.append(np.asarray(c, dtype=np.int64))
+        vals.append(np.asarray(v, dtype=float))
+
+    # one unit of flow leaves each site's start
+    first = (gr.arc_t1 == 0) & ~has_ex[a_site]
+    add(n_row + a_site[first], np.nonzero(first)[0], np.ones(first.sum()))
+    add(n_row + gr.ex_site, n_arc + np.arange(n_ex), np.ones(n_ex))
+    n_sites = len(gr.sites)
+    lo += [1.0] * n_sites
+    hi += [1.0] * n_sites
+    n_row += n_sites
+
+    # flow conservation at (design, year) nodes
+    into = gr.arc_t2 < h
+    out_ok = ~first
+    ex_into = gr.ex_pair >= 0
+    keys = np.concatenate([gr.arc_pair[into] * h + gr.arc_t2[into],
+                           gr.arc_pair[out_ok] * h + gr.arc_t1[out_ok],
+                           gr.ex_pair[ex_into] * h + gr.ex_t[ex_into]])
+    uniq, inv = np.unique(keys, return_inverse=True)
+    ccols = np.concatenate([np.nonzero(into)[0], np.nonzero(out_ok)[0], n_arc + np.nonzero(ex_into)[0]])
+    cvals = np.concatenate([np.ones(into.sum()), -np.ones(out_ok.sum()), np.ones(ex_into.sum())])
+    add(n_row + inv, ccols, cvals)
+    lo += [0.0] * uniq.size
+    hi += [0.0] * uniq.size
+    n_row += uniq.size
+
+    # a pack goes in only on a trip: per (site, year)
+    vkey = a_site * h + gr.arc_t1
+    vuniq, vinv = np.unique(vkey, return_inverse=True)
+    add(n_row + vinv, np.arange(n_arc), np.ones(n_arc))
+    add(n_row + np.arange(vuniq.size), y0 + vuniq % h, -np.ones(vuniq.size))
+    lo += [-math.inf] * vuniq.size
+    hi += [0.0] * vuniq.size
+    n_row += vuniq.size
+
+    if payload is not None:
+        add(n_row + gr.arc_t1, np.arange(n_arc), gr.arc_mass_kg)
+        add(n_row + np.arange(h), y0 + np.arange(h), -float(payload) * np.ones(h))
+        lo += [-math.inf] * h
+        hi += [0.0] * h
+        n_row += h
+
+    c = np.concatenate([gr.arc_cost, gr.ex_cost, g.trip_cost * ec.spv(rate, np.arange(h))])
+    y_ub = 0.0 if g.month == 0 else (1.0 if payload is None else float(max(1, n_sites)))
+    col_ub = np.concatenate([np.ones(n_arc + n_ex), np.full(h, y_ub)])
+    integer = np.concatenate([np.full(n_arc + n_ex, integer_flows), np.ones(h, dtype=bool)])
+    return dict(c=c, rows=np.concatenate(rows), cols=np.concatenate(cols), vals=np.concatenate(vals),
+                lo=np.array(lo), hi=np.array(hi), col_ub=col_ub, integer=integer, n_col=n_col, n_row=n_row)
+
+
+def _stack(mats, fleet_rows):
+    """Block-diagonal join of group matrices plus fleet-wide rows."""
+    col_off = np.cumsum([0] + [m["n_col"] for m in mats])
+    row_off = np.cumsum([0] + [m["n_row"] for m in mats])
+    rows = [m["rows"] + row_off[i] for i, m in enumerate(mats)]
+    cols = [m["cols"] + col_off[i] for i, m in enumerate(mats)]
+    vals = [m["vals"] for m in mats]
+    lo = [m["lo"] for m in mats]
+    hi = [m["hi"] for m in mats]
+    base = row_off[-1]
+    for k, (r, cidx, v, rlo, rhi) in enumerate(fleet_rows(col_off)):
+        rows.append(base + np.asarray(r))
+        cols.append(np.asarray(cidx))
+        vals.append(np.asarray(v, dtype=float))
+        lo.append(rlo)
+        hi.append(rhi)
+        base += len(rlo)
+    return dict(c=np.concatenate([m["c"] for m in mats]), rows=np.concatenate(rows),
+                cols=np.concatenate(cols), vals=np.concatenate(vals), lo=np.concatenate(lo),
+                hi=np.concatenate(hi), col_ub=np.concatenate([m["col_ub"] for m in mats]),
+                integer=np.concatenate([m["integer"] for m in mats]), col_off=col_off)
+
+
+def _fleet_rows(groups, h, crew, budget):
+    """Fleet-wide rows (site visits per year, spending per year) for stacked groups."""
+    def rows(col_off):
+        out = []
+        if crew is not None:
+            r, c, v = [], [], []
+            for gi, g in enumerate(groups):
+                gr = g.graphs
+                r.append(gr.arc_t1)
+                c.append(col_off[gi] + np.arange(gr.arc_t1.size))
+                v.append(np.ones(gr.arc_t1.size))
+            out.append((np.concatenate(r), np.concatenate(c), np.concatenate(v),
+                        np.full(h, -math.inf), np.full(h, float(crew))))
+        if budget is not None:
+            r, c, v = [], [], []
+            for gi, g in enumerate(groups):
+                gr = g.graphs
+                n_arc, n_ex = gr.arc_t1.size, gr.ex_site.size
+                arcs = np.arange(n_arc)
+                inner = gr.arc_t2 < h
+                exs = gr.ex_t < h
+                y0 = col_off[gi] + n_arc + n_ex
+                r += [gr.arc_t1, gr.arc_t2[inner], gr.ex_t[exs], np.arange(h)]
+                c += [col_off[gi] + arcs, col_off[gi] + arcs[inner], col_off[gi] + n_arc + np.nonzero(exs)[0],
+                      y0 + np.arange(h)]
+                v += [gr.arc_spend_t1, gr.arc_spend_t2[inner], gr.ex_spend[exs], np.full(h, g.trip_cost)]
+            out.append((np.concatenate(r), np.concatenate(c), np.concatenate(v),
+                        np.full(h, -math.inf), np.full(h, float(budget))))
+        return out
+    return rows
+
+
+def _decode(groups, x, col_off, rate):
+    """Site plans and trips from a solution vector of stacked groups."""
+    plans, trips = [], []
+    for gi, g in enumerate(groups):
+        gr = g.graphs
+        h = gr.horizon_years
+        n_arc, n_ex = gr.arc_pair.size, gr.ex_site.size
+        xv = x[col_off[gi]:col_off[gi + 1]]
+        arc_on = xv[:n_arc] > 0.5
+        ex_on = xv[n_arc:n_arc + n_ex] > 0.5
+        y = np.rint(xv[n_arc + n_ex:]).astype(int)
+        paths = trace_paths(gr, arc_on, ex_on)
+        visitors = {}
+        for i, (pair, years, arcs, e) in enumerate(paths):
+            for t in years:
+                visitors.setdefault(t, []).append(i)
+        share = {}
+        for t, members in sorted(visitors.items()):
+            count = max(1, int(y[t]))
+            mass = float(sum(gr.pair_cand[paths[i][0]].mass_kg for i in members))
+            cost = g.trip_cost * count
+            trips.append(Trip(region=g.region, year=int(t), month=int(g.month),
+                              site_ids=tuple(gr.sites[i].site_id for i in members), pack_count=len(members),
+                              pack_mass_kg=mass, count=count, cost=float(cost)))
+            share[t] = cost * float(ec.spv(rate, t)) / len(members)
+        for i, (pair, years, arcs, e) in enumerate(paths):
+            parts = {k: 0.0 for k in COST_PARTS}
+            for k in COST_PARTS:
+                parts[k] += float(sum(gr.arc_parts[k][a] for a in arcs))
+                if e is not None:
+                    parts[k] += float(gr.ex_parts[k][e])
+            parts["trips"] += float(sum(share[t] for t in years))
+            site = gr.sites[i]
+            plans.append(SitePlan(site_id=site.site_id, region=site.region,
+                                  candidate=gr.pair_cand[pair] if pair >= 0 else None,
+                                  replacement_years=tuple(years),
+                                  replacement_months=tuple(int(g.month) for _ in years),
+                                  cost=ec.CostBreakdown(**parts)))
+    return plans, trips
+
+
+def _is_integral(x, mat) -> bool:
+    return bool(np.all(np.abs(x - np.rint(x)) < _TOL))
+
+
+def _solve_stack(groups, problem, fleet_limits: bool, time_limit_s: float, integer_flows: bool):
+    h = int(problem.horizon_years)
+    mats = [_group_matrix(g, problem.discount_rate_frac, problem.payload_kg_per_trip, integer_flows)
+            for g in groups]
+    crew = problem.crew_site_visits_per_year if fleet_limits else None
+    budget = problem.annual_budget if fleet_limits else None
+    m = _stack(mats, _fleet_rows(groups, h, crew, budget))
+    rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
+                     solver=problem.solver, time_limit_s=time_limit_s, gap_rel_frac=problem.gap_rel_frac)
+    if rep.values is not None and not integer_flows and not _is_integral(rep.values, m):
+        # a non-basic optimum of the network part: re-solve with integral flows
+        m["integer"][:] = True
+        rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
+                         solver=problem.solver, time_limit_s=time_limit_s, gap_rel_frac=problem.gap_rel_frac)
+    return rep, m
+
+
+def _limits_broken(problem, plans, trips) -> list[str]:
+    h = int(problem.horizon_years)
+    broken = []
+    if problem.crew_site_visits_per_year is not None:
+        visits = np.zeros(h, dtype=int)
+        for p in plans:
+            for t in p.replacement_years:
+                visits[t] += 1
+        years = np.nonzero(visits > problem.crew_site_visits_per_year)[0]
+        if years.size:
+            broken.append(f"crew limit of {problem.crew_site_visits_per_year} site visits per year "
+                          f"(years {', '.join(map(str, years))})")
+    if problem.annual_budget is not None:
+        spend = _annual_spend(problem, plans, trips)
+        years = np.nonzero(spend > problem.annual_budget + 1e-6)[0]
+        if years.size:
+            broken.append(f"annual budget of {problem.annual_budget:g} (years {', '.join(map(str, years))})")
+    return broken
+
+
+def _annual_spend(problem, plans, trips) -> np.ndarray:
+    """Undiscounted money spent per year by a plan (packs, labour, visits, disposal, trips)."""
+    h = int(problem.horizon_years)
+    spend = np.zeros(h)
+    sites = {s.site_id: s for s in problem.sites}
+    for p in plans:
+        c = p.candidate
+        s = sites[p.site_id]
+        for j, t in enumerate(p.replacement_years):
+            spend[t] += c.pack_cost + c.install_cost + s.site_visit_cost
+            if j > 0:
+                spend[t] += c.disposal_cost
+            elif s.existing is not None:
+                spend[t] += s.existing.disposal_cost
+    for tr in trips:
+        spend[tr.year] += tr.cost
+    return spend
+
+
+def solve_fleet(problem: FleetProblem) -> FleetSolution:
+    """Lowest present-cost design and replacement schedule for every site, and the trips.
+
+    Returns a :class:`FleetSolution`; an infeasible study is an answer (status
+    "infeasible" with the unserved sites and binding limits), not an exception.
+    Raises :class:`planner.errors.InputError` for malformed problems.
+    """
+    t0 = time.perf_counter()
+    _validate(problem)
+    h = int(problem.horizon_years)
+    rate = float(problem.discount_rate_frac)
+    solver_name = pick_solver(problem.solver)
+
+    unserved: list[Unserved] = []
+    served: list[SiteOptions] = []
+    cands = {}
+    for s in problem.sites:
+        keep = _keeps_to_horizon(s, h)
+        usable, reason, limit = screen_site(s, problem.payload_kg_per_trip)
+        if not s.access_months and not keep:
+            unserved.append(Unserved(s.site_id, f"site {s.site_id}: no access month in which a crew can reach it",
+                                     "access"))
+            continue
+        if not s.access_months:
+            usable = []
+        if not usable and not keep:
+            unserved.append(Unserved(s.site_id, reason, limit))
+            continue
+        served.append(s)
+        cands[s.site_id] = usable
+
+    groups = []
+    for region, month, members in _trip_groups(served):
+        sites = [served[i] for i in members]
+        graphs = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
+                              residual_value=problem.residual_value)
+        groups.append(_Group(region, month, float(problem.trip_cost_by_region[region]), graphs))
+
+    status = "optimal"
+    objective = bound = 0.0
+    plans, trips = [], []
+    deadline = t0 + float(problem.time_limit_s)
+    integer_flows = problem.payload_kg_per_trip is not None
+    for g in groups:
+        rep, m = _solve_stack([g], problem, False, max(1.0, deadline - time.perf_counter()), integer_flows)
+        if rep.values is None:
+            status = "infeasible" if rep.status == "infeasible" else "feasible"
+            bound = float("nan")
+            continue
+        if rep.status == "feasible":
+            status = "feasible" if status == "optimal" else status
+        p, tr = _decode([g], rep.values, m["col_off"], rate)
+        plans += p
+        trips += tr
+        bound += rep.best_bound
+    n_groups = len(groups)
+    decomposition = (f"by trip group: {n_groups} independent model(s) (region x access month); "
+                     f"only trip years integer, site paths integral by network structure"
+                     if not integer_flows else
+                     f"by trip group: {n_groups} independent model(s) (region x access month) with payload rows")
+    binding = []
+    fleet = problem.crew_site_visits_per_year is not None or problem.annual_budget is not None
+    if fleet:
+        broken = _limits_broken(problem, plans, trips)
+        if not broken:
+            decomposition += "; fleet-wide limits checked: not binding"
+        else:
+            relaxed_bound = bound
+            rep, m = _solve_stack(groups, problem, True, max(1.0, deadline - time.perf_counter()), True)
+            decomposition = (f"joint model over {n_groups} trip group(s): the decomposed plan breaks the "
+                             f"{' and the '.join(broken)}; bound = max(joint bound, sum of group optima)")
+            if rep.values is None:
+                plans, trips = [], []
+                status = "infeasible" if rep.status == "infeasible" else "feasible"
+                binding = _diagnose(problem, groups) if rep.status == "infeasible" else broken
+                if rep.status != "infeasible":
+                    decomposition += "; no plan found within the time limit"
+                objective = bound = float("nan")
+            else:
+                plans, trips = _decode(groups, rep.values, m["col_off"], rate)
+                bound = max(rep.best_bound, relaxed_bound)
+                status = rep.status if status == "optimal" else status
+    if plans or not fleet or status != "infeasible":
+        objective = float(sum(p.present_cost for p in plans))
+        bound = min(bound, objective) if math.isfinite(bound) else bound
+    if unserved:
+        status = "infeasible"
+    trips.sort(key=lambda t: (t.year, t.region, t.month))
+    order = {s.site_id: i for i, s in enumerate(problem.sites)}
+    plans.sort(key=lambda p: order[p.site_id])
+    return FleetSolution(status=status, objective=objective, best_bound=bound,
+                         gap_frac=gap(objective, bound) if plans else 0.0 if not unserved else float("nan"),
+                         solver_name=solver_name, seconds=time.perf_counter() - t0,
+                         decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
+                         binding_limits=binding)
+
+
+def _diagnose(problem: FleetProblem, groups) -> list[str]:
+    """Which fleet-wide limit makes the study infeasible: drop each in turn and re-solve."""
+    from dataclasses import replace
+    out = []
+    limits = [("crew_site_visits_per_year", f"crew limit of {problem.crew_site_visits_per_year} site visits per year"),
+              ("annual_budget", f"annual budget of {problem.annual_budget}")]
+    active = [(k, text) for k, text in limits if getattr(problem, k) is not None]
+    for key, text in active:
+        relaxed = replace(problem, **{key: None}, time_limit_s=min(10.0, problem.time_limit_s))
+        rep, _ = _solve_stack(groups, relaxed, True, relaxed.time_limit_s, True)
+        if rep.status != "infeasible":
+            out.append(f"{text} cannot be met; without it a plan exists")
+    if not out:
+        out.append(" and ".join(text for _, text in active) + " together cannot be met")
+    return out
