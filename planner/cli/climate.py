@@ -1,0 +1,142 @@
+"""``planner climate``: look at a site's typical year and its battery temperature."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from planner.errors import InputError
+
+
+def _enclosure_choices():
+    # The ids are fixed by the thermal model; listed here so --help shows them
+    # without importing pvlib.
+    return ("cabinet-sun", "cabinet-shade", "vault", "shelter")
+
+
+@click.command("climate", context_settings={"help_option_names": ["-h", "--help"]})
+@click.argument("source", required=False)
+@click.option("--enclosure", "enclosure", default="cabinet-sun", show_default=True,
+              type=click.Choice(_enclosure_choices()), help="Enclosure kind around the battery.")
+@click.option("--warming-k", "warming_k", default=0.0, show_default=True, type=float,
+              help="Kelvin added to every hourly air temperature.")
+@click.option("--heater-setpoint-c", "heater_setpoint_c", default=None, type=float,
+              help="Battery heater thermostat setpoint, degC (default: no heater).")
+@click.option("--csv", "csv_path", default=None, type=click.Path(dir_okay=False),
+              help="Write the hourly series (air, irradiance, battery, heater, HVAC) to this CSV.")
+@click.option("--json", "as_json", is_flag=True, help="Print the summary as JSON on stdout.")
+@click.option("--option", "option_pairs", multiple=True, metavar="KEY=VALUE",
+              help="A declaration for a plain CSV file, e.g. temperature_unit=C (repeat).")
+@click.option("--list", "list_only", is_flag=True, help="List the bundled climates and exit.")
+def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, as_json,
+                    option_pairs, list_only):
+    """Show the typical year at SOURCE and the battery temperature in an enclosure.
+
+    SOURCE is a bundled climate name (see --list) or an EPW, TMY3, TMY2 or CSV
+    file. A plain CSV file needs its declarations (see docs/climate.md) as
+    repeated --option KEY=VALUE.
+
+    \b
+    Examples:
+      planner climate --list
+      planner climate hot-desert --enclosure cabinet-sun
+      planner climate alpine --enclosure vault --warming-k 2 --json
+      planner climate site.epw --csv output/site-hourly.csv
+      planner climate logger.csv --option temperature_unit=F --option timestamp_marks=end
+        --option utc_offset_h=-7 --option latitude_deg=35.1 --option longitude_deg=-111.7
+    """
+    from planner.climate import list_bundled, load_climate
+
+    if list_only:
+        for name, text in list_bundled():
+            click.echo(f"{name:24s} {text}")
+        return
+    if not source:
+        raise InputError("missing SOURCE; expected a bundled climate name (see "
+                         "'planner climate --list') or a weather file", source="climate")
+    from planner.climate.summary import summarize_temperatures
+    from planner.thermal import battery_temperature
+
+    year = load_climate(source, warming_k=warming_k, options=_parse_options(option_pairs))
+    thermal = battery_temperature(year, enclosure, heater_setpoint_c=heater_setpoint_c)
+    summary = summarize_temperatures(year.temp_air_c, thermal.temp_battery_c)
+    if csv_path:
+        _write_csv(Path(csv_path), year, thermal)
+    data = summary.to_dict()
+    if as_json:
+        data = {"climate": year.name, "source": year.source, "enclosure": enclosure,
+                "warming_k": warming_k, "latitude_deg": year.latitude_deg,
+                "longitude_deg": year.longitude_deg, "altitude_m": year.altitude_m,
+                "heater_energy_kwh": round(float(thermal.heater_power_w.sum()) / 1000, 3),
+                "hvac_energy_kwh": round(float(thermal.hvac_power_w.sum()) / 1000, 3), **data}
+        click.echo(json.dumps(data, indent=2, sort_keys=False))
+        return
+    _print_summary(year, enclosure, warming_k, thermal, data)
+
+
+def _parse_options(pairs) -> dict | None:
+    options = {}
+    for pair in pairs:
+        key, sep, value = pair.partition("=")
+        if not sep or not key.strip():
+            raise InputError(f"--option '{pair}' is not KEY=VALUE; expected e.g. "
+                             "temperature_unit=C", source="climate")
+        value = value.strip()
+        for convert in (int, float):
+            try:
+                value = convert(value)
+                break
+            except ValueError:
+                continue
+        options[key.strip()] = value
+    return options or None
+
+
+def _print_summary(year, enclosure, warming_k, thermal, s):
+    months = "Jan Feb Mar Apr May Jun Jul Aug Sep Oct Nov Dec".split()
+    lines = [
+        f"Climate   {year.name}: {year.source}",
+        f"Location  {year.latitude_deg:.2f} N, {year.longitude_deg:.2f} E, {year.altitude_m:.0f} m, "
+        f"UTC{year.utc_offset_h:+g}",
+        f"Enclosure {enclosure} (time constant {thermal.enclosure.tau_h:.1f} h)"
+        + (f", warming {warming_k:+g} K" if warming_k else ""),
+        "",
+        f"{'':22s}{'air':>8s}{'battery':>10s}",
+        f"{'mean [degC]':22s}{s['air_mean_c']:8.1f}{s['battery_mean_c']:10.1f}",
+        f"{'P1 [degC]':22s}{s['air_p1_c']:8.1f}{s['battery_p1_c']:10.1f}",
+        f"{'P99 [degC]':22s}{s['air_p99_c']:8.1f}{s['battery_p99_c']:10.1f}",
+        "",
+        "Battery hours  >35: {hours_above_35c}  >45: {hours_above_45c}  >55: {hours_above_55c}"
+        "  <0: {hours_below_0c}  <-20: {hours_below_minus20c}".format(**s),
+        f"Arrhenius-effective battery temperature: {s['effective_temp_c']:.1f} degC "
+        f"(Ea = {s['activation_energy_j_mol'] / 1000:g} kJ/mol)",
+        f"Coldest month: {months[s['coldest_month'] - 1]}   hottest month: "
+        f"{months[s['hottest_month'] - 1]}",
+        f"Heater energy: {thermal.heater_power_w.sum() / 1000:.1f} kWh/yr   "
+        f"HVAC energy: {thermal.hvac_power_w.sum() / 1000:.1f} kWh/yr",
+        "",
+        "Monthly mean [degC]  " + " ".join(f"{m:>5s}" for m in months),
+        "  air               " + " ".join(f"{v:5.1f}" for v in s["air_monthly_mean_c"]),
+        "  battery           " + " ".join(f"{v:5.1f}" for v in s["battery_monthly_mean_c"]),
+    ]
+    click.echo("\n".join(lines))
+
+
+def _write_csv(path: Path, year, thermal) -> None:
+    import pandas as pd
+    from planner.fileio import atomic_path
+
+    frame = pd.DataFrame({
+        "time_start_local": year.times().strftime("%Y-%m-%dT%H:%M%z"),
+        "temp_air_c": year.temp_air_c, "ghi_w_m2": year.ghi_w_m2, "dni_w_m2": year.dni_w_m2,
+        "dhi_w_m2": year.dhi_w_m2, "wind_speed_m_s": year.wind_speed_m_s,
+        "temp_battery_c": thermal.temp_battery_c, "heater_power_w": thermal.heater_power_w,
+        "hvac_power_w": thermal.hvac_power_w})
+    try:
+        with atomic_path(path) as tmp:
+            frame.to_csv(tmp, index=False, float_format="%.3f")
+    except OSError as err:
+        raise InputError(f"cannot write the hourly CSV ({err.strerror}); expected a writable "
+                         "folder", source=str(path)) from None
