@@ -21,6 +21,7 @@ import re
 import sys
 import tempfile
 import time
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -91,8 +92,8 @@ def gap(objective: float, bound: float) -> float:
 def _build_pulp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer):
     prob = pulp.LpProblem("fleet", pulp.LpMinimize)
     xs = [
-        pulp.LpVariable(f"x{i}", lowBound=0.0, upBound=None if not math.isfinite(u) else float(u),
-                        cat=pulp.LpInteger if integer[i] else pulp.LpContinuous)
+        prob.add_variable(f"x{i}", 0.0, None if not math.isfinite(u) else float(u),
+                          cat=pulp.LpInteger if integer[i] else pulp.LpContinuous)
         for i, u in enumerate(col_ub)
     ]
     nz = np.nonzero(c)[0]
@@ -143,8 +144,12 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
         else:
             with tempfile.TemporaryDirectory() as tmp:
                 log = os.path.join(tmp, "cbc.log")
-                prob.solve(pulp.PULP_CBC_CMD(msg=False, timeLimit=limit, gapRel=gap_rel_frac,
-                                             threads=1, logPath=log))
+                with warnings.catch_warnings():
+                    # PuLP 3.3 flags its bundled CBC as deprecated for 4.0; it is what ships today
+                    warnings.simplefilter("ignore", DeprecationWarning)
+                    cmd = pulp.PULP_CBC_CMD(msg=False, timeLimit=limit, gapRel=gap_rel_frac,
+                                            threads=1, logPath=log)
+                prob.solve(cmd)
                 text = open(log, encoding="utf-8", errors="replace").read() if os.path.exists(log) else ""
             found = _CBC_BOUND.findall(text)
             if found:
