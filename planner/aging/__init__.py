@@ -1,0 +1,18 @@
+"""Aging: calendar and cycle capacity fade of battery packs.
+
+Public interface (other stages depend on these names):
+
+- :func:`age_lanes` -> :class:`FadeResult` (``soh_monthly``, ``calendar_loss_frac``,
+  ``cycle_loss_frac``, ``efc_per_year``, ``state``)
+- :func:`years_to_soh`
+- :class:`AgingState` (carry a pack's aging from one run to the next)
+
+Modules: :mod:`~planner.aging.calendar` (calendar laws), :mod:`~planner.aging.cycle`
+(cycle laws, Wöhler/Palmgren-Miner), :mod:`~planner.aging.rainflow` (vectorised ASTM
+E1049 counting), :mod:`~planner.aging.superposition` (equivalent time, repeated year),
+:mod:`~planner.aging.engine` (orchestration).
+"""
+
+from planner.aging.engine import AgingState, FadeResult, age_lanes, years_to_soh
+
+__all__ = ["AgingState", "FadeResult", "age_lanes", "years_to_soh"]
