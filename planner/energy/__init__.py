@@ -1,0 +1,17 @@
+"""Energy balance of a remote site: loads, charging sources, hourly state of charge,
+the 1x reference pack size and lead-acid freezing.
+
+Modules (one physical concept each):
+
+- :mod:`planner.energy.loads`: hourly mean load and burst peak power.
+- :mod:`planner.energy.pv`: PV array power delivered to the battery bus (pvlib PVWatts chain).
+- :mod:`planner.energy.mains`: mains/generator availability with seeded outages.
+- :mod:`planner.energy.soc`: hourly state-of-charge recursion, streamed in chunks of lanes.
+- :mod:`planner.energy.sizing`: stand-alone reference capacity (IEEE 1013 / IEEE 1562 chain).
+- :mod:`planner.energy.freezing`: lead-acid electrolyte freezing point versus SOC.
+
+The sub-modules are imported lazily by the caller (``from planner.energy import soc``) so
+that importing this package does not pull in pvlib.
+"""
+
+HOURS_PER_YEAR = 8760
