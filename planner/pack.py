@@ -239,16 +239,21 @@ def pack_structure(
     required_capacity_wh,
     cell_voltage_v,
     cell_capacity_ah,
+    charge_voltage_v_per_cell=None,
     mass_kg_per_kwh=None,
     volume_l_per_kwh=None,
     series_cells=None,
 ):
     """Whole-cell pack that reaches a system voltage and a required energy.
 
-    ``series_cells = floor(system_voltage_v / cell_voltage_v + 0.5)`` (nearest
-    whole number; 12 V -> 4 LFP cells of 3.2 V, 6 lead-acid cells of 2 V) unless
-    given; ``parallel_strings = ceil(required_capacity_wh / string_wh)``, at least 1,
-    so the real pack is never smaller than required (common practice).
+    Series count, unless given: with the chemistry's full charge voltage per cell,
+    the count whose charge voltage matches the system's, taking 1.2 x the system
+    voltage as the system's charge voltage (a 12 V system charges at about 14.4 V,
+    2.4 V per lead-acid cell: common practice): ``floor(1.2 * V_sys / V_charge + 0.5)``
+    -> 12 V: 6 lead-acid (2.4 V), 4 LFP (3.6 V), 3 NMC (4.2 V) cells; 48 V: 16 LFP.
+    Without it, the nearest whole number of nominal voltages,
+    ``floor(V_sys / V_cell + 0.5)``. ``parallel_strings = ceil(required / string)``,
+    at least 1, so the real pack is never smaller than required (common practice).
 
     Parameters
     ----------
@@ -258,6 +263,10 @@ def pack_structure(
         Energy the pack must hold at rated capacity [Wh] (after oversizing).
     cell_voltage_v, cell_capacity_ah : float
         Nominal voltage [V] and rated capacity [Ah] of one cell or module.
+    charge_voltage_v_per_cell : float, optional
+        The chemistry's full (highest) charge voltage per cell [V]; pass the top of
+        its range, not the chosen reduced charge voltage, so the series count does
+        not change with the charge-voltage choice.
     mass_kg_per_kwh, volume_l_per_kwh : float, optional
         Chemistry's specific mass [kg/kWh] and volume [L/kWh].
     series_cells : int, optional
@@ -271,7 +280,10 @@ def pack_structure(
     e_req = _positive("required_capacity_wh", required_capacity_wh)
     v_cell = _positive("cell_voltage_v", cell_voltage_v)
     c_cell = _positive("cell_capacity_ah", cell_capacity_ah)
-    if series_cells is None:
+    if series_cells is None and charge_voltage_v_per_cell is not None:
+        v_ch = _positive("charge_voltage_v_per_cell", charge_voltage_v_per_cell)
+        n_s = max(1, int(math.floor(1.2 * v_sys / v_ch + 0.5)))
+    elif series_cells is None:
         n_s = max(1, int(math.floor(v_sys / v_cell + 0.5)))
     else:
         n_s = _whole("series_cells", series_cells)
