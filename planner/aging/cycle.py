@@ -169,6 +169,10 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
         return k ** 2 * n * depth, 0.5
     if model == "schmalstieg2014_cycle":
         volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
+        # Depth and throughput relative to the capacity usable at the charge voltage: the
+        # charge-voltage rule below is stated for *full* cycles at each voltage, so the
+        # shallower full cycle of a lower voltage must not be credited twice.
+        depth = depth / np.asarray(chemistry.usable_fraction(charge_voltage_v_per_cell), dtype=float)
         beta = schmalstieg2014_beta_cap(volts, depth, **p)
         temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
         # C-rate term borrowed from Wang et al. 2011 (coefficient convention, squared for z=0.5).

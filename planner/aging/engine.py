@@ -121,9 +121,49 @@ class FadeResult:
     chemistry_id: str
     aging_set: str
 
+    def end_of_life(self, threshold_frac: float):
+        """Years until SOH reaches ``threshold_frac`` and the loss parts at that moment.
+
+        More precise than :func:`years_to_soh` on the monthly table: within the month
+        that brackets the threshold each superposition state grows linearly in time
+        (the rates of that month), so the crossing is solved on the states (bisection)
+        instead of interpolating SOH linearly. Lanes that never reach the threshold
+        give ``np.inf`` and the losses at the horizon end.
+
+        Returns
+        -------
+        years, calendar_loss_frac, cycle_loss_frac : ndarray, shape (n_lanes,)
+        """
+        soh = self.soh_monthly
+        lanes = np.arange(soh.shape[1])
+        below = soh <= threshold_frac
+        reached = below.any(axis=0)
+        first = np.where(reached, np.argmax(below, axis=0), soh.shape[0] - 1)
+        prev = np.maximum(first - 1, 0)
+        z_cal, z_cyc = self.state.calendar_exponent, self.state.cycle_exponent
+        cal0 = state_from_loss(self.calendar_loss_frac[prev, lanes], z_cal)
+        cal1 = state_from_loss(self.calendar_loss_frac[first, lanes], z_cal)
+        cyc0 = state_from_loss(self.cycle_loss_frac[prev, lanes], z_cyc)
+        cyc1 = state_from_loss(self.cycle_loss_frac[first, lanes], z_cyc)
+
+        def soh_at(theta):
+            return (1.0 - loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
+                    - loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc))
+
+        lo, hi = np.zeros(lanes.size), np.ones(lanes.size)
+        for _ in range(60):  # SOH falls monotonically in theta: bisection to ~1e-18 of a month
+            mid = 0.5 * (lo + hi)
+            above = soh_at(mid) > threshold_frac
+            lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
+        theta = np.where(reached & (first > 0), hi, np.where(reached, 0.0, 1.0))
+        years = np.where(reached, (prev + theta) / 12.0, np.inf)
+        cal = loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
+        cyc = loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
+        return years, cal, cyc
+
     def years_to_soh(self, threshold_frac: float) -> np.ndarray:
-        """Years until SOH first reaches ``threshold_frac`` (np.inf if never)."""
-        return years_to_soh(self.soh_monthly, threshold_frac)
+        """Years until SOH first reaches ``threshold_frac`` (np.inf if never), see end_of_life."""
+        return self.end_of_life(threshold_frac)[0]
 
 
 def years_to_soh(soh_monthly, threshold_frac: float) -> np.ndarray:

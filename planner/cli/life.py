@@ -1,0 +1,223 @@
+"""``planner life``: how long a battery lasts at a temperature or in a site's climate."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import click
+import numpy as np
+
+from planner.errors import InputError
+
+HOURS_PER_YEAR = 8760
+DAYS_PER_YEAR = 365
+
+
+def cycling_profile(top_soc_frac: float, dod_frac: float, cycles_per_day: float,
+                    c_rate: float):
+    """Synthetic hourly SOC and current of regular cycling from a full pack.
+
+    Each cycle starts from ``top_soc_frac``, discharges ``dod_frac`` at a steady current
+    over ``d = ceil(dod / c_rate)`` whole hours, charges it back over the next ``d`` hours
+    and rests full until the next cycle; cycles start every ``24 / cycles_per_day`` hours
+    (rounded down to whole hours). Values are the SOC at the start of each hour and the
+    hour's mean current (+ discharge, - charge) as a C-rate. Hourly samples cannot show
+    a cycle faster than two hours, so the nominal ``c_rate`` is passed to the aging
+    engine as the cycle C-rate separately.
+
+    Returns
+    -------
+    soc_frac, current_c_rate : ndarray, shape (8760,)
+    """
+    ramp_h = max(1, math.ceil(dod_frac / c_rate - 1e-9))
+    period_h = 24.0 / cycles_per_day
+    hours = np.arange(HOURS_PER_YEAR)
+    starts = np.floor(np.arange(0.0, HOURS_PER_YEAR, period_h)).astype(int)
+    cycle_of_hour = np.searchsorted(starts, hours, side="right") - 1
+    phase = hours - starts[cycle_of_hour]
+    step = dod_frac / ramp_h
+    down = phase < ramp_h
+    up = (phase >= ramp_h) & (phase < 2 * ramp_h)
+    soc = np.full(HOURS_PER_YEAR, top_soc_frac)
+    soc[down] = top_soc_frac - step * phase[down]
+    soc[up] = top_soc_frac - dod_frac + step * (phase[up] - ramp_h)
+    current = np.where(down, step, np.where(up, -step, 0.0))
+    return soc, current
+
+
+def _temperature(temp_c, climate, enclosure):
+    if temp_c is not None:
+        return np.full(HOURS_PER_YEAR, float(temp_c)), f"constant {temp_c:g} °C"
+    from planner.climate import load_climate
+    from planner.thermal import battery_temperature
+
+    year = load_climate(climate)
+    thermal = battery_temperature(year, enclosure)
+    return np.asarray(thermal.temp_battery_c, dtype=float), f"{climate} in {enclosure}"
+
+
+def _print_list():
+    from planner.chemistry import all_chemistries
+
+    for chem in all_chemistries():
+        settings = ", ".join(f"{v:.2f}" for v in chem.charge_voltages_v_per_cell)
+        click.echo(f"{chem.id:8s} {chem.name}")
+        click.echo(f"         charge voltages [V/cell]: {settings} "
+                   f"(default {chem.default_charge_voltage_v_per_cell:.2f})")
+        for name, params in chem.aging_sets.items():
+            mark = "default" if name == chem.default_aging_set else "alternative"
+            click.echo(f"         aging set {name} ({mark}): {params.description}")
+        for key, text in chem.sources.items():
+            if not key.startswith("aging."):
+                click.echo(f"           {key}: {text}")
+        for key, text in chem.sources.items():
+            if key.startswith(f"aging.{chem.default_aging_set}."):
+                click.echo(f"           {key}: {text}")
+
+
+@click.command("life", context_settings={"help_option_names": ["-h", "--help"]})
+@click.option("--chemistry", "chem_id", default=None, metavar="ID",
+              help="Chemistry id: vrla, lfp, nmc, lto or lisocl2 (see --list).")
+@click.option("--temp-c", "temp_c", type=float, default=None,
+              help="Constant battery temperature, degC.")
+@click.option("--climate", "climate", default=None, metavar="SOURCE",
+              help="Bundled climate name or weather file (see 'planner climate --list').")
+@click.option("--enclosure", "enclosure", default="cabinet-sun", show_default=True,
+              type=click.Choice(("cabinet-sun", "cabinet-shade", "vault", "shelter")),
+              help="Enclosure kind, with --climate.")
+@click.option("--soc-frac", "soc_frac", type=float, default=None,
+              help="Storage state of charge, fraction of rated capacity (default: full at "
+                   "the charge voltage). Used when not cycling.")
+@click.option("--charge-voltage-v", "charge_voltage_v", type=float, default=None,
+              help="Charge voltage PER CELL, V (default: the chemistry's default setting).")
+@click.option("--dod-frac", "dod_frac", type=float, default=None,
+              help="Depth of each cycle, fraction of rated capacity (with --cycles-per-day).")
+@click.option("--cycles-per-day", "cycles_per_day", type=float, default=None,
+              help="Cycles per day (with --dod-frac), at most 12.")
+@click.option("--c-rate", "c_rate", type=float, default=0.2, show_default=True,
+              help="Discharge and charge C-rate of the cycles (for primary cells: the "
+                   "constant load as a C-rate).")
+@click.option("--eol-soh", "eol_soh", type=float, default=0.8, show_default=True,
+              help="End of life: state of health (remaining/rated capacity) fraction.")
+@click.option("--years", "years", type=int, default=40, show_default=True,
+              help="Horizon in years.")
+@click.option("--aging-set", "aging_set", default=None,
+              help="Alternative aging parameter set of the chemistry (see --list).")
+@click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
+@click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
+def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
+                 cycles_per_day, c_rate, eol_soh, years, aging_set, as_json, list_only):
+    """Predict the life of a battery stored or cycled at a temperature or in a climate.
+
+    Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
+    --charge-voltage-v is per cell (e.g. 4.10 for NMC, 3.45 for LFP, 2.40 for VRLA).
+
+    \b
+    Examples:
+      planner life --list
+      planner life --chemistry lfp --temp-c 25
+      planner life --chemistry nmc --temp-c 25 --charge-voltage-v 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
+      planner life --chemistry vrla --climate hot-desert --enclosure cabinet-sun
+    """
+    if list_only:
+        _print_list()
+        return
+    from planner.aging import age_lanes
+    from planner.chemistry import get_chemistry
+
+    if chem_id is None:
+        raise InputError("missing --chemistry; expected one of vrla, lfp, nmc, lto, lisocl2",
+                         source="life")
+    chem = get_chemistry(chem_id)
+    if (temp_c is None) == (climate is None):
+        raise InputError("give exactly one of --temp-c T or --climate SOURCE", source="life")
+    if temp_c is not None and not -60.0 <= temp_c <= 90.0:
+        raise InputError(f"--temp-c is {temp_c:g}; expected -60 to 90 degC", source="life")
+    if (dod_frac is None) != (cycles_per_day is None):
+        raise InputError("--dod-frac and --cycles-per-day go together; give both or neither",
+                         source="life")
+    if not 0.0 < eol_soh < 1.0:
+        raise InputError(f"--eol-soh is {eol_soh:g}; expected a fraction between 0 and 1",
+                         source="life")
+    if not 1 <= years <= 200:
+        raise InputError(f"--years is {years}; expected 1 to 200", source="life")
+    if not c_rate > 0.0 or c_rate > 10.0:
+        raise InputError(f"--c-rate is {c_rate:g}; expected more than 0 and at most 10",
+                         source="life")
+    volts = chem.default_charge_voltage_v_per_cell if charge_voltage_v is None else charge_voltage_v
+    low, high = chem.usable_table_v[0], chem.usable_table_v[-1]
+    if not low - 1e-9 <= volts <= high + 1e-9:
+        raise InputError(f"--charge-voltage-v is {volts:g} V per cell; expected {low:g} to "
+                         f"{high:g} V per cell for {chem.id}", source="life")
+    top = float(chem.usable_fraction(volts))
+    cycling = dod_frac is not None
+    if cycling:
+        if not chem.rechargeable:
+            raise InputError(f"{chem.id} is not rechargeable; drop --dod-frac/--cycles-per-day "
+                             "and give the load as --c-rate", source="life")
+        if not 0.0 < dod_frac <= top:
+            raise InputError(f"--dod-frac is {dod_frac:g}; expected more than 0 and at most "
+                             f"{top:g} (usable fraction at {volts:g} V per cell)", source="life")
+        ramp_h = max(1, math.ceil(dod_frac / c_rate - 1e-9))
+        max_per_day = 24.0 / (2 * ramp_h)
+        if not 0.0 < cycles_per_day <= max_per_day:
+            raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
+                             f"at most {max_per_day:g} at this depth and C-rate", source="life")
+        soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
+        peak = c_rate
+    else:
+        stored = top if soc_frac is None else soc_frac
+        if not 0.0 <= stored <= top + 1e-9:
+            raise InputError(f"--soc-frac is {stored:g}; expected 0 to {top:g} (usable fraction "
+                             f"at {volts:g} V per cell)", source="life")
+        soc = np.full(HOURS_PER_YEAR, stored)
+        # A primary cell feeds its load (--c-rate given explicitly); a stored pack carries none.
+        load = c_rate if not chem.rechargeable and _given("c_rate") else 0.0
+        current = np.full(HOURS_PER_YEAR, load)
+        peak = None
+    temp, temp_text = _temperature(temp_c, climate, enclosure)
+    result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
+                       peak_c_rate=peak, aging_set=aging_set)
+    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
+    reached = math.isfinite(eol_years)
+    out = {
+        "chemistry": chem.id,
+        "aging_set": result.aging_set,
+        "battery_temperature": temp_text,
+        "battery_mean_temp_c": round(float(temp.mean()), 3),
+        "charge_voltage_v_per_cell": volts,
+        "usable_fraction": top,
+        "eol_soh": eol_soh,
+        "years_to_eol": eol_years if reached else None,
+        "calendar_loss_frac": cal,
+        "cycle_loss_frac": cyc,
+        "equivalent_full_cycles_per_year": float(result.efc_per_year[0]),
+        "soh_by_year": [float(v) for v in result.soh_monthly[::12, 0]],
+    }
+    if cycling:
+        out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
+        out["dod_frac"] = dod_frac
+        out["cycles_per_day"] = cycles_per_day
+        out["c_rate"] = c_rate
+    else:
+        out["soc_frac"] = float(soc[0])
+    if as_json:
+        click.echo(json.dumps(out, indent=2))
+        return
+    click.echo(f"{chem.name}, aging set {result.aging_set}")
+    click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
+    click.echo(f"charge voltage {volts:.2f} V/cell, usable fraction {top:.2f}")
+    if reached:
+        extra = f", {out['cycles_to_eol']:.0f} cycles" if cycling else ""
+        click.echo(f"reaches {eol_soh:.0%} SOH after {eol_years:.1f} years{extra}")
+    else:
+        click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
+    click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+
+
+def _given(name: str) -> bool:
+    """Whether an option was given on the command line (not its default)."""
+    ctx = click.get_current_context()
+    source = ctx.get_parameter_source(name)
+    return source is not None and source.name == "COMMANDLINE"
