@@ -63,7 +63,8 @@ class SocResult:
     equivalent_full_cycles_per_year : energy delivered by the battery / capacity_wh,
         scaled to 8,760 h.
     mean_soc_frac, min_soc_frac, final_soc_frac : state of charge (fraction of rated
-        capacity) at the end of each hour: mean, minimum, last.
+        capacity) at the end of each hour: mean, minimum, last. Mean and minimum are
+        taken from the float32 series (single precision, about 1e-7).
     max_c_rate : highest hourly-mean charge or discharge C-rate (1/h = power / capacity_wh).
         Load bursts are not in it; the caller combines the burst peak separately.
     unserved_wh : load energy the pack could not supply (Wh).
