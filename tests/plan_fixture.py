@@ -35,7 +35,7 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
     Parameters
     ----------
     hostile_names : bool
-        Name site 0 ``=HYPERLINK("x")`` and site 1 ``+1+1`` (and give a region a leading ``-``).
+        Name site 0 ``=HYPERLINK("x")`` and site 1 ``+1+1``; give site 2 the region ``-Demo Ridge``.
     with_optional : bool
         Include optional parts (sensitivity, alternatives, P10/P90 life and SOH bands).
     """
@@ -63,6 +63,8 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
             name = '=HYPERLINK("x")'
         if hostile_names and i == 1:
             name = "+1+1"
+        if hostile_names and i == 2:
+            region = "-Demo Ridge"
         site = {
             "id": f"S{i:04d}", "name": name, "region": region,
             "climate": CLIMATES[i % len(CLIMATES)], "enclosure": ENCLOSURES[i % len(ENCLOSURES)],

@@ -15,11 +15,20 @@ assignment as well (measured, ../shared/notes/ecosystem.md §4).
 from __future__ import annotations
 
 import math
+from copy import copy
 from numbers import Integral, Real
+
+from openpyxl.cell import Cell
+from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 
 #: Leading characters a spreadsheet program may read as the start of a formula
 #: (OWASP CSV Injection guidance).
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+
+#: Longest text a cell may hold (Excel specifications and limits: 32,767 characters).
+MAX_CELL_CHARS = 32767
+
+_ILLEGAL_XML = ILLEGAL_CHARACTERS_RE
 
 #: Prefix OWASP recommends to neutralise a triggering string.
 NEUTRALISING_PREFIX = "'"
@@ -40,7 +49,13 @@ def neutralise_text(text) -> str:
         ``@``, a tab or a carriage return (OWASP CSV Injection guidance). Other text is
         returned unchanged.
     """
-    text = str(text)
+    if type(text) is not str:
+        text = str(text)
+    if _ILLEGAL_XML.search(text):
+        # Control characters are not allowed in XML 1.0 (W3C XML 1.0 §2.2) and would make
+        # the saved file unreadable; a pasted name may carry them.
+        text = _ILLEGAL_XML.sub("", text)
+    text = text[:MAX_CELL_CHARS - 1]
     if text.startswith(FORMULA_TRIGGERS):
         return NEUTRALISING_PREFIX + text
     return text
@@ -53,8 +68,14 @@ def cell_value(value):
     would write them as text Excel cannot read. ``None`` stays blank. Booleans become
     ``"yes"``/``"no"``. Everything else becomes neutralised text.
     """
-    if value is None:
-        return None
+    kind = type(value)
+    # Fast paths for the plain types that make up almost every cell of a large fleet.
+    if kind is float:
+        return value if math.isfinite(value) else None
+    if kind is int or value is None:
+        return value
+    if kind is str:
+        return neutralise_text(value)
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, Integral):
@@ -97,19 +118,40 @@ def put(ws, row: int, col: int, value, number_format: str | None = None, style=N
 def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
     """Write a block of rows (iterables of values) and return the next free row.
 
-    ``number_formats`` gives one format (or None) per column of the block.
+    ``number_formats`` gives one format (or None) per column of the block. Text is
+    neutralised and typed ``'s'``; NaN and None leave the cell empty.
+
+    For speed on large fleets each column's style is computed once on a template cell
+    and its style array copied to the cells below: setting ``number_format`` cell by
+    cell costs a style lookup per cell and dominated the build time for 1,000 sites.
     """
+    templates = []
+    for offset, fmt in enumerate(number_formats):
+        if fmt:
+            probe = Cell(ws, row=1, column=1)
+            probe.number_format = fmt
+            templates.append(probe._style)
+        else:
+            templates.append(None)
+    cells = ws._cells
     row_idx = first_row
     for values in rows:
-        for offset, (value, fmt) in enumerate(zip(values, number_formats)):
+        for offset, value in enumerate(values):
             value = cell_value(value)
             if value is None:
                 continue
-            cell = ws.cell(row=row_idx, column=first_col + offset)
-            cell.value = value
+            col = first_col + offset
+            cell = Cell(ws, row=row_idx, column=col)
             if isinstance(value, str):
+                cell._value = value
                 cell.data_type = "s"
-            elif fmt:
-                cell.number_format = fmt
+            else:
+                cell._value = value
+                cell.data_type = "n"
+                style = templates[offset]
+                if style is not None:
+                    cell._style = copy(style)
+            cells[(row_idx, col)] = cell
         row_idx += 1
+    ws._current_row = max(ws._current_row, row_idx - 1)
     return row_idx

@@ -48,25 +48,28 @@ def bar_chart(ws, *, title: str, categories: Reference, values: Reference, y_tit
     return chart
 
 
-def soh_chart(ws, *, title: str, x_values: Reference, series: list[tuple[str, Reference, bool]],
-              anchor: str, y_min: float = 0.0) -> ScatterChart:
+def soh_chart(ws, *, title: str, x_values: Reference, series: list[tuple[str, Reference, int, bool]],
+              anchor: str, horizon_years: float, y_min: float = 0.0) -> ScatterChart:
     """State of health over the horizon: straight-line scatter so the x axis is in years.
 
-    ``series`` holds (label, y reference, dashed) per line; monthly points draw the
-    replacement saw-tooth as a near-vertical rise.
+    ``series`` holds (label, y reference, colour index, dashed) per line; monthly points
+    draw the replacement saw-tooth as a near-vertical rise.
     """
     chart = ScatterChart()
     chart.title = neutralise_text(title)
     chart.style = 2
-    for index, (label, y_ref, dashed) in enumerate(series):
+    for label, y_ref, colour, dashed in series:
         s = Series(y_ref, x_values)
         s.tx = SeriesLabel(v=neutralise_text(label))
         s.marker.symbol = "none"
         s.smooth = False
-        _colour(s, index, dashed=dashed)
+        _colour(s, colour, dashed=dashed)
         chart.series.append(s)
     chart.x_axis.title = "Years from start"
     chart.x_axis.scaling.min = 0
+    chart.x_axis.scaling.max = horizon_years
+    chart.x_axis.majorUnit = 5 if horizon_years > 10 else 1
+    chart.x_axis.numFmt = "0"
     chart.y_axis.title = "State of health"
     chart.y_axis.numFmt = "0%"
     chart.y_axis.scaling.min = y_min
@@ -92,6 +95,7 @@ def monthly_temperature_chart(ws, *, title: str, categories: Reference,
         chart.series.append(s)
     chart.set_categories(categories)
     chart.y_axis.title = "Temperature [°C]"
+    chart.x_axis.tickLblPos = "low"  # month labels below the plot even when it dips under 0 °C
     chart.y_axis.numFmt = "0"
     chart.legend.position = "b"
     chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM

@@ -9,13 +9,16 @@ from __future__ import annotations
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.worksheet.properties import PageSetupProperties
 
-HEADER_FONT = Font(bold=True, color="1F2A36")
+#: openpyxl's default body font; fonts without a name fall back to a serif in LibreOffice.
+FONT_NAME = "Calibri"
+
+HEADER_FONT = Font(name=FONT_NAME, bold=True, color="1F2A36")
 HEADER_FILL = PatternFill("solid", fgColor="DCE3EA")
 HEADER_BORDER = Border(bottom=Side(style="thin", color="7A8B9C"))
 HEADER_ALIGN = Alignment(wrap_text=True, vertical="center")
-TITLE_FONT = Font(bold=True, size=14, color="1F2A36")
-SECTION_FONT = Font(bold=True, size=12, color="1F2A36")
-NOTE_FONT = Font(italic=True, color="4A5866")
+TITLE_FONT = Font(name=FONT_NAME, bold=True, size=14, color="1F2A36")
+SECTION_FONT = Font(name=FONT_NAME, bold=True, size=12, color="1F2A36")
+NOTE_FONT = Font(name=FONT_NAME, italic=True, color="4A5866")
 WRAP_TOP = Alignment(wrap_text=True, vertical="top")
 YEAR_BORDER = Border(top=Side(style="thin", color="7A8B9C"))
 
@@ -57,7 +60,7 @@ def style_header_row(ws, row: int, first_col: int, last_col: int) -> None:
 
 
 def landscape_fit_width(ws, *, title_rows: str | None = None, title_cols: str | None = None,
-                        area: str | None = None) -> None:
+                        area: str | None = None, pages_wide: int = 1) -> None:
     """Landscape, fit to one page wide (any number tall), repeated headers, page numbers.
 
     Without landscape and fit-to-width LibreOffice cuts charts across pages (measured,
@@ -65,7 +68,7 @@ def landscape_fit_width(ws, *, title_rows: str | None = None, title_cols: str | 
     """
     ws.page_setup.orientation = "landscape"
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
-    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToWidth = pages_wide
     ws.page_setup.fitToHeight = 0
     ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=True)
     ws.print_options.horizontalCentered = False

@@ -8,6 +8,7 @@ The layout is described in ``docs/workbook.md``.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -15,6 +16,7 @@ from pathlib import Path
 import numpy as np
 from openpyxl import Workbook
 from openpyxl.chart import Reference
+from openpyxl.worksheet.pagebreak import Break
 from openpyxl.utils import get_column_letter
 
 from planner.report import charts, styles
@@ -90,7 +92,18 @@ def _write_table(ws, top: int, left: int, columns: list[Column], records, *, dro
     rows = ([row[i] for i in keep] for row in matrix)
     next_row = write_rows(ws, top + 1, left, rows, [col.fmt for col in kept])
     _set_widths(ws, left, kept, matrix, keep)
+    _fit_header_height(ws, top, left, kept)
     return kept, next_row - 1
+
+
+def _fit_header_height(ws, row, left, kept) -> None:
+    # Headers wrap; give the row enough lines (15 points each) for the longest one.
+    lines = 1
+    for offset, col in enumerate(kept):
+        width = ws.column_dimensions[get_column_letter(left + offset)].width or 10
+        lines = max(lines, math.ceil(len(col.header) * 1.1 / max(width - 1, 1)))
+    current = ws.row_dimensions[row].height or 15
+    ws.row_dimensions[row].height = max(current, 15 * min(lines, 4))
 
 
 def _set_widths(ws, left, kept, matrix, keep) -> None:
@@ -104,8 +117,9 @@ def _set_widths(ws, left, kept, matrix, keep) -> None:
             longest_word = max((len(w) for w in col.header.split()), default=6)
             longest_value = max((_display_len(row[src]) for row in sample), default=0)
             width = min(max(longest_word + 2, longest_value + 2, 8), 48)
-        current = ws.column_dimensions[letter].width or 0
-        ws.column_dimensions[letter].width = max(current, width)
+        # Two tables may share a column (Summary): keep the wider of the two.
+        current = ws.column_dimensions[letter].width if letter in ws.column_dimensions else 0
+        ws.column_dimensions[letter].width = max(current or 0, width + 1)
 
 
 def _display_len(value) -> int:
@@ -153,15 +167,14 @@ def _summary_sheet(ws, plan, fmt) -> None:
         ("Decomposition", solver.get("decomposition"), None),
         ("Sites file", study.get("sites_file"), None),
     ]
-    row = 4
     put(ws, 3, 1, "The plan").font = styles.SECTION_FONT
-    for label, value, number_format in facts:
-        if cell_value(value) is None and label not in ("Sites planned", f"Total present cost [{cur}]"):
-            continue
-        put(ws, row, 1, label).font = styles.HEADER_FONT
-        put(ws, row, 2, value, number_format)
-        row += 1
-    facts_end = row - 1
+    kept_facts = [f for f in facts if cell_value(f[1]) is not None or f[0] in
+                  ("Sites planned", f"Total present cost [{cur}]")]
+    fact_cols = [Column("Item", lambda f: f[0]), Column("Value", lambda f: f[1])]
+    _, facts_end = _write_table(ws, 4, 1, fact_cols, kept_facts, drop_empty=False)
+    for offset, (_, value, number_format) in enumerate(kept_facts):
+        if number_format and isinstance(cell_value(value), float | int):
+            ws.cell(row=5 + offset, column=2).number_format = number_format
 
     comparison = [c for c in (plan.get("chemistry_comparison") or []) if isinstance(c, Mapping)]
     comp_end = 3
@@ -273,27 +286,32 @@ def _site_columns(fmt) -> list[Column]:
 
 def _sites_sheet(ws, plan, fmt) -> None:
     kept, last = _write_table(ws, 1, 1, _site_columns(fmt), _sites(plan))
-    ws.row_dimensions[1].height = 45
     ws.freeze_panes = "C2"
     if last >= 2:
         ws.auto_filter.ref = f"A1:{get_column_letter(len(kept))}{last}"
-    styles.landscape_fit_width(ws, title_rows="1:1", title_cols="A:B")
+    # 48 columns on one A4 width print at about 4 points; two pages wide stay legible.
+    styles.landscape_fit_width(ws, title_rows="1:1", title_cols="A:B", pages_wide=2)
 
 
 # ---------------------------------------------------------------- Capacity fade
-def _fade_series(site) -> list[tuple[str, list, bool]]:
-    """(label, monthly SOH, dashed) for the chosen design, its band and the alternatives."""
+def _fade_series(site) -> list[tuple[str, list, int, bool]]:
+    """(label, monthly SOH, colour index, dashed) for the chosen design, band, alternatives.
+
+    The P10/P90 band shares the chosen design's colour, dashed; alternatives follow.
+    """
     out = []
     chosen = site.get("soh_by_month")
     if chosen:
-        out.append((f"chosen: {site.get('chemistry', '')}", chosen, False))
+        out.append((f"chosen: {site.get('chemistry', '')}", chosen, 0, False))
     p10, p90 = site.get("soh_p10_by_month"), site.get("soh_p90_by_month")
     if chosen and p10 and p90:
-        out.append(("chosen P10", p10, True))
-        out.append(("chosen P90", p90, True))
+        out.append(("chosen P10", p10, 0, True))
+        out.append(("chosen P90", p90, 0, True))
+    colour = 1
     for alt in site.get("alternatives") or []:
         if isinstance(alt, Mapping) and alt.get("soh_by_month"):
-            out.append((f"best {alt.get('chemistry', '')}", alt["soh_by_month"], False))
+            out.append((f"best {alt.get('chemistry', '')}", alt["soh_by_month"], colour, False))
+            colour += 1
     return out
 
 
@@ -315,7 +333,7 @@ def _fade_sheet(ws, plan) -> None:
     data_top = 3 + chart_rows + 2
     put(ws, data_top - 1, 1, "Chart data: state of health by month [fraction of rated capacity]").font = \
         styles.SECTION_FONT
-    n_months = max(len(series) for s in chosen for _, series, _ in _fade_series(s))
+    n_months = max(len(series) for s in chosen for _, series, _, _ in _fade_series(s))
     put(ws, data_top, 1, "Years from start")
     years = np.arange(n_months) / 12.0
     write_rows(ws, data_top + 1, 1, ([y] for y in years.tolist()), [styles.TWO_DECIMALS])
@@ -324,24 +342,32 @@ def _fade_sheet(ws, plan) -> None:
     y_floor = 1.0
     for index, site in enumerate(chosen):
         refs = []
-        for label, series, dashed in _fade_series(site):
+        for label, series, colour, dashed in _fade_series(site):
             values = [cell_value(v) for v in series]
             put(ws, data_top, col, f"{site.get('id', '')} {label}")
             write_rows(ws, data_top + 1, col, ([v] for v in values), [styles.PERCENT])
             refs.append((label, Reference(ws, min_col=col, min_row=data_top + 1, max_row=data_top + len(values)),
-                         dashed))
+                         colour, dashed))
             finite = [v for v in values if v is not None]
             y_floor = min(y_floor, min(finite, default=1.0))
             col += 1
         anchor = f"{get_column_letter(1 + (index % 2) * CHART_COLS)}{3 + (index // 2) * CHART_ROWS}"
         charts.soh_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}", x_values=x_ref,
-                         series=refs, anchor=anchor, y_min=max(0.0, np.floor(y_floor * 10) / 10 - 0.1))
+                         series=refs, anchor=anchor, horizon_years=(n_months - 1) / 12.0,
+                         y_min=max(0.0, np.floor(y_floor * 10) / 10 - 0.1))
         y_floor = 1.0
     styles.style_header_row(ws, data_top, 1, col - 1)
     for c in range(1, max(col, 2 * CHART_COLS + 1)):
         ws.column_dimensions[get_column_letter(c)].width = 10
     ws.freeze_panes = "A3"
+    _chart_page_breaks(ws, chart_rows)
     styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(2 * CHART_COLS)}{2 + chart_rows}")
+
+
+def _chart_page_breaks(ws, chart_rows: int, per_page: int = 3) -> None:
+    # Break pages between chart rows so that no chart is cut across two pages.
+    for row in range(2 + per_page * CHART_ROWS, 2 + chart_rows, per_page * CHART_ROWS):
+        ws.row_breaks.append(Break(id=row))
 
 
 def _fade_table_sheet(ws, plan, horizon_years) -> None:
@@ -350,20 +376,21 @@ def _fade_table_sheet(ws, plan, horizon_years) -> None:
         designs = [("chosen", site)] + [("alternative", a) for a in site.get("alternatives") or []
                                         if isinstance(a, Mapping)]
         for role, design in designs:
-            soh = design.get("soh_by_month") or []
-            yearly = {y: soh[12 * y] for y in range(horizon_years + 1) if 12 * y < len(soh)}
+            soh = _as_float_array(design.get("soh_by_month"))
+            yearly = soh[: 12 * horizon_years + 1 : 12].tolist()
+            finite = soh[np.isfinite(soh)]
             records.append({"site": site, "role": role, "design": design, "yearly": yearly,
-                            "lowest": min((v for v in (cell_value(x) for x in soh) if v is not None), default=None)})
+                            "lowest": float(finite.min()) if finite.size else None})
     cols = [Column("Site id", lambda r: r["site"].get("id")),
             Column("Design", lambda r: r["role"]),
             Column("Chemistry", lambda r: r["design"].get("chemistry")),
             Column("Pack size [Wh]", lambda r: r["design"].get("capacity_wh"), styles.INTEGER),
             Column("Life [years]", lambda r: r["design"].get("life_years"), styles.ONE_DECIMAL)]
-    cols += [Column(f"SOH year {y} [%]", (lambda r, y=y: r["yearly"].get(y)), styles.PERCENT, width=7)
+    cols += [Column(f"SOH year {y} [%]", (lambda r, y=y: r["yearly"][y] if y < len(r["yearly"]) else None),
+                    styles.PERCENT, width=7)
              for y in range(horizon_years + 1)]
     cols.append(Column("Lowest SOH [%]", lambda r: r["lowest"], styles.PERCENT))
     _write_table(ws, 1, 1, cols, records, drop_empty=False)
-    ws.row_dimensions[1].height = 45
     ws.freeze_panes = "C2"
     styles.landscape_fit_width(ws, title_rows="1:1", title_cols="A:B")
 
@@ -452,7 +479,6 @@ def _cost_sheet(ws, plan, fmt) -> None:
         cols.append(Column(f"{chem} life [years]", (lambda s, c=chem: best(s, c, "life_years")),
                            styles.ONE_DECIMAL, optional=True))
     kept, last = _write_table(ws, 1, 1, cols, _sites(plan))
-    ws.row_dimensions[1].height = 45
     sens = [s for s in plan.get("sensitivity") or [] if isinstance(s, Mapping)]
     if sens:
         left = len(kept) + 2
@@ -500,12 +526,13 @@ def _climate_sheet(ws, plan) -> None:
     top = 3 + chart_rows + 1
     cols = [Column("Site id", _key("id")), Column("Site name", _key("name")),
             Column("Climate", _key("climate"), optional=True), Column("Enclosure", _key("enclosure"), optional=True)]
-    cols += [Column(f"Air {m} [°C]", (lambda s, i=i: (_monthly(s, "air_mean_c") or [None] * 12)[i]),
+    monthly = {id(s): (_monthly(s, "air_mean_c") or [None] * 12) + (_monthly(s, "battery_mean_c") or [None] * 12)
+               for s in sites}
+    cols += [Column(f"Air {m} [°C]", (lambda s, i=i: monthly[id(s)][i]),
                     styles.TEMPERATURE, width=7) for i, m in enumerate(MONTH_ABBR)]
-    cols += [Column(f"Battery {m} [°C]", (lambda s, i=i: (_monthly(s, "battery_mean_c") or [None] * 12)[i]),
+    cols += [Column(f"Battery {m} [°C]", (lambda s, i=i: monthly[id(s)][12 + i]),
                     styles.TEMPERATURE, width=8) for i, m in enumerate(MONTH_ABBR)]
-    kept, last = _write_table(ws, top, 1, cols, sites)
-    ws.row_dimensions[top].height = 32
+    kept, last = _write_table(ws, top, 1, cols, sites, drop_empty=False)
     first_air = len(kept) - 23
     # Month labels for the chart categories, one row above the table header.
     for i, m in enumerate(MONTH_ABBR):
@@ -520,6 +547,7 @@ def _climate_sheet(ws, plan) -> None:
         charts.monthly_temperature_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}",
                                          categories=categories, series=series, anchor=anchor)
     ws.freeze_panes = f"C{top + 1}" if not reps else "A3"
+    _chart_page_breaks(ws, chart_rows, per_page=2)
     styles.landscape_fit_width(ws, title_rows=f"{top}:{top}")
 
 
@@ -610,6 +638,16 @@ def build_workbook(plan: Mapping) -> Workbook:
     _assumptions_sheet(assumptions, plan)
     _cautions_sheet(cautions, plan)
     return wb
+
+
+def _as_float_array(values) -> np.ndarray:
+    """A 1-D float array from a plan list; non-numbers become NaN (shown blank)."""
+    if not isinstance(values, list | tuple | np.ndarray):
+        return np.zeros(0)
+    try:
+        return np.asarray(values, dtype=float).ravel()
+    except (TypeError, ValueError):
+        return np.array([v if isinstance(cell_value(v), float | int) else np.nan for v in values], dtype=float)
 
 
 def _horizon_years(plan) -> int:
