@@ -325,15 +325,18 @@ def _read_plain_csv(path: Path, options: dict) -> RawSeries:
         raise InputError(f"option 'multi_year' is {multi_year!r}; expected 'typical-month', "
                          "'mean' or a calendar year such as 2019", source=where)
     delimiter = str(options.get("delimiter", ","))
+    if len(delimiter) != 1:
+        raise InputError(f"option 'delimiter' is {delimiter!r}; expected one character",
+                         source=where)
     try:
         frame = pd.read_csv(path, sep=delimiter, dtype=str, keep_default_na=False,
-                            skipinitialspace=True, engine="python")
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
-            csv_error_types()) as err:
-        raise InputError(f"is not a readable CSV table ({_first_line(err)}); expected a header "
-                         "row and one row per timestamp", source=where) from None
+                            skipinitialspace=True)
     except OSError as err:
         raise InputError(f"cannot be read ({err.strerror})", source=where) from None
+    except Exception as err:  # pandas raises several parser/decoding error types
+        raise InputError(f"is not a readable CSV table ({type(err).__name__}: "
+                         f"{_first_line(err)}); expected a header row and one row per "
+                         "timestamp", source=where) from None
     frame.columns = [str(c).strip() for c in frame.columns]
     if len(frame) == 0:
         raise InputError("has a header but no data rows; expected one row per timestamp",
@@ -370,12 +373,7 @@ def _read_plain_csv(path: Path, options: dict) -> RawSeries:
         multi_year=multi_year, **extra)
 
 
-def csv_error_types():
-    import csv
-    return csv.Error
-
-
-_OFFSET_RE = re.compile(r"(Z|[+-]\d\d:?\d\d)$")
+_OFFSET_RE = re.compile(r"(?:Z|[+-]\d\d:?\d\d)$")
 
 
 def _parse_times(col: pd.Series, time_format, rows, where) -> pd.DatetimeIndex:
@@ -720,7 +718,7 @@ def split_ghi(ghi_w_m2: np.ndarray, latitude_deg, longitude_deg, altitude_m, utc
     """
     import pvlib
     position = solar_geometry(latitude_deg, longitude_deg, altitude_m, utc_offset_h)
-    doy = position.index.dayofyear.to_numpy()
+    doy = position.index.day_of_year.to_numpy()
     parts = pvlib.irradiance.erbs(np.asarray(ghi_w_m2, float), position["zenith"].to_numpy(), doy)
     dni = np.nan_to_num(np.asarray(parts["dni"], float))
     dhi = np.nan_to_num(np.asarray(parts["dhi"], float))
