@@ -220,6 +220,23 @@ def _equation_of_time_min(day_of_year: np.ndarray) -> np.ndarray:
 
 # --------------------------------------------------------------------------- generator
 
+def _match_monthly_clearness(clear_day: np.ndarray, clear_energy_day: np.ndarray,
+                             clearness: np.ndarray, iterations: int = 8) -> np.ndarray:
+    """Rescale daily clearness so each month's GHI / clear-sky GHI equals the input.
+
+    The daily factors are capped at 1 (no day brighter than clear sky), which lowers
+    the monthly ratio of very clear climates; a few rescaling passes restore it.
+    """
+    out = clear_day.copy()
+    for _ in range(iterations):
+        energy = monthly_mean_of_days(out * clear_energy_day)
+        reference = monthly_mean_of_days(clear_energy_day)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            factor = np.where(reference > 0, clearness * reference / energy, 1.0)
+        out = np.clip(out * np.repeat(np.nan_to_num(factor, nan=1.0), _DAYS_IN_MONTH), 0.05, 1.0)
+    return out
+
+
 def generate_year(*, name: str, source: str, latitude_deg: float, longitude_deg: float,
                   altitude_m: float, utc_offset_h: float, tmax_c, tmin_c, clearness_frac,
                   wind_speed_m_s: float = 3.0, day_to_day_sd_k: float = 2.0,
@@ -289,7 +306,10 @@ def generate_year(*, name: str, source: str, latitude_deg: float, longitude_deg:
         min_nodes += err_min
 
     sky = clear_sky_ghi(latitude_deg, longitude_deg, altitude_m, utc_offset_h)
-    ghi = sky["ghi"].to_numpy() * np.repeat(clear_day, 24)
+    clear_ghi = sky["ghi"].to_numpy()
+    clear_day = _match_monthly_clearness(clear_day, clear_ghi.reshape(365, 24).sum(axis=1),
+                                         clearness)
+    ghi = clear_ghi * np.repeat(clear_day, 24)
     dni, dhi = split_ghi(ghi, latitude_deg, longitude_deg, altitude_m, utc_offset_h)
     return TypicalYear(
         name=name, source=source, latitude_deg=latitude_deg, longitude_deg=longitude_deg,
