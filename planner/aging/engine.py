@@ -42,6 +42,16 @@ _DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
 MONTH_START_H = np.concatenate([[0], np.cumsum(_DAYS_PER_MONTH)[:-1]]) * 24
 """Hour index at which each month of the typical year starts (leap day dropped)."""
 MONTH_OF_HOUR = np.repeat(np.arange(12), _DAYS_PER_MONTH * 24)
+_MONTH_START_YEAR_FRAC = MONTH_START_H / HOURS_PER_YEAR
+
+
+def row_years(rows):
+    """Elapsed years at rows of a monthly table (row 0 = start, row 12 y + m = y years + m months).
+
+    Months have their calendar lengths (31, 28, 31, ... days), as in the hourly year.
+    """
+    rows = np.asarray(rows)
+    return rows // 12 + _MONTH_START_YEAR_FRAC[rows % 12]
 
 _TEMP_TABLE_C = (-90.0, 110.0)
 _SOC_TABLE = (0.0, 1.5)
@@ -156,7 +166,8 @@ class FadeResult:
             above = soh_at(mid) > threshold_frac
             lo, hi = np.where(above, mid, lo), np.where(above, hi, mid)
         theta = np.where(reached & (first > 0), hi, np.where(reached, 0.0, 1.0))
-        years = np.where(reached, (prev + theta) / 12.0, np.inf)
+        t_prev, t_first = row_years(prev), row_years(first)
+        years = np.where(reached, t_prev + theta * (t_first - t_prev), np.inf)
         cal = loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
         cyc = loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
         return years, cal, cyc
@@ -169,7 +180,8 @@ class FadeResult:
 def years_to_soh(soh_monthly, threshold_frac: float) -> np.ndarray:
     """Years until the monthly SOH first reaches ``threshold_frac``, per lane.
 
-    Linear interpolation between the two month ends that bracket the threshold;
+    Linear interpolation between the two month ends that bracket the threshold (months
+    of calendar length, see :func:`row_years`);
     0 if the start is already at or below it; ``np.inf`` if never within the horizon.
 
     Parameters
@@ -193,8 +205,9 @@ def years_to_soh(soh_monthly, threshold_frac: float) -> np.ndarray:
     hi, lo = soh[prev, lanes], soh[first, lanes]
     span = hi - lo
     frac = np.where(span > 0, (hi - threshold_frac) / np.where(span > 0, span, 1.0), 0.0)
-    months = np.where(first == 0, 0.0, prev + frac)
-    out = np.where(reached, months / 12.0, np.inf)
+    t_prev = row_years(prev)
+    years = np.where(first == 0, 0.0, t_prev + frac * (row_years(first) - t_prev))
+    out = np.where(reached, years, np.inf)
     return float(out[0]) if one_d else out
 
 
