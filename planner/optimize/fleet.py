@@ -36,9 +36,12 @@ from planner.optimize.problem import (
     FleetProblem, FleetSolution, SiteOptions, SitePlan, Trip, Unserved,
 )
 from planner.optimize.schedule import COST_PARTS, SiteGraphs, build_graphs, trace_paths
-from planner.optimize.solver import gap, pick_solver, solve_milp
+from planner.optimize.solver import gap, highs_available, pick_solver, solve_milp
 
 _TOL = 1e-6
+# above this many arcs in the whole fleet, "auto" switches from the full path model to
+# column generation (measured: PuLP builds about 30,000 columns per second here)
+AUTO_COLUMNS_ABOVE_ARCS = 60_000
 
 
 @dataclass
@@ -217,44 +220,55 @@ def _fleet_rows(groups, h, crew, budget):
     return rows
 
 
+def _plans_and_trips(gr: SiteGraphs, site_idx, paths, y, region, month, trip_cost, rate):
+    """Site plans (with cost breakdown and trip shares) and trips of one trip group.
+
+    ``paths[i]`` is ``(pair, years, arcs, existing_arc)`` for site ``site_idx[i]`` of
+    ``gr``; ``y[t]`` the number of trips in year t. The mobilisation of a trip is shared
+    equally by the sites it serves.
+    """
+    plans, trips = [], []
+    visitors = {}
+    for i, (pair, years, arcs, e) in enumerate(paths):
+        for t in years:
+            visitors.setdefault(t, []).append(i)
+    share = {}
+    for t, members in sorted(visitors.items()):
+        count = max(1, int(round(y[t])))
+        mass = float(sum(gr.pair_cand[paths[i][0]].mass_kg for i in members))
+        cost = trip_cost * count
+        trips.append(Trip(region=region, year=int(t), month=int(month),
+                          site_ids=tuple(gr.sites[site_idx[i]].site_id for i in members), pack_count=len(members),
+                          pack_mass_kg=mass, count=count, cost=float(cost)))
+        share[t] = cost * float(ec.spv(rate, t)) / len(members)
+    for i, (pair, years, arcs, e) in enumerate(paths):
+        parts = {}
+        for k in COST_PARTS:
+            parts[k] = float(gr.arc_parts[k][list(arcs)].sum()) if arcs else 0.0
+            if e is not None:
+                parts[k] += float(gr.ex_parts[k][e])
+        parts["trips"] += float(sum(share[t] for t in years))
+        site = gr.sites[site_idx[i]]
+        plans.append(SitePlan(site_id=site.site_id, region=site.region,
+                              candidate=gr.pair_cand[pair] if pair >= 0 else None,
+                              replacement_years=tuple(years),
+                              replacement_months=tuple(int(month) for _ in years),
+                              cost=ec.CostBreakdown(**parts)))
+    return plans, trips
+
+
 def _decode(groups, x, col_off, rate):
-    """Site plans and trips from a solution vector of stacked groups."""
+    """Site plans and trips from a solution vector of stacked path-model groups."""
     plans, trips = [], []
     for gi, g in enumerate(groups):
         gr = g.graphs
-        h = gr.horizon_years
         n_arc, n_ex = gr.arc_pair.size, gr.ex_site.size
         xv = x[col_off[gi]:col_off[gi + 1]]
-        arc_on = xv[:n_arc] > 0.5
-        ex_on = xv[n_arc:n_arc + n_ex] > 0.5
-        y = np.rint(xv[n_arc + n_ex:]).astype(int)
-        paths = trace_paths(gr, arc_on, ex_on)
-        visitors = {}
-        for i, (pair, years, arcs, e) in enumerate(paths):
-            for t in years:
-                visitors.setdefault(t, []).append(i)
-        share = {}
-        for t, members in sorted(visitors.items()):
-            count = max(1, int(y[t]))
-            mass = float(sum(gr.pair_cand[paths[i][0]].mass_kg for i in members))
-            cost = g.trip_cost * count
-            trips.append(Trip(region=g.region, year=int(t), month=int(g.month),
-                              site_ids=tuple(gr.sites[i].site_id for i in members), pack_count=len(members),
-                              pack_mass_kg=mass, count=count, cost=float(cost)))
-            share[t] = cost * float(ec.spv(rate, t)) / len(members)
-        for i, (pair, years, arcs, e) in enumerate(paths):
-            parts = {k: 0.0 for k in COST_PARTS}
-            for k in COST_PARTS:
-                parts[k] += float(sum(gr.arc_parts[k][a] for a in arcs))
-                if e is not None:
-                    parts[k] += float(gr.ex_parts[k][e])
-            parts["trips"] += float(sum(share[t] for t in years))
-            site = gr.sites[i]
-            plans.append(SitePlan(site_id=site.site_id, region=site.region,
-                                  candidate=gr.pair_cand[pair] if pair >= 0 else None,
-                                  replacement_years=tuple(years),
-                                  replacement_months=tuple(int(g.month) for _ in years),
-                                  cost=ec.CostBreakdown(**parts)))
+        paths = trace_paths(gr, xv[:n_arc] > 0.5, xv[n_arc:n_arc + n_ex] > 0.5)
+        p, t = _plans_and_trips(gr, range(len(gr.sites)), paths, np.rint(xv[n_arc + n_ex:]),
+                                g.region, g.month, g.trip_cost, rate)
+        plans += p
+        trips += t
     return plans, trips
 
 
@@ -264,11 +278,13 @@ def _is_integral(x, mat) -> bool:
 
 def _solve_stack(groups, problem, fleet_limits: bool, time_limit_s: float, integer_flows: bool):
     h = int(problem.horizon_years)
+    t0 = time.perf_counter()
     mats = [_group_matrix(g, problem.discount_rate_frac, problem.payload_kg_per_trip, integer_flows)
             for g in groups]
     crew = problem.crew_site_visits_per_year if fleet_limits else None
     budget = problem.annual_budget if fleet_limits else None
     m = _stack(mats, _fleet_rows(groups, h, crew, budget))
+    matrix_seconds = time.perf_counter() - t0
     rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
                      solver=problem.solver, time_limit_s=time_limit_s, gap_rel_frac=problem.gap_rel_frac)
     if rep.values is not None and not integer_flows and not _is_integral(rep.values, m):
@@ -276,6 +292,7 @@ def _solve_stack(groups, problem, fleet_limits: bool, time_limit_s: float, integ
         m["integer"][:] = True
         rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
                          solver=problem.solver, time_limit_s=time_limit_s, gap_rel_frac=problem.gap_rel_frac)
+    rep.build_seconds += matrix_seconds
     return rep, m
 
 
@@ -318,6 +335,153 @@ def _annual_spend(problem, plans, trips) -> np.ndarray:
     return spend
 
 
+def _solve_columns(problem, served, cands, deadline):
+    """Column generation, then an integer problem over the generated schedules.
+
+    Each trip group is its own block unless fleet-wide limits couple them (then one
+    master holds every group and the crew / budget rows). Returns ``(status, bound,
+    plans, trips, decomposition, binding, build_seconds)``.
+    """
+    from planner.optimize.colgen import generate_columns
+
+    h = int(problem.horizon_years)
+    rate = float(problem.discount_rate_frac)
+    crew, budget = problem.crew_site_visits_per_year, problem.annual_budget
+    fleet_rows = crew is not None or budget is not None
+    tg = _trip_groups(served)
+    blocks = [list(range(len(tg)))] if fleet_rows else [[k] for k in range(len(tg))]
+    status = "optimal"
+    bound = 0.0
+    plans, trips = [], []
+    build_seconds = 0.0
+    rounds = n_cols = 0
+    converged = True
+    for bi, block in enumerate(blocks):
+        t_build = time.perf_counter()
+        sites = [served[i] for k in block for i in tg[k][2]]
+        site_group = np.concatenate([np.full(len(tg[k][2]), j) for j, k in enumerate(block)]).astype(np.int64)
+        gr = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
+                          residual_value=problem.residual_value)
+        trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in block])
+        is_open = np.array([tg[k][1] != 0 for k in block], dtype=bool)
+        build_seconds += time.perf_counter() - t_build
+        share = max(1.0, (deadline - time.perf_counter()) / (len(blocks) - bi))
+        mr = generate_columns(gr, site_group, trip_cost, is_open, rate=rate,
+                              payload_kg=problem.payload_kg_per_trip, crew=crew, budget=budget,
+                              time_limit_s=0.5 * share)
+        rounds = max(rounds, mr.iterations)
+        n_cols += len(mr.columns)
+        converged &= mr.converged
+        stuck = [k for k, v in mr.slack.items() if v > 1e-6]
+        if stuck and mr.converged:
+            names = {"crew_site_visits_per_year": f"crew limit of {crew} site visits per year",
+                     "annual_budget": f"annual budget of {budget}"}
+            text = "column generation with a joint master over all trip groups (fleet-wide limits)"
+            return ("infeasible", float("nan"), [], [], text, [f"{names[k]} cannot be met" for k in stuck],
+                    build_seconds)
+        bound += mr.lower_bound
+        m = _column_matrix(gr, mr.columns, np.arange(len(sites)), site_group, np.arange(len(block)),
+                           trip_cost, is_open, problem)
+        rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
+                         solver=problem.solver, time_limit_s=max(1.0, share - 0.5 * share),
+                         gap_rel_frac=problem.gap_rel_frac)
+        build_seconds += rep.build_seconds
+        if rep.values is None:
+            status = "infeasible" if rep.status == "infeasible" else "feasible"
+            bound = float("nan")
+            continue
+        if rep.status == "feasible" and status == "optimal":
+            status = "feasible"
+        cols = mr.columns
+        y = np.rint(rep.values[len(cols):]).reshape(len(block), h)
+        lam = rep.values[:len(cols)]
+        if fleet_rows or problem.payload_kg_per_trip is not None:
+            chosen = [cols[j] for j in np.nonzero(lam > 0.5)[0]]
+        else:
+            # trips fixed: every site takes its exact cheapest path over the trip years in
+            # its full time graph (never worse than the columns the integer step saw)
+            from planner.optimize.colgen import Pricer
+            blocked = np.where(y[site_group[gr.arc_site], gr.arc_t1] > 0.5, 0.0, np.inf)
+            _, chosen = Pricer(gr).price(blocked, np.zeros(gr.ex_cost.size), per_site=1)
+        for j, k in enumerate(block):
+            mine = [c for c in chosen if site_group[c.site] == j]
+            paths = [(c.pair, c.years, c.arcs, c.ex) for c in mine]
+            p, t = _plans_and_trips(gr, [c.site for c in mine], paths, y[j], tg[k][0], tg[k][1],
+                                    float(trip_cost[j]), rate)
+            plans += p
+            trips += t
+    how = ("joint master over all trip groups with the fleet-wide crew/budget rows" if fleet_rows
+           else f"one master per trip group ({len(tg)} groups, region x access month)")
+    text = (f"column generation (price-and-branch), {how}: up to {rounds} pricing rounds, {n_cols} schedules, "
+            f"{'converged' if converged else 'stopped early'}; bound = sum of Lagrangian bounds")
+    # the integer step may miss the true optimum by at most the gap: report that honestly
+    if status == "optimal":
+        objective = sum(p.present_cost for p in plans)
+        if gap(objective, bound) > problem.gap_rel_frac + 1e-12:
+            status = "feasible"
+    return status, bound, plans, trips, text, [], build_seconds
+
+
+def _column_matrix(gr, cols, bsites, site_group, block, trip_cost, is_open, problem):
+    """Integer problem over generated schedules: lambda (one per column) then y[k, t]."""
+    h = gr.horizon_years
+    n = len(cols)
+    rate = problem.discount_rate_frac
+    payload, crew, budget = problem.payload_kg_per_trip, problem.crew_site_visits_per_year, problem.annual_budget
+    local = {int(s): i for i, s in enumerate(bsites)}
+    kpos = {int(k): i for i, k in enumerate(block)}
+    nb = len(bsites)
+    r_visit = nb
+    r_pay = r_visit + nb * h
+    r_crew = r_pay + (len(block) * h if payload is not None else 0)
+    r_bud = r_crew + (h if crew is not None else 0)
+    n_rows = r_bud + (h if budget is not None else 0)
+    rows, cidx, vals = [], [], []
+    for j, c in enumerate(cols):  # a few columns per site
+        s = local[c.site]
+        k = kpos[int(site_group[c.site])]
+        mass = gr.pair_cand[c.pair].mass_kg if c.pair >= 0 else 0.0
+        rows.append(s); cidx.append(j); vals.append(1.0)
+        spend = np.zeros(h)
+        for a in c.arcs:
+            t1, t2 = int(gr.arc_t1[a]), int(gr.arc_t2[a])
+            rows.append(r_visit + s * h + t1); cidx.append(j); vals.append(1.0)
+            if payload is not None:
+                rows.append(r_pay + k * h + t1); cidx.append(j); vals.append(mass)
+            if crew is not None:
+                rows.append(r_crew + t1); cidx.append(j); vals.append(1.0)
+            spend[t1] += gr.arc_spend_t1[a]
+            if t2 < h:
+                spend[t2] += gr.arc_spend_t2[a]
+        if c.ex is not None and gr.ex_t[c.ex] < h:
+            spend[gr.ex_t[c.ex]] += gr.ex_spend[c.ex]
+        if budget is not None:
+            for t in np.nonzero(spend)[0]:
+                rows.append(r_bud + int(t)); cidx.append(j); vals.append(float(spend[t]))
+    y_cost, y_ub = [], []
+    for bi, k in enumerate(block):
+        members = [local[int(s)] for s in np.nonzero(site_group == k)[0]]
+        for t in range(h):
+            j = n + bi * h + t
+            for s in members:
+                rows.append(r_visit + s * h + t); cidx.append(j); vals.append(-1.0)
+            if payload is not None:
+                rows.append(r_pay + bi * h + t); cidx.append(j); vals.append(-float(payload))
+            if budget is not None:
+                rows.append(r_bud + t); cidx.append(j); vals.append(float(trip_cost[k]))
+            y_cost.append(float(trip_cost[k] * ec.spv(rate, t)))
+            y_ub.append(0.0 if not is_open[k] else (1.0 if payload is None else float(max(1, len(members)))))
+    lo = np.concatenate([np.ones(nb), np.full(n_rows - nb, -math.inf)])
+    hi = np.concatenate([np.ones(nb), np.zeros(r_crew - nb),
+                         np.full(r_bud - r_crew, float(crew or 0)), np.full(n_rows - r_bud, float(budget or 0))])
+    # without side rows a site's choice is integral once the trips are fixed (it picks its
+    # cheapest schedule among those visiting only trip years): only y need be integer
+    side = payload is not None or crew is not None or budget is not None
+    return dict(c=np.concatenate([[c.cost for c in cols], y_cost]), rows=np.array(rows), cols=np.array(cidx),
+                vals=np.array(vals), lo=lo, hi=hi, col_ub=np.concatenate([np.ones(n), y_ub]),
+                integer=np.concatenate([np.full(n, side), np.ones(len(y_cost), dtype=bool)]))
+
+
 def solve_fleet(problem: FleetProblem) -> FleetSolution:
     """Lowest present-cost design and replacement schedule for every site, and the trips.
 
@@ -349,13 +513,40 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         served.append(s)
         cands[s.site_id] = usable
 
+    method = (problem.method or "auto").lower()
+    if method not in ("auto", "path", "columns"):
+        raise InputError(f"method is {problem.method!r}, expected 'auto', 'path' or 'columns'",
+                         source="fleet problem")
+    if method == "auto":
+        arcs = sum(min(whole_years(c.life_years), h) * h for s in served for c in cands[s.site_id])
+        method = "columns" if arcs > AUTO_COLUMNS_ABOVE_ARCS and highs_available() else "path"
+    if method == "columns" and served:
+        deadline = t0 + float(problem.time_limit_s)
+        status, bound, plans, trips, decomposition, binding, build_seconds = _solve_columns(
+            problem, served, cands, deadline)
+        objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
+        if math.isfinite(objective) and math.isfinite(bound):
+            bound = min(bound, objective)
+        if unserved:
+            status = "infeasible"
+        trips.sort(key=lambda t: (t.year, t.region, t.month))
+        order = {s.site_id: i for i, s in enumerate(problem.sites)}
+        plans.sort(key=lambda p: order[p.site_id])
+        return FleetSolution(status=status, objective=objective, best_bound=bound,
+                             gap_frac=gap(objective, bound) if plans else float("nan"),
+                             solver_name=solver_name, seconds=time.perf_counter() - t0,
+                             decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
+                             binding_limits=binding, build_seconds=build_seconds)
+
     groups = []
+    t_build = time.perf_counter()
     for region, month, members in _trip_groups(served):
         sites = [served[i] for i in members]
         graphs = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
                               residual_value=problem.residual_value)
         groups.append(_Group(region, month, float(problem.trip_cost_by_region[region]), graphs))
 
+    build_seconds = time.perf_counter() - t_build
     status = "optimal"
     objective = bound = 0.0
     plans, trips = [], []
@@ -363,6 +554,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
     integer_flows = problem.payload_kg_per_trip is not None
     for g in groups:
         rep, m = _solve_stack([g], problem, False, max(1.0, deadline - time.perf_counter()), integer_flows)
+        build_seconds += rep.build_seconds
         if rep.values is None:
             status = "infeasible" if rep.status == "infeasible" else "feasible"
             bound = float("nan")
@@ -387,6 +579,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         else:
             relaxed_bound = bound
             rep, m = _solve_stack(groups, problem, True, max(1.0, deadline - time.perf_counter()), True)
+            build_seconds += rep.build_seconds
             decomposition = (f"joint model over {n_groups} trip group(s): the decomposed plan breaks the "
                              f"{' and the '.join(broken)}; bound = max(joint bound, sum of group optima)")
             if rep.values is None:
@@ -412,7 +605,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
                          gap_frac=gap(objective, bound) if plans else 0.0 if not unserved else float("nan"),
                          solver_name=solver_name, seconds=time.perf_counter() - t0,
                          decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
-                         binding_limits=binding)
+                         binding_limits=binding, build_seconds=build_seconds)
 
 
 def _diagnose(problem: FleetProblem, groups) -> list[str]:

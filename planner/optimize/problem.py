@@ -88,6 +88,9 @@ class FleetProblem:
     ``crew_site_visits_per_year`` and ``annual_budget`` (undiscounted spending per year)
     are fleet-wide limits; ``payload_kg_per_trip`` caps the pack mass one trip carries
     (a region may fly several trips in a year). ``solver`` is "highs", "cbc" or "auto".
+    ``method``: "path" (the full path model per trip group; exact), "columns" (column
+    generation then an integer problem over the generated schedules; for large fleets,
+    needs highspy) or "auto" (path while the model is small, columns above).
     """
 
     sites: tuple[SiteOptions, ...] | list[SiteOptions]
@@ -101,6 +104,7 @@ class FleetProblem:
     time_limit_s: float = 60.0
     gap_rel_frac: float = 0.005
     solver: str = "auto"
+    method: str = "auto"
 
 
 @dataclass(frozen=True)
@@ -168,6 +172,7 @@ class FleetSolution:
     trips: list[Trip] = field(default_factory=list)
     unserved: list[Unserved] = field(default_factory=list)
     binding_limits: list[str] = field(default_factory=list)
+    build_seconds: float = 0.0
 
     @property
     def total_present_cost(self) -> float:

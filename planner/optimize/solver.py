@@ -40,6 +40,7 @@ class SolveReport:
     solver_name: str
     seconds: float
     values: np.ndarray | None
+    build_seconds: float = 0.0
 
 
 def highs_available() -> bool:
@@ -132,8 +133,10 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
     prob, xs = _build_pulp(c, np.asarray(rows), np.asarray(cols), np.asarray(vals, dtype=float),
                            np.asarray(row_lo, dtype=float), np.asarray(row_hi, dtype=float),
                            np.asarray(col_ub, dtype=float), np.asarray(integer, dtype=bool))
+    build_seconds = time.perf_counter() - t0
     limit = max(1.0, float(time_limit_s))
     bound = float("nan")
+    text = ""
     with quiet_stdout():
         if name == "highs":
             prob.solve(pulp.HiGHS(msg=False, timeLimit=limit, gapRel=gap_rel_frac, threads=1))
@@ -157,15 +160,23 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
     seconds = time.perf_counter() - t0
     sol = prob.sol_status
     if sol in (pulp.LpSolutionInfeasible, pulp.LpSolutionUnbounded) or prob.status == pulp.LpStatusInfeasible:
-        return SolveReport("infeasible", float("nan"), float("nan"), float("inf"), name, seconds, None)
+        return SolveReport("infeasible", float("nan"), float("nan"), float("inf"), name, seconds, None,
+                           build_seconds)
     if sol not in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible):
-        return SolveReport("no_solution", float("nan"), float("nan"), float("inf"), name, seconds, None)
+        return SolveReport("no_solution", float("nan"), float("nan"), float("inf"), name, seconds, None,
+                           build_seconds)
     values = np.array([x.varValue if x.varValue is not None else 0.0 for x in xs])
     objective = float(c @ values) + offset
-    if not has_int or (not math.isfinite(bound) and sol == pulp.LpSolutionOptimal):
-        bound_total = objective  # an LP solved to optimality, or CBC proved optimality without a bound line
+    if not has_int:
+        bound_total = objective  # an LP solved to optimality
+    elif not math.isfinite(bound) and sol == pulp.LpSolutionOptimal:
+        # CBC writes no bound line when it stops optimal: a completed search proves the
+        # objective, a stop on the gap tolerance only proves objective minus that gap
+        proved = "Search completed" in text and "gap" not in text.split("Search completed")[-1][:80].lower()
+        bound_total = objective if proved else objective - gap_rel_frac * abs(objective)
     else:
         bound_total = (bound + offset) if math.isfinite(bound) else float("-inf")
     bound_total = min(bound_total, objective)
     status = "optimal" if sol == pulp.LpSolutionOptimal else "feasible"
-    return SolveReport(status, objective, bound_total, gap(objective, bound_total), name, seconds, values)
+    return SolveReport(status, objective, bound_total, gap(objective, bound_total), name, seconds, values,
+                       build_seconds)

@@ -1,0 +1,339 @@
+"""Column generation over site schedules for large fleets (price-and-branch).
+
+The master problem chooses one schedule (a column: design + replacement years) per
+site and the trips; the pricing problem finds, for every site at once, the cheapest
+path through its time graph (:mod:`planner.optimize.schedule`) with the master's dual
+prices added to each visit (a vectorised shortest path over years). This is the
+Dantzig-Wolfe form of the path model with the same LP bound (Desrosiers & Lübbecke
+2005, "A primer in column generation", in *Column Generation*, Springer, 1-32); the
+periodic-maintenance literature solves it the same way (Grigoriev, van de Klundert &
+Spieksma 2006, EJOR 172:1, 80-98). Fleet-wide crew and budget rows sit in the master,
+so their prices reach every site: this is the coupling master of the decomposition.
+
+The restricted master LP is re-solved warm in HiGHS directly (PuLP rebuilds a model on
+every solve); the final integer problem over the generated columns goes through PuLP
+(:func:`planner.optimize.solver.solve_milp`). Lower bound: the Lagrangian bound
+``z_LP + sum_s min(0, reduced cost_s)`` (Desrosiers & Lübbecke 2005, §2.1), valid at
+every iteration, so the reported gap is honest even when pricing stops early.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner import economics as ec
+from planner.optimize.schedule import SiteGraphs
+from planner.optimize.solver import quiet_stdout
+
+_NEG = 1e-7
+
+
+@dataclass
+class Column:
+    site: int
+    pair: int
+    arcs: tuple[int, ...]
+    ex: int | None
+    years: tuple[int, ...]
+    cost: float
+
+
+class Pricer:
+    """Shortest paths with dual prices for every site of a :class:`SiteGraphs`."""
+
+    def __init__(self, g: SiteGraphs):
+        self.g = g
+        h = g.horizon_years
+        self.h = h
+        n_pairs = len(g.pair_cand)
+        self.n_pairs = n_pairs
+        has_ex = np.array([s.existing is not None for s in g.sites], dtype=bool)
+        self.has_ex = has_ex
+        self.by_t1 = [np.nonzero(g.arc_t1 == t)[0] for t in range(h)]
+        self.arc_site = g.arc_site
+        ex_new = g.ex_pair >= 0
+        self.ex_new = np.nonzero(ex_new)[0]
+        self.ex_keep = np.nonzero(~ex_new)[0]
+        # sites own contiguous pair ranges (build order), used for per-site minima
+        self.site_first_pair = np.searchsorted(g.pair_site, np.arange(len(g.sites)))
+
+    def values(self, arc_extra: np.ndarray, ex_extra: np.ndarray):
+        """Shortest-path value per design (and per site's keep arc) with ``arc_extra`` /
+        ``ex_extra`` added to the arc costs; remembers predecessors for :meth:`column`."""
+        g, h = self.g, self.h
+        cost = g.arc_cost + arc_extra
+        best = np.full((self.n_pairs, h), np.inf)
+        pred = np.full((self.n_pairs, h), -1, dtype=np.int64)
+        new_sites = ~self.has_ex[g.pair_site]
+        best[new_sites, 0] = 0.0
+        if self.ex_new.size:
+            e = self.ex_new
+            val = g.ex_cost[e] + ex_extra[e]
+            flat = g.ex_pair[e] * h + g.ex_t[e]
+            np.minimum.at(best.reshape(-1), flat, val)
+            hit = val <= best.reshape(-1)[flat]
+            pred.reshape(-1)[flat[hit]] = -2 - e[hit]  # existing arc e encoded as -2 - e
+        final = np.full(self.n_pairs, np.inf)
+        final_arc = np.full(self.n_pairs, -1, dtype=np.int64)
+        for t in range(h):  # years of the horizon (about 20), each step vectorised over all arcs
+            a = self.by_t1[t]
+            if a.size == 0:
+                continue
+            p = g.arc_pair[a]
+            val = best[p, t] + cost[a]
+            t2 = g.arc_t2[a]
+            term = t2 == h
+            if term.any():
+                np.minimum.at(final, p[term], val[term])
+                hit = term & (val <= final[p])
+                final_arc[p[hit]] = a[hit]
+            inner = ~term
+            if inner.any():
+                flat = p[inner] * h + t2[inner]
+                np.minimum.at(best.reshape(-1), flat, val[inner])
+                hit = val[inner] <= best.reshape(-1)[flat]
+                pred.reshape(-1)[flat[hit]] = a[inner][hit]
+        n_sites = len(g.sites)
+        keep_val = np.full(n_sites, np.inf)
+        keep_arc = np.full(n_sites, -1, dtype=np.int64)
+        if self.ex_keep.size:
+            e = self.ex_keep
+            keep_val[g.ex_site[e]] = g.ex_cost[e] + ex_extra[e]
+            keep_arc[g.ex_site[e]] = e
+        self._last = (pred, final_arc)
+        return final, keep_val, keep_arc
+
+    def column(self, pair: int, site: int, keep_arc: int = -1) -> Column:
+        """Backtrack the cheapest path of design ``pair`` (or the keep arc) found by :meth:`values`."""
+        g = self.g
+        if pair < 0:
+            return Column(site, -1, (), keep_arc, (), float(g.ex_cost[keep_arc]))
+        pred, final_arc = self._last
+        arcs = [int(final_arc[pair])]
+        ex = None
+        while True:  # at most H steps back through the years
+            prev = int(pred[pair, int(g.arc_t1[arcs[-1]])])
+            if prev >= 0:
+                arcs.append(prev)
+            else:
+                if prev <= -2:
+                    ex = -2 - prev
+                break
+        arcs.reverse()
+        real = float(g.arc_cost[arcs].sum() + (g.ex_cost[ex] if ex is not None else 0.0))
+        return Column(site, pair, tuple(arcs), ex, tuple(int(g.arc_t1[a]) for a in arcs), real)
+
+    def price(self, arc_extra, ex_extra, sigma=None, per_site: int = 1, tol: float = 0.0):
+        """Up to ``per_site`` columns per site (distinct designs), cheapest first, whose
+        priced cost minus ``sigma`` is below ``-tol`` (all sites' best when sigma is None).
+
+        Returns ``(best priced value per site, columns)``.
+        """
+        g = self.g
+        final, keep_val, keep_arc = self.values(arc_extra, ex_extra)
+        n_sites = len(g.sites)
+        site_val = np.minimum(keep_val, np.inf)
+        if self.n_pairs:
+            np.minimum.at(site_val, g.pair_site, final)
+        limit = np.full(n_sites, np.inf) if sigma is None else sigma - tol
+        cols = []
+        # candidates: (site, value, pair) for every design path and keep arc under the limit
+        pair_ok = np.isfinite(final) & (final < limit[g.pair_site]) if self.n_pairs else np.zeros(0, bool)
+        pairs = np.nonzero(pair_ok)[0]
+        order = np.lexsort((final[pairs], g.pair_site[pairs]))
+        pairs = pairs[order]
+        taken = np.zeros(n_sites, dtype=np.int64)
+        keep_ok = np.isfinite(keep_val) & (keep_val < limit)
+        for s_ in np.nonzero(keep_ok)[0]:
+            cols.append(self.column(-1, int(s_), int(keep_arc[s_])))
+            taken[s_] += 1
+        for p in pairs:  # a few per site
+            s_ = int(g.pair_site[p])
+            if taken[s_] >= per_site:
+                continue
+            taken[s_] += 1
+            cols.append(self.column(int(p), s_))
+        return site_val, cols
+
+
+@dataclass
+class MasterResult:
+    columns: list[Column]
+    lower_bound: float
+    lp_objective: float
+    iterations: int
+    converged: bool
+    slack: dict[str, float]
+
+
+def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.ndarray,
+                     group_open: np.ndarray, *, rate: float, payload_kg: float | None,
+                     crew: float | None, budget: float | None, time_limit_s: float,
+                     max_iterations: int = 500, per_site: int = 3) -> MasterResult:
+    """Solve the LP master by column generation; return all columns and a lower bound.
+
+    ``site_group[s]`` is the trip group of site s; ``group_trip_cost[k]`` its trip cost;
+    ``group_open[k]`` False for groups that never travel (sites needing no visit).
+    """
+    import highspy
+
+    t_start = time.perf_counter()
+    h = g.horizon_years
+    n_sites = len(g.sites)
+    n_groups = len(group_trip_cost)
+    inf = highspy.kHighsInf
+    big = 1e3 * (1.0 + float(np.abs(g.arc_cost).sum() + np.abs(group_trip_cost).sum() * h))
+    pricer = Pricer(g)
+
+    # row layout: convexity [0, n) | visit (s, t) [n, n + n*h) | payload (k, t) | crew t | budget t
+    r_conv = 0
+    r_visit = n_sites
+    r_pay = r_visit + n_sites * h
+    n_pay = n_groups * h if payload_kg is not None else 0
+    r_crew = r_pay + n_pay
+    n_crew = h if crew is not None else 0
+    r_bud = r_crew + n_crew
+    n_bud = h if budget is not None else 0
+    n_rows = r_bud + n_bud
+    lo = np.concatenate([np.ones(n_sites), np.full(n_sites * h + n_pay + n_crew + n_bud, -inf)])
+    hi = np.concatenate([np.ones(n_sites), np.zeros(n_sites * h + n_pay),
+                         np.full(n_crew, float(crew or 0.0)), np.full(n_bud, float(budget or 0.0))])
+
+    with quiet_stdout():  # the banner is printed when the instance is created
+        hs = highspy.Highs()
+        hs.setOptionValue("output_flag", False)
+        hs.setOptionValue("threads", 1)
+        # re-solves after adding columns start from the last basis; presolve would discard it
+        hs.setOptionValue("presolve", "off")
+    hs.addRows(n_rows, lo, hi, 0, np.zeros(1, dtype=np.int32), np.zeros(0, dtype=np.int32), np.zeros(0))
+
+    # trip columns y[k, t]
+    ks, ts = np.meshgrid(np.arange(n_groups), np.arange(h), indexing="ij")
+    ks, ts = ks.ravel(), ts.ravel()
+    y_cost = group_trip_cost[ks] * ec.spv(rate, ts)
+    y_ub = np.where(group_open[ks], 1.0 if payload_kg is None else float(max(1, n_sites)), 0.0)
+    entries = []
+    for j, (k, t) in enumerate(zip(ks, ts)):  # one column per (group, year): G*H, small
+        members = np.nonzero(site_group == k)[0]
+        idx = list(r_visit + members * h + t)
+        val = [-1.0] * members.size
+        if payload_kg is not None:
+            idx.append(r_pay + k * h + t)
+            val.append(-float(payload_kg))
+        if budget is not None:
+            idx.append(r_bud + t)
+            val.append(float(group_trip_cost[k]))
+        entries.append((idx, val))
+    _add_cols(hs, y_cost, np.zeros(len(y_cost)), y_ub, entries)
+    n_fixed = len(y_cost)
+    # slack on fleet rows so the first masters are feasible; a slack left in the final
+    # LP means the fleet limits cannot be met
+    slack_rows = list(range(r_crew, r_crew + n_crew)) + list(range(r_bud, r_bud + n_bud))
+    _add_cols(hs, np.full(len(slack_rows), big), np.zeros(len(slack_rows)), np.full(len(slack_rows), inf),
+              [([r], [-1.0]) for r in slack_rows])
+    n_fixed += len(slack_rows)
+
+    columns: list[Column] = []
+
+    def column_entries(col: Column):
+        s = col.site
+        idx = [r_conv + s]
+        val = [1.0]
+        k = site_group[s]
+        mass = g.pair_cand[col.pair].mass_kg if col.pair >= 0 else 0.0
+        spend = np.zeros(h)
+        for a in col.arcs:
+            t1, t2 = int(g.arc_t1[a]), int(g.arc_t2[a])
+            idx.append(r_visit + s * h + t1)
+            val.append(1.0)
+            if payload_kg is not None:
+                idx.append(r_pay + k * h + t1)
+                val.append(mass)
+            if crew is not None:
+                idx.append(r_crew + t1)
+                val.append(1.0)
+            spend[t1] += g.arc_spend_t1[a]
+            if t2 < h:
+                spend[t2] += g.arc_spend_t2[a]
+        if col.ex is not None and g.ex_t[col.ex] < h:
+            spend[g.ex_t[col.ex]] += g.ex_spend[col.ex]
+        if budget is not None:
+            for t in np.nonzero(spend)[0]:
+                idx.append(r_bud + int(t))
+                val.append(float(spend[t]))
+        return idx, val
+
+    def add(cols):
+        cols = [c for c in cols if c is not None]
+        if cols:
+            _add_cols(hs, np.array([c.cost for c in cols]), np.zeros(len(cols)), np.full(len(cols), inf),
+                      [column_entries(c) for c in cols])
+            columns.extend(cols)
+
+    # start: each site's best schedule if it paid for its own trips
+    visit_price = np.zeros(g.arc_cost.size)
+    trip = group_trip_cost[site_group[g.arc_site]] * ec.spv(rate, g.arc_t1)
+    # and each design's best schedule with free trips, so every design starts in the master
+    _, first = pricer.price(visit_price + trip, np.zeros(g.ex_cost.size), per_site=per_site)
+    add(first)
+    _, free = pricer.price(visit_price, np.zeros(g.ex_cost.size), per_site=per_site)
+    add(free)
+    # sites with no schedule at all cannot be served (callers screen these out first)
+    lower = -math.inf
+    z = math.nan
+    converged = False
+    it = 0
+    for it in range(1, max_iterations + 1):
+        with quiet_stdout():
+            hs.run()
+        if hs.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+            return MasterResult(columns, -math.inf, math.nan, it, False, {})
+        z = float(hs.getInfo().objective_function_value)
+        dual = np.asarray(hs.getSolution().row_dual)
+        sigma = dual[r_conv:r_conv + n_sites]
+        vis = dual[r_visit:r_visit + n_sites * h].reshape(n_sites, h)
+        extra = -vis[g.arc_site, g.arc_t1]
+        if payload_kg is not None:
+            pay = dual[r_pay:r_pay + n_pay].reshape(n_groups, h)
+            extra -= pay[site_group[g.arc_site], g.arc_t1] * g.arc_mass_kg
+        ex_extra = np.zeros(g.ex_cost.size)
+        if crew is not None:
+            extra -= dual[r_crew + g.arc_t1]
+        if budget is not None:
+            bud = np.concatenate([dual[r_bud:r_bud + h], [0.0]])
+            extra -= bud[g.arc_t1] * g.arc_spend_t1 + bud[g.arc_t2] * g.arc_spend_t2
+            ex_extra -= bud[np.minimum(g.ex_t, h)] * g.ex_spend
+        scale = max(1.0, abs(z))
+        values, new = pricer.price(extra, ex_extra, sigma, per_site=per_site, tol=_NEG * scale)
+        rc = values - sigma
+        lower = max(lower, z + float(np.minimum(rc, 0.0).sum()))
+        if not new:
+            converged = True
+            break
+        add(new)
+        if time.perf_counter() - t_start > time_limit_s:
+            break
+    if converged:
+        lower = max(lower, z)
+    sol = np.asarray(hs.getSolution().col_value)[n_groups * h:n_fixed]
+    slack = {}
+    if n_crew:
+        slack["crew_site_visits_per_year"] = float(sol[:n_crew].sum())
+    if n_bud:
+        slack["annual_budget"] = float(sol[n_crew:].sum())
+    return MasterResult(columns, lower, z, it, converged, slack)
+
+
+def _add_cols(hs, cost, lower, upper, entries):
+    starts, index, value = [], [], []
+    for idx, val in entries:
+        starts.append(len(index))
+        index.extend(idx)
+        value.extend(val)
+    hs.addCols(len(cost), np.asarray(cost, dtype=float), np.asarray(lower, dtype=float),
+               np.asarray(upper, dtype=float), len(index), np.asarray(starts, dtype=np.int32),
+               np.asarray(index, dtype=np.int32), np.asarray(value, dtype=float))

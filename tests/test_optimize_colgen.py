@@ -1,0 +1,76 @@
+"""Column-generation path of the fleet optimizer (method="columns").
+
+Checks: the ORP vectors of research note §5.3 (computed with an independent MILP),
+and on random small fleets the sandwich bound <= brute-force optimum <= plan cost
+(Lagrangian bound of column generation, Desrosiers & Lübbecke 2005, §2.1).
+"""
+
+from dataclasses import replace
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+
+from planner.optimize import ExistingPack, FleetProblem, SiteOptions, solve_fleet
+
+from optimize_bruteforce import fleet_best
+from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
+
+
+def test_orp_vectors_by_columns():
+    two = [orp_site(1, 4, 1000), orp_site(2, 6, 1500)]
+    three = two + [orp_site(3, 5, 1200)]
+    # research note §5.3 (scipy.optimize.milp, computed): 15,000 / 17,400 / 14,047.42
+    assert solve_fleet(replace(orp(two, 0.0), method="columns")).objective == pytest.approx(15000.0)
+    assert solve_fleet(replace(orp(three, 0.0), method="columns")).objective == pytest.approx(17400.0)
+    sol = solve_fleet(replace(orp(three, 0.03), method="columns"))
+    assert sol.objective == pytest.approx(14047.42, abs=0.01)
+    assert "column generation" in sol.decomposition
+    assert sol.best_bound <= sol.objective + 1e-6
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(small_fleets())
+def test_columns_bound_and_plan_sandwich_the_optimum(prob):
+    # the reported bound is a true lower bound and the plan a true upper bound on the
+    # brute-force optimum; an "optimal" status keeps the plan within the requested gap
+    truth = fleet_best(prob)
+    sol = solve_fleet(replace(prob, method="columns", gap_rel_frac=1e-9))
+    tol = 1e-6 * max(1.0, abs(truth))
+    assert sol.best_bound <= truth + tol
+    assert sol.objective >= truth - tol
+    if sol.status == "optimal":
+        assert sol.objective <= truth + tol + 1e-9 * abs(truth)
+    assert sum(p.present_cost for p in sol.sites) == pytest.approx(sol.objective)
+
+
+def test_columns_with_crew_limit_uses_joint_master():
+    # four packs all due by year 2, crew of two site visits per year (same instance as
+    # the path-model test): the joint master must keep visits per year <= 2
+    sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 3, 1000)], existing=ExistingPack(2.0))
+             for i in range(4)]
+    prob = FleetProblem(sites, 4, 0.0, {"A": 500.0}, crew_site_visits_per_year=2, gap_rel_frac=1e-9)
+    cols = solve_fleet(replace(prob, method="columns"))
+    path = solve_fleet(replace(prob, method="path"))
+    assert "joint master" in cols.decomposition
+    per_year = {}
+    for p in cols.sites:
+        for t in p.replacement_years:
+            per_year[t] = per_year.get(t, 0) + 1
+    assert max(per_year.values()) <= 2
+    # brute-force-validated path model (tests/test_optimize_fleet.py) gives the optimum
+    assert cols.best_bound <= path.objective + 1e-6 <= cols.objective + 2e-6
+
+
+def test_columns_crew_infeasible():
+    sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 5, 1000)]) for i in range(3)]
+    sol = solve_fleet(FleetProblem(sites, 5, 0.0, {"A": 100.0}, crew_site_visits_per_year=2, method="columns"))
+    assert sol.status == "infeasible"
+    assert any("crew" in b for b in sol.binding_limits)
+
+
+def test_columns_payload_two_trips():
+    # two 60 kg packs, 100 kg payload -> two trips in year 0 (computed: 2*300 + 2*1000)
+    sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 5, 1000, mass=60.0)]) for i in range(2)]
+    sol = solve_fleet(FleetProblem(sites, 5, 0.0, {"A": 300.0}, payload_kg_per_trip=100.0, method="columns"))
+    assert sol.objective == pytest.approx(2600.0)
+    assert sol.trips[0].count == 2
