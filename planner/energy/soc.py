@@ -378,11 +378,14 @@ def _longest_low_days(soc_frac: np.ndarray, low_frac: np.ndarray) -> np.ndarray:
 def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     """The hourly recursion for lanes ``start:stop`` (Python loop over hours only).
 
-    Work is done in *stored* energy (Wh inside the pack): a terminal surplus ``x`` can
-    store at most ``eta_c * x``; a terminal deficit ``y`` needs ``y / eta_d`` from the
-    store. Site-level quantities (net power, cold block, efficiencies when they are the
-    same for every lane) are computed once per site column, then gathered to lanes.
-    ``keep`` is ``None`` (no series returned), ``slice(None)`` or local lane indices.
+    Work is done in *stored* energy (Wh inside the pack). Each hour the source offers the
+    store ``x = eta_c * surplus - deficit / eta_d`` (one of the two is zero), limited by
+    the charge acceptance ``c_max * C * eta_c``; the store moves to
+    ``clip(E + x, min(E, E_floor), E_max)``. A move cut short at the top is curtailed
+    charge; a move cut short at the floor is unserved load. Site-level quantities (net
+    power, the cold block, the efficiencies when every lane shares them) are computed once
+    per site column, then gathered to the lanes. ``keep`` is ``None`` (no series
+    returned), ``slice(None)`` or local lane indices.
     """
     k = stop - start
     n_hours = p["n_hours"]
@@ -401,11 +404,13 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
             h.bind(cols)
     m = k if inv is None else len(cols)
 
-    eta_c_site = eta_c[0] if k and _uniform(eta_c) else None
-    eta_d_site = eta_d[0] if k and _uniform(eta_d) else None
-    t_min_site = t_min[0] if k and _uniform(t_min) else None
     check_temp = bool(np.any(np.isfinite(t_min)))
+    # one chemistry per call is the usual case: then the efficiencies and the cold block
+    # are the same for every lane and are applied once per site column
+    site_level = k > 0 and _uniform(eta_c) and _uniform(eta_d) and \
+        (not check_temp or _uniform(t_min))
     with_sd = not sd.is_constant(0.0)
+    c_limited = bool(np.any(np.isfinite(p["c_max"][lane])))
 
     e_max = usable * cap
     e_floor = soc_min * cap
@@ -413,25 +418,24 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     a_max = np.minimum(p["c_max"][lane] * cap, 1e300) * eta_c   # stored Wh per hour
     e = np.minimum(p["soc0"][lane], usable) * cap
     e_start = e.copy()
-    # month ends (exclusive hour) where the running sums are snapshot for monthly figures
-    if n_hours == HOURS_PER_YEAR:
-        month_end = set(np.cumsum([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31]) * 24)
-    else:
-        month_end = {n_hours}
+    # without self-discharge or a cold floor the store never sits below the fixed floor
+    fixed_floor = avail is None and not with_sd and bool(np.all(e >= e_floor))
+    month_end = (set(np.cumsum([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31]) * 24)
+                 if n_hours == HOURS_PER_YEAR else {n_hours})
     snap_dr, snap_dfc = [], []
 
     # site-level work rows and accumulators
-    net_s, sur_s, dfc_s = np.empty(m), np.empty(m), np.empty(m)
+    net_s, sur_s, dfc_s, x_s = (np.empty(m) for _ in range(4))
     ok_s, flag_s = np.empty(m, dtype=bool), np.empty(m, dtype=bool)
     sum_sur_s, sum_dfc_s = np.zeros(m), np.zeros(m)
     blk_s = np.zeros(m, dtype=np.int64)
     # lane-level work rows and accumulators
-    sur, dfc, acc, dr, tmp = (np.empty(k) for _ in range(5))
+    sur, dfc, x, y, d, lo, tmp = (np.empty(k) for _ in range(7))
     ok, flag = np.empty(k, dtype=bool), np.empty(k, dtype=bool)
-    sum_acc, sum_dr, sum_sd = np.zeros(k), np.zeros(k), np.zeros(k)
+    sum_acc, sum_d, sum_sd = np.zeros(k), np.zeros(k), np.zeros(k)
     n_uns = np.zeros(k, dtype=np.int64)
     blk = np.zeros(k, dtype=np.int64)
-    # the hourly series of the whole chunk: summaries are taken from them in bulk
+    # the hourly series of the whole chunk: some summaries are taken from them in bulk
     soc_s = np.empty((n_hours, k), dtype=np.float32)
     flow_s = np.empty((n_hours, k), dtype=np.float32)
 
@@ -441,6 +445,17 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
             return out
         return np.take(site_row, inv, out=out)
 
+    def cold_block(surplus, temp_row, heater_row, limit, ok_buf, flag_buf, count):
+        np.greater_equal(temp_row, limit, out=ok_buf)
+        if heater_row is not None:
+            np.logical_or(ok_buf, heater_row, out=ok_buf)
+        np.greater(surplus, 0.0, out=flag_buf)
+        flag_buf &= ~ok_buf
+        count += flag_buf
+        surplus *= ok_buf
+
+    if fixed_floor:
+        lo[...] = e_floor
     for t in range(n_hours):
         # --- site level: the source serves the load first; the battery sees the net
         np.subtract(charge.row(t), load.row(t), out=net_s)
@@ -448,65 +463,55 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
         np.subtract(sur_s, net_s, out=dfc_s)
         sum_sur_s += sur_s
         sum_dfc_s += dfc_s
-        if check_temp and t_min_site is not None:
-            np.greater_equal(temp.row(t), t_min_site, out=ok_s)
-            if heater is not None:
-                np.logical_or(ok_s, heater.row(t), out=ok_s)
-            np.greater(sur_s, 0.0, out=flag_s)
-            flag_s &= ~ok_s
-            blk_s += flag_s
-            sur_s *= ok_s
-        if eta_c_site is not None:
-            sur_s *= eta_c_site
-        if eta_d_site is not None:
-            dfc_s /= eta_d_site
-        to_lanes(sur_s, sur)
-        to_lanes(dfc_s, dfc)
-        if eta_c_site is None:
-            sur *= eta_c
-        if eta_d_site is None:
+        if site_level:
+            if check_temp:
+                cold_block(sur_s, temp.row(t), None if heater is None else heater.row(t),
+                           t_min[0], ok_s, flag_s, blk_s)
+            np.multiply(sur_s, eta_c[0], out=x_s)
+            dfc_s /= eta_d[0]
+            x_s -= dfc_s
+            to_lanes(x_s, x)
+        else:
+            to_lanes(sur_s, sur)
+            to_lanes(dfc_s, dfc)
+            if check_temp:
+                heat = None if heater is None else to_lanes(heater.row(t), flag)
+                cold_block(sur, to_lanes(temp.row(t), tmp), heat, t_min, ok, flag, blk)
+            np.multiply(sur, eta_c, out=x)
             dfc /= eta_d
-        if check_temp and t_min_site is None:
-            np.greater_equal(to_lanes(temp.row(t), tmp), t_min, out=ok)
-            if heater is not None:
-                np.logical_or(ok, to_lanes(heater.row(t), flag), out=ok)
-            np.greater(sur, 0.0, out=flag)
-            flag &= ~ok
-            blk += flag
-            sur *= ok
+            x -= dfc
+        if c_limited:
+            np.minimum(x, a_max, out=x)
         # --- lane level: self-discharge over the hour
         if with_sd:
             np.multiply(e, to_lanes(sd.row(t), tmp), out=tmp)
             e -= tmp
             sum_sd += tmp
-        # charge: surplus, acceptance limit and room below the charge-voltage cap
-        np.subtract(e_max, e, out=acc)
-        np.minimum(acc, sur, out=acc)
-        np.minimum(acc, a_max, out=acc)
-        np.maximum(acc, 0.0, out=acc)
-        e += acc
-        sum_acc += acc
-        # discharge: deficit limited by the energy above the low-voltage disconnect
-        if avail is not None:
-            np.multiply(to_lanes(avail.row(t), tmp), dod_wh, out=tmp)
-            np.subtract(e, cap, out=dr)
-            dr += tmp                 # e - (C - f_avail * DOD * C)
-        else:
-            np.subtract(e, e_floor, out=dr)
-        np.minimum(dr, dfc, out=dr)
-        np.maximum(dr, 0.0, out=dr)
-        e -= dr
-        sum_dr += dr
-        np.less(dr, dfc, out=flag)
+        if not fixed_floor:
+            if avail is not None:
+                np.multiply(to_lanes(avail.row(t), tmp), dod_wh, out=tmp)
+                np.subtract(cap, tmp, out=lo)      # floor = C - f_avail (1 - soc_min) C
+                np.minimum(lo, e, out=lo)
+            else:
+                np.minimum(e_floor, e, out=lo)
+        np.add(e, x, out=y)
+        np.less(y, lo, out=flag)                   # the floor cut the hour short
         n_uns += flag
+        np.maximum(y, lo, out=y)
+        np.minimum(y, e_max, out=y)
+        np.subtract(y, e, out=d)
+        sum_d += d
+        np.maximum(d, 0.0, out=tmp)
+        sum_acc += tmp
+        e, y = y, e
         soc_s[t] = e
-        np.subtract(dr, acc, out=flow_s[t])
+        flow_s[t] = d
         if t + 1 in month_end:
-            snap_dr.append(sum_dr.copy())
+            snap_dr.append(sum_acc - sum_d)
             snap_dfc.append(sum_dfc_s.copy())
 
     return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, p["low"][lane], e,
-                         e_start, sum_acc, sum_dr, sum_sd, n_uns,
+                         e_start, sum_acc, sum_acc - sum_d, sum_sd, n_uns,
                          blk + (blk_s if inv is None else blk_s[inv]),
                          sum_sur_s if inv is None else sum_sur_s[inv],
                          sum_dfc_s if inv is None else sum_dfc_s[inv], soc_s, flow_s,
@@ -519,7 +524,7 @@ def _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns) -> np.ndarray:
     out = np.zeros((k, 12))
     if not snap_dr:
         return out
-    dr = np.stack(snap_dr, axis=1) * eta_d[:, None]          # delivered, cumulative
+    dr = np.stack(snap_dr, axis=1) * eta_d[:, None]          # delivered, cumulative (Wh)
     dfc = np.stack(snap_dfc, axis=1)
     dfc = dfc if inv is None else dfc[inv]
     cum = np.maximum(dfc - dr, 0.0)
@@ -543,19 +548,29 @@ def _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, low_frac, e, e_
     # unserved = deficit offered - energy delivered; exactly 0 when no hour fell short
     unserved = np.where(n_uns > 0, np.maximum(sum_deficit_wh - energy_out, 0.0), 0.0)
     curtailed = np.maximum(sum_surplus_wh - energy_in, 0.0)
-    # stored energy (Wh) -> SOC, stored flow -> terminal C-rate (discharge positive)
-    soc_s *= inv_c.astype(np.float32)
-    flow_s *= np.where(flow_s > 0, eta_d, 1.0 / eta_c).astype(np.float32)
-    flow_s *= inv_c.astype(np.float32)
+    # stored energy (Wh) -> SOC; stored change d -> terminal C-rate, discharge positive:
+    # charging d > 0 took d / eta_c at the terminals, discharging gave -d * eta_d
+    k = stop - start
+    inv_c32 = inv_c.astype(np.float32)
+    charge_f = (-1.0 / (eta_c * cap)).astype(np.float32)
+    discharge_f = (-eta_d / cap).astype(np.float32)
+    longest = np.zeros(k)
+    block = 1024   # bounds the temporaries to (n_hours, block)
+    for j in range(0, k, block):
+        c = slice(j, j + block)
+        soc_s[:, c] *= inv_c32[c]
+        f = flow_s[:, c]
+        f *= np.where(f > 0, charge_f[c], discharge_f[c])
+        longest[c] = _longest_low_days(soc_s[:, c], low_frac[c].astype(np.float32))
     summary = SocResult(
         equivalent_full_cycles_per_year=energy_out * inv_c * (HOURS_PER_YEAR / n_hours),
         mean_soc_frac=soc_s.mean(axis=0, dtype=np.float64),
         min_soc_frac=soc_s.min(axis=0).astype(np.float64),
         final_soc_frac=e * inv_c,
-        max_c_rate=np.abs(flow_s).max(axis=0).astype(np.float64),
+        max_c_rate=np.maximum(flow_s.max(axis=0), -flow_s.min(axis=0)).astype(np.float64),
         unserved_wh=unserved,
         unserved_hours=n_uns,
-        longest_low_soc_days=_longest_low_days(soc_s, low_frac.astype(np.float32)),
+        longest_low_soc_days=longest,
         energy_in_wh=energy_in,
         energy_out_wh=energy_out,
         losses_wh=losses,
