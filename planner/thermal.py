@@ -25,7 +25,7 @@ exactly: with e = exp(-dt/tau), tau = C/UA and T_eq = T_drive + Q/UA,
 (the solution of a linear first-order ODE with constant input). Thermostats choose
 the constant power, within their capacity, that brings the end-of-hour temperature
 to the setpoint. The year starts from its periodic state: the last hours of the year
-(ten time constants) are run first as a warm-up. Reported temperatures are hour means.
+(25 time constants) are run first as a warm-up. Reported temperatures are hour means.
 
 Everything is vectorised across sites: arrays are shaped (8760, n_sites) and the
 only Python loop runs over the 8,760 hours (:func:`simulate_lumped`).
@@ -54,6 +54,8 @@ ALBEDO_FRAC = 0.2
 #: Default electric power of a battery heater pad, W (from memory: pads for
 #: 100-200 Ah packs are typically 20-100 W).
 DEFAULT_HEATER_POWER_W = 50.0
+#: Warm-up length in time constants for the periodic start (e^-25 ~ 1e-11).
+WARM_UP_TAUS = 25.0
 
 
 @dataclasses.dataclass(frozen=True)
@@ -269,8 +271,9 @@ def simulate_lumped(temp_eq_c: np.ndarray, tau_h, *, ua_w_k=1.0, initial_c=None,
         Conductance, W/K (converts thermostat powers to temperature shifts).
     initial_c : float or (n,) array, optional
         Temperature at the start of hour 0. Default: the periodic state, from a warm-up
-        over the last ten time constants of the series (error below e^-10 of the
-        initial mismatch).
+        over the last 25 time constants of the series (error below e^-25, about 1e-11,
+        of the initial mismatch; for time constants above 350 h the whole series is
+        the warm-up and the error is e^(-hours/tau)).
     heater_setpoint_c, heat_setpoint_c : float or (n,) array, optional
         Thermostat setpoints of the battery heater and of HVAC heating (NaN = none).
     heater_max_w, heat_max_w, cool_max_w : float or (n,) array
@@ -328,7 +331,7 @@ def simulate_lumped(temp_eq_c: np.ndarray, tau_h, *, ua_w_k=1.0, initial_c=None,
         return end, mean, powers
 
     if initial_c is None:
-        warm = int(min(hours, np.ceil(10.0 * tau.max() / dt_h)))
+        warm = int(min(hours, np.ceil(WARM_UP_TAUS * tau.max() / dt_h)))
         state = temp_eq[hours - warm].copy()
         for k in range(hours - warm, hours):
             state, _, _ = step(state, temp_eq[k])
