@@ -1,0 +1,421 @@
+"""Tests for planner.report.workbook: the plan workbook read back against the plan.
+
+Expected values come from outside the writer: the plan dict itself and the JSON written
+by write_json (round trip), OWASP's spreadsheet-injection guidance, the OOXML chart parts
+(ECMA-376), and a real spreadsheet program (LibreOffice) when installed.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import shutil
+import subprocess
+import zipfile
+from xml.etree import ElementTree as ET
+
+import openpyxl
+import pandas as pd
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+from openpyxl.utils import range_boundaries
+
+from planner.report import SHEET_NAMES, neutralise_text, write_json, write_workbook
+from plan_fixture import make_plan
+
+N_SITES = 24  # more than the 20 fade charts, so the "most expensive 20" choice is exercised
+# Numbers in an xlsx keep 15-16 significant digits (Excel specifications and limits: number
+# precision 15 digits; openpyxl writes "%.16g"), so "equal" means within 1e-15 relative.
+XL = 1e-15
+HOSTILE = ('=HYPERLINK("x")', "+1+1")
+C = "{http://schemas.openxmlformats.org/drawingml/2006/chart}"
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("wb")
+    plan = make_plan(N_SITES, hostile_names=True, seed=7)
+    xlsx = write_workbook(plan, folder / "plan.xlsx")
+    js = json.loads(write_json(plan, folder / "plan.json").read_text(encoding="utf-8"))
+    return plan, xlsx, js
+
+
+def _table(ws, first_header: str):
+    """Locate a table by the text of its first header cell; return (headers, rows as dicts)."""
+    for row in ws.iter_rows(min_col=1, max_col=1):
+        if row[0].value == first_header:
+            top = row[0].row
+            break
+    else:
+        raise AssertionError(f"{first_header!r} not found on {ws.title}")
+    headers = [c.value for c in ws[top] if c.value is not None]
+    rows = []
+    for values in ws.iter_rows(min_row=top + 1, max_col=len(headers), values_only=True):
+        if values[0] is None:
+            break
+        rows.append(dict(zip(headers, values)))
+    return headers, rows
+
+
+def _unneutralise(text):
+    # The writer prefixes a quote to text starting with = + - @ tab CR (OWASP guidance).
+    return text[1:] if isinstance(text, str) and text[:1] == "'" and text[1:2] in "=+-@\t\r" else text
+
+
+def _years(text):
+    return [int(v) for v in str(text).split(",")] if text not in (None, "") else []
+
+
+def test_sheet_names(written):
+    _, xlsx, _ = written
+    assert openpyxl.load_workbook(xlsx).sheetnames == list(SHEET_NAMES)
+
+
+def test_summary_numbers_equal_plan_and_json(written):
+    # Round trip: every number on Summary equals the plan's value (written unrounded) and
+    # the JSON's (6 significant digits, so relative 5e-6).
+    plan, xlsx, js = written
+    ws = openpyxl.load_workbook(xlsx)["Summary"]
+    _, facts = _table(ws, "Item")
+    facts = {f["Item"]: f["Value"] for f in facts}
+    assert facts["Total present cost [EUR]"] == pytest.approx(plan["total_present_cost"], rel=XL)
+    assert facts["Total present cost [EUR]"] == pytest.approx(js["total_present_cost"], rel=5e-6)
+    assert facts["Optimality gap [%]"] == plan["solver"]["gap_frac"] == js["solver"]["gap_frac"]
+    assert facts["Real discount rate [%]"] == plan["study"]["discount_rate_frac"]
+    assert facts["Solve time [s]"] == plan["solver"]["seconds"]
+    assert facts["Solver status"] == plan["solver"]["status"]
+    assert facts["Sites planned"] == N_SITES
+
+    _, rows = _table(ws, "Site id")
+    assert len(rows) == N_SITES
+    for row, site, site_js in zip(rows, plan["sites"], js["sites"]):
+        assert row["Site id"] == site["id"]
+        assert _unneutralise(row["Site name"]) == site["name"]
+        assert row["Chemistry"] == site["chemistry"]
+        for header, key in (("Pack size [Wh]", "capacity_wh"), ("Capacity [Ah]", "capacity_ah"),
+                            ("Charge voltage [V]", "charge_voltage_v"), ("Life [years]", "life_years"),
+                            ("Life P10 [years]", "life_p10_years"), ("Present cost [EUR]", "present_cost")):
+            assert row[header] == pytest.approx(site[key], rel=XL), header
+            assert row[header] == pytest.approx(site_js[key], rel=5e-6), header
+        assert _years(row["Replacement years"]) == site["replacement_years"] == site_js["replacement_years"]
+
+    _, comp = _table_at(ws, "Chemistry")
+    for row, ref in zip(comp, plan["chemistry_comparison"]):
+        assert row["Chemistry"] == ref["chemistry"]
+        if ref["total_present_cost"] is None:  # no feasible plan with this chemistry: blank cell
+            assert row["Fleet present cost [EUR]"] is None
+        else:
+            assert row["Fleet present cost [EUR]"] == pytest.approx(ref["total_present_cost"], rel=XL)
+
+
+def _table_at(ws, header_text):
+    """Find a header cell anywhere (not only column A) and read the table to its right."""
+    for row in ws.iter_rows():
+        for cell in row:
+            if cell.value == header_text:
+                top, left = cell.row, cell.column
+                headers = []
+                col = left
+                while ws.cell(row=top, column=col).value is not None:
+                    headers.append(ws.cell(row=top, column=col).value)
+                    col += 1
+                rows = []
+                r = top + 1
+                while ws.cell(row=r, column=left).value is not None:
+                    rows.append({h: ws.cell(row=r, column=left + i).value for i, h in enumerate(headers)})
+                    r += 1
+                return headers, rows
+    raise AssertionError(header_text)
+
+
+# Sites sheet header -> plan key path (the test's own map of docs/plan-json.md).
+SITES_MAP = {
+    "Daily load [Wh/day]": ("daily_load_wh",), "Peak load [W]": ("load_peak_w",),
+    "Air mean [°C]": ("temperature", "air_mean_c"), "Air P99 [°C]": ("temperature", "air_p99_c"),
+    "Battery mean [°C]": ("temperature", "battery_mean_c"), "Battery P1 [°C]": ("temperature", "battery_p1_c"),
+    "Battery P99 [°C]": ("temperature", "battery_p99_c"),
+    "Hours above 45 °C [h/year]": ("temperature", "hours_above_45c"),
+    "Hours below 0 °C [h/year]": ("temperature", "hours_below_0c"),
+    "Effective temperature [°C]": ("temperature", "effective_temp_c"),
+    "Reference size 1x [Wh]": ("reference_capacity_wh",),
+    "Autonomy [days]": ("reference_factors", "autonomy_days"),
+    "Max depth of discharge [%]": ("reference_factors", "max_dod_frac"),
+    "Temperature factor [-]": ("reference_factors", "temperature_factor"),
+    "Aging factor [-]": ("reference_factors", "aging_factor"),
+    "Design margin [-]": ("reference_factors", "design_margin"),
+    "Design temperature [°C]": ("reference_factors", "design_temp_c"),
+    "Oversize factor [x]": ("oversize_factor",), "Charge voltage [V]": ("charge_voltage_v",),
+    "Charge voltage per cell [V]": ("charge_voltage_v_per_cell",), "System voltage [V]": ("system_voltage_v",),
+    "Pack size [Wh]": ("capacity_wh",), "Capacity [Ah]": ("capacity_ah",), "Pack mass [kg]": ("pack_mass_kg",),
+    "Life [years]": ("life_years",), "Life P10 [years]": ("life_p10_years",),
+    "Life P50 [years]": ("life_p50_years",), "Life P90 [years]": ("life_p90_years",),
+    "Unserved load [Wh/year]": ("unserved_wh_per_year",),
+    "Equivalent full cycles [1/year]": ("equivalent_full_cycles_per_year",),
+    "Present cost [EUR]": ("present_cost",), "Packs [EUR]": ("cost_breakdown", "packs"),
+    "Labour [EUR]": ("cost_breakdown", "labour"), "Trips share [EUR]": ("cost_breakdown", "trips"),
+    "Disposal [EUR]": ("cost_breakdown", "disposal"), "Residual value [EUR]": ("cost_breakdown", "residual"),
+    "Failure risk [EUR]": ("cost_breakdown", "failure_risk"),
+}
+SITES_TEXT = {"Site id": "id", "Region": "region", "Climate": "climate", "Enclosure": "enclosure",
+              "Charging source": "charging", "Chemistry": "chemistry", "Pack structure": "pack_structure",
+              "Limiting cause": "limiting_cause"}
+
+
+def _dig(d, path):
+    for k in path:
+        d = d[k]
+    return d
+
+
+def test_sites_sheet_every_number_equals_plan_and_json(written):
+    # Round trip through pandas (the reader a planner's scripts would use).
+    plan, xlsx, js = written
+    df = pd.read_excel(xlsx, sheet_name="Sites")
+    assert set(SITES_MAP) <= set(df.columns)
+    numeric = df.select_dtypes("number").columns
+    assert set(numeric) <= set(SITES_MAP), set(numeric) - set(SITES_MAP)  # no unmapped number
+    for i, site in enumerate(plan["sites"]):
+        for header, path in SITES_MAP.items():
+            assert df.loc[i, header] == pytest.approx(_dig(site, path), rel=XL), header
+            assert df.loc[i, header] == pytest.approx(_dig(js["sites"][i], path), rel=5e-6, abs=1e-12), header
+        for header, key in SITES_TEXT.items():
+            assert _unneutralise(df.loc[i, header]) == site[key], header
+        assert _years(df.loc[i, "Replacement years"]) == site["replacement_years"]
+
+
+def test_other_sheets_numbers_equal_json(written):
+    # Every other sheet read back with pandas, checked against the JSON plan.
+    _, xlsx, js = written
+    sheets = pd.read_excel(xlsx, sheet_name=None, header=None)
+    sites = {s["id"]: s for s in js["sites"]}
+
+    fade = pd.read_excel(xlsx, sheet_name="Fade by year")
+    chosen = fade[fade["Design"] == "chosen"].reset_index(drop=True)
+    for _, row in chosen.iterrows():
+        soh = sites[row["Site id"]]["soh_by_month"]
+        for year in range(js["study"]["horizon_years"] + 1):
+            assert row[f"SOH year {year} [%]"] == pytest.approx(soh[12 * year], rel=5e-6)
+        assert row["Lowest SOH [%]"] == pytest.approx(min(soh), rel=5e-6)
+    n_alts = sum(len(s["alternatives"]) for s in js["sites"])
+    assert len(fade) == len(js["sites"]) + n_alts
+
+    trips = pd.read_excel(xlsx, sheet_name="Trip list")
+    assert len(trips) == len(js["trips"])
+    by_key = {(t["year"], t["month"], t["region"]): t for t in js["trips"]}
+    months = ["Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec"]
+    for _, row in trips.iterrows():
+        trip = by_key[(row["Year"], months.index(row["Month"]) + 1, _unneutralise(row["Region"]))]
+        assert row["Trip cost [EUR]"] == pytest.approx(trip["cost"], rel=5e-6)
+        assert row["Pack mass [kg]"] == pytest.approx(trip["pack_mass_kg"], rel=5e-6)
+        assert row["Packs to carry"] == trip["pack_count"]
+        assert str(row["Site ids"]).split(", ") == trip["site_ids"]
+
+    grid = pd.read_excel(xlsx, sheet_name="Visit schedule")
+    for _, row in grid.iterrows():
+        site = sites[row["Site id"]]
+        for year, month in zip(site["replacement_years"], site["replacement_months"]):
+            assert row[f"Year {year}"] == months[month - 1]
+        visited = [c for c in grid.columns if c.startswith("Year ") and isinstance(row[c], str)]
+        assert len(visited) == len(site["replacement_years"])
+
+    cost = pd.read_excel(xlsx, sheet_name="Cost comparison")
+    for _, row in cost.iterrows():
+        site = sites[row["Site id"]]
+        assert row["Chosen present cost [EUR]"] == pytest.approx(site["present_cost"], rel=5e-6)
+        for alt in site["alternatives"]:
+            assert row[f"{alt['chemistry']} present cost [EUR]"] == pytest.approx(alt["present_cost"], rel=5e-6)
+            assert row[f"{alt['chemistry']} life [years]"] == pytest.approx(alt["life_years"], rel=5e-6)
+    sens = {r["Sensitivity case"]: r for _, r in cost.dropna(subset=["Sensitivity case"]).iterrows()}
+    for case in js["sensitivity"]:
+        assert sens[case["case"]]["Change [%]"] == pytest.approx(case["change_frac"], rel=5e-6)
+
+    ws = openpyxl.load_workbook(xlsx)["Climate"]
+    _, rows = _table(ws, "Site id")
+    for row in rows:
+        monthly = sites[row["Site id"]]["climate_monthly"]
+        for i, m in enumerate(months):
+            assert row[f"Air {m} [°C]"] == pytest.approx(monthly["air_mean_c"][i], rel=5e-6)
+            assert row[f"Battery {m} [°C]"] == pytest.approx(monthly["battery_mean_c"][i], rel=5e-6)
+    assert set(sheets) == set(SHEET_NAMES)
+
+
+def _series_ranges(chart_xml: bytes):
+    """The cell ranges each chart series draws from (c:val / c:yVal / c:xVal / c:cat)."""
+    root = ET.fromstring(chart_xml)
+    out = []
+    for ser in root.iter(f"{C}ser"):
+        refs = [f.text for tag in ("val", "yVal") for el in ser.iter(f"{C}{tag}") for f in el.iter(f"{C}f")]
+        out.append(refs)
+    return out
+
+
+def test_chart_parts_reference_non_empty_ranges(written):
+    # OOXML (ECMA-376 Part 1, §21.2): native charts live in xl/charts/chartN.xml and each
+    # series names its data range in a c:f formula. Every range must hold numbers.
+    plan, xlsx, _ = written
+    wb = openpyxl.load_workbook(xlsx)
+    with zipfile.ZipFile(xlsx) as zf:
+        charts = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
+        # 1 bar chart + 20 fade charts (20 most expensive of 24) + climate charts (<= 4).
+        assert 1 + 20 + 1 <= len(charts) <= 1 + 20 + 4
+        kinds = {"barChart": 0, "scatterChart": 0, "lineChart": 0}
+        for name in charts:
+            xml = zf.read(name)
+            root = ET.fromstring(xml)
+            for kind in kinds:
+                kinds[kind] += any(True for _ in root.iter(f"{C}{kind}"))
+            series = _series_ranges(xml)
+            assert series, name
+            for refs in series:
+                assert refs, name
+                for ref in refs:
+                    sheet, cells = ref.rsplit("!", 1)
+                    ws = wb[sheet.strip("'")]
+                    min_col, min_row, max_col, max_row = range_boundaries(cells.replace("$", ""))
+                    values = [c for row in ws.iter_rows(min_row=min_row, max_row=max_row, min_col=min_col,
+                                                        max_col=max_col, values_only=True) for c in row]
+                    assert any(isinstance(v, (int, float)) for v in values), (name, ref)
+        assert kinds["barChart"] == 1 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
+
+
+def test_fade_charts_are_the_most_expensive_sites(written):
+    plan, xlsx, _ = written
+    expected = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:20]
+    with zipfile.ZipFile(xlsx) as zf:
+        titles = " ".join(zf.read(n).decode() for n in zf.namelist() if n.startswith("xl/charts/chart"))
+    for site in expected:
+        assert site["id"] in titles
+
+
+def test_formula_injection_comes_back_as_text(written):
+    # OWASP "CSV Injection": cells starting with = + - @ tab CR must not be formulas.
+    plan, xlsx, _ = written
+    wb = openpyxl.load_workbook(xlsx)
+    found = {}
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
+                if isinstance(cell.value, str) and _unneutralise(cell.value) in (*HOSTILE, "-Demo Ridge"):
+                    assert cell.data_type == "s"
+                    assert cell.value.startswith("'")
+                    found[_unneutralise(cell.value)] = True
+    assert set(found) == {*HOSTILE, "-Demo Ridge"}
+    with zipfile.ZipFile(xlsx) as zf:
+        for name in zf.namelist():
+            if name.startswith("xl/worksheets/sheet"):
+                assert b"<f>" not in zf.read(name) and b"<f " not in zf.read(name), name
+
+
+@given(st.text(max_size=40))
+def test_neutralise_text_property(text):
+    # OWASP: a neutralised string never starts with a trigger and keeps the original text.
+    out = neutralise_text(text)
+    assert not out.startswith(("=", "+", "-", "@", "\t", "\r"))
+    clean = "".join(ch for ch in text if not (ord(ch) < 32 and ch not in "\t\n\r"))
+    assert out in (clean, "'" + clean)
+
+
+def test_interrupted_save_leaves_previous_workbook_identical(tmp_path, monkeypatch):
+    # Atomic replacement: a save that dies midway must not touch the earlier plan.
+    target = tmp_path / "plan.xlsx"
+    write_workbook(make_plan(2, seed=1), target)
+    before = target.read_bytes()
+
+    real_save = openpyxl.Workbook.save
+
+    def dying_save(self, filename):
+        real_save(self, filename)
+        with open(filename, "r+b") as fh:  # leave a truncated, broken file behind
+            fh.truncate(100)
+        raise RuntimeError("simulated crash during save")
+
+    monkeypatch.setattr(openpyxl.Workbook, "save", dying_save)
+    with pytest.raises(RuntimeError, match="simulated crash"):
+        write_workbook(make_plan(3, seed=2), target)
+    assert target.read_bytes() == before
+    assert os.listdir(tmp_path) == ["plan.xlsx"]
+
+
+def test_missing_optional_parts_are_left_out(tmp_path):
+    # docs/plan-json.md marks sensitivity, alternatives and P10/P90 as optional.
+    plan = make_plan(3, with_optional=False)
+    for site in plan["sites"]:
+        del site["pack_structure"], site["temperature"], site["climate_monthly"]
+    del plan["chemistry_comparison"], plan["assumptions"], plan["cautions"]
+    xlsx = write_workbook(plan, tmp_path / "lean.xlsx")
+    df = pd.read_excel(xlsx, sheet_name="Sites")
+    assert "Life P10 [years]" not in df.columns and "Pack structure" not in df.columns
+    assert "Battery P99 [°C]" not in df.columns
+    assert list(df["Present cost [EUR]"]) == pytest.approx([s["present_cost"] for s in plan["sites"]], rel=XL)
+    cost = pd.read_excel(xlsx, sheet_name="Cost comparison")
+    assert "Sensitivity case" not in cost.columns
+
+
+def test_nearly_empty_plan_still_writes(tmp_path):
+    xlsx = write_workbook({"sites": []}, tmp_path / "empty.xlsx")
+    wb = openpyxl.load_workbook(xlsx)
+    assert wb.sheetnames == list(SHEET_NAMES)
+    assert not wb["Sites"]["A2"].value
+
+
+def test_page_setup_landscape_fit_width_and_frozen_headers(written):
+    # Measured in ../shared/notes/ecosystem.md §3: charts are cut off in LibreOffice unless
+    # landscape + fit to width; crews print the visit schedule with repeated headers.
+    _, xlsx, _ = written
+    wb = openpyxl.load_workbook(xlsx)
+    for ws in wb.worksheets:
+        assert ws.page_setup.orientation == "landscape", ws.title
+        assert ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+        assert int(ws.page_setup.fitToHeight) == 0, ws.title
+        assert ws.freeze_panes, ws.title
+    for name in ("Visit schedule", "Trip list"):
+        assert wb[name].print_title_rows == "$1:$1" and wb[name].print_area
+        assert int(wb[name].page_setup.fitToWidth) == 1
+
+
+def test_number_formats_and_units(written):
+    _, xlsx, _ = written
+    ws = openpyxl.load_workbook(xlsx)["Sites"]
+    headers = {c.value: c.column for c in ws[1]}
+    assert ws.cell(row=2, column=headers["Present cost [EUR]"]).number_format == '#,##0 "EUR"'
+    assert ws.cell(row=2, column=headers["Max depth of discharge [%]"]).number_format == "0.0%"
+    assert ws.cell(row=2, column=headers["Battery mean [°C]"]).number_format == "0.0"
+
+
+def test_cautions_sheet_lists_standard_cautions_and_site_warnings(written):
+    plan, xlsx, _ = written
+    text = " ".join(str(c.value) for row in openpyxl.load_workbook(xlsx)["Cautions"].iter_rows() for c in row
+                    if c.value is not None)
+    # The usual cautions of the trade (issue 7; ../shared/notes/sizing-economics.md §7).
+    for needle in ("hydrogen", "thermal runaway", "0 °C", "UN 38.3", "lift", "arc", "NFPA 855", "IEC 62485-2",
+                   "IEC 62619", "licensed practice"):
+        assert needle.lower() in text.lower(), needle
+    for site in plan["sites"]:
+        for warning in site["warnings"]:
+            assert warning in text
+
+
+def test_target_folder_is_a_directory_error(tmp_path):
+    from planner.errors import InputError
+
+    with pytest.raises(InputError, match="folder"):
+        write_workbook(make_plan(1), tmp_path)
+
+
+@pytest.mark.skipif(shutil.which("soffice") is None, reason="LibreOffice (soffice) is not installed")
+def test_libreoffice_renders_pdf_and_keeps_names_literal(written, tmp_path):
+    # A real client: LibreOffice converts the workbook to PDF (non-empty) and its CSV
+    # export of Summary shows the hostile names as text, not evaluated (OWASP).
+    _, xlsx, _ = written
+    env = dict(os.environ, HOME=str(tmp_path))
+    subprocess.run(["soffice", "--headless", "--convert-to", "pdf", "--outdir", str(tmp_path), str(xlsx)],
+                   check=True, capture_output=True, timeout=180, env=env)
+    pdf = tmp_path / "plan.pdf"
+    assert pdf.stat().st_size > 1000 and pdf.read_bytes()[:5] == b"%PDF-"
+    subprocess.run(["soffice", "--headless", "--convert-to", "csv", "--outdir", str(tmp_path), str(xlsx)],
+                   check=True, capture_output=True, timeout=180, env=env)
+    csv_text = (tmp_path / "plan.csv").read_text(encoding="utf-8", errors="replace")
+    assert '=HYPERLINK(""x"")' in csv_text and "+1+1" in csv_text
