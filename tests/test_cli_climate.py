@@ -1,0 +1,114 @@
+"""``planner climate`` through click's CliRunner."""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+
+from planner.cli import cli
+from planner.climate import load_climate
+from planner.climate.summary import summarize_temperatures
+from planner.thermal import battery_temperature
+
+FIXED_KEYS = ("air_mean_c", "air_p99_c", "battery_mean_c", "battery_p1_c", "battery_p99_c",
+              "hours_above_45c", "hours_below_0c", "effective_temp_c")
+
+
+def run(*args):
+    return CliRunner().invoke(cli, list(args), catch_exceptions=False)
+
+
+def test_help_has_an_example():
+    result = run("climate", "--help")
+    assert result.exit_code == 0
+    assert "Example" in result.output and "planner climate hot-desert" in result.output
+
+
+def test_list_names_every_bundled_climate():
+    result = run("climate", "--list")
+    assert result.exit_code == 0
+    lines = result.output.strip().splitlines()
+    assert len(lines) >= 11   # issue 3: three pvlib years + eight archetypes
+    assert any(line.startswith("pvlib-miami ") for line in lines)
+    assert any(line.startswith("polar-coast ") for line in lines)
+
+
+def test_json_has_fixed_keys_and_matches_the_library():
+    result = run("climate", "hot-desert", "--enclosure", "cabinet-shade", "--json")
+    assert result.exit_code == 0
+    data = json.loads(result.output)
+    for key in FIXED_KEYS:
+        assert key in data
+    # The command reports what the library computes (same inputs, same functions).
+    year = load_climate("hot-desert")
+    expected = summarize_temperatures(year.temp_air_c,
+                                      battery_temperature(year, "cabinet-shade").temp_battery_c)
+    assert data["battery_p99_c"] == pytest.approx(expected.battery_p99_c, abs=1e-3)
+    assert data["hours_above_45c"] == expected.hours_above_45c
+    # Air statistics straight from numpy on the loaded year.
+    assert data["air_mean_c"] == pytest.approx(year.temp_air_c.mean(), abs=1e-3)
+
+
+def test_warming_shifts_air_mean():
+    base = json.loads(run("climate", "alpine", "--json").output)
+    warm = json.loads(run("climate", "alpine", "--json", "--warming-k", "2").output)
+    assert warm["air_mean_c"] - base["air_mean_c"] == pytest.approx(2.0, abs=2e-3)
+
+
+def test_text_summary():
+    result = run("climate", "pvlib-greensboro", "--enclosure", "vault")
+    assert result.exit_code == 0
+    assert "Arrhenius-effective battery temperature" in result.output
+    assert "Coldest month" in result.output
+
+
+def test_csv_written_atomically(tmp_path):
+    target = tmp_path / "out" / "hourly.csv"
+    result = run("climate", "polar-coast", "--csv", str(target), "--heater-setpoint-c", "0")
+    assert result.exit_code == 0
+    frame = pd.read_csv(target)
+    assert len(frame) == 8760
+    assert frame["time_start_local"].iloc[0].startswith("2023-01-01T00:00")
+    assert {"temp_air_c", "temp_battery_c", "heater_power_w", "hvac_power_w"} <= set(frame.columns)
+    assert frame["heater_power_w"].max() > 0       # a polar winter needs the heater
+    assert list(target.parent.iterdir()) == [target]   # no temporary file left behind
+
+
+def test_plain_csv_through_options(tmp_path):
+    times = pd.date_range("2023-01-01", periods=8760, freq="h").strftime("%Y-%m-%d %H:%M")
+    path = tmp_path / "logger.csv"
+    pd.DataFrame({"time": times, "t_f": np.full(8760, 50.0)}).to_csv(path, index=False)
+    result = run("climate", str(path), "--json", "--option", "temperature_unit=F",
+                 "--option", "timestamp_marks=start", "--option", "utc_offset_h=-7",
+                 "--option", "latitude_deg=35", "--option", "longitude_deg=-105",
+                 "--option", "temperature_column=t_f")
+    assert result.exit_code == 0, result.output
+    # 50 F = 10 C ((50 - 32) * 5 / 9).
+    assert json.loads(result.output)["air_mean_c"] == pytest.approx(10.0, abs=1e-3)
+
+
+@pytest.mark.parametrize("args, fragment", [
+    (("climate", "no-such-place"), "neither a bundled climate nor an existing file"),
+    (("climate",), "missing SOURCE"),
+    (("climate", "alpine", "--option", "oops"), "is not KEY=VALUE"),
+])
+def test_bad_input_exits_2_with_one_line(args, fragment):
+    result = CliRunner().invoke(cli, list(args))
+    assert result.exit_code == 2
+    assert fragment in result.output
+    assert "Traceback" not in result.output
+
+
+def test_unknown_enclosure_is_a_usage_error():
+    result = CliRunner().invoke(cli, ["climate", "alpine", "--enclosure", "tent"])
+    assert result.exit_code == 2 and "tent" in result.output
+
+
+def test_csv_missing_declaration(tmp_path):
+    path = tmp_path / "x.csv"
+    path.write_text("time,temp_air\n2023-01-01 00:00,1\n")
+    result = CliRunner().invoke(cli, ["climate", str(path)])
+    assert result.exit_code == 2
+    assert "option 'temperature_unit' is missing" in result.output
