@@ -53,6 +53,7 @@ __all__ = [
     "usable_string_capacity_frac",
     "scaled_loss_curve",
     "years_to_threshold",
+    "row_years",
     "life_distribution",
     "life_fields",
 ]
@@ -175,6 +176,10 @@ PARAMETER_SOURCES = {
         "D.P. DeWitt, Fundamentals of Heat and Mass Transfer, 6th ed., 2007, eq. 3.40)"
     ),
 }
+
+#: Equivalent time is followed up to this multiple of the input horizon (a cell
+#: ageing 4x faster than nominal on a square-root law); beyond, its loss stays flat.
+_EXTEND = 16
 
 #: Default Monte Carlo draws. P50 life is stable within 2 % between seeds at this
 #: count (tests/test_pack.py); P10/P90 within about 3 %.
@@ -450,11 +455,46 @@ def _interp_extend(loss, tau, z):
     return np.where(tau > n_m, beyond, inside)
 
 
-def years_to_threshold(soh, threshold_frac, *, axis=0):
-    """Years until a monthly SOH series first falls below a threshold.
+#: Year fraction at which each month of the typical year starts (31, 28, 31, ... days;
+#: leap day dropped, DEVELOPERS.md), the same month ends as the aging engine's tables.
+_DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+_MONTH_START_YEAR_FRAC = np.r_[0, np.cumsum(_DAYS_PER_MONTH)] / 365.0
 
-    Linear interpolation between the two months around the crossing; ``0`` if the
-    series starts below; ``inf`` if it never gets there.
+
+def row_years(rows):
+    """Elapsed years at (fractional) rows of a monthly table.
+
+    Row ``12 y + m`` is ``y`` years and ``m`` calendar months (of 31, 28, 31, ...
+    days); a fractional row lies linearly inside its month.
+    """
+    r = np.asarray(rows, dtype=float)
+    whole = np.floor(r)
+    frac = r - whole
+    m = (whole % 12).astype(int)
+    start = whole // 12 + _MONTH_START_YEAR_FRAC[m]
+    return start + frac * (_MONTH_START_YEAR_FRAC[m + 1] - _MONTH_START_YEAR_FRAC[m])
+
+
+def _crossing_rows(soh, thr):
+    """Fractional row where ``soh`` (rows on axis 0) first reaches ``thr`` (inf if never)."""
+    below = soh <= thr
+    hit = below.any(axis=0)
+    first = np.argmax(below, axis=0)
+    prev = np.maximum(first - 1, 0)
+    s_prev = np.take_along_axis(soh, prev[None], 0)[0]
+    s_hit = np.take_along_axis(soh, first[None], 0)[0]
+    drop = s_prev - s_hit
+    frac = np.where(drop > 0, (s_prev - thr) / np.where(drop > 0, drop, 1.0), 0.0)
+    rows = np.where(first == 0, 0.0, prev + np.clip(frac, 0.0, 1.0))
+    return np.where(hit, rows, np.inf)
+
+
+def years_to_threshold(soh, threshold_frac, *, axis=0):
+    """Years until a monthly SOH series first reaches a threshold.
+
+    Linear interpolation between the two months around the crossing (months of
+    calendar length, :func:`row_years`); ``0`` if the series starts at or below
+    it; ``inf`` if it never gets there.
 
     Parameters
     ----------
@@ -464,17 +504,8 @@ def years_to_threshold(soh, threshold_frac, *, axis=0):
         Threshold, broadcast against ``soh`` without the month axis.
     """
     s = np.moveaxis(np.asarray(soh, dtype=float), axis, 0)
-    thr = np.asarray(threshold_frac, dtype=float)
-    below = s < thr
-    hit = below.any(axis=0)
-    first = np.argmax(below, axis=0)
-    prev = np.maximum(first - 1, 0)
-    s_prev = np.take_along_axis(s, prev[None], 0)[0]
-    s_hit = np.take_along_axis(s, first[None], 0)[0]
-    drop = s_prev - s_hit
-    frac = np.where(drop > 0, (s_prev - thr) / np.where(drop > 0, drop, 1.0), 0.0)
-    months = np.where(first == 0, 0.0, prev + np.clip(frac, 0.0, 1.0))
-    return np.where(hit, months / 12.0, np.inf)
+    rows = _crossing_rows(s, np.asarray(threshold_frac, dtype=float))
+    return np.where(np.isfinite(rows), row_years(np.where(np.isfinite(rows), rows, 0.0)), np.inf)
 
 
 # ---------------------------------------------------------------------------
@@ -567,6 +598,7 @@ def life_distribution(
     rate_spread_frac=SPREAD_PRESETS["one-lot"].rate_spread_frac,
     inner_delta_k=1.0,
     activation_energy_j_mol=50e3,
+    cycle_activation_energy_j_mol=None,
     reference_temp_c=25.0,
     parallel_imbalance_frac=0.1,
     balancing="passive",
@@ -604,7 +636,10 @@ def life_distribution(
     inner_delta_k : float
         Centre cell of a row runs this much warmer than the end cells [K].
     activation_energy_j_mol : float or array_like (n_sites,)
-        Ea of the chemistry's fade laws [J/mol], for temperature offsets.
+        Ea of the chemistry's calendar law [J/mol], for temperature offsets.
+    cycle_activation_energy_j_mol : float or array_like (n_sites,), optional
+        Ea of the cycle law [J/mol]; default: the calendar one. For a halving rule
+        with step dT use ``R * T_ref * (T_ref + dT) * ln 2 / dT``.
     reference_temp_c : float or array_like (n_sites,)
         Battery temperature the nominal curves stand for [degC] (e.g. the site's
         Arrhenius-effective battery temperature).
@@ -693,7 +728,9 @@ def life_distribution(
     eol = np.asarray(eol_soh_frac, dtype=float).reshape(-1)
     t_ref = np.asarray(reference_temp_c, dtype=float).reshape(-1)
     ea = np.asarray(activation_energy_j_mol, dtype=float).reshape(-1)
-    widths |= {eol.size, t_ref.size, ea.size}
+    ea_cyc = ea if cycle_activation_energy_j_mol is None else \
+        np.asarray(cycle_activation_energy_j_mol, dtype=float).reshape(-1)
+    widths |= {eol.size, t_ref.size, ea.size, ea_cyc.size}
     widths.discard(1)
     if len(widths) > 1:
         raise InputError(f"site count: found inconsistent site counts {sorted(widths)} among curves, "
@@ -704,12 +741,14 @@ def life_distribution(
         raise InputError(f"eol_soh_frac: found {eol_soh_frac!r}, expected fractions in (0, 1.5)", source="life")
     if np.any(t_ref < -80) or np.any(t_ref > 120):
         raise InputError(f"reference_temp_c: found {reference_temp_c!r}, expected -80..120 degC", source="life")
-    if np.any(~(ea >= 0)):
-        raise InputError(f"activation_energy_j_mol: found {activation_energy_j_mol!r}, expected >= 0",
-                         source="life")
+    if np.any(~(ea >= 0)) or np.any(~(ea_cyc >= 0)):
+        raise InputError(f"activation_energy_j_mol: found {activation_energy_j_mol!r} (cycle "
+                         f"{cycle_activation_energy_j_mol!r}), expected >= 0 J/mol", source="life")
     eol = np.broadcast_to(eol, (n_sites,))
     t_ref = np.broadcast_to(t_ref, (n_sites,))
+    same_ea = cycle_activation_energy_j_mol is None
     ea = np.broadcast_to(ea, (n_sites,))
+    ea_cyc = ea if same_ea else np.broadcast_to(ea_cyc, (n_sites,))
 
     # (K, M+1, S) float32 curves; model set of draw d is d mod K (evenly spread).
     k_sets = len(pairs)
@@ -720,7 +759,7 @@ def life_distribution(
     params = dict(
         n_s=n_s, n_p=n_p, sig_c=sig_c, sig_r=sig_r, sig_k=sig_k, theta=theta, g_res=g_res,
         kappa=kappa, sig_u0=sig_u0, sig_du=sig_du, eta=eta, z_cal=z_cal, z_cyc=z_cyc,
-        balancing=balancing, step=step,
+        balancing=balancing, step=step, same_ea=same_ea,
         grad_k=inner_temperature_offsets_k(n_s, d_in),
         share=string_current_shares(n_p, imb),
     )
@@ -731,10 +770,13 @@ def life_distribution(
     out_years = np.empty((n_sites, n_draws))
     soh_q = np.empty((3, n_mp1, n_sites))
     per_chunk = max(1, int(chunk_elements) // (n_draws * n_s * n_p))
+    # The gather tables hold (horizon x extension) months per site and set: bound them.
+    per_chunk = min(per_chunk, max(1, 1_000_000 // (k_sets * (n_months * _EXTEND + 2))))
     for s0 in range(0, n_sites, per_chunk):
         sl = slice(s0, min(n_sites, s0 + per_chunk))
         years, q = _simulate_chunk(
-            cal_k[:, :, sl], cyc_k[:, :, sl], set_of_draw, eol[sl], t_ref[sl], ea[sl], rngs, params)
+            cal_k[:, :, sl], cyc_k[:, :, sl], set_of_draw, eol[sl], t_ref[sl], ea[sl],
+            ea[sl] if same_ea else ea_cyc[sl], rngs, params)
         out_years[sl] = years
         soh_q[:, :, sl] = q
 
@@ -766,191 +808,214 @@ def life_distribution(
     )
 
 
-def _simulate_chunk(cal_k, cyc_k, set_of_draw, eol, t_ref_c, ea, rngs, p):
-    """Monte Carlo for a chunk of sites; returns years (S, D) and SOH quantiles (3, M+1, S)."""
-    n_sets, n_mp1, n_sites = cal_k.shape
-    n_months = n_mp1 - 1
+def _simulate_chunk(cal_k, cyc_k, set_of_draw, eol, t_ref_c, ea_cal, ea_cyc, rngs, p):
+    """Monte Carlo for a chunk of sites; returns years (S, D) and SOH bands (3, M+1, S)."""
+    n_sites = cal_k.shape[2]
     n_draws = set_of_draw.size
-    n_s, n_p = p["n_s"], p["n_p"]
-    n_cells = n_s * n_p
-    f32 = np.float32
-    shape = (n_sites, n_draws, n_cells)
+    cells = _draw_cells(rngs, n_sites, n_draws, p)
+    stress_cal = _log_stress(cells, t_ref_c, ea_cal, p)
+    stress = [stress_cal, stress_cal if p["same_ea"] else _log_stress(cells, t_ref_c, ea_cyc, p)]
+    marks = np.unique(np.r_[np.arange(0, cal_k.shape[1] - 1, p["step"]), cal_k.shape[1] - 1])
+    soh_marks = _age_cells(cal_k, cyc_k, set_of_draw, cells, stress, marks, p)
+    soh_nom_k = np.float32(1.0) - (cal_k + cyc_k)  # (K, M+1, S)
+    bands = _soh_bands(soh_marks, marks, soh_nom_k)
+    years = _years_between_marks(soh_marks, marks, soh_nom_k, set_of_draw, eol)
+    return years, bands
 
-    def draws_of(q):
-        # One stream per (quantity, cell): nested across pack sizes, chunk-independent.
+
+def _draw_cells(rngs, n_sites, n_draws, p):
+    """Per-cell draws, each (S, D, N) float32; one stream per (quantity, cell)."""
+    f32 = np.float32
+
+    def normal(q):
+        # Streams are nested across pack sizes and independent of the chunking.
         return np.stack([g.standard_normal((n_sites, n_draws), dtype=f32) for g in rngs[q]], axis=-1)
 
-    def lognormal(cv, z):
-        s = math.sqrt(math.log1p(cv * cv))
-        return np.exp(f32(s) * z) if cv > 0 else np.ones(shape, f32)
+    def log_sigma(cv):
+        # Log-normal with median 1 and coefficient of variation cv.
+        return f32(math.sqrt(math.log1p(cv * cv)))
 
-    c0 = np.maximum(f32(1.0) + f32(p["sig_c"]) * draws_of("capacity"), f32(0.05))
-    r0 = lognormal(p["sig_r"], draws_of("resistance"))
-    k_rate = lognormal(p["sig_k"], draws_of("rate"))
+    cells = {
+        "c0": np.maximum(f32(1.0) + f32(p["sig_c"]) * normal("capacity"), f32(0.05)),
+        "r0": np.exp(log_sigma(p["sig_r"]) * normal("resistance")),
+        "log_k": log_sigma(p["sig_k"]) * normal("rate"),
+    }
     if p["balancing"] == "none":
-        u0 = f32(p["sig_u0"]) * draws_of("soc0")
-        du = f32(p["sig_du"] / 12.0) * draws_of("drift")
-    # Cells are ordered string by string: cell j is position j % n_s of string j // n_s.
-    grad = np.tile(p["grad_k"], n_p).astype(f32)
-    share = np.repeat(p["share"], n_s).astype(f32)
+        cells["u0"] = f32(p["sig_u0"]) * normal("soc0")
+        cells["du"] = f32(p["sig_du"] / 12.0) * normal("drift")
+    return cells
 
-    # Per-site constants (S, 1, 1) and static per-cell temperatures (S, 1, N) [K].
+
+def _log_stress(cells, t_ref_c, ea, p):
+    """Log stress coefficient ``x = x_static + x_heat * h`` of each cell, one mechanism.
+
+    ``h`` is the cell's resistance relative to the nominal cell's (grows with its
+    own loss). Gradient: exact Arrhenius at the cell's static temperature T_s;
+    self-heating ``theta * r * l**2`` (a fraction of a kelvin) to first order in
+    1/T around T_s: ``d(-Ea/RT) = Ea/R * dT / T_s**2``.
+    """
+    f32 = np.float32
+    grad = np.tile(p["grad_k"], p["n_p"]).astype(f32)
+    share = np.repeat(p["share"], p["n_s"]).astype(f32)
+    theta = f32(p["theta"])
     t_ref = (t_ref_c + 273.15).astype(f32)[:, None, None]
     ea_r = (ea / GAS_CONSTANT_J_MOL_K).astype(f32)[:, None, None]
-    inv_t_ref = f32(1.0) / t_ref
-    theta, g_res = f32(p["theta"]), f32(p["g_res"])
-    t_static = t_ref + grad - theta  # heat term added below is theta * r * l**2
-    heat_gain = theta * r0 * (share * share)  # (S, D, N): theta * r0 * l**2
+    t_s = t_ref + grad  # (S, 1, N)
+    a_heat = ea_r / (t_s * t_s)
+    x_static = ea_r * (f32(1.0) / t_ref - f32(1.0) / t_s) + cells["log_k"] - a_heat * theta
+    x_heat = (a_heat * theta) * cells["r0"] * (share * share)
+    return x_static, x_heat
 
-    # Gather tables: (set, month, site) -> flat row (k*(M+2)+m)*S + s, holding the loss
-    # and the slope to the next month as one complex64 (one random access per read).
-    # A padded month M+1 with zero slope makes tau = M exact.
-    def table(curves):
-        loss_pad = np.concatenate([curves, curves[:, -1:]], axis=1)
-        slope = np.diff(loss_pad, axis=1, append=loss_pad[:, -1:])
-        return (loss_pad + 1j * slope).astype(np.complex64).reshape(-1)
 
-    n_rows = n_mp1 + 1
-    base = (set_of_draw[None, :] * (n_rows * n_sites) + np.arange(n_sites)[:, None]).astype(np.int32)
-    base3 = base[:, :, None]
-    cal_tab, cyc_tab = table(cal_k), table(cyc_k)
-    soh_nom_k = f32(1.0) - (cal_k + cyc_k)  # (K, M+1, S)
+def _gather_table(curves, z):
+    """Loss and slope to the next month as complex64, flat over (set, month, site).
+
+    Beyond the input horizon the curve continues as its ``t**z`` law (notes 6.1)
+    up to ``_EXTEND`` x the horizon, then stays flat (a last row with zero slope).
+    """
+    n_months = curves.shape[1] - 1
+    months_ext = np.arange(n_months + 1, n_months * _EXTEND + 1) / n_months
+    ext = curves[:, -1:, :] * (months_ext ** z)[None, :, None]
+    loss_pad = np.concatenate([curves, ext, ext[:, -1:]], axis=1)
+    slope = np.diff(loss_pad, axis=1, append=loss_pad[:, -1:])
+    return (loss_pad + 1j * slope).astype(np.complex64).reshape(-1)
+
+
+def _age_cells(cal_k, cyc_k, set_of_draw, cells, stress, marks, p):
+    """Step every cell's equivalent times from mark to mark; pack SOH at the marks."""
+    f32 = np.float32
+    n_sets, n_mp1, n_sites = cal_k.shape
+    n_draws = set_of_draw.size
+    n_s, n_p = p["n_s"], p["n_p"]
+    shape = (n_sites, n_draws, n_s * n_p)
+    cells4 = (n_sites, n_draws, n_p, n_s)
+    rows = (n_mp1 - 1) * _EXTEND + 2
+    tabs = (_gather_table(cal_k, p["z_cal"]), _gather_table(cyc_k, p["z_cyc"]))
+    base = (set_of_draw[None, :] * (rows * n_sites) + np.arange(n_sites)[:, None]).astype(np.int32)
+    base = base[:, :, None]
     loss_nom_draw = (cal_k + cyc_k)[set_of_draw]  # (D, M+1, S)
+    i_last, s32 = np.int32(rows - 1), np.int32(n_sites)
+    share_dt = np.repeat(p["share"], n_s).astype(f32)
 
-    def read(tab, tau, z):
-        i = np.minimum(tau.astype(np.int32), np.int32(n_months))
+    def read(tab, tau):
+        # Linear interpolation in the nominal curve at equivalent time tau [months].
+        i = tau.astype(np.int32)
+        np.minimum(i, i_last, out=i)
         f = tau - i
-        i *= np.int32(n_sites)
-        i += base3
+        i *= s32
+        i += base
         g = np.take(tab, i)
         f *= g.imag
         f += g.real
-        over = tau > n_months
-        if over.any():
-            # Beyond the input horizon the curve continues as its t**z law (notes 6.1).
-            last = np.take(tab, base3 + n_months * n_sites).real
-            beyond = last * (np.maximum(tau, f32(n_months)) / f32(n_months)) ** f32(z)
-            f = np.where(over, beyond, f)
         return f
 
-    tau_cal = np.zeros(shape, f32)
-    tau_cyc = np.zeros(shape, f32)
-    loss = read(cal_tab, tau_cal, p["z_cal"]) + read(cyc_tab, tau_cyc, p["z_cyc"])
-    marks = np.unique(np.r_[np.arange(0, n_months, p["step"]), n_months])
-    soh_marks = np.empty((marks.size, n_sites, n_draws), f32)
-    cells4 = (n_sites, n_draws, n_p, n_s)
-
-    def pack_soh(cap, months):
+    def pack_soh(cap, month):
         u = None
         if p["balancing"] == "none":
-            u = (u0 + du * f32(months)).reshape(cells4)
+            u = (cells["u0"] + cells["du"] * f32(month)).reshape(cells4)
         usable = usable_string_capacity_frac(cap.reshape(cells4), u, balancing=p["balancing"],
                                              active_recovery_frac=p["eta"])
         return usable.sum(-1) / f32(n_p)
 
-    inv_zc, inv_zy = 1.0 / p["z_cal"], 1.0 / p["z_cyc"]
-    kappa = p["kappa"]
-    dynamic_heat = theta > 0 and g_res > 0
-    coef = None
+    tau = [np.zeros(shape, f32), np.zeros(shape, f32)]  # calendar, cycle [months]
+    loss = read(tabs[0], tau[0]) + read(tabs[1], tau[1])
+    inv_z = (f32(1.0 / p["z_cal"]), f32(1.0 / p["z_cyc"]))
+    g_res = f32(p["g_res"])
+    dynamic = p["theta"] > 0 and g_res > 0
+    same = inv_z[0] == inv_z[1] and stress[0][0] is stress[1][0]
+    soh_marks = np.empty((marks.size, n_sites, n_draws), f32)
+    rate = None
     for j, m0 in enumerate(marks):
         cap = np.subtract(f32(1.0), loss)
         np.maximum(cap, f32(0.0), out=cap)
-        cap *= c0
+        cap *= cells["c0"]
         soh_marks[j] = pack_soh(cap, m0)
         if j == marks.size - 1:
             break
         dt = f32(marks[j + 1] - m0)
         l_nom = loss_nom_draw[:, m0, :].T[:, :, None]  # (S, D, 1)
-        c_nom = np.maximum(f32(1.0) - l_nom, f32(1e-6))
-        # Stress coefficient at the start of the step (explicit equivalent-time update):
-        # rate draw x Arrhenius at the cell's temperature, which includes its I^2 R rise
-        # theta * r * l**2 with r grown with its own loss relative to the nominal cell.
-        if coef is None or dynamic_heat:
-            temp = loss * g_res
-            temp += f32(1.0)
-            temp *= heat_gain
-            temp /= f32(1.0) + g_res * l_nom
-            temp += t_static
-            np.divide(f32(1.0), temp, out=temp)
-            np.subtract(inv_t_ref, temp, out=temp)
-            temp *= ea_r
-            coef = np.exp(temp, out=temp)
-            coef *= k_rate
-            coef_cal = _pow(coef, inv_zc)
-            coef_cyc = coef_cal if inv_zy == inv_zc else _pow(coef, inv_zy)
-        tau_cal += dt * coef_cal
-        # Cycle clock: current share x (depth ratio)**kappa x stress coefficient**(1/z).
+        if rate is None or dynamic:
+            # Clock rates at the start of the step (explicit equivalent-time update):
+            # coefficient**(1/z) = exp(x / z); resistance relative to the nominal cell's.
+            h = loss * g_res
+            h += f32(1.0)
+            h /= f32(1.0) + g_res * l_nom
+            rate = [None, None]
+            for k in (0, 1):
+                if k == 1 and same:
+                    rate[1] = rate[0]
+                    break
+                x = h * stress[k][1]
+                x += stress[k][0]
+                x *= inv_z[k]
+                rate[k] = np.exp(x, out=x)
+        tau[0] += dt * rate[0]
+        # Cycle clock: current share x (depth ratio)**kappa x coefficient**(1/z).
         if p["balancing"] == "active":
             c4 = cap.reshape(cells4)
-            c_eff = (c4 + f32(p["eta"]) * (c4.mean(-1, keepdims=True) - c4)).reshape(shape)
-        else:
-            c_eff = cap
-        depth = np.maximum(c_eff, f32(1e-6))
-        np.divide(c_nom, depth, out=depth)
-        depth = _pow(depth, kappa)
-        depth *= share * dt
-        depth *= coef_cyc
-        tau_cyc += depth
-        loss = read(cal_tab, tau_cal, p["z_cal"])
-        loss += read(cyc_tab, tau_cyc, p["z_cyc"])
+            cap = (c4 + f32(p["eta"]) * (c4.mean(-1, keepdims=True) - c4)).reshape(shape)
+        depth = np.maximum(cap, f32(1e-6))
+        np.divide(np.maximum(f32(1.0) - l_nom, f32(1e-6)), depth, out=depth)
+        depth = _pow(depth, p["kappa"])
+        depth *= share_dt * dt
+        depth *= rate[1]
+        tau[1] += depth
+        loss = read(tabs[0], tau[0])
+        loss += read(tabs[1], tau[1])
+    return soh_marks
 
-    # Percentile bands: quantiles of pack SOH relative to the (set-mean) nominal SOH at
-    # the marks, interpolated between marks and multiplied back by the monthly
-    # nominal curve; exact at the marks, and exact everywhere for one cell without spread.
+
+def _soh_bands(soh_marks, marks, soh_nom_k):
+    """P10/P50/P90 of pack SOH by month, shape (3, M+1, S).
+
+    Quantiles of pack SOH relative to the (set-mean) nominal SOH at the marks,
+    interpolated between marks and multiplied back by the monthly nominal curve:
+    exact at the marks, and exact everywhere for one cell without spread.
+    """
     nom_ref = soh_nom_k.mean(axis=0)  # (M+1, S)
     rel = soh_marks / nom_ref[marks][:, :, None]
     q_marks = np.quantile(rel, [0.1, 0.5, 0.9], axis=2)  # (3, n_marks, S)
-    months = np.arange(n_mp1)
+    months = np.arange(nom_ref.shape[0])
     seg = np.clip(np.searchsorted(marks, months, side="right") - 1, 0, marks.size - 2)
     w = (months - marks[seg]) / (marks[seg + 1] - marks[seg])
     q_m = (1.0 - w)[None, :, None] * q_marks[:, seg] + w[None, :, None] * q_marks[:, seg + 1]
-    q_out = nom_ref[None].astype(float) * q_m
-
-    # Years to threshold: locate the first mark below it, then refine month by month
-    # inside the preceding step with the same interpolation.
-    years = _years_between_marks(soh_marks, marks, soh_nom_k, set_of_draw, eol)
-    return years, q_out
+    return nom_ref[None].astype(float) * q_m
 
 
 def _years_between_marks(soh_marks, marks, soh_nom_k, set_of_draw, eol):
     """Years to ``eol`` per (site, draw) from pack SOH at the marks.
 
-    Monthly SOH between two marks is the nominal SOH of the draw's model set times
-    the pack-to-nominal ratio interpolated linearly between the marks.
+    Locates the first mark at or below the threshold, then refines month by month
+    inside the preceding step: monthly SOH is the nominal SOH of the draw's model
+    set times the pack-to-nominal ratio interpolated linearly between the marks.
     """
     n_marks, n_sites, n_draws = soh_marks.shape
     thr = eol[:, None]
-    below = soh_marks < thr
+    below = soh_marks <= thr
     hit = below.any(axis=0)
-    jm = np.maximum(np.argmax(below, axis=0), 1)  # first mark below (0 handled as 1)
-    m_lo = marks[jm - 1]
-    m_hi = marks[jm]
-    step = int(np.max(np.diff(marks)))
-    n_mp1 = soh_nom_k.shape[1]
+    jm = np.maximum(np.argmax(below, axis=0), 1)
+    m_lo, m_hi = marks[jm - 1], marks[jm]
     site = np.arange(n_sites)[:, None]
     k = set_of_draw[None, :]
-    nom_lo = soh_nom_k[k, m_lo, site]
-    nom_hi = soh_nom_k[k, m_hi, site]
+    s_lo = np.take_along_axis(soh_marks, (jm - 1)[None], 0)[0]
+    s_hi = np.take_along_axis(soh_marks, jm[None], 0)[0]
     tiny = np.float32(1e-6)
-    r_lo = np.take_along_axis(soh_marks, (jm - 1)[None], 0)[0] / np.maximum(nom_lo, tiny)
-    r_hi = np.take_along_axis(soh_marks, jm[None], 0)[0] / np.maximum(nom_hi, tiny)
-    offs = np.arange(step + 1)[:, None, None]
+    r_lo = s_lo / np.maximum(soh_nom_k[k, m_lo, site], tiny)
+    r_hi = s_hi / np.maximum(soh_nom_k[k, m_hi, site], tiny)
+    offs = np.arange(int(np.max(np.diff(marks))) + 1)[:, None, None]
     m = np.minimum(m_lo[None] + offs, m_hi[None])  # (step+1, S, D)
     w = (m - m_lo[None]) / np.maximum(m_hi - m_lo, 1)[None]
-    nom = soh_nom_k[k[None], np.minimum(m, n_mp1 - 1), site[None]]
-    soh = nom * ((1.0 - w) * r_lo[None] + w * r_hi[None])
-    # Exact values at the two marks (no rounding through the ratio).
-    soh[0] = np.take_along_axis(soh_marks, (jm - 1)[None], 0)[0]
-    soh = np.where(m == m_hi[None], np.take_along_axis(soh_marks, jm[None], 0), soh)
-    within = years_to_threshold(soh, thr, axis=0) * 12.0  # months after m_lo
-    months = np.where(np.isfinite(within), m_lo + within, m_hi)
-    starts_below = below[0]
-    years = np.where(starts_below, 0.0, months / 12.0)
+    soh = soh_nom_k[k[None], m, site[None]] * ((1.0 - w) * r_lo[None] + w * r_hi[None])
+    soh[0] = s_lo  # exact at the marks (no rounding through the ratio)
+    soh = np.where(m == m_hi[None], s_hi[None], soh)
+    within = _crossing_rows(soh, thr)  # rows after m_lo
+    rows = np.where(np.isfinite(within), m_lo + within, m_hi)
+    years = np.where(below[0], 0.0, row_years(rows))
     return np.where(hit, years, np.inf)
 
 
 def _pow(x, e):
-    # Square and identity are exact and cheap; the common square-root laws hit them.
+    # Identity and square are exact and cheap; the common square-root laws hit them.
     if e == 1.0:
         return x
     if e == 2.0:

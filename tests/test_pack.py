@@ -23,6 +23,7 @@ from planner.pack import (
     life_distribution,
     life_fields,
     pack_structure,
+    row_years,
     scaled_loss_curve,
     string_current_shares,
     usable_string_capacity_frac,
@@ -198,6 +199,23 @@ def test_coefficient_multiplier_equals_equivalent_time(z, m):
     np.testing.assert_allclose(got[12::12], m * curve[12::12], rtol=2e-3)
 
 
+def test_row_years_calendar_months():
+    # Gregorian month lengths (31, 28, 31 ... days; leap day dropped as in DEVELOPERS.md)
+    assert row_years(12) == 1.0
+    assert row_years(1) == pytest.approx(31 / 365)
+    assert row_years(2.5) == pytest.approx((31 + 28 + 15.5) / 365)  # January, February, half of March
+    assert row_years(25) == pytest.approx(2 + 31 / 365)
+
+
+def test_years_to_threshold_agrees_with_aging_engine():
+    # The aging engine's public years_to_soh is the reference for the single-cell life.
+    from planner.aging import years_to_soh
+
+    soh = 1.0 - CAL - CYC
+    for thr in (0.9, 0.85, 0.8, 0.78):
+        assert years_to_threshold(soh, thr) == pytest.approx(years_to_soh(soh, thr), abs=1e-9)
+
+
 def test_years_to_threshold_linear_curve():
     # closed form: 1 - 0.02 t = 0.8 at t = 10 years; never reached -> inf; starts below -> 0
     soh = 1 - 0.02 * T_Y
@@ -216,7 +234,9 @@ def test_one_cell_without_spread_is_the_single_cell_curve():
     single = 1.0 - CAL - CYC
     for band in (d.soh_p10_by_month, d.soh_p50_by_month, d.soh_p90_by_month):
         np.testing.assert_allclose(band[:, 0], single, atol=1e-6)
-    yrs = years_to_threshold(single, 0.8)
+    from planner.aging import years_to_soh  # the single-cell engine's own reading
+
+    yrs = years_to_soh(single, 0.8)
     assert d.p10_years[0] == pytest.approx(yrs, rel=1e-5)
     assert d.p90_years[0] == pytest.approx(yrs, rel=1e-5)
     # and the single-cell curve itself crosses where the sqrt law says: (0.2/0.05)^2 = 16 y
@@ -265,6 +285,19 @@ def test_hot_centre_cell_ages_by_arrhenius_coefficient():
                           reference_temp_c=25.0, self_heating_k=0, depth_stress_exponent=0,
                           draws=10)
     assert d.p50_years[0] == pytest.approx(sqrt_law_life_y(0.2, af * (K_CAL + K_CYC)), rel=2e-3)
+
+
+def test_cycle_activation_energy_applies_to_cycle_part_only():
+    # Separate Ea per mechanism (e.g. Naumann 2020 cycle fit has no temperature term):
+    # the hot centre cell's loss is AF*k_cal*sqrt(t) + k_cyc*sqrt(t), so the string
+    # reaches 0.8 at (0.2/(AF*k_cal + k_cyc))**2 (closed form of the sqrt laws).
+    af = math.exp(50e3 / R * (1 / 298.15 - 1 / 308.15))
+    d = life_distribution(calendar_loss_frac=CAL, cycle_loss_frac=CYC, eol_soh_frac=0.8,
+                          series_cells=3, cell_spread_frac=0, resistance_spread_frac=0,
+                          rate_spread_frac=0, inner_delta_k=10.0, activation_energy_j_mol=50e3,
+                          cycle_activation_energy_j_mol=0.0, self_heating_k=0,
+                          depth_stress_exponent=0, draws=10)
+    assert d.p50_years[0] == pytest.approx(sqrt_law_life_y(0.2, af * K_CAL + K_CYC), rel=2e-3)
 
 
 def test_linear_law_halves_life_per_halving_step():
