@@ -79,23 +79,63 @@ def reversal_mask(series):
     its last index.
     """
     x = np.asarray(series, dtype=float)
-    n = x.shape[0]
+    if x.ndim == 1:
+        x = x[:, None]
     mask = np.zeros(x.shape, dtype=bool)
-    if n == 0:
-        return mask
-    mask[0] = True
-    if n < 3:
-        return mask
-    step_sign = np.sign(np.diff(x, axis=0))  # sign of x[j+1] - x[j], rows 0..n-2
-    # Direction of the last non-zero step before j: plateaus carry the direction in.
-    rows = np.arange(n - 1)[:, None]
-    last_nonzero = np.where(step_sign != 0, rows, 0)
-    np.maximum.accumulate(last_nonzero, axis=0, out=last_nonzero)
-    dir_in = np.take_along_axis(step_sign, last_nonzero, axis=0)
-    # Point j (1..n-2) is a reversal when the step out is non-zero and opposes the last one.
-    mask[1:n - 1] = (step_sign[1:] != 0) & (dir_in[:-1] * step_sign[1:] < 0)
-    mask[n - 1] = True
+    values, index, lengths = _reversals_packed(np.ascontiguousarray(x.T), None)
+    for lane in range(x.shape[1]):
+        mask[index[lane, :lengths[lane]], lane] = True
     return mask
+
+
+def _interior_reversals(x_by_lane):
+    """Lane and position of the inner reversals of each row of ``x_by_lane`` (lanes x points).
+
+    A point j is a reversal when the step out of it, ``x[j+1] - x[j]``, is non-zero and
+    opposes the last non-zero step before it (zero steps, i.e. plateaus, are skipped,
+    which reports a plateau by its last point, as the package does).
+    """
+    n_lanes, n = x_by_lane.shape
+    if n < 3:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    step_sign = np.sign(np.diff(x_by_lane, axis=1)).ravel()
+    moving = np.flatnonzero(step_sign)
+    sign = step_sign[moving]
+    lane = moving // (n - 1)
+    turns = (sign[1:] != sign[:-1]) & (lane[1:] == lane[:-1])
+    lane = lane[1:][turns]
+    return lane, moving[1:][turns] - lane * (n - 1)
+
+
+def _reversals_packed(x_by_lane, lengths):
+    """Reversals of each row packed to the left: (values, index, count) per lane.
+
+    ``lengths`` gives each row's valid length (the tail beyond it must repeat the last
+    valid value, so it adds only zero steps); ``None`` means the full width.
+    """
+    n_lanes, n = x_by_lane.shape
+    if lengths is None:
+        lengths = np.full(n_lanes, n, dtype=np.int64)
+    if n == 0:
+        return np.zeros((n_lanes, 0)), np.zeros((n_lanes, 0), np.int64), np.zeros(n_lanes, np.int64)
+    lane, pos = _interior_reversals(x_by_lane)
+    inner = np.bincount(lane, minlength=n_lanes)
+    # The package: first point always; last point too when there are at least 3 points.
+    has_end = lengths >= 3
+    counts = 1 + inner + has_end
+    width = int(counts.max()) if n_lanes else 0
+    values = np.full((n_lanes, max(width, 1)), np.nan)
+    index = np.zeros((n_lanes, max(width, 1)), dtype=np.int64)
+    rows = np.arange(n_lanes)
+    values[:, 0] = x_by_lane[:, 0]
+    first_inner = np.cumsum(inner) - inner
+    cols = 1 + np.arange(lane.size) - np.repeat(first_inner, inner)
+    values[lane, cols] = x_by_lane[lane, pos]
+    index[lane, cols] = pos
+    ends = rows[has_end]
+    values[ends, counts[ends] - 1] = x_by_lane[ends, lengths[ends] - 1]
+    index[ends, counts[ends] - 1] = lengths[ends] - 1
+    return values, index, counts
 
 
 def _compact(mask, values, index):
@@ -111,29 +151,31 @@ def _compact(mask, values, index):
     return packed_v, packed_i, lengths
 
 
-def _reversals_by_lane(x):
-    """Reversal values and row indices packed per lane: (values, index, lengths)."""
-    mask = reversal_mask(x).T
-    n_lanes, n = mask.shape
-    index = np.broadcast_to(np.arange(n, dtype=np.int64), (n_lanes, n))
-    return _compact(mask, np.ascontiguousarray(x.T), index)
+def _close_period(values, index, lengths):
+    """Reversals of one period of a repeating history, started and closed at its maximum.
 
-
-def _periodic(x):
-    """Each column rotated to start at its maximum and closed by that maximum again.
-
-    Counting one period of a repeating history this way gives the steady-state cycles
-    of the repetition (ASTM E1049 practice for repeated blocks): no half cycles are
-    left over, each residue half cycle pairs with one of equal range.
+    Counting the period rotated to begin at its largest value and closed by that value
+    again gives the steady-state cycles of the repetition (ASTM E1049 practice for
+    repeated blocks): each residue half cycle pairs with one of equal range. The
+    rotation is done on the (short) reversal sequences; the seam points are then
+    re-checked, because the first and last hour of the period are reversals only by
+    the end-point convention.
     """
-    n = x.shape[0]
-    shift = np.argmax(x, axis=0)
-    rows = (np.arange(n + 1)[:, None] + shift[None, :]) % n
-    return np.take_along_axis(x, rows, axis=0), shift
+    n_lanes, width = values.shape
+    valid = np.arange(width)[None, :] < lengths[:, None]
+    start = np.argmax(np.where(valid, values, -np.inf), axis=1)
+    span = np.arange(width + 1)[None, :]
+    cols = np.where(span <= lengths[:, None],
+                    (start[:, None] + span) % np.maximum(lengths[:, None], 1), start[:, None])
+    rot_v = np.take_along_axis(values, cols, axis=1)
+    rot_i = np.take_along_axis(index, cols, axis=1)
+    rot_len = np.where(lengths >= 1, lengths + 1, 0)
+    v2, i2, n2 = _reversals_packed(rot_v, rot_len)
+    return v2, np.take_along_axis(rot_i, i2, axis=1), n2
 
 
-def extract_cycles_lanes(series, *, periodic: bool = False) -> Cycles:
-    """Rainflow cycles of every column of ``series``.
+def extract_cycles_lanes(series, *, periodic: bool = False, time_axis: int = 0) -> Cycles:
+    """Rainflow cycles of every lane of ``series``.
 
     Parameters
     ----------
@@ -142,22 +184,25 @@ def extract_cycles_lanes(series, *, periodic: bool = False) -> Cycles:
     periodic : bool, default False
         False: count the series as given, exactly as ``rainflow.extract_cycles``.
         True: treat it as one period of a repeating history (a typical year that
-        repeats); indices are then rows of the original series.
+        repeats): the cycles of the period started and closed at its maximum.
+    time_axis : {0, 1}
+        Axis of ``series`` along which time runs (1: lanes x hours, saves a copy).
 
     Returns
     -------
     Cycles
         Flat arrays; lane k's cycles equal ``rainflow.extract_cycles(series[:, k])``
-        as a multiset (order of emission aside) when ``periodic`` is False.
+        as a multiset (order of emission aside) when ``periodic`` is False. Indices
+        are rows of the given series.
     """
     x = np.asarray(series, dtype=float)
     if x.ndim == 1:
         x = x[:, None]
-    n = x.shape[0]
-    shift = np.zeros(x.shape[1], dtype=np.int64)
-    if periodic and n >= 2:
-        x, shift = _periodic(x)
-    values, index, lengths = _reversals_by_lane(x)
+        time_axis = 0
+    by_lane = np.ascontiguousarray(x.T if time_axis == 0 else x)
+    values, index, lengths = _reversals_packed(by_lane, None)
+    if periodic:
+        values, index, lengths = _close_period(values, index, lengths)
     # The package yields nothing for fewer than two reversals.
     lengths = np.where(lengths >= 2, lengths, 0)
     lane_ids = np.arange(values.shape[0])
@@ -183,21 +228,20 @@ def extract_cycles_lanes(series, *, periodic: bool = False) -> Cycles:
         if r.size == 0:
             break
         emit(lane_ids[rows[r]], v[r, j + 1], v[r, j + 2], 1.0, idx[r, j + 1], idx[r, j + 2])
-        keep = np.ones(v.shape, dtype=bool)
+        keep = np.arange(v.shape[1])[None, :] < ln[:, None]
         keep[r, j + 1] = False
         keep[r, j + 2] = False
-        keep &= np.arange(v.shape[1])[None, :] < ln[:, None]
         nv, ni, nl = _compact(keep, v, idx)
         values[rows, :] = np.nan
         values[rows, :nv.shape[1]] = nv
         index[rows, :ni.shape[1]] = ni
         lengths[rows] = nl
-        active = np.zeros_like(active)
         changed = np.zeros(rows.size, dtype=bool)
         changed[r] = True
+        active = np.zeros_like(active)
         active[rows[changed]] = nl[changed] >= 4
-        width = int(lengths.max()) if lengths.size else 0
-        values, index = values[:, :max(width, 1)], index[:, :max(width, 1)]
+        width = max(int(lengths.max()), 1)
+        values, index = values[:, :width], index[:, :width]
 
     # Residue: consecutive points are half cycles.
     if values.shape[1] >= 2:
@@ -209,13 +253,9 @@ def extract_cycles_lanes(series, *, periodic: bool = False) -> Cycles:
         parts = out[key]
         return np.concatenate(parts).astype(dtype) if parts else np.zeros(0, dtype=dtype)
 
-    i_start, i_end = cat("i_start", np.int64), cat("i_end", np.int64)
-    lane = cat("lane", np.int64)
-    if periodic and n >= 2:
-        i_start = (i_start + shift[lane]) % n
-        i_end = (i_end + shift[lane]) % n
-    return Cycles(lane=lane, range_=cat("range_", float), mean=cat("mean", float),
-                  count=cat("count", float), i_start=i_start, i_end=i_end)
+    return Cycles(lane=cat("lane", np.int64), range_=cat("range_", float), mean=cat("mean", float),
+                  count=cat("count", float), i_start=cat("i_start", np.int64),
+                  i_end=cat("i_end", np.int64))
 
 
 def count_cycles_lanes(series, *, periodic: bool = False) -> list[list[tuple[float, float]]]:
