@@ -56,6 +56,8 @@ __all__ = [
     "row_years",
     "life_distribution",
     "life_fields",
+    "life_summary",
+    "stress_parameters",
 ]
 
 #: Molar gas constant [J mol-1 K-1] (CODATA 2018, exact since the 2019 SI redefinition).
@@ -650,9 +652,10 @@ def life_distribution(
         Monte Carlo draws per site (default 1000).
     seed : int
         Seed; a site's draws do not depend on the chunking.
-    model_sets : list of (calendar, cycle) pairs, optional
+    model_sets : list of (calendar, cycle) pairs or FadeResult, optional
         Alternative nominal curves (aging engine's alternative parameter sets),
-        each shaped like ``calendar_loss_frac``. Draws are spread evenly across the
+        each shaped like ``calendar_loss_frac``; objects with ``calendar_loss_frac``
+        and ``cycle_loss_frac`` attributes (``FadeResult``) are accepted. Draws are spread evenly across the
         sets (draw ``d`` uses set ``d mod K``), which widens the distribution by the
         disagreement between published models. When given, the main curves are
         used only for their shape check and the sets replace them.
@@ -713,6 +716,8 @@ def life_distribution(
     if model_sets is not None:
         try:
             model_list = list(model_sets)
+            model_list = [(m.calendar_loss_frac, m.cycle_loss_frac) if hasattr(m, "cycle_loss_frac")
+                          else m for m in model_list]
             pairs = [(_curves(f"model_sets[{j}] calendar", a, cal.shape[0]),
                       _curves(f"model_sets[{j}] cycle", b, cal.shape[0]))
                      for j, (a, b) in enumerate(model_list)]
@@ -1023,6 +1028,55 @@ def _pow(x, e):
     return x ** np.float32(e)
 
 
+def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
+    """Activation energies and time exponents of an aging parameter set.
+
+    Reads a chemistry's aging set (``planner.chemistry.Chemistry.aging_set()``:
+    ``calendar_model``, ``cycle_model``, ``calendar``, ``cycle``) and returns the
+    keyword arguments of :func:`life_distribution` that describe its laws:
+
+    - time exponents: the engine's own (``calendar_rate_parts`` / ``cycle_exponent``
+      of :mod:`planner.aging`): 0.5 for the square-root laws of Naumann et al.
+      2018/2020, 0.75 for the Schmalstieg et al. 2014 calendar law, 1 for laws
+      linear in time (halving rule, Woehler/Palmgren-Miner);
+    - activation energy: ``activation_energy_j_mol`` as given; ``temp_coefficient_k``
+      x R (Schmalstieg's ``exp(-6976/T)`` is 58 kJ/mol, notes 2.1); a halving or
+      doubling step dT at T_ref is the Arrhenius law with
+      ``Ea = R T_ref (T_ref + dT) ln 2 / dT`` (exactly a factor 2 over dT).
+
+    A law without a temperature term gets ``default_activation_energy_j_mol``
+    (50 kJ/mol, the middle of the 50-70 kJ/mol of SEI growth, notes 6.3) only if it
+    names none at all; an explicit 0 stays 0.
+    """
+    from planner.aging.calendar import calendar_rate_parts
+    from planner.aging.cycle import cycle_exponent
+
+    def ea_of(params):
+        p = dict(params)
+        if "activation_energy_j_mol" in p:
+            return float(p["activation_energy_j_mol"])
+        if "temp_coefficient_k" in p:
+            return float(p["temp_coefficient_k"]) * GAS_CONSTANT_J_MOL_K
+        step = p.get("halving_step_k", p.get("doubling_k"))
+        if step:
+            t_ref = float(p.get("temp_ref_c", 25.0)) + 273.15
+            return GAS_CONSTANT_J_MOL_K * t_ref * (t_ref + step) * math.log(2.0) / float(step)
+        return float(default_activation_energy_j_mol)
+
+    try:
+        z_cal = float(calendar_rate_parts(aging_params.calendar_model, aging_params.calendar, None)[2])
+        z_cyc = float(cycle_exponent(aging_params.cycle_model))
+    except (ValueError, KeyError, AttributeError) as err:
+        raise InputError(f"aging set: found an unknown law ({err}), expected one of the aging "
+                         "engine's calendar and cycle models", source="life") from None
+    return {
+        "activation_energy_j_mol": ea_of(aging_params.calendar),
+        "cycle_activation_energy_j_mol": ea_of(aging_params.cycle),
+        "calendar_time_exponent": z_cal,
+        "cycle_time_exponent": z_cyc,
+    }
+
+
 def life_fields(dist, *, prefix="life"):
     """The fixed JSON fields of the life percentiles, one dict per site.
 
@@ -1045,3 +1099,36 @@ def life_fields(dist, *, prefix="life"):
             raise InputError(f"prefix: found {prefix!r}, expected 'life' or 'years_to_eol'", source="life")
         rows.append({k: val(v) for k, v in zip(keys, vals)})
     return rows
+
+
+def life_summary(fade=None, *, calendar_loss_frac=None, cycle_loss_frac=None, prefix="life",
+                 **options):
+    """One call from the aging engine's curves to the fixed JSON life fields.
+
+    Parameters
+    ----------
+    fade : FadeResult, optional
+        The aging engine's result (its ``calendar_loss_frac`` and
+        ``cycle_loss_frac``, one column per site or lane); or pass the two arrays.
+    prefix : {"life", "years_to_eol"}
+        Key style, see :func:`life_fields`.
+    **options
+        Everything else of :func:`life_distribution` (``eol_soh_frac``,
+        ``series_cells``, ``parallel_strings``, ``cell_spread_frac``, ``balancing``,
+        ``draws``, ``seed``, ``model_sets`` ...).
+
+    Returns
+    -------
+    rows : list of dict
+        Per site, the three percentile fields (None = beyond the horizon).
+    dist : LifeDistribution
+        The full distribution (failure probabilities, SOH bands, notes).
+    """
+    if fade is not None:
+        calendar_loss_frac, cycle_loss_frac = fade.calendar_loss_frac, fade.cycle_loss_frac
+    if calendar_loss_frac is None or cycle_loss_frac is None:
+        raise InputError("fade: found no fade curves, expected a FadeResult or both "
+                         "calendar_loss_frac and cycle_loss_frac", source="life")
+    dist = life_distribution(calendar_loss_frac=calendar_loss_frac, cycle_loss_frac=cycle_loss_frac,
+                             **options)
+    return life_fields(dist, prefix=prefix), dist

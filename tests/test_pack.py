@@ -22,9 +22,11 @@ from planner.pack import (
     inner_temperature_offsets_k,
     life_distribution,
     life_fields,
+    life_summary,
     pack_structure,
     row_years,
     scaled_loss_curve,
+    stress_parameters,
     string_current_shares,
     usable_string_capacity_frac,
     years_to_threshold,
@@ -454,3 +456,42 @@ def test_life_fields_fixed_names_and_beyond_horizon():
                               series_cells=1, draws=10, **NO_SPREAD)
     assert life_fields(never)[0]["life_p50_years"] is None
     assert never.p50_years[0] == np.inf
+
+
+def test_life_summary_from_fade_result_is_one_call():
+    # wiring helper: a FadeResult-like object in, fixed JSON fields out (issue 8 names)
+    class Fade:
+        calendar_loss_frac = CAL
+        cycle_loss_frac = CYC
+
+    rows, dist = life_summary(Fade(), prefix="years_to_eol", series_cells=1, draws=10, **NO_SPREAD)
+    # one cell without spread: the single-cell life, (0.2/0.05)^2 = 16 y (sqrt law)
+    assert rows[0]["years_to_eol_p50"] == pytest.approx(16.0, abs=1e-3)
+    assert dist.draws == 10
+    # FadeResult-like objects are accepted as model sets too
+    _, d2 = life_summary(Fade(), series_cells=1, draws=10, model_sets=[Fade(), Fade()], **NO_SPREAD)
+    assert d2.p50_years[0] == pytest.approx(16.0, abs=1e-3)
+    with pytest.raises(InputError):
+        life_summary(series_cells=1)
+
+
+def test_stress_parameters_of_the_chemistry_library():
+    from planner.chemistry import get_chemistry
+
+    vrla = stress_parameters(get_chemistry("vrla").aging_set("halving-8.3k"))
+    # halving rule: life halves per 8.3 K (notes 4.1, IEEE 1188 practice) -> the
+    # Arrhenius factor over 8.3 K from 25 degC is exactly 2; both laws linear in time
+    af = arrhenius_factor(8.3, reference_temp_c=25.0, activation_energy_j_mol=vrla["activation_energy_j_mol"])
+    assert af == pytest.approx(2.0)
+    assert vrla["calendar_time_exponent"] == 1.0 and vrla["cycle_time_exponent"] == 1.0
+    # notes 6.3: halving per 8.3 K is about 62 kJ/mol (R T^2 ln2 / dT)
+    assert vrla["activation_energy_j_mol"] == pytest.approx(62e3, rel=0.03)
+    nmc = stress_parameters(get_chemistry("nmc").aging_set("schmalstieg"))
+    # Schmalstieg et al. 2014: t**0.75 calendar law, sqrt(Q) cycle law, exp(-6976/T) = 58.0 kJ/mol (notes 2.1)
+    assert nmc["calendar_time_exponent"] == 0.75 and nmc["cycle_time_exponent"] == 0.5
+    assert nmc["activation_energy_j_mol"] == pytest.approx(58.0e3, rel=1e-3)
+    lfp = stress_parameters(get_chemistry("lfp").aging_set("naumann"))
+    # Naumann 2018 sqrt(t) calendar law with Ea 17 126 J/mol; the 2020 cycle fit has no T term (notes 1.2, 1.3)
+    assert lfp["calendar_time_exponent"] == 0.5 and lfp["cycle_time_exponent"] == 0.5
+    assert lfp["activation_energy_j_mol"] == pytest.approx(17126.0)
+    assert lfp["cycle_activation_energy_j_mol"] == 0.0
