@@ -236,9 +236,11 @@ def _tabulated(func, x, bounds, step):
     lo, hi = bounds
     size = int(round((hi - lo) / step)) + 1
     table = func(lo + step * np.arange(size))
-    idx = np.rint((x - lo) * (1.0 / step))
-    np.clip(idx, 0, size - 1, out=idx)
-    return table[idx.astype(np.intp)]
+    # Nearest bin by truncation of x/step + 0.5 (all indices are >= 0 after clipping x).
+    scaled = np.clip(x, lo, hi)
+    scaled -= lo - 0.5 * step
+    scaled *= 1.0 / step
+    return table[scaled.astype(np.intp)]
 
 
 def _as_lanes(name, values, n_hours, n_lanes=None):

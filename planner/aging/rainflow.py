@@ -92,19 +92,42 @@ def _interior_reversals(x_by_lane):
     """Lane and position of the inner reversals of each row of ``x_by_lane`` (lanes x points).
 
     A point j is a reversal when the step out of it, ``x[j+1] - x[j]``, is non-zero and
-    opposes the last non-zero step before it (zero steps, i.e. plateaus, are skipped,
-    which reports a plateau by its last point, as the package does).
+    opposes the last non-zero step before it. Zero steps (plateaus) are skipped, which
+    reports a plateau by its last point, as the package does. Most reversals have a
+    non-zero step on both sides and are found directly; a plateau's end is compared
+    with the step that entered the plateau. Signs are kept as int8 to keep the passes
+    over the hourly array cheap.
     """
     n_lanes, n = x_by_lane.shape
     if n < 3:
         return np.zeros(0, np.int64), np.zeros(0, np.int64)
-    step_sign = np.sign(np.diff(x_by_lane, axis=1)).ravel()
-    moving = np.flatnonzero(step_sign)
-    sign = step_sign[moving]
-    lane = moving // (n - 1)
-    turns = (sign[1:] != sign[:-1]) & (lane[1:] == lane[:-1])
-    lane = lane[1:][turns]
-    return lane, moving[1:][turns] - lane * (n - 1)
+    diff = np.diff(x_by_lane, axis=1)
+    sign = (diff > 0).view(np.int8) - (diff < 0).view(np.int8)
+    del diff
+    before, after = sign[:, :-1], sign[:, 1:]  # steps into and out of points 1..n-2
+    direct = np.flatnonzero((before * after) < 0)
+    flat = sign.ravel()
+    width = n - 1
+    still = sign == 0
+    # Plateau ends: entered by a zero step, left by a non-zero one; plateau starts: the reverse.
+    ends = np.flatnonzero(still[:, :-1] & ~still[:, 1:])
+    starts = np.flatnonzero(~still[:, :-1] & still[:, 1:])
+    lanes_e, pos_e = np.divmod(ends, width - 1)
+    lanes_s, pos_s = np.divmod(starts, width - 1)
+    # The plateau ending at (lane, pos) began at the latest start before it in that lane.
+    k = np.searchsorted(lanes_s * n + pos_s, lanes_e * n + pos_e) - 1
+    has_start = k >= 0
+    k = np.maximum(k, 0)
+    has_start &= lanes_s[k] == lanes_e if lanes_s.size else np.zeros_like(has_start)
+    # Point index of a plateau start is pos_s + 1; the step entering it is sign[lane, pos_s].
+    entering = flat[lanes_s[k] * width + pos_s[k]] if lanes_s.size else np.zeros(ends.size, np.int8)
+    leaving = flat[lanes_e * width + pos_e + 1]
+    turn = has_start & (entering * leaving < 0)
+    lane_d, pos_d = np.divmod(direct, width - 1)
+    lane = np.concatenate([lane_d, lanes_e[turn]])
+    point = np.concatenate([pos_d, pos_e[turn]]) + 1
+    order = np.argsort(lane * n + point, kind="stable")
+    return lane[order], point[order]
 
 
 def _reversals_packed(x_by_lane, lengths):
