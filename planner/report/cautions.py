@@ -92,7 +92,7 @@ LITHIUM_ION_CHARGE_MIN_C = 0.0
 #: Typical maximum charge temperature of lithium-ion cells [°C] (common practice; same note).
 LITHIUM_ION_CHARGE_MAX_C = 45.0
 #: Load constant of the revised NIOSH lifting equation [kg]
-#: (Waters, Putz-Anderson, Garg & Fine 1993, Ergonomics 36(7) 749-776, eq. 1: LC = 23 kg).
+#: (Waters, Putz-Anderson, Garg & Fine 1993, Ergonomics 36(7) 749-776, eq. 1: LC = 23 kg; from memory).
 NIOSH_LOAD_CONSTANT_KG = 23.0
 
 
