@@ -270,10 +270,10 @@ def simulate_lumped(temp_eq_c: np.ndarray, tau_h, *, ua_w_k=1.0, initial_c=None,
     ua_w_k : float or (n,) array
         Conductance, W/K (converts thermostat powers to temperature shifts).
     initial_c : float or (n,) array, optional
-        Temperature at the start of hour 0. Default: the periodic state, from a warm-up
-        over the last 25 time constants of the series (error below e^-25, about 1e-11,
-        of the initial mismatch; for time constants above 350 h the whole series is
-        the warm-up and the error is e^(-hours/tau)).
+        Temperature at the start of hour 0. Default: the periodic state (the series
+        repeats): exact in closed form for lanes without thermostats; for lanes with
+        thermostats, from a warm-up over the last 25 time constants of the series
+        (error below e^-25, about 1e-11, of the initial mismatch).
     heater_setpoint_c, heat_setpoint_c : float or (n,) array, optional
         Thermostat setpoints of the battery heater and of HVAC heating (NaN = none).
     heater_max_w, heat_max_w, cool_max_w : float or (n,) array
@@ -303,54 +303,109 @@ def simulate_lumped(temp_eq_c: np.ndarray, tau_h, *, ua_w_k=1.0, initial_c=None,
     if np.any(~(tau > 0)):
         raise ValueError("tau_h must be positive")
     ua = _per_lane(ua_w_k, n)
-    decay = np.exp(-dt_h / tau)
-    one_minus = 1.0 - decay
-    mean_weight = tau / dt_h * one_minus           # hour-mean weight of the initial offset
+    initial = None if initial_c is None else _per_lane(initial_c, n)
     thermostats = []
+    active = np.zeros(n, dtype=bool)
     for name, sp, cap, sign in (("heat", heat_setpoint_c, heat_max_w, 1.0),
                                 ("heater", heater_setpoint_c, heater_max_w, 1.0),
                                 ("cool", cool_setpoint_c, cool_max_w, -1.0)):
         sp_arr = _per_lane(sp, n)
-        if np.all(np.isnan(sp_arr)):
+        has = ~np.isnan(sp_arr)
+        if not has.any():
             continue
-        cap_arr = np.where(np.isnan(sp_arr), 0.0, _per_lane(cap, n, default=np.inf))
+        cap_arr = np.where(has, _per_lane(cap, n, default=np.inf), 0.0)
+        has &= cap_arr > 0
+        active |= has
         thermostats.append((name, np.nan_to_num(sp_arr, nan=0.0), cap_arr, sign))
-
-    def step(t0, eq_row):
-        powers = {}
-        eq = eq_row.copy()
-        for name, sp, cap, sign in thermostats:
-            # Constant power bringing the end-of-hour state to the setpoint.
-            target_eq = (sp - t0 * decay) / one_minus
-            need = sign * (target_eq - eq) * ua
-            power = np.clip(need, 0.0, cap)
-            eq = eq + sign * power / ua
-            powers[name] = power
-        end = eq + (t0 - eq) * decay
-        mean = eq + (t0 - eq) * mean_weight
-        return end, mean, powers
-
-    if initial_c is None:
-        warm = int(min(hours, np.ceil(WARM_UP_TAUS * tau.max() / dt_h)))
-        state = temp_eq[hours - warm].copy()
-        for k in range(hours - warm, hours):
-            state, _, _ = step(state, temp_eq[k])
-    else:
-        state = _per_lane(initial_c, n).copy()
 
     out_mean = np.empty((hours, n))
     out_end = np.empty((hours, n))
     out_p = {name: np.zeros((hours, n)) for name in ("heat", "heater", "cool")}
-    for k in range(hours):   # vectorised across lanes; the hour loop is inherent
-        state, mean, powers = step(state, temp_eq[k])
-        out_end[k] = state
-        out_mean[k] = mean
+    # Lanes without a working thermostat are linear: exact closed form with lfilter.
+    for tau_value in np.unique(tau[~active]):
+        lanes = np.nonzero(~active & (tau == tau_value))[0]
+        x0 = None if initial is None else initial[lanes]
+        out_mean[:, lanes], out_end[:, lanes] = _linear_lanes(temp_eq[:, lanes], tau_value,
+                                                              x0, dt_h)
+    lanes = np.nonzero(active)[0]
+    if len(lanes):
+        x0 = None if initial is None else initial[lanes]
+        subset = [(name, sp[lanes], cap[lanes], sign) for name, sp, cap, sign in thermostats]
+        mean, end_, powers = _thermostat_lanes(np.ascontiguousarray(temp_eq[:, lanes]),
+                                               tau[lanes], ua[lanes], subset, x0, dt_h)
+        out_mean[:, lanes], out_end[:, lanes] = mean, end_
         for name, power in powers.items():
-            out_p[name][k] = power
+            out_p[name][:, lanes] = power
     result = LumpedResult(out_mean, out_end, out_p["heater"], out_p["heat"], out_p["cool"])
     if squeeze:
         result = LumpedResult(*(a[:, 0] for a in dataclasses.astuple(result)))
     return result
+
+
+def _linear_lanes(temp_eq, tau_h, initial, dt_h):
+    """Exact response of linear lanes sharing one time constant.
+
+    End-of-hour states follow x[k] = e x[k-1] + (1 - e) T_eq[k] (a first-order IIR
+    filter, ``scipy.signal.lfilter``). By superposition x[k] = y[k] + e^(k+1) x0, where
+    y starts from 0; the periodic start is x0 = y[-1] / (1 - e^hours).
+    """
+    from scipy.signal import lfilter
+
+    hours = temp_eq.shape[0]
+    decay = np.exp(-dt_h / tau_h)
+    y = lfilter([1.0 - decay], [1.0, -decay], temp_eq, axis=0)
+    if initial is None:
+        initial = y[-1] / (1.0 - decay ** hours)
+    powers = decay ** np.arange(1, hours + 1)
+    end = y + powers[:, None] * initial[None, :]
+    start = np.vstack([initial[None, :], end[:-1]])
+    mean = temp_eq + (start - temp_eq) * (tau_h / dt_h * (1.0 - decay))
+    return mean, end
+
+
+def _thermostat_lanes(temp_eq, tau, ua, thermostats, initial, dt_h):
+    """Hour-by-hour exact steps for lanes with thermostats (vectorised across lanes)."""
+    hours, n = temp_eq.shape
+    decay = np.exp(-dt_h / tau)
+    one_minus = 1.0 - decay
+    mean_weight = tau / dt_h * one_minus
+    # Pre-computed so each step is a few in-place array operations: the power that
+    # brings the end-of-hour state to setpoint s is sign*ua*((s - x0 e)/(1 - e) - T_eq).
+    prepared = [(name, sp / one_minus, decay / one_minus, cap, ua * sign, sign / ua)
+                for name, sp, cap, sign in thermostats]
+    eq = np.empty(n)
+    work = np.empty(n)
+
+    def step(x0, eq_row, powers):
+        np.copyto(eq, eq_row)
+        for (name, a, b, cap, ua_sign, sign_per_ua), power in zip(prepared, powers):
+            np.multiply(x0, b, out=work)
+            np.subtract(a, work, out=work)
+            np.subtract(work, eq, out=work)
+            np.multiply(work, ua_sign, out=work)
+            np.maximum(work, 0.0, out=power)
+            np.minimum(power, cap, out=power)
+            np.multiply(power, sign_per_ua, out=work)
+            np.add(eq, work, out=eq)
+        np.subtract(x0, eq, out=work)                 # offset from the equilibrium
+        mean = eq + work * mean_weight
+        return eq + work * decay, mean
+
+    scratch = [np.empty(n) for _ in prepared]
+    if initial is None:
+        warm = int(min(hours, np.ceil(WARM_UP_TAUS * tau.max() / dt_h)))
+        state = temp_eq[hours - warm].copy()
+        for k in range(hours - warm, hours):
+            state = step(state, temp_eq[k], scratch)[0]
+    else:
+        state = np.array(initial, dtype=float)
+    out_mean = np.empty((hours, n))
+    out_end = np.empty((hours, n))
+    out_p = [np.empty((hours, n)) for _ in prepared]
+    for k in range(hours):   # vectorised across lanes; the hour loop is inherent
+        state, out_mean[k] = step(state, temp_eq[k], [store[k] for store in out_p])
+        out_end[k] = state
+    return out_mean, out_end, {p[0]: store for p, store in zip(prepared, out_p)}
 
 
 # --------------------------------------------------------------------------- drives
@@ -392,11 +447,14 @@ def solar_gain_w(year: TypicalYear, enclosure: Enclosure) -> np.ndarray:
     area = enclosure.area_top_m2 + 4.0 * enclosure.area_wall_m2
     if area <= 0 or enclosure.absorptance_frac <= 0:
         return np.zeros(HOURS_PER_YEAR)
+    # Keyed on the (read-only) irradiance arrays' identity; the cache holds them, so
+    # an id cannot be reused while its entry lives. Warmed copies share the arrays.
     key = (year.latitude_deg, year.longitude_deg, year.altitude_m, year.utc_offset_h,
-           hash(year.ghi_w_m2.tobytes()), hash(year.dni_w_m2.tobytes()), enclosure.area_top_m2,
+           id(year.ghi_w_m2), id(year.dni_w_m2), id(year.dhi_w_m2), enclosure.area_top_m2,
            enclosure.area_wall_m2, enclosure.azimuth_deg, enclosure.beam_shading_frac,
            enclosure.sky_view_frac)
-    flux = _SOLAR_CACHE.get(key)   # area-weighted irradiance sum, W
+    cached = _SOLAR_CACHE.get(key)
+    flux = None if cached is None else cached[0]   # area-weighted irradiance sum, W
     if flux is None:
         kw = dict(beam_shading_frac=enclosure.beam_shading_frac,
                   sky_view_frac=enclosure.sky_view_frac)
@@ -407,7 +465,7 @@ def solar_gain_w(year: TypicalYear, enclosure: Enclosure) -> np.ndarray:
                     year, 90.0, (enclosure.azimuth_deg + turn) % 360.0, **kw)
         if len(_SOLAR_CACHE) > 256:
             _SOLAR_CACHE.clear()
-        _SOLAR_CACHE[key] = flux
+        _SOLAR_CACHE[key] = (flux, year.ghi_w_m2, year.dni_w_m2, year.dhi_w_m2)
     u_w_m2k = enclosure.ua_w_k / area
     return u_w_m2k * enclosure.absorptance_frac * flux / H_OUT_W_M2K
 
@@ -499,13 +557,19 @@ def battery_temperature_fleet(years: Sequence[TypicalYear], enclosures: Sequence
         raise ValueError("years and enclosures must have the same length")
     overrides = overrides or [None] * n
     encl = [get_enclosure(k, o) for k, o in zip(enclosures, overrides)]
-    internal = np.asarray(internal_heat_w, dtype=float)
-    temp_eq = np.empty((HOURS_PER_YEAR, n))
-    for j in range(n):   # per-site drive assembly: cached solar parts, O(8760) numpy each
-        heat_j = internal[:, j] if internal.ndim == 2 else (
-            internal[j] if internal.ndim == 1 else internal)
-        temp_eq[:, j] = equilibrium_temp_c(years[j], encl[j], heat_j)
     ua = np.array([e.total_ua_w_k for e in encl])
+    # Sites sharing a climate and an enclosure share their drive: build each once.
+    groups: dict = {}
+    inverse = np.empty(n, dtype=np.intp)
+    for j in range(n):
+        inverse[j] = groups.setdefault((id(years[j]), encl[j]), len(groups))
+    drives = np.empty((HOURS_PER_YEAR, len(groups)))
+    for (_, e), g in groups.items():
+        j = int(np.argmax(inverse == g))
+        drives[:, g] = equilibrium_temp_c(years[j], e)
+    temp_eq = drives[:, inverse]
+    internal = np.asarray(internal_heat_w, dtype=float)
+    temp_eq += (internal / ua) if internal.ndim < 2 else internal / ua[None, :]
     tau = np.array([e.tau_h for e in encl])
     heat_sp = np.array([np.nan if e.hvac_heat_setpoint_c is None else e.hvac_heat_setpoint_c
                         for e in encl])
@@ -518,7 +582,9 @@ def battery_temperature_fleet(years: Sequence[TypicalYear], enclosures: Sequence
         cool_max_w=np.array([e.hvac_cool_capacity_w for e in encl]))
     heat_cop = np.array([e.hvac_heat_cop for e in encl])
     cool_cop = np.array([e.hvac_cool_cop for e in encl])
-    hvac = result.heat_w / heat_cop + result.cool_w / cool_cop
+    hvac = result.heat_w
+    hvac /= heat_cop
+    hvac += result.cool_w / cool_cop
     return FleetThermal(result.temp_mean_c, result.heater_w, hvac, encl)
 
 

@@ -75,11 +75,14 @@ class TypicalYear:
 
     def __post_init__(self):
         for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s"):
-            values = np.array(getattr(self, field), dtype=np.float64)
+            values = np.asarray(getattr(self, field))
+            if values.dtype != np.float64 or values.flags.writeable or values.base is not None:
+                values = np.array(values, dtype=np.float64)
+                # Read-only: bundled years are cached and shared across a fleet (and
+                # copies made by with_warming share the unchanged arrays).
+                values.setflags(write=False)
             if values.shape != (HOURS_PER_YEAR,):
                 raise ValueError(f"TypicalYear.{field} must have shape (8760,), got {values.shape}")
-            # Read-only: bundled years are cached and shared across a fleet.
-            values.setflags(write=False)
             object.__setattr__(self, field, values)
 
     def times(self) -> pd.DatetimeIndex:
