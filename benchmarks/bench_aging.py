@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import resource
 import time
 
@@ -129,8 +130,8 @@ def main():
 
     chem = get_chemistry(args.chemistry)
     rng = np.random.default_rng(2024)
-    print(f"machine load indicator: {machine_speed_s():.3f} s for 5e7 multiplies "
-          "(about 0.05 s on an idle core)")
+    print(f"machine load indicator: {machine_speed_s():.3f} s for 5 x 1e7 multiplies "
+          f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs)")
     temps = site_temperatures(args.sites, rng)
     patterns = site_depth_patterns(args.sites, rng)
     oversize, volts = design_grid(chem, args.designs)

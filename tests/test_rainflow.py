@@ -46,6 +46,16 @@ def test_reversals_match_package_including_plateaus():
 
 
 @settings(max_examples=60, deadline=None)
+@given(arrays(np.int64, st.tuples(st.integers(0, 12), st.integers(1, 3)), elements=st.integers(-2, 2)))
+def test_reversal_indices_match_package(series):
+    # Reference library: rainflow.reversals, including very short series and plateaus.
+    mask = reversal_mask(series.astype(float))
+    for lane in range(series.shape[1]):
+        expected = [i for i, _ in rainflow.reversals(series[:, lane].tolist())]
+        assert list(np.nonzero(mask[:, lane])[0]) == expected
+
+
+@settings(max_examples=60, deadline=None)
 @given(arrays(np.float64, st.tuples(st.integers(0, 40), st.integers(1, 4)),
               elements=st.floats(-10, 10, allow_nan=False, width=32)))
 def test_random_float_series_match_package(series):

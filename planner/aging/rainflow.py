@@ -145,7 +145,8 @@ def _reversals_packed(x_by_lane, lengths):
     inner = np.bincount(lane, minlength=n_lanes)
     # The package: first point always; last point too when there are at least 3 points.
     has_end = lengths >= 3
-    counts = 1 + inner + has_end
+    # The package yields nothing for one point and only the first point for two.
+    counts = np.where(lengths >= 2, 1 + inner + has_end, 0)
     width = int(counts.max()) if n_lanes else 0
     values = np.full((n_lanes, max(width, 1)), np.nan)
     index = np.zeros((n_lanes, max(width, 1)), dtype=np.int64)
