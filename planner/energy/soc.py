@@ -45,6 +45,11 @@ import numpy as np
 
 from planner.errors import InputError
 
+try:  # optional accelerator: the same step compiled into one loop (about 4x less CPU)
+    import numba as _numba
+except ImportError:
+    _numba = None
+
 HOURS_PER_YEAR = 8760
 
 #: Default lanes per chunk: 8,192 lanes x 8,760 h x float32 is 287 MB per streamed series.
@@ -245,7 +250,7 @@ def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *
                     available_capacity_frac=None, initial_soc_frac=1.0,
                     low_soc_threshold_frac=0.5, lane_site_index=None,
                     chunk_lanes: int = DEFAULT_CHUNK_LANES,
-                    series=True) -> Iterator[SocChunk]:
+                    series=True, engine: str = "auto") -> Iterator[SocChunk]:
     """Simulate the hourly SOC of all lanes, yielding one :class:`SocChunk` per chunk.
 
     Same parameters as :func:`simulate_soc` (which documents them), plus ``series``:
@@ -253,6 +258,9 @@ def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *
     summaries only; a sequence of lane indices streams the series of those lanes only
     (each chunk's ``soc_frac`` then has one column per selected lane inside the chunk,
     in increasing lane order, or is ``None`` when the chunk has none).
+
+    ``engine``: "auto" uses the numba-compiled loop when numba is installed and the numpy
+    loop otherwise; "numpy" forces the numpy loop (both give the same numbers).
 
     The aging stage consumes each chunk's ``soc_frac`` and ``current_c_rate`` and drops
     them, so peak memory is about two ``(n_hours, chunk_lanes)`` float32 arrays plus the
@@ -265,6 +273,9 @@ def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *
                  low_soc_threshold_frac, lane_site_index)
     if not isinstance(chunk_lanes, (int, np.integer)) or chunk_lanes < 1:
         raise InputError(f"chunk_lanes: found {chunk_lanes!r}, expected an integer >= 1")
+    if engine not in ("auto", "numpy"):
+        raise InputError(f"engine: found {engine!r}, expected 'auto' or 'numpy'")
+    p["engine"] = engine
     wanted = None if isinstance(series, (bool, np.bool_)) else \
         np.unique(np.asarray(series, dtype=np.intp))
     n = p["cap"].shape[0]
@@ -328,6 +339,7 @@ def _prepare(charge_power_w, load_power_w, capacity_wh, temp_battery_c, usable_f
                 raise InputError(f"lane_site_index: found {int(site_idx.max())}, expected "
                                  f"indices below the {n_columns} site columns")
     p["site_idx"] = site_idx
+    p["n_columns"] = n_columns
 
     charge = _Hourly(charge_power_w, "charge_power_w", None, n_columns)
     load = _Hourly(load_power_w, "load_power_w", charge.n_hours, n_columns)
@@ -385,8 +397,12 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     charge; a move cut short at the floor is unserved load. Site-level quantities (net
     power, the cold block, the efficiencies when every lane shares them) are computed once
     per site column, then gathered to the lanes. ``keep`` is ``None`` (no series
-    returned), ``slice(None)`` or local lane indices.
+    returned), ``slice(None)`` or local lane indices. When numba is installed the
+    compiled :func:`_fused_hours` runs the same hours (``p["engine"] = "numpy"`` forces
+    the numpy loop).
     """
+    if _FUSED is not None and p.get("engine") != "numpy":
+        return _run_chunk_fused(p, start, stop, keep, _FUSED)
     k = stop - start
     n_hours = p["n_hours"]
     lane = slice(start, stop)
@@ -510,12 +526,154 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
             snap_dr.append(sum_acc - sum_d)
             snap_dfc.append(sum_dfc_s.copy())
 
-    return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, p["low"][lane], e,
-                         e_start, sum_acc, sum_acc - sum_d, sum_sd, n_uns,
+    stats = _series_summaries(soc_s, flow_s, cap, eta_c, eta_d, p["low"][lane])
+    return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
+                         sum_acc - sum_d, sum_sd, n_uns,
                          blk + (blk_s if inv is None else blk_s[inv]),
                          sum_sur_s if inv is None else sum_sur_s[inv],
-                         sum_dfc_s if inv is None else sum_dfc_s[inv], soc_s, flow_s,
-                         _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns))
+                         sum_dfc_s if inv is None else sum_dfc_s[inv],
+                         _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns), *stats,
+                         soc_s, flow_s)
+
+
+def _fused_hours(charge, load, temp, sd, heater, avail, has_avail, col, cap, inv_cap, e_max,
+                 e_floor, dod_wh, a_max, eta_c, eta_d, inv_eta_d, charge_rate_f,
+                 discharge_rate_f, t_min, low_frac, e, sum_acc, sum_d, sum_sd,
+                 sum_sur, sum_dfc, n_uns, blk, sum_soc, min_soc, max_cr, longest,
+                 series_col, soc_s, cr_s, month_end, snap_dr, snap_dfc):
+    """The step of :func:`_run_chunk`, lane by lane, for compilation with numba.
+
+    Same arithmetic in the same order as the numpy recursion (the energy sums agree to
+    the last bit); the summaries that the numpy path takes from the float32 series in
+    bulk are kept here in float64 as the hours go, and series are written only for lanes
+    with ``series_col[j] >= 0``. Only ever run compiled, except on tiny inputs in tests.
+    Hourly inputs are ``(n_hours, n_columns)`` arrays (broadcast views are fine) read at
+    column ``col[j]``; state and accumulators are updated in place.
+    """
+    n_hours = month_end.shape[0]
+    k = e.shape[0]
+    snap = 0
+    day_max = np.full(k, -1.0)
+    run = np.zeros(k)
+    for t in range(n_hours):
+        day_end = (t + 1) % 24 == 0
+        for j in range(k):
+            c = col[j]
+            net = charge[t, c] - load[t, c]
+            if net > 0.0:
+                sum_sur[j] += net
+                if temp[t, c] >= t_min[j] or heater[t, c]:
+                    x = net * eta_c[j]
+                else:
+                    x = 0.0
+                    blk[j] += 1
+            else:
+                sum_dfc[j] -= net
+                x = net * inv_eta_d[j]     # multiplications: divisions stall the loop
+            if x > a_max[j]:
+                x = a_max[j]
+            ej = e[j]
+            loss = ej * sd[t, c]
+            ej -= loss
+            sum_sd[j] += loss
+            floor = cap[j] - avail[t, c] * dod_wh[j] if has_avail else e_floor[j]
+            lo = floor if floor < ej else ej
+            y = ej + x
+            if y < lo:
+                n_uns[j] += 1
+                y = lo
+            if y > e_max[j]:
+                y = e_max[j]
+            dd = y - ej
+            sum_d[j] += dd
+            if dd > 0.0:
+                sum_acc[j] += dd
+                rate = dd * charge_rate_f[j]
+            else:
+                rate = dd * discharge_rate_f[j]
+            e[j] = y
+            soc = y * inv_cap[j]
+            sum_soc[j] += soc
+            if soc < min_soc[j]:
+                min_soc[j] = soc
+            if abs(rate) > max_cr[j]:
+                max_cr[j] = abs(rate)
+            if soc > day_max[j]:
+                day_max[j] = soc
+            if day_end:
+                run[j] = run[j] + 1.0 if day_max[j] < low_frac[j] else 0.0
+                if run[j] > longest[j]:
+                    longest[j] = run[j]
+                day_max[j] = -1.0
+            s = series_col[j]
+            if s >= 0:
+                soc_s[t, s] = soc
+                cr_s[t, s] = rate
+        if month_end[t]:
+            for j in range(k):
+                snap_dr[snap, j] = sum_acc[j] - sum_d[j]
+                snap_dfc[snap, j] = sum_dfc[j]
+            snap += 1
+
+
+_FUSED = _numba.njit(cache=True)(_fused_hours) if _numba is not None else None
+
+
+def _dense(h, n_hours: int, n_columns: int, dtype, fill):
+    """An hourly input as an ``(n_hours, n_columns)`` array or zero-stride view."""
+    if h is None:
+        return np.broadcast_to(np.array(fill, dtype=dtype), (n_hours, n_columns))
+    arr = np.asarray(h.arr, dtype=dtype)
+    if arr.ndim == 0:
+        return np.broadcast_to(arr, (n_hours, n_columns))
+    if arr.ndim == 1:
+        return np.broadcast_to(arr[:, None], (n_hours, n_columns))
+    return arr
+
+
+def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
+    """:func:`_run_chunk` with the hour loop inside a compiled ``kernel``."""
+    k = stop - start
+    n_hours, n_columns = p["n_hours"], p["n_columns"]
+    lane = slice(start, stop)
+    cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
+    eta_c, eta_d = p["eta_c"][lane], p["eta_d"][lane]
+    col = (np.arange(start, stop) if p["site_idx"] is None
+           else p["site_idx"][lane]).astype(np.int64)
+    e = np.minimum(p["soc0"][lane], usable) * cap
+    e_start = e.copy()
+    month_end = np.zeros(n_hours, dtype=bool)
+    if n_hours == HOURS_PER_YEAR:
+        month_end[np.cumsum([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31]) * 24 - 1] = True
+    else:
+        month_end[-1] = True
+    n_snap = int(month_end.sum())
+    snap_dr, snap_dfc = np.zeros((n_snap, k)), np.zeros((n_snap, k))
+    sum_acc, sum_d, sum_sd, sum_sur, sum_dfc, sum_soc, max_cr, longest = (
+        np.zeros(k) for _ in range(8))
+    min_soc = np.full(k, np.inf)
+    n_uns, blk = np.zeros(k, dtype=np.int64), np.zeros(k, dtype=np.int64)
+    series_col = np.full(k, -1, dtype=np.int64)
+    if keep is not None:
+        picked = np.arange(k)[keep]
+        series_col[picked] = np.arange(picked.size)
+    n_series = int((series_col >= 0).sum())
+    soc_s = np.empty((n_hours, n_series), dtype=np.float32)
+    cr_s = np.empty((n_hours, n_series), dtype=np.float32)
+    dense = [_dense(p[name], n_hours, n_columns, float, 0.0)
+             for name in ("charge", "load", "temp", "sd")]
+    heater = _dense(p["heater"], n_hours, n_columns, np.bool_, False)
+    avail = _dense(p["avail"], n_hours, n_columns, float, 1.0)
+    kernel(*dense, heater, avail, p["avail"] is not None, col, cap, 1.0 / cap, usable * cap,
+           soc_min * cap, (1.0 - soc_min) * cap,
+           np.minimum(p["c_max"][lane] * cap, 1e300) * eta_c, eta_c, eta_d, 1.0 / eta_d,
+           -1.0 / (eta_c * cap), -eta_d / cap, p["t_min"][lane], p["low"][lane], e, sum_acc, sum_d, sum_sd, sum_sur, sum_dfc,
+           n_uns, blk, sum_soc, min_soc, max_cr, longest, series_col, soc_s, cr_s,
+           month_end, snap_dr, snap_dfc)
+    return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
+                         sum_acc - sum_d, sum_sd, n_uns, blk, sum_sur, sum_dfc,
+                         _monthly_unserved(list(snap_dr), list(snap_dfc), None, eta_d, n_uns),
+                         sum_soc / n_hours, min_soc, max_cr, longest, soc_s, cr_s)
 
 
 def _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns) -> np.ndarray:
@@ -537,21 +695,16 @@ def _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns) -> np.ndarray:
     return out
 
 
-def _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, low_frac, e, e_start,
-                  sum_acc, sum_dr, sum_sd, n_uns, blocked, sum_surplus_wh, sum_deficit_wh,
-                  soc_s, flow_s, unserved_by_month) -> SocChunk:
-    """Turn the chunk's accumulators and stored-energy series into summaries/series."""
-    inv_c = 1.0 / cap
-    energy_in = sum_acc / eta_c
-    energy_out = sum_dr * eta_d
-    losses = sum_sd + sum_acc * (1.0 / eta_c - 1.0) + sum_dr * (1.0 - eta_d)
-    # unserved = deficit offered - energy delivered; exactly 0 when no hour fell short
-    unserved = np.where(n_uns > 0, np.maximum(sum_deficit_wh - energy_out, 0.0), 0.0)
-    curtailed = np.maximum(sum_surplus_wh - energy_in, 0.0)
-    # stored energy (Wh) -> SOC; stored change d -> terminal C-rate, discharge positive:
-    # charging d > 0 took d / eta_c at the terminals, discharging gave -d * eta_d
-    k = stop - start
-    inv_c32 = inv_c.astype(np.float32)
+def _series_summaries(soc_s, flow_s, cap, eta_c, eta_d, low_frac):
+    """Convert the numpy loop's stored-energy series in place and summarise them.
+
+    Stored energy (Wh) becomes SOC; the stored change ``d`` becomes the terminal C-rate,
+    discharge positive: charging ``d > 0`` took ``d / eta_c`` at the terminals,
+    discharging gave ``-d * eta_d``. Returns mean SOC, min SOC, max |C-rate| and the
+    longest run of low days, per lane.
+    """
+    k = cap.shape[0]
+    inv_c32 = (1.0 / cap).astype(np.float32)
     charge_f = (-1.0 / (eta_c * cap)).astype(np.float32)
     discharge_f = (-eta_d / cap).astype(np.float32)
     longest = np.zeros(k)
@@ -562,15 +715,31 @@ def _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, low_frac, e, e_
         f = flow_s[:, c]
         f *= np.where(f > 0, charge_f[c], discharge_f[c])
         longest[c] = _longest_low_days(soc_s[:, c], low_frac[c].astype(np.float32))
+    return (soc_s.mean(axis=0, dtype=np.float64), soc_s.min(axis=0).astype(np.float64),
+            np.maximum(flow_s.max(axis=0), -flow_s.min(axis=0)).astype(np.float64), longest)
+
+
+def _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
+                  sum_dr, sum_sd, n_uns, blocked, sum_surplus_wh, sum_deficit_wh,
+                  unserved_by_month, mean_soc, min_soc, max_c_rate, longest_days,
+                  soc_series, c_rate_series) -> SocChunk:
+    """Turn the chunk's accumulators into per-lane summaries and the kept series."""
+    inv_c = 1.0 / cap
+    energy_in = sum_acc / eta_c
+    energy_out = sum_dr * eta_d
+    losses = sum_sd + sum_acc * (1.0 / eta_c - 1.0) + sum_dr * (1.0 - eta_d)
+    # unserved = deficit offered - energy delivered; exactly 0 when no hour fell short
+    unserved = np.where(n_uns > 0, np.maximum(sum_deficit_wh - energy_out, 0.0), 0.0)
+    curtailed = np.maximum(sum_surplus_wh - energy_in, 0.0)
     summary = SocResult(
         equivalent_full_cycles_per_year=energy_out * inv_c * (HOURS_PER_YEAR / n_hours),
-        mean_soc_frac=soc_s.mean(axis=0, dtype=np.float64),
-        min_soc_frac=soc_s.min(axis=0).astype(np.float64),
+        mean_soc_frac=mean_soc,
+        min_soc_frac=min_soc,
         final_soc_frac=e * inv_c,
-        max_c_rate=np.maximum(flow_s.max(axis=0), -flow_s.min(axis=0)).astype(np.float64),
+        max_c_rate=max_c_rate,
         unserved_wh=unserved,
         unserved_hours=n_uns,
-        longest_low_soc_days=longest,
+        longest_low_soc_days=longest_days,
         energy_in_wh=energy_in,
         energy_out_wh=energy_out,
         losses_wh=losses,
@@ -583,9 +752,9 @@ def _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, low_frac, e, e_
     )
     if keep is None:
         return SocChunk(start, stop, None, None, summary)
-    if isinstance(keep, slice):
-        return SocChunk(start, stop, soc_s, flow_s, summary)
-    return SocChunk(start, stop, soc_s[:, keep], flow_s[:, keep], summary)
+    if isinstance(keep, slice) or soc_series.shape[1] == len(keep):
+        return SocChunk(start, stop, soc_series, c_rate_series, summary)
+    return SocChunk(start, stop, soc_series[:, keep], c_rate_series[:, keep], summary)
 
 
 def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
@@ -594,7 +763,7 @@ def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
                  charge_temp_min_c=-np.inf, heater_on=None, min_soc_frac=0.0,
                  available_capacity_frac=None, initial_soc_frac=1.0,
                  low_soc_threshold_frac=0.5, lane_site_index=None, keep_series_for=None,
-                 chunk_lanes: int = DEFAULT_CHUNK_LANES) -> SocResult:
+                 chunk_lanes: int = DEFAULT_CHUNK_LANES, engine: str = "auto") -> SocResult:
     """Hourly state of charge of ``n`` lanes over a typical year; per-lane summaries.
 
     Hourly inputs take any of: a scalar; shape ``(n_hours,)`` (same for every lane);
@@ -646,6 +815,8 @@ def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
         Lanes whose hourly SOC and C-rate series are returned.
     chunk_lanes : int
         Lanes simulated together; bounds the working memory.
+    engine : {"auto", "numpy"}
+        "auto" runs the hour loop compiled with numba when numba is installed.
 
     Returns
     -------
@@ -675,7 +846,7 @@ def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
             available_capacity_frac=available_capacity_frac,
             initial_soc_frac=initial_soc_frac, low_soc_threshold_frac=low_soc_threshold_frac,
             lane_site_index=lane_site_index, chunk_lanes=chunk_lanes,
-            series=keep if keep.size else False):
+            series=keep if keep.size else False, engine=engine):
         parts.append(chunk.summary)
         if chunk.soc_frac is not None:
             soc_cols.append(chunk.soc_frac)
