@@ -51,7 +51,7 @@ def test_columns_with_crew_limit_uses_joint_master():
     prob = FleetProblem(sites, 4, 0.0, {"A": 500.0}, crew_site_visits_per_year=2, gap_rel_frac=1e-9)
     cols = solve_fleet(replace(prob, method="columns"))
     path = solve_fleet(replace(prob, method="path"))
-    assert "joint master" in cols.decomposition
+    assert "fleet-wide crew/budget rows" in cols.decomposition
     per_year = {}
     for p in cols.sites:
         for t in p.replacement_years:

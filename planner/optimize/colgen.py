@@ -173,11 +173,14 @@ class MasterResult:
 def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.ndarray,
                      group_open: np.ndarray, *, rate: float, payload_kg: float | None,
                      crew: float | None, budget: float | None, time_limit_s: float,
-                     max_iterations: int = 500, per_site: int = 3) -> MasterResult:
+                     max_iterations: int = 500, per_site: int = 3,
+                     bound_gap_frac: float = 0.0) -> MasterResult:
     """Solve the LP master by column generation; return all columns and a lower bound.
 
     ``site_group[s]`` is the trip group of site s; ``group_trip_cost[k]`` its trip cost;
     ``group_open[k]`` False for groups that never travel (sites needing no visit).
+    Pricing stops early once the Lagrangian bound is within ``bound_gap_frac`` of the
+    master LP value (the tailing-off of column generation buys little bound).
     """
     import highspy
 
@@ -189,18 +192,20 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     big = 1e3 * (1.0 + float(np.abs(g.arc_cost).sum() + np.abs(group_trip_cost).sum() * h))
     pricer = Pricer(g)
 
-    # row layout: convexity [0, n) | visit (s, t) [n, n + n*h) | payload (k, t) | crew t | budget t
+    # row layout: convexity [0, n) | payload (k, t) | crew t | budget t | visit rows (s, t),
+    # added only when a column first visits (s, t): until then the row would be
+    # "-y <= 0", never binding, with dual 0 (keeps the degenerate master small)
     r_conv = 0
-    r_visit = n_sites
-    r_pay = r_visit + n_sites * h
+    r_pay = n_sites
     n_pay = n_groups * h if payload_kg is not None else 0
     r_crew = r_pay + n_pay
     n_crew = h if crew is not None else 0
     r_bud = r_crew + n_crew
     n_bud = h if budget is not None else 0
     n_rows = r_bud + n_bud
-    lo = np.concatenate([np.ones(n_sites), np.full(n_sites * h + n_pay + n_crew + n_bud, -inf)])
-    hi = np.concatenate([np.ones(n_sites), np.zeros(n_sites * h + n_pay),
+    visit_row = np.full((n_sites, h), -1, dtype=np.int64)
+    lo = np.concatenate([np.ones(n_sites), np.full(n_pay + n_crew + n_bud, -inf)])
+    hi = np.concatenate([np.ones(n_sites), np.zeros(n_pay),
                          np.full(n_crew, float(crew or 0.0)), np.full(n_bud, float(budget or 0.0))])
 
     with quiet_stdout():  # the banner is printed when the instance is created
@@ -218,9 +223,7 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     y_ub = np.where(group_open[ks], 1.0 if payload_kg is None else float(max(1, n_sites)), 0.0)
     entries = []
     for j, (k, t) in enumerate(zip(ks, ts)):  # one column per (group, year): G*H, small
-        members = np.nonzero(site_group == k)[0]
-        idx = list(r_visit + members * h + t)
-        val = [-1.0] * members.size
+        idx, val = [], []
         if payload_kg is not None:
             idx.append(r_pay + k * h + t)
             val.append(-float(payload_kg))
@@ -248,7 +251,7 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
         spend = np.zeros(h)
         for a in col.arcs:
             t1, t2 = int(g.arc_t1[a]), int(g.arc_t2[a])
-            idx.append(r_visit + s * h + t1)
+            idx.append(int(visit_row[s, t1]))
             val.append(1.0)
             if payload_kg is not None:
                 idx.append(r_pay + k * h + t1)
@@ -268,7 +271,18 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
         return idx, val
 
     def add(cols):
+        nonlocal n_rows
         cols = [c for c in cols if c is not None]
+        new_rows = sorted({(c.site, t) for c in cols for t in c.years if visit_row[c.site, t] < 0})
+        if new_rows:
+            sv = np.array([r[0] for r in new_rows], dtype=np.int64)
+            tv = np.array([r[1] for r in new_rows], dtype=np.int64)
+            visit_row[sv, tv] = n_rows + np.arange(sv.size)
+            n_rows += sv.size
+            # entry: -1 on y[group(s), t] (column index k*h + t)
+            hs.addRows(sv.size, np.full(sv.size, -inf), np.zeros(sv.size), sv.size,
+                       np.arange(sv.size, dtype=np.int32), (site_group[sv] * h + tv).astype(np.int32),
+                       -np.ones(sv.size))
         if cols:
             _add_cols(hs, np.array([c.cost for c in cols]), np.zeros(len(cols)), np.full(len(cols), inf),
                       [column_entries(c) for c in cols])
@@ -295,7 +309,7 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
         z = float(hs.getInfo().objective_function_value)
         dual = np.asarray(hs.getSolution().row_dual)
         sigma = dual[r_conv:r_conv + n_sites]
-        vis = dual[r_visit:r_visit + n_sites * h].reshape(n_sites, h)
+        vis = np.where(visit_row >= 0, dual[np.maximum(visit_row, 0)], 0.0)
         extra = -vis[g.arc_site, g.arc_t1]
         if payload_kg is not None:
             pay = dual[r_pay:r_pay + n_pay].reshape(n_groups, h)
@@ -313,6 +327,9 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
         lower = max(lower, z + float(np.minimum(rc, 0.0).sum()))
         if not new:
             converged = True
+            break
+        if z - lower <= bound_gap_frac * scale:
+            converged = True  # LP bound proved to within bound_gap_frac
             break
         add(new)
         if time.perf_counter() - t_start > time_limit_s:
@@ -337,3 +354,51 @@ def _add_cols(hs, cost, lower, upper, entries):
     hs.addCols(len(cost), np.asarray(cost, dtype=float), np.asarray(lower, dtype=float),
                np.asarray(upper, dtype=float), len(index), np.asarray(starts, dtype=np.int32),
                np.asarray(index, dtype=np.int32), np.asarray(value, dtype=float))
+
+
+def polish_trip_years(g: SiteGraphs, site_group: np.ndarray, y: np.ndarray, trip_cost: np.ndarray,
+                      rate: float, *, deadline: float, max_passes: int = 6) -> np.ndarray:
+    """Local search on the trip years of several independent trip groups at once.
+
+    Moves: open/close one year, or shift a trip by one year; every move is tried in all
+    groups together (one fleet-wide shortest-path evaluation per move) and kept in the
+    groups where it lowers cost. Only for groups without payload, crew or budget rows,
+    where a site's best schedule given the trip years is its shortest path.
+    """
+    pricer = Pricer(g)
+    h = g.horizon_years
+    n_groups = y.shape[0]
+    trip_pv = trip_cost[:, None] * ec.spv(rate, np.arange(h))[None, :]
+    no_ex = np.zeros(g.ex_cost.size)
+
+    def cost(yy):
+        allowed = yy[site_group[g.arc_site], g.arc_t1] > 0.5
+        final, keep_val, _ = pricer.values(np.where(allowed, 0.0, np.inf), no_ex)
+        site_val = keep_val.copy()
+        np.minimum.at(site_val, g.pair_site, final)
+        per_site = np.bincount(site_group, weights=np.where(np.isfinite(site_val), site_val, 0.0),
+                               minlength=n_groups)
+        bad = np.bincount(site_group, weights=~np.isfinite(site_val), minlength=n_groups) > 0
+        return np.where(bad, np.inf, per_site + (yy * trip_pv).sum(axis=1))
+
+    best = cost(y)
+    for _ in range(max_passes):
+        improved = False
+        moves = [("flip", t) for t in range(h)] + [("shift", t) for t in range(h - 1)]
+        for kind, t in moves:  # about 2H moves, each vectorised over every group and site
+            if time.perf_counter() > deadline:
+                return y
+            trial = y.copy()
+            if kind == "flip":
+                trial[:, t] = 1.0 - trial[:, t]
+            else:
+                trial[:, [t, t + 1]] = trial[:, [t + 1, t]]
+            c = cost(trial)
+            better = c < best - 1e-9 * np.maximum(1.0, np.abs(best))
+            if better.any():
+                y = np.where(better[:, None], trial, y)
+                best = np.where(better, c, best)
+                improved = True
+        if not improved:
+            break
+    return y

@@ -65,7 +65,11 @@ class SiteGraphs:
 
     @property
     def arc_site(self) -> np.ndarray:
-        return self.pair_site[self.arc_pair]
+        cached = self.__dict__.get("_arc_site")
+        if cached is None or cached.size != self.arc_pair.size:
+            cached = self.pair_site[self.arc_pair]
+            self.__dict__["_arc_site"] = cached
+        return cached
 
 
 def failure_cost(site: SiteOptions) -> float:
