@@ -90,7 +90,7 @@ def schmalstieg2014_cycle_loss(mean_voltage_v, dod_frac, throughput_ah, **params
 def woehler_cycles_to_failure(dod_frac, *, cycles_at_full_depth, woehler_exponent, **_):
     """Cycles to end of life at depth of discharge ``dod_frac``: ``N = N_100 * DOD**-k``.
 
-    The Wöhler (S-N) form used for lead-acid cycle life vs depth (Wöhler, A. (1870),
+    The Wöhler (S-N) form used for lead-acid cycle life vs depth (Wöhler, A. (1870), from memory:
     Z. Bauwesen 20, 73-106; applied to batteries e.g. in Bindner et al. (2005), Lifetime
     modelling of lead acid batteries, Risø-R-1515(EN)).
     """

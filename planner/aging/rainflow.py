@@ -26,7 +26,7 @@ References
 ASTM E1049-85 (reapproved 2017), Standard Practices for Cycle Counting in Fatigue
 Analysis, section 5.4.4 Rainflow Counting and Fig. 6 example.
 Amzallag, C., Gerey, J. P., Robert, J. L., Bahuaud, J. (1994), Standardization of the
-rainflow counting method for fatigue analysis, Int. J. Fatigue 16(4), 287-293 (the
+rainflow counting method for fatigue analysis, Int. J. Fatigue 16(4), 287-293 (from memory; the
 four-point form of the method).
 """
 

@@ -102,12 +102,10 @@ def _print_list():
               help="End of life: state of health (remaining/rated capacity) fraction.")
 @click.option("--years", "years", type=int, default=40, show_default=True,
               help="Horizon in years.")
-@click.option("--aging-set", "aging_set", default=None,
-              help="Alternative aging parameter set of the chemistry (see --list).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
 @click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
 def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
-                 cycles_per_day, c_rate, eol_soh, years, aging_set, as_json, list_only):
+                 cycles_per_day, c_rate, eol_soh, years, as_json, list_only):
     """Predict the life of a battery stored or cycled at a temperature or in a climate.
 
     Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
@@ -178,7 +176,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         peak = None
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
-                       peak_c_rate=peak, aging_set=aging_set)
+                       peak_c_rate=peak)
     eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
     reached = math.isfinite(eol_years)
     out = {
