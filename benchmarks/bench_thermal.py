@@ -62,7 +62,7 @@ def main(n_sites: int = 1000) -> None:
     print(f"first 50 sites with cold solar caches: {cold:.2f} s")
     print(f"hourly battery temperature, {n_sites} sites (warm caches): {t_fleet:.2f} s "
           f"(target <= 2 s)")
-    print(f"solver only, {n_sites} linear lanes (closed form, lfilter): {t_linear:.2f} s")
+    print(f"solver only, {n_sites} linear lanes (exact periodic closed form): {t_linear:.2f} s")
     print(f"solver only, {n_sites} lanes with a heater thermostat (hour loop): {t_loop:.2f} s")
     print(f"output shape: {fleet.temp_battery_c.shape}, mean battery temperature "
           f"{fleet.temp_battery_c.mean():.2f} degC, heater energy "
