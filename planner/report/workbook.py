@@ -34,6 +34,8 @@ SHEET_NAMES = ("Summary", "Sites", "Capacity fade", "Fade by year", "Visit sched
                "Cost comparison", "Climate", "Assumptions and sources", "Cautions")
 #: How many sites get a capacity-fade chart (the most expensive ones).
 FADE_CHART_SITES = 20
+#: Largest fleet whose Fade by year table also lists every alternative design year by year.
+FADE_TABLE_ALTERNATIVES_MAX_SITES = 200
 #: How many representative sites get a climate chart.
 CLIMATE_CHART_SITES = 4
 MONTH_ABBR = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
@@ -324,7 +326,8 @@ def _fade_sheet(ws, plan) -> None:
     chosen = [s for s in _most_expensive(_sites(plan), FADE_CHART_SITES) if _fade_series(s)]
     _title(ws, f"State of health over the horizon: the {len(chosen)} most expensive sites",
            "Chosen design with its replacement saw-tooth, the P10/P90 band where the plan has it, and the best "
-           "design of each other chemistry. All sites, year by year: sheet Fade by year.")
+           "design of each other chemistry. All sites, year by year: sheet Fade by year (alternatives "
+           f"listed there for fleets of up to {FADE_TABLE_ALTERNATIVES_MAX_SITES} sites).")
     if not chosen:
         put(ws, 4, 1, "The plan holds no state-of-health series.")
         styles.landscape_fit_width(ws)
@@ -371,10 +374,14 @@ def _chart_page_breaks(ws, chart_rows: int, per_page: int = 3) -> None:
 
 
 def _fade_table_sheet(ws, plan, horizon_years) -> None:
+    # Alternatives' rows quadruple this, the largest table; above the cap they stay in the
+    # charts, on Cost comparison and in the JSON, and the write stays within its time budget.
+    with_alternatives = len(_sites(plan)) <= FADE_TABLE_ALTERNATIVES_MAX_SITES
     records = []
     for site in _sites(plan):
-        designs = [("chosen", site)] + [("alternative", a) for a in site.get("alternatives") or []
-                                        if isinstance(a, Mapping)]
+        designs = [("chosen", site)]
+        if with_alternatives:
+            designs += [("alternative", a) for a in site.get("alternatives") or [] if isinstance(a, Mapping)]
         for role, design in designs:
             soh = _as_float_array(design.get("soh_by_month"))
             yearly = soh[: 12 * horizon_years + 1 : 12].tolist()
