@@ -334,8 +334,15 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         soc_by_lane = np.ascontiguousarray(soc[:, ch].T)
         if soc_part is not None:
             rate = _tabulated(soc_part, soc_by_lane, _SOC_TABLE, soc_bin_frac)
-            rate *= temp_rate_site[sites]
-            cal_monthly[:, ch] = (rate @ _MONTH_MATRIX).T
+            # sum_h soc_part * temp_part * [month]: the temperature part goes into a per-site
+            # (8760, 12) weight matrix, so each site's lanes need one matrix product and no
+            # elementwise pass over the hourly array.
+            for site in np.unique(sites):
+                rows = np.flatnonzero(sites == site)
+                weights = temp_rate_site[site][:, None] * _MONTH_MATRIX
+                contiguous = rows[-1] - rows[0] + 1 == rows.size
+                block = rate[rows[0]:rows[-1] + 1] if contiguous else rate[rows]
+                cal_monthly[:, start + rows] = (block @ weights).T
             del rate
         discharge = None
         if current is not None:
