@@ -170,8 +170,36 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
                 "; run 'planner climate --list' for the bundled names"
             raise InputError(f"'{name}' is neither a bundled climate nor an existing file{hint}",
                              source="climate")
-        year = readers.read_climate_file(path, options=options)
+        year = _read_file_cached(path, options)
     return year.with_warming(warming)
+
+
+def _read_file_cached(path: Path, options: dict | None) -> TypicalYear:
+    """Read a weather file once per (path, content, options).
+
+    A fleet often repeats one file; a changed file is read again (the key holds a
+    digest of the bytes). Repair warnings (short gaps) are issued on the first read only.
+    """
+    import hashlib
+
+    from planner.climate import readers
+
+    try:
+        digest = hashlib.blake2b(path.read_bytes(), digest_size=16).hexdigest()
+        key = (str(path.resolve()), digest,
+               tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
+    except OSError:
+        return readers.read_climate_file(path, options=options)
+    cached = _FILE_CACHE.get(key)
+    if cached is None:
+        cached = readers.read_climate_file(path, options=options)
+        if len(_FILE_CACHE) >= 32:
+            _FILE_CACHE.pop(next(iter(_FILE_CACHE)))
+        _FILE_CACHE[key] = cached
+    return cached
+
+
+_FILE_CACHE: dict = {}
 
 
 __all__ = ["TypicalYear", "ClimateWarning", "load_climate", "list_bundled", "hour_starts",

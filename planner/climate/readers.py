@@ -456,7 +456,7 @@ def _to_local_standard(raw: RawSeries) -> pd.DatetimeIndex:
     return aware.tz_convert("UTC").tz_localize(None) + offset
 
 
-def _check_range(values, rows, lo, hi, what, where, valid=None):
+def _check_range(values, rows, lo, hi, what, where):
     if values is None:
         return
     bad = ~np.isnan(values) & ((values < lo) | (values > hi))
