@@ -299,3 +299,11 @@ def test_chemistry_comparison_reports_unserved_sites():
     assert "vrla" in res["vrla"].unserved[0].reason
     restricted = restrict_chemistry(FleetProblem([a, b], 5, 0.0, {"A": 100.0}), "vrla")
     assert [len(s.candidates) for s in restricted.sites] == [1, 0]
+
+
+def test_infeasible_dict_has_no_nan():
+    # JSON (RFC 8259) has no NaN: unknown numbers become null
+    sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 5, 1000)]) for i in range(3)]
+    d = solve_fleet(FleetProblem(sites, 5, 0.0, {"A": 100.0}, crew_site_visits_per_year=2)).to_dict()
+    assert d["solver"]["status"] == "infeasible"
+    assert d["total_present_cost"] is None and d["solver"]["best_bound"] is None

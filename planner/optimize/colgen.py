@@ -51,52 +51,42 @@ class Pricer:
         self.h = h
         n_pairs = len(g.pair_cand)
         self.n_pairs = n_pairs
-        has_ex = np.array([s.existing is not None for s in g.sites], dtype=bool)
-        self.has_ex = has_ex
-        self.by_t1 = [np.nonzero(g.arc_t1 == t)[0] for t in range(h)]
-        self.arc_site = g.arc_site
+        self.has_ex = np.array([s.existing is not None for s in g.sites], dtype=bool)
+        # dense (design, start year, service years - 1) layout of the arcs: the shortest
+        # path then runs as H vectorised steps over every design of every site
+        span = g.arc_t2 - g.arc_t1
+        self.dense = (g.arc_pair * h + g.arc_t1) * h + (span - 1)
+        self.arc_id = np.full(n_pairs * h * h, -1, dtype=np.int64)
+        self.arc_id[self.dense] = np.arange(g.arc_pair.size)
+        self.arc_id = self.arc_id.reshape(n_pairs, h, h)
         ex_new = g.ex_pair >= 0
         self.ex_new = np.nonzero(ex_new)[0]
         self.ex_keep = np.nonzero(~ex_new)[0]
-        # sites own contiguous pair ranges (build order), used for per-site minima
-        self.site_first_pair = np.searchsorted(g.pair_site, np.arange(len(g.sites)))
+        self.new_pairs = np.nonzero(~self.has_ex[g.pair_site])[0]
 
     def values(self, arc_extra: np.ndarray, ex_extra: np.ndarray):
         """Shortest-path value per design (and per site's keep arc) with ``arc_extra`` /
         ``ex_extra`` added to the arc costs; remembers predecessors for :meth:`column`."""
-        g, h = self.g, self.h
-        cost = g.arc_cost + arc_extra
-        best = np.full((self.n_pairs, h), np.inf)
-        pred = np.full((self.n_pairs, h), -1, dtype=np.int64)
-        new_sites = ~self.has_ex[g.pair_site]
-        best[new_sites, 0] = 0.0
+        g, h, n = self.g, self.h, self.n_pairs
+        cost = np.full(n * h * h, np.inf)
+        cost[self.dense] = g.arc_cost + arc_extra
+        cost = cost.reshape(n, h, h)
+        best = np.full((n, h + 1), np.inf)
+        pred = np.full((n, h + 1), -1, dtype=np.int64)
+        best[self.new_pairs, 0] = 0.0
         if self.ex_new.size:
             e = self.ex_new
-            val = g.ex_cost[e] + ex_extra[e]
-            flat = g.ex_pair[e] * h + g.ex_t[e]
-            np.minimum.at(best.reshape(-1), flat, val)
-            hit = val <= best.reshape(-1)[flat]
-            pred.reshape(-1)[flat[hit]] = -2 - e[hit]  # existing arc e encoded as -2 - e
-        final = np.full(self.n_pairs, np.inf)
-        final_arc = np.full(self.n_pairs, -1, dtype=np.int64)
-        for t in range(h):  # years of the horizon (about 20), each step vectorised over all arcs
-            a = self.by_t1[t]
-            if a.size == 0:
-                continue
-            p = g.arc_pair[a]
-            val = best[p, t] + cost[a]
-            t2 = g.arc_t2[a]
-            term = t2 == h
-            if term.any():
-                np.minimum.at(final, p[term], val[term])
-                hit = term & (val <= final[p])
-                final_arc[p[hit]] = a[hit]
-            inner = ~term
-            if inner.any():
-                flat = p[inner] * h + t2[inner]
-                np.minimum.at(best.reshape(-1), flat, val[inner])
-                hit = val[inner] <= best.reshape(-1)[flat]
-                pred.reshape(-1)[flat[hit]] = a[inner][hit]
+            best[g.ex_pair[e], g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
+            pred[g.ex_pair[e], g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
+        rows = np.arange(n)
+        for t2 in range(1, h + 1):  # years of the horizon (about 20), each step over all designs
+            t1 = np.arange(t2)
+            cand = best[:, :t2] + cost[:, t1, t2 - t1 - 1]
+            j = np.argmin(cand, axis=1)
+            v = cand[rows, j]
+            better = v < best[:, t2]
+            best[better, t2] = v[better]
+            pred[better, t2] = self.arc_id[rows[better], j[better], t2 - j[better] - 1]
         n_sites = len(g.sites)
         keep_val = np.full(n_sites, np.inf)
         keep_arc = np.full(n_sites, -1, dtype=np.int64)
@@ -104,8 +94,8 @@ class Pricer:
             e = self.ex_keep
             keep_val[g.ex_site[e]] = g.ex_cost[e] + ex_extra[e]
             keep_arc[g.ex_site[e]] = e
-        self._last = (pred, final_arc)
-        return final, keep_val, keep_arc
+        self._last = (pred, pred[:, h])
+        return best[:, h], keep_val, keep_arc
 
     def column(self, pair: int, site: int, keep_arc: int = -1) -> Column:
         """Backtrack the cheapest path of design ``pair`` (or the keep arc) found by :meth:`values`."""

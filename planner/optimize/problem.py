@@ -8,6 +8,7 @@ the study (year 0 = start); present values are at year 0.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 from planner.economics import CostBreakdown
@@ -206,15 +207,18 @@ class FleetSolution:
                 "present_cost": p.present_cost,
                 "cost_breakdown": p.cost.to_dict(),
             })
+        def num(x):  # JSON has no NaN / inf: an unknown value is null
+            return float(x) if x is not None and math.isfinite(x) else None
+
         return {
-            "total_present_cost": self.objective,
+            "total_present_cost": num(self.objective),
             "solver": {
                 "name": self.solver_name,
                 "status": self.status,
-                "gap_frac": self.gap_frac,
+                "gap_frac": num(self.gap_frac),
                 "seconds": self.seconds,
-                "objective": self.objective,
-                "best_bound": self.best_bound,
+                "objective": num(self.objective),
+                "best_bound": num(self.best_bound),
                 "decomposition": self.decomposition,
             },
             "sites": sites,
