@@ -113,8 +113,11 @@ def charge_voltage_life_factor(charge_voltage_v_per_cell, voltage_ref_v_per_cell
     """Cycle-life multiplier of the charge-voltage rule: ``2 ** ((V_ref - V) / dV)``.
 
     Common practice for NMC-type cells: each 0.1 V per cell below 4.20 V roughly doubles
-    cycle life (and each 0.1 V above halves it).
+    cycle life (and each 0.1 V above halves it). ``doubling_step_v <= 0`` switches the
+    rule off (factor 1).
     """
+    if doubling_step_v <= 0:
+        return np.ones_like(np.asarray(charge_voltage_v_per_cell, dtype=float))
     return np.exp2((voltage_ref_v_per_cell - np.asarray(charge_voltage_v_per_cell, dtype=float))
                    / doubling_step_v)
 
