@@ -133,3 +133,22 @@ def test_failed_write_leaves_existing_file_and_no_debris(tmp_path, monkeypatch):
 def test_creates_missing_folder(tmp_path):
     out = write_json(make_plan(1), tmp_path / "new" / "plan.json")
     assert json.loads(out.read_text(encoding="utf-8"))["schema_version"] == 1
+
+
+def test_number_lists_on_one_line_and_text_is_still_the_same_json():
+    # The compact leaf layout must parse to exactly what the standard encoder gives
+    # (reference: json.dumps of the same normalised data, Python standard library).
+    from planner.report.plan_json import normalise
+
+    plan = make_plan(2, seed=4)
+    text = plan_to_json_text(plan)
+    assert json.loads(text) == json.loads(json.dumps(normalise(plan), sort_keys=True))
+    assert '"replacement_years": [' in text and "]\n" in text
+    line = next(ln for ln in text.splitlines() if '"soh_by_month"' in ln)
+    assert len(json.loads(line.split(": ", 1)[1].rstrip(","))) == 12 * 20 + 1
+
+
+def test_string_that_looks_like_a_placeholder_is_kept():
+    # A NUL-bearing string must come back unchanged (JSON escapes NUL as \u0000, RFC 8259 §7).
+    plan = {"name": "\x000\x00", "v": [1.0, 2.0]}
+    assert json.loads(plan_to_json_text(plan)) == plan

@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import re
 from collections.abc import Mapping
 from datetime import date, datetime
 from enum import Enum
@@ -109,7 +110,38 @@ def plan_to_json_text(plan: Mapping) -> str:
         Indented JSON ending in a newline; identical plans give identical text.
     """
     clean = normalise(plan)
-    return json.dumps(clean, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    leaves: list[list] = []
+    try:
+        skeleton = _park_number_lists(clean, leaves)
+    except _TokenClash:
+        # A string in the plan holds a NUL and could mimic a placeholder: plain layout.
+        return json.dumps(clean, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    text = json.dumps(skeleton, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
+    # Flat number lists (fade curves, monthly temperatures, years) go on one line each:
+    # readable, a third of the size, and far quicker than one line per number.
+    return _LEAF_TOKEN.sub(lambda m: json.dumps(leaves[int(m.group(1))], allow_nan=False), text) + "\n"
+
+
+#: Placeholder for a parked number list; NUL never occurs unescaped in JSON text.
+_LEAF_TOKEN = re.compile(r'"\\u0000(\d+)\\u0000"')
+
+
+def _park_number_lists(obj, leaves: list):
+    """Replace every non-empty flat list of numbers by a placeholder string (see caller)."""
+    if isinstance(obj, dict):
+        return {k: _park_number_lists(v, leaves) for k, v in obj.items()}
+    if isinstance(obj, list):
+        if obj and all(type(v) in (int, float) or v is None for v in obj):
+            leaves.append(obj)
+            return f"\x00{len(leaves) - 1}\x00"
+        return [_park_number_lists(v, leaves) for v in obj]
+    if isinstance(obj, str) and "\x00" in obj:
+        raise _TokenClash
+    return obj
+
+
+class _TokenClash(Exception):
+    """A plan string contains NUL, the placeholder delimiter."""
 
 
 def write_json(plan: Mapping, path) -> Path:
