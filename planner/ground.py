@@ -57,13 +57,14 @@ def kusuda_achenbach_temp_c(depth_m, day_of_year, *, mean_surface_temp_c: float,
     depth_m : float or array
         Depth below the surface, m (0 = surface).
     day_of_year : float or array
-        Day of the year (may be fractional: hour / 24).
+        Time of year in days (fractional), on the same origin as ``day_of_minimum``
+        (the thermal model uses days since 1 January 00:00).
     mean_surface_temp_c : float
         Annual mean surface temperature, degC.
     amplitude_k : float
         Amplitude of the annual surface temperature wave (half of max - min), K.
     day_of_minimum : float
-        Day of the year of the surface minimum, t_0.
+        Time of year of the surface minimum, t_0, days.
     diffusivity_m2_day : float
         Soil thermal diffusivity, m2/day.
 
@@ -86,7 +87,8 @@ def annual_harmonic(temp_c: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndar
 
     Returns
     -------
-    mean_c, amplitude_k, day_of_minimum (day of year, 1-based fractional)
+    mean_c, amplitude_k, day_of_minimum (days since 1 January 00:00, fractional;
+    hour h is taken at its middle, (h + 0.5) / 24)
     """
     temp = np.asarray(temp_c, float)
     hours = temp.shape[0]

@@ -156,6 +156,21 @@ def test_epw_leap_year_drops_29_february(tmp_path):
     assert year.temp_air_c[58 * 24 + 23] == pytest.approx(round(temps[58 * 24 + 23], 1))
 
 
+def test_user_tmy3_path_reads_like_the_bundled_year():
+    # The same file through a user path gives the same hours as the bundled name.
+    year = load_climate(str(PVLIB_DATA / "703165TY.csv"))
+    np.testing.assert_array_equal(year.temp_air_c, load_climate("pvlib-sand-point").temp_air_c)
+    assert year.utc_offset_h == -9.0
+
+
+def test_damaged_epw_is_input_error(tmp_path):
+    path = write_epw(tmp_path / "bad.epw", np.zeros(8760))
+    lines = path.read_text().splitlines()
+    path.write_text("\n".join(lines[:8] + ["1,2,3"] + lines[9:20]) + "\n")
+    with pytest.raises(InputError, match="bad.epw"):
+        load_climate(str(path))
+
+
 def test_epw_rejects_csv_options(tmp_path):
     path = write_epw(tmp_path / "a.epw", np.zeros(8760))
     with pytest.raises(InputError, match="plain CSV files only"):
