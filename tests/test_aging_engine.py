@@ -58,7 +58,7 @@ def test_lfp_published_set_is_kept_and_disagrees_as_documented():
 
 
 def test_vrla_float_life_halving():
-    # common practice (BU-806a): a 10-year battery at 25 °C lasts about 5 years at 33 °C.
+    # common practice (8 °C halving rule): a 10-year battery at 25 °C lasts about 5 years at 33 °C.
     life25 = _storage_years("vrla", 25.0)
     life33 = _storage_years("vrla", 33.0)
     assert life25 == pytest.approx(10.0, rel=1e-6)

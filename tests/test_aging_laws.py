@@ -45,7 +45,8 @@ def test_naumann2018_calendar_at_paper_conditions():
 
 
 def test_halving_rule_worked_examples():
-    # BU-806a worked example: 10 years at 25 °C -> 5 years at 33 °C, 30 months at 41 °C
+    # common practice, worked example of the 8 °C rule (research note §4.1): 10 years at 25 °C ->
+    # 5 years at 33 °C, 30 months at 41 °C
     # with 8 K halving (common practice).
     life = cal.arrhenius_halving_life_years(np.array([25.0, 33.0, 41.0]), life_years_ref=10.0,
                                             temp_ref_c=25.0, halving_step_k=8.0)
