@@ -19,6 +19,8 @@ HEADER_ALIGN = Alignment(wrap_text=True, vertical="center")
 TITLE_FONT = Font(name=FONT_NAME, bold=True, size=14, color="1F2A36")
 SECTION_FONT = Font(name=FONT_NAME, bold=True, size=12, color="1F2A36")
 NOTE_FONT = Font(name=FONT_NAME, italic=True, color="4A5866")
+HEADER_ALIGN_INDENT = Alignment(horizontal="left", wrap_text=True, vertical="center", indent=1)
+INDENT = Alignment(horizontal="left", indent=1)
 WRAP_TOP = Alignment(wrap_text=True, vertical="top")
 YEAR_BORDER = Border(top=Side(style="thin", color="7A8B9C"))
 

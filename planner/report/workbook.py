@@ -95,7 +95,18 @@ def _write_table(ws, top: int, left: int, columns: list[Column], records, *, dro
     next_row = write_rows(ws, top + 1, left, rows, [col.fmt for col in kept])
     _set_widths(ws, left, kept, matrix, keep)
     _fit_header_height(ws, top, left, kept)
+    _indent_text_after_numbers(ws, top, left, kept, next_row - 1)
     return kept, next_row - 1
+
+
+def _indent_text_after_numbers(ws, top, left, kept, last) -> None:
+    # Right-aligned numbers run into left-aligned text in the next column; a one-character
+    # indent keeps them apart.
+    for offset in range(1, len(kept)):
+        if kept[offset - 1].fmt and not kept[offset].fmt:
+            for row in range(top, last + 1):
+                ws.cell(row=row, column=left + offset).alignment = (
+                    styles.HEADER_ALIGN_INDENT if row == top else styles.INDENT)
 
 
 def _fit_header_height(ws, row, left, kept) -> None:
@@ -177,6 +188,7 @@ def _summary_sheet(ws, plan, fmt) -> None:
     for offset, (_, value, number_format) in enumerate(kept_facts):
         if number_format and isinstance(cell_value(value), float | int):
             ws.cell(row=5 + offset, column=2).number_format = number_format
+    ws.cell(row=5, column=1).font = ws.cell(row=5, column=2).font = styles.HEADER_FONT  # the total
 
     comparison = [c for c in (plan.get("chemistry_comparison") or []) if isinstance(c, Mapping)]
     comp_end = 3
