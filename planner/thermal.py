@@ -589,6 +589,14 @@ def battery_temperature_fleet(years: Sequence[TypicalYear], enclosures: Sequence
         drives[:, g] = equilibrium_temp_c(years[j], e)
     temp_eq = drives[:, inverse]
     internal = np.asarray(internal_heat_w, dtype=float)
+    if not np.all(np.isfinite(internal)) or np.any(internal < 0) or np.any(internal > 1e6):
+        raise InputError("internal_heat_w has a value outside 0...1e6 W or not a number; "
+                         "expected heat released in the enclosure, W", source="thermal")
+    setpoints = None if heater_setpoint_c is None else np.asarray(heater_setpoint_c, float)
+    if setpoints is not None and np.any(np.abs(setpoints[~np.isnan(setpoints)]) > 40.0):
+        raise InputError("heater_setpoint_c has a value outside -40...40 degC; expected a "
+                         "battery heater thermostat setpoint (NaN for no heater)",
+                         source="thermal")
     temp_eq += (internal / ua) if internal.ndim < 2 else internal / ua[None, :]
     tau = np.array([e.tau_h for e in encl])
     heat_sp = np.array([np.nan if e.hvac_heat_setpoint_c is None else e.hvac_heat_setpoint_c

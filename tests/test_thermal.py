@@ -181,5 +181,10 @@ def test_enclosure_kinds_and_errors():
         thermal.get_enclosure("vault", {"thermal_mass_jk": 1e5})
     with pytest.raises(InputError, match="expected a number from 0 to 1"):
         thermal.get_enclosure("vault", {"absorptance_frac": 2})
+    with pytest.raises(InputError, match="internal_heat_w"):
+        thermal.battery_temperature_fleet([flat_year()], ["vault"], internal_heat_w=np.array([-5.0]))
+    with pytest.raises(InputError, match="heater_setpoint_c"):
+        thermal.battery_temperature_fleet([flat_year()], ["vault"],
+                                          heater_setpoint_c=np.array([90.0]))
     with pytest.raises(InputError, match="expected 1 or 8760"):
         thermal.battery_temperature(flat_year(), internal_heat_w=np.zeros(10))
