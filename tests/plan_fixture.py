@@ -124,7 +124,8 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
     plan = {
         "schema_version": 1,
         "study": {"name": "demo-network", "currency": "EUR", "horizon_years": horizon_years,
-                  "discount_rate_frac": 0.03, "sites_file": "demo-sites.csv"},
+                  "discount_rate_frac": 0.03, "sites_file": "demo-sites.csv",
+                  "start_year": 2030},
         "total_present_cost": total,
         "solver": {"name": "HiGHS", "status": "optimal", "gap_frac": 0.0012, "seconds": 1.75,
                    "objective": total, "best_bound": total * (1 - 0.0012), "decomposition": "per region"},

@@ -69,3 +69,13 @@ def test_derived_site_warnings_tolerant_and_deduplicated():
     assert out[0] == "model warning" and out.count("model warning") == 1
     assert any("blocked" in w for w in out) and any("NIOSH" in w for w in out)
     assert len(out) == 3
+
+
+def test_model_warnings_are_not_repeated_in_other_words():
+    # The energy stage reports blocked charging itself; the report must not add a second
+    # cold-charging line, nor a second heat line when the models already gave one.
+    site = {"id": "S1", "chemistry": "nmc", "charge_blocked_hours_per_year": 569.0,
+            "temperature": {"battery_p1_c": -12.0, "battery_p99_c": 50.0},
+            "warnings": ["charging blocked by cold for 569 h a year (below 0 °C)",
+                         "battery above 45 °C for 761 h of a typical year"]}
+    assert derived_site_warnings(site) == site["warnings"]

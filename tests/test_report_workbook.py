@@ -214,13 +214,15 @@ def test_other_sheets_numbers_equal_json(written, book):
         assert row["Trip cost [EUR]"] == pytest.approx(trip["cost"], rel=5e-6)
         assert row["Pack mass [kg]"] == pytest.approx(trip["pack_mass_kg"], rel=5e-6)
         assert row["Packs to carry"] == trip["pack_count"]
+        assert row["Calendar year"] == js["study"]["start_year"] + trip["year"]
         assert str(row["Site ids"]).split(", ") == trip["site_ids"]
 
     grid = pd.read_excel(xlsx, sheet_name="Visit schedule")
     for _, row in grid.iterrows():
         site = sites[row["Site id"]]
         for year, month in zip(site["replacement_years"], site["replacement_months"]):
-            assert row[f"Year {year}"] == months[month - 1]
+            # Year 0 is the study's start year (docs/plan-json.md: years count from the start).
+            assert row[f"Year {year} ({js['study']['start_year'] + year})"] == months[month - 1]
         visited = [c for c in grid.columns if c.startswith("Year ") and isinstance(row[c], str)]
         assert len(visited) == len(site["replacement_years"])
 

@@ -165,18 +165,27 @@ def derived_site_warnings(site: dict) -> list[str]:
     """Warnings the report can derive from a plan site dict (tolerant of missing keys).
 
     Adds cold-charge, hot-battery (lithium-ion only, typical limits) and heavy-pack
-    warnings to what the models already raised; duplicates are dropped, order kept.
+    warnings to what the models already raised, unless the models already covered the
+    topic; duplicates are dropped, order kept.
     """
     site_id = str(site.get("id", "?"))
     chem = str(site.get("chemistry", ""))
     temp = site.get("temperature") or {}
+    raised = [str(w) for w in site.get("warnings") or []]
+    said = " ".join(raised).lower()
+    # The models may already have warned about cold charging or heat in their own words
+    # (the energy stage reports blocked charging hours): do not say it twice.
+    cold_covered = "charge_blocked_hours_per_year" in site or "cold" in said
+    hot_covered = "above" in said and "°c" in said
     found = [
-        cold_charge_warning(site_id, chem, temp.get("battery_p1_c"), heated=bool(site.get("heater"))),
-        hot_battery_warning(site_id, chem, temp.get("battery_p99_c")) if chem in LITHIUM_ION_IDS else None,
+        None if cold_covered else cold_charge_warning(site_id, chem, temp.get("battery_p1_c"),
+                                                      heated=bool(site.get("heater"))),
+        None if hot_covered or chem not in LITHIUM_ION_IDS else hot_battery_warning(site_id, chem,
+                                                                                   temp.get("battery_p99_c")),
         heavy_pack_warning(site_id, site.get("pack_mass_kg")),
     ]
     out = []
-    for text in [*(str(w) for w in site.get("warnings") or []), *(f for f in found if f)]:
+    for text in [*raised, *(f for f in found if f)]:
         if text not in out:
             out.append(text)
     return out

@@ -197,7 +197,8 @@ def _summary_sheet(ws, plan, fmt) -> None:
         cols = [Column("Chemistry", _key("chemistry")),
                 Column(f"Fleet present cost [{cur}]", _key("total_present_cost"), fmt["money"]),
                 Column("Sites served", _key("sites_served"), styles.INTEGER, optional=True),
-                Column("Sites not served", _key("sites_unserved"), styles.INTEGER, optional=True)]
+                Column("Sites not served", _key("sites_unserved"), styles.INTEGER, optional=True),
+                Column("Solver status", _key("status"), optional=True)]
         _, comp_end = _write_table(ws, 4, 4, cols, comparison)
         if comp_end >= 5:
             charts.bar_chart(
@@ -429,7 +430,9 @@ def _visit_grid_sheet(ws, plan, horizon_years) -> None:
             visits.setdefault((str(site_id), trip.get("year")), _month_text(trip.get("month")) or "visit")
     cols = [Column("Site id", _key("id")), Column("Site name", _key("name")),
             Column("Region", _key("region"), optional=True)]
-    cols += [Column(f"Year {y}", (lambda s, y=y: visits.get((str(s.get("id")), y))), width=6)
+    start = _start_year(plan)
+    cols += [Column(f"Year {y}" + (f" ({start + y})" if start else ""),
+                    (lambda s, y=y: visits.get((str(s.get("id")), y))), width=7)
              for y in range(horizon_years)]
     kept, last = _write_table(ws, 1, 1, cols, sites, drop_empty=True)
     cols_letter = get_column_letter(len(kept))
@@ -449,7 +452,10 @@ def _trip_sheet(ws, plan, fmt) -> None:
         chems = {chem_by_site.get(str(i)) for i in trip.get("site_ids") or []}
         return "yes: UN 38.3 dangerous goods" if chems & LITHIUM_IDS else "no"
 
+    start = _start_year(plan)
     cols = [Column("Year", _key("year"), styles.INTEGER, width=7),
+            Column("Calendar year", lambda t: start + t["year"] if start and isinstance(t.get("year"), int)
+                   else None, "0", optional=True, width=9),
             Column("Month", lambda t: _month_text(t.get("month")), width=7),
             Column("Region", _key("region")),
             Column("Sites visited", lambda t: len(t.get("site_ids") or []), styles.INTEGER, width=9),
@@ -606,8 +612,10 @@ def _cautions_sheet(ws, plan) -> None:
     ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=3)
     ws.row_dimensions[2].height = 48
     records = [{"topic": c.topic, "text": c.text, "defer": c.defer_to} for c in STANDARD_CAUTIONS]
-    records += [{"topic": "From the study", "text": str(t), "defer": "local codes and licensed practice"}
-                for t in plan.get("cautions") or []]
+    # The pipeline may copy the standard cautions into the plan; list only the others.
+    standard = tuple(f"{c.topic}:" for c in STANDARD_CAUTIONS)
+    records += [{"topic": "From the plan", "text": str(t), "defer": "local codes and licensed practice"}
+                for t in plan.get("cautions") or [] if not str(t).startswith(standard)]
     cols = [Column("Topic", _key("topic"), width=30), Column("Caution", _key("text"), width=90),
             Column("Defer to", _key("defer"), width=50)]
     _, last = _write_table(ws, 4, 1, cols, records)
@@ -657,6 +665,12 @@ def build_workbook(plan: Mapping) -> Workbook:
     _assumptions_sheet(assumptions, plan)
     _cautions_sheet(cautions, plan)
     return wb
+
+
+def _start_year(plan) -> int | None:
+    """Calendar year of study year 0, when the study gives one."""
+    start = cell_value(_dig(plan, "study", "start_year"))
+    return start if isinstance(start, int) and 1900 <= start <= 2200 else None
 
 
 def _as_float_array(values) -> np.ndarray:
