@@ -307,3 +307,13 @@ def test_infeasible_dict_has_no_nan():
     d = solve_fleet(FleetProblem(sites, 5, 0.0, {"A": 100.0}, crew_site_visits_per_year=2)).to_dict()
     assert d["solver"]["status"] == "infeasible"
     assert d["total_present_cost"] is None and d["solver"]["best_bound"] is None
+
+
+def test_existing_pack_lasting_the_study_needs_nothing():
+    # a pack that carries the site past the horizon: nothing bought, no trip (issue 6:
+    # the plan starts from the existing pack); no failure data -> zero cost
+    site = SiteOptions("x", "A", (), [], existing=ExistingPack(25.0))
+    sol = solve_fleet(FleetProblem([site], 20, 0.03, {"A": 5000.0}))
+    assert sol.status == "optimal" and not sol.unserved
+    assert sol.sites[0].candidate is None and sol.sites[0].replacement_years == ()
+    assert sol.objective == 0.0 and sol.trips == []

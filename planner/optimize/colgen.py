@@ -158,6 +158,7 @@ class MasterResult:
     iterations: int
     converged: bool
     slack: dict[str, float]
+    y_lp: np.ndarray | None = None
 
 
 def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.ndarray,
@@ -289,6 +290,8 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     # sites with no schedule at all cannot be served (callers screen these out first)
     lower = -math.inf
     z = math.nan
+    y_lp = None
+    fleet_slack = np.zeros(0)
     converged = False
     it = 0
     for it in range(1, max_iterations + 1):
@@ -297,7 +300,10 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
         if hs.getModelStatus() != highspy.HighsModelStatus.kOptimal:
             return MasterResult(columns, -math.inf, math.nan, it, False, {})
         z = float(hs.getInfo().objective_function_value)
-        dual = np.asarray(hs.getSolution().row_dual)
+        solution = hs.getSolution()
+        y_lp = np.asarray(solution.col_value)[:n_groups * h].reshape(n_groups, h)
+        fleet_slack = np.asarray(solution.col_value)[n_groups * h:n_fixed]
+        dual = np.asarray(solution.row_dual)
         sigma = dual[r_conv:r_conv + n_sites]
         vis = np.where(visit_row >= 0, dual[np.maximum(visit_row, 0)], 0.0)
         extra = -vis[g.arc_site, g.arc_t1]
@@ -326,13 +332,12 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
             break
     if converged:
         lower = max(lower, z)
-    sol = np.asarray(hs.getSolution().col_value)[n_groups * h:n_fixed]
     slack = {}
     if n_crew:
-        slack["crew_site_visits_per_year"] = float(sol[:n_crew].sum())
+        slack["crew_site_visits_per_year"] = float(fleet_slack[:n_crew].sum())
     if n_bud:
-        slack["annual_budget"] = float(sol[n_crew:].sum())
-    return MasterResult(columns, lower, z, it, converged, slack)
+        slack["annual_budget"] = float(fleet_slack[n_crew:].sum())
+    return MasterResult(columns, lower, z, it, converged, slack, y_lp)
 
 
 def _add_cols(hs, cost, lower, upper, entries):

@@ -360,6 +360,7 @@ def _solve_columns(problem, served, cands, deadline):
     rounds = n_cols = 0
     converged = True
     weak = []
+    lost = []
     for bi, block in enumerate(blocks):
         t_build = time.perf_counter()
         sites = [served[i] for k in block for i in tg[k][2]]
@@ -392,7 +393,11 @@ def _solve_columns(problem, served, cands, deadline):
                          gap_rel_frac=problem.gap_rel_frac)
         build_seconds += rep.build_seconds
         if rep.values is None:
-            status = "infeasible" if rep.status == "infeasible" else "feasible"
+            # no integer plan in time for this block: its sites are reported, not dropped
+            lost += [Unserved(s.site_id, f"site {s.site_id}: no plan found for trip group {tg[k][0]} "
+                              f"within the time limit", "time_limit") for k in block for s in
+                     (served[i] for i in tg[k][2])]
+            status = "infeasible"
             bound = float("nan")
             continue
         if rep.status == "feasible" and status == "optimal":
@@ -413,13 +418,14 @@ def _solve_columns(problem, served, cands, deadline):
                                                 float(trip_cost[j]), rate))
         block_cost = sum(p.present_cost for pl, _ in group_plans for p in pl)
         if not side and gap(block_cost, mr.lower_bound) > problem.gap_rel_frac:
-            weak.append((block[0], y[0], mr.lower_bound))
+            weak.append((block[0], y[0], mr.lower_bound))  # improved below by local search
             continue
         for p, t in group_plans:
             plans += p
             trips += t
     if weak:
-        # groups whose integer step left more than the gap: local search on trip years
+        # groups the integer step over columns left above the gap: local search on their
+        # trip years, all such groups at once
         from planner.optimize.colgen import polish_trip_years
         ks = [k for k, _, _ in weak]
         sites = [served[i] for k in ks for i in tg[k][2]]
@@ -444,7 +450,7 @@ def _solve_columns(problem, served, cands, deadline):
             f"{'converged' if converged else 'stopped at the time limit'}; bound = sum of Lagrangian bounds")
     if status == "optimal" and gap(sum(p.present_cost for p in plans), bound) > problem.gap_rel_frac + 1e-12:
         status = "feasible"  # the integer step over generated columns is not proved within the gap
-    return status, bound, plans, trips, text, [], build_seconds
+    return status, bound, plans, trips, text, lost, build_seconds
 
 
 def _column_matrix(gr, cols, bsites, site_group, block, trip_cost, is_open, problem):
@@ -547,8 +553,10 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         method = "columns" if arcs > AUTO_COLUMNS_ABOVE_ARCS and highs_available() else "path"
     if method == "columns" and served:
         deadline = t0 + float(problem.time_limit_s)
-        status, bound, plans, trips, decomposition, binding, build_seconds = _solve_columns(
+        status, bound, plans, trips, decomposition, extra, build_seconds = _solve_columns(
             problem, served, cands, deadline)
+        binding = [x for x in extra if isinstance(x, str)]
+        unserved += [x for x in extra if not isinstance(x, str)]
         objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
         if math.isfinite(objective) and math.isfinite(bound):
             bound = min(bound, objective)
@@ -581,7 +589,9 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         rep, m = _solve_stack([g], problem, False, max(1.0, deadline - time.perf_counter()), integer_flows)
         build_seconds += rep.build_seconds
         if rep.values is None:
-            status = "infeasible" if rep.status == "infeasible" else "feasible"
+            # no plan in time for this group: its sites are reported, not dropped
+            unserved += [Unserved(s.site_id, f"site {s.site_id}: no plan found for trip group {g.region} "
+                                  f"within the time limit", "time_limit") for s in g.graphs.sites]
             bound = float("nan")
             continue
         if rep.status == "feasible":

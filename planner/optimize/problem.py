@@ -144,7 +144,7 @@ class Trip:
 class Unserved:
     """A site that no plan can serve, the reason in one line, and the limit that binds
     ("candidates", "life", "access", "payload_kg_per_trip", "crew_site_visits_per_year",
-    "annual_budget")."""
+    "annual_budget", "time_limit": no plan was found in time)."""
 
     site_id: str
     reason: str
