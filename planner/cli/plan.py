@@ -98,9 +98,12 @@ def _summary(plan, out) -> str:
         f"  total present cost: {plan['total_present_cost']:,.0f} {currency} "
         f"(solver {solver['name']}, {solver['status']}, gap {solver['gap_frac']:.2%})",
     ]
+    n_sites = len(plan["sites"])
     for row in plan.get("chemistry_comparison", []):
-        cost = row["total_present_cost"]
-        text = f"{cost:,.0f} {currency}" if cost is not None else "cannot serve every site"
+        text = f"{row['total_present_cost']:,.0f} {currency}"
+        if row.get("sites_unserved"):
+            text += (f" for the {n_sites - len(row['sites_unserved'])} of {n_sites} sites it can "
+                     f"serve (not {', '.join(row['sites_unserved'])})")
         lines.append(f"  all {row['chemistry']}: {text}")
     for item in plan.get("unserved_sites", []):
         lines.append(f"  NOT SERVED {item['id']}: {item['reason']}")

@@ -1,0 +1,538 @@
+"""Candidate packs for every site, and how each would fare there.
+
+For each site and chemistry this module sizes the 1x reference pack (IEEE 1013 /
+IEEE 1562 chain), turns every oversizing factor and charge voltage into a concrete
+whole-cell pack, runs the hourly energy balance for all of them at once (lanes =
+site x design), ages them over the horizon, and reads off when each can no longer
+carry its site. A pack can carry its site while
+
+    capacity_wh x SOH x window(charge voltage) x available(coldest battery temp)
+        >= daily load x days of autonomy
+
+where ``window = usable_fraction(V) - (1 - max_dod)`` is the part of rated capacity
+between the charge-voltage ceiling and the low-voltage reserve. The SOH at which the
+inequality turns is the design's end-of-life threshold; it is higher (earlier) for a
+smaller pack, a lower charge voltage or a colder site.
+
+Capacity fade feeds back on cycling (an old pack cycles deeper): the year is
+simulated at the rated capacity, the pack is aged, and the year is simulated again at
+the capacity the pack has half-way to its end of life; that second duty drives the
+aging that is reported. Lanes are processed per chemistry in chunks, so memory stays
+bounded by ``(8760, chunk)`` arrays whatever the fleet size.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from planner.aging import age_lanes
+from planner.chemistry import Chemistry, get_chemistry
+from planner.energy.sizing import ReferenceSize, reference_capacity, temperature_factor_from_derating
+from planner.energy.soc import iter_soc_chunks
+from planner.pack import PackStructure, life_distribution, pack_structure
+from planner.scenario import Study
+from planner.site_model import SiteModel
+
+# A chemistry is not offered where the battery spends more than this many hours a year
+# above its upper temperature limit (1 % of the year; a few hot afternoons only warn).
+HOT_HOURS_ALLOWED = 88
+# Years of load a primary (non-rechargeable) pack is sized for, per "oversize" step.
+PRIMARY_YEARS_OF_LOAD = (2.0, 5.0, 10.0, 15.0)
+# Aging runs beyond the horizon so packs still young at its end get a life figure.
+EXTRA_AGING_YEARS = 15
+CHUNK_LANES = 512
+# Draws of the pack Monte Carlo per design in the plan (planner life uses more).
+PLAN_DRAWS = 200
+R_GAS = 8.314462618
+
+
+@dataclass(frozen=True)
+class Design:
+    """One concrete pack for one site (or the pack already installed there)."""
+
+    site_index: int
+    chemistry: str
+    oversize_factor: float
+    charge_voltage_v_per_cell: float
+    pack: PackStructure
+    reference: ReferenceSize | None
+    existing_age_years: float | None = None
+    measured_soh_frac: float | None = None
+
+    @property
+    def is_existing(self) -> bool:
+        return self.existing_age_years is not None
+
+    @property
+    def design_id(self) -> str:
+        if self.is_existing:
+            return f"existing-{self.chemistry}"
+        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v")
+
+
+# Skip the pack Monte Carlo when the nominal life is this many times the service limit.
+SPREAD_SKIP_FACTOR = 1.5
+
+
+@dataclass
+class Outcome:
+    """How one design fares at its site (all years from installation, or from now for an
+    existing pack)."""
+
+    design: Design
+    eol_soh_frac: float
+    life_years: float
+    limiting_cause: str
+    soh_monthly: np.ndarray
+    calendar_loss_frac: np.ndarray
+    cycle_loss_frac: np.ndarray
+    efc_per_year: float
+    unserved_wh_per_year: float
+    charge_blocked_hours: float
+    mean_soc_frac: float
+    life_p10_years: float = float("nan")
+    life_p50_years: float = float("nan")
+    life_p90_years: float = float("nan")
+    failure_prob_by_age: tuple[float, ...] | None = None
+    soh_p10_monthly: np.ndarray | None = None
+    soh_p90_monthly: np.ndarray | None = None
+    nominal_life_years: float = float("inf")
+    warnings: list[str] = field(default_factory=list)
+
+
+def _nominal_life(outcome: Outcome) -> float:
+    return outcome.nominal_life_years
+
+
+@dataclass
+class SiteDesigns:
+    """All designs of one site, and why chemistries were left out."""
+
+    outcomes: list[Outcome]
+    existing: Outcome | None
+    excluded: dict[str, str]
+    references: dict[str, ReferenceSize]
+
+
+# ---------------------------------------------------------------- enumeration
+
+
+def requirement_wh(model: SiteModel) -> float:
+    """Energy the pack must deliver with no charging: daily load x days of autonomy."""
+    return model.daily_load_wh * model.site.autonomy_days
+
+
+def window_frac(chem: Chemistry, charge_voltage_v_per_cell: float) -> float:
+    """Usable part of rated capacity between the charge ceiling and the DOD reserve."""
+    return chem.usable_fraction(charge_voltage_v_per_cell) - (1.0 - chem.max_dod_frac)
+
+
+def _reference(study: Study, model: SiteModel, chem: Chemistry) -> ReferenceSize:
+    cand = study.settings["candidates"]
+    available = float(chem.available_capacity_fraction(model.design_temp_c))
+    return reference_capacity(
+        daily_load_wh=max(model.daily_load_wh, 1e-6), system_voltage_v=model.site.system_voltage_v,
+        autonomy_days=model.site.autonomy_days, max_dod_frac=chem.max_dod_frac,
+        temperature_factor=temperature_factor_from_derating(available),
+        aging_factor=cand["aging_factor"], design_margin=cand["design_margin"])
+
+
+def _primary_reference(study: Study, model: SiteModel, chem: Chemistry) -> ReferenceSize:
+    """A primary pack's 1x size holds one year of load (plus margins), not an autonomy."""
+    cand = study.settings["candidates"]
+    available = float(chem.available_capacity_fraction(model.design_temp_c))
+    return reference_capacity(
+        daily_load_wh=max(model.daily_load_wh, 1e-6), system_voltage_v=model.site.system_voltage_v,
+        autonomy_days=365.0, max_dod_frac=chem.max_dod_frac,
+        temperature_factor=temperature_factor_from_derating(available),
+        aging_factor=1.0, design_margin=cand["design_margin"])
+
+
+# Cell or monobloc capacities (Ah) a pack can be built from. Small telemetry packs are
+# not built from the library's reference cell alone: catalogues offer ladders of sizes
+# (common practice: VRLA monoblocs of 7-100 Ah, LFP prismatic and cylindrical cells of
+# 6-100 Ah, NMC parallel groups of cylindrical cells, LTO cells of 10-40 Ah, Li-SOCl2
+# AA/C/D bobbin cells of 2.4/8.5/19 Ah).
+CELL_LADDER_AH = {
+    "vrla": (7.0, 12.0, 18.0, 26.0, 40.0, 55.0, 75.0, 100.0),
+    "lfp": (6.0, 10.0, 20.0, 50.0, 100.0),
+    "nmc": (3.0, 10.0, 20.0, 50.0),
+    "lto": (10.0, 20.0, 40.0),
+    "lisocl2": (2.4, 8.5, 19.0),
+}
+
+
+def _pack(model: SiteModel, chem: Chemistry, capacity_wh: float) -> PackStructure:
+    """The whole-cell pack closest above ``capacity_wh`` over the chemistry's cell ladder
+    (ties go to fewer parallel strings)."""
+    best = None
+    for cell_ah in CELL_LADDER_AH.get(chem.id, (chem.cell_capacity_ah,)):
+        pack = pack_structure(system_voltage_v=model.site.system_voltage_v,
+                              required_capacity_wh=capacity_wh, cell_voltage_v=chem.cell_voltage_v,
+                              cell_capacity_ah=cell_ah, mass_kg_per_kwh=chem.mass_kg_per_kwh,
+                              volume_l_per_kwh=chem.volume_l_per_kwh)
+        key = (round(pack.capacity_wh, 6), pack.parallel_strings)
+        if best is None or key < best[0]:
+            best = (key, pack)
+    return best[1]
+
+
+def _exclusion(model: SiteModel, chem: Chemistry) -> str:
+    """Why a chemistry cannot serve a site at all, or an empty string."""
+    site = model.site
+    if chem.rechargeable and site.charging == "none":
+        return "no charging source on site, and the pack is rechargeable"
+    if model.design_temp_c < chem.discharge_temp_min_c:
+        return (f"battery reaches {model.design_temp_c:.1f} °C, below the {chem.discharge_temp_min_c:g} °C "
+                "discharge limit")
+    hot_hours = int(np.count_nonzero(model.temp_battery_c > chem.discharge_temp_max_c))
+    if hot_hours > HOT_HOURS_ALLOWED:
+        return (f"battery above the {chem.discharge_temp_max_c:g} °C limit for {hot_hours} h of a "
+                "typical year")
+    return ""
+
+
+def enumerate_site_designs(study: Study, index: int, model: SiteModel):
+    """Designs of one site: (designs, excluded chemistries with reasons, references)."""
+    designs, excluded, references = [], {}, {}
+    factors = study.settings["candidates"]["oversize_factors"]
+    for chem_id in study.settings["candidates"]["chemistries"]:
+        chem = get_chemistry(chem_id)
+        reason = _exclusion(model, chem)
+        if reason:
+            excluded[chem_id] = reason
+            continue
+        if chem.rechargeable:
+            reference = _reference(study, model, chem)
+            steps = [(f, reference.capacity_wh * f) for f in factors]
+        else:
+            reference = _primary_reference(study, model, chem)
+            steps = [(y, reference.capacity_wh * y) for y in PRIMARY_YEARS_OF_LOAD]
+        references[chem_id] = reference
+        seen = set()
+        for factor, capacity in steps:
+            pack = _pack(model, chem, capacity)
+            if pack.label in seen:  # whole cells: two factors can give the same pack
+                continue
+            seen.add(pack.label)
+            for volts in chem.charge_voltages_v_per_cell:
+                if window_frac(chem, volts) <= 0:
+                    continue
+                designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
+                                      float(volts), pack, reference))
+    site = model.site
+    if site.has_existing_pack:
+        chem = get_chemistry(site.existing_chemistry)
+        pack = _pack(model, chem, site.existing_capacity_wh)
+        age = float(study.settings["study"]["start_year"] - site.existing_installed_year)
+        designs.append(Design(index, chem.id, 1.0, chem.default_charge_voltage_v_per_cell, pack,
+                              None, existing_age_years=age,
+                              measured_soh_frac=site.existing_soh_frac or None))
+    return designs, excluded, references
+
+
+# ---------------------------------------------------------------- evaluation
+
+
+def evaluate_fleet(study: Study, models: list[SiteModel], progress=None) -> list[SiteDesigns]:
+    """Enumerate and evaluate every site's designs; one :class:`SiteDesigns` per site."""
+    per_site = [enumerate_site_designs(study, i, m) for i, m in enumerate(models)]
+    designs = [d for site_designs, _, _ in per_site for d in site_designs]
+    outcomes = _evaluate(study, models, designs, progress)
+    results = []
+    for i, (_, excluded, references) in enumerate(per_site):
+        mine = [o for o in outcomes if o.design.site_index == i]
+        existing = next((o for o in mine if o.design.is_existing), None)
+        results.append(SiteDesigns([o for o in mine if not o.design.is_existing], existing,
+                                   excluded, references))
+    return results
+
+
+def _evaluate(study, models, designs, progress) -> list[Outcome]:
+    horizon = study.settings["study"]["horizon_years"]
+    hourly = _SiteHourly(models)
+    outcomes: list[Outcome | None] = [None] * len(designs)
+    # Designs come ordered by site, so a chunk touches few sites; one SOC run serves
+    # every rechargeable chemistry of the chunk (lanes carry their own parameters).
+    for start in range(0, len(designs), CHUNK_LANES):
+        lanes = list(range(start, min(start + CHUNK_LANES, len(designs))))
+        for k, outcome in _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
+            outcomes[k] = outcome
+        if progress:
+            progress(0, label="Aging candidate packs")
+    return outcomes
+
+
+@dataclass
+class _SiteHourly:
+    """Hourly site inputs as (8760, n_sites) arrays, built once for the fleet."""
+
+    temp_c: np.ndarray
+    load_w: np.ndarray
+    charge_w: np.ndarray
+    heater_on: np.ndarray
+
+    def __init__(self, models):
+        self.temp_c = np.column_stack([m.temp_battery_c for m in models])
+        self.load_w = np.column_stack([m.load_w for m in models])
+        self.charge_w = np.column_stack([m.charge_w for m in models])
+        self.heater_on = np.column_stack([m.heater_on for m in models])
+
+
+def _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
+    chunk = [designs[k] for k in lanes]
+    chems = {c: get_chemistry(c) for c in sorted({d.chemistry for d in chunk})}
+    n = len(chunk)
+    site_idx = np.array([d.site_index for d in chunk], dtype=np.intp)
+    capacity = np.array([d.pack.capacity_wh for d in chunk])
+    volts = np.array([d.charge_voltage_v_per_cell for d in chunk])
+    ages = np.array([d.existing_age_years or 0.0 for d in chunk])
+    years = horizon + EXTRA_AGING_YEARS + int(np.ceil(ages.max()))
+    peak_c = np.array([models[d.site_index].peak_load_w for d in chunk]) / capacity
+    required = np.array([requirement_wh(models[d.site_index]) for d in chunk])
+    available = np.array([float(chems[d.chemistry].available_capacity_fraction(
+        models[d.site_index].design_temp_c)) for d in chunk])
+    window = np.array([window_frac(chems[d.chemistry], d.charge_voltage_v_per_cell) for d in chunk])
+    eol = np.maximum(required / (capacity * window * available),
+                     np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
+
+    recharge = np.array([chems[d.chemistry].rechargeable for d in chunk])
+    duty = _Duty.empty(n)
+    fades = {}
+    if recharge.any():
+        idx = np.flatnonzero(recharge)
+        first = _duty(hourly, chems, [chunk[j] for j in idx], capacity[idx], np.ones(idx.size))
+        fade1 = _age_by_chemistry(chems, chunk, idx, hourly, first, volts, peak_c, years)
+        # Capacity feedback: re-run the year at the capacity the pack has half-way to
+        # its end of life (the first pass tells where that is), then age again.
+        mid_soh = np.clip(0.5 * (1.0 + np.minimum(eol[idx], 1.0)), 0.5, 1.0)
+        second = _duty(hourly, chems, [chunk[j] for j in idx], capacity[idx], mid_soh)
+        del fade1
+        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, second, volts, peak_c, years))
+        duty.put(idx, second)
+    if (~recharge).any():
+        idx = np.flatnonzero(~recharge)
+        # A primary pack is never recharged: the load draws its C-rate hour by hour.
+        current = hourly.load_w[:, site_idx[idx]] / capacity[idx]
+        primary = _Duty(np.ones_like(current), current, np.zeros(idx.size), np.zeros(idx.size),
+                        np.ones(idx.size))
+        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, primary, volts, peak_c, years))
+
+    results = []
+    months = 12 * horizon + 1
+    for chem_id, (members, fade) in fades.items():
+        chem = chems[chem_id]
+        life_total = _years_to(fade.soh_monthly, eol[members])
+        members_outcomes = []
+        for col, j in enumerate(members):
+            d = chunk[j]
+            start = int(round(ages[j] * 12))
+            soh_col = fade.soh_monthly[:, col]
+            if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
+                start = int(np.argmax(soh_col <= d.measured_soh_frac))
+            cap = max_service_years(chem_id)
+            cause = _cause(eol[j], available[j], fade, life_total[col], col, chem)
+            if life_total[col] > cap and eol[j] < 1.0:
+                cause = "service-life limit"
+            age = start / 12.0 if not d.measured_soh_frac else float(d.existing_age_years or 0.0)
+            life = min(life_total[col] - start / 12.0, cap - age)
+            outcome = Outcome(
+                design=d, eol_soh_frac=float(eol[j]), life_years=float(max(life, 0.0)),
+                limiting_cause=cause,
+                soh_monthly=soh_col[start:start + months],
+                calendar_loss_frac=fade.calendar_loss_frac[start:start + months, col],
+                cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
+                efc_per_year=float(fade.efc_per_year[col]),
+                nominal_life_years=float(life_total[col] - start / 12.0),
+                unserved_wh_per_year=float(duty.unserved_wh[j]),
+                charge_blocked_hours=float(duty.blocked_hours[j]),
+                mean_soc_frac=float(duty.mean_soc[j]))
+            members_outcomes.append(outcome)
+        _add_life_spread(models, chem, [chunk[j] for j in members], members_outcomes, fade,
+                         eol[members], horizon)
+        results += [(lanes[j], o) for j, o in zip(members, members_outcomes)]
+    return results
+
+
+@dataclass
+class _Duty:
+    """One typical year of hourly SOC and current per lane, with the energy summaries."""
+
+    soc: np.ndarray
+    current: np.ndarray
+    unserved_wh: np.ndarray
+    blocked_hours: np.ndarray
+    mean_soc: np.ndarray
+
+    @classmethod
+    def empty(cls, n):
+        return cls(None, None, np.zeros(n), np.zeros(n), np.ones(n))
+
+    def put(self, idx, other):
+        self.unserved_wh[idx] = other.unserved_wh
+        self.blocked_hours[idx] = other.blocked_hours
+        self.mean_soc[idx] = other.mean_soc
+
+
+def _duty(hourly: _SiteHourly, chems, chunk, capacity, soh) -> _Duty:
+    """Hourly SOC run for lanes of mixed chemistries at ``capacity x soh``.
+
+    Each (site, chemistry) pair of the chunk becomes one column of the hourly inputs,
+    because self-discharge and cold derating depend on both.
+    """
+    pairs = sorted({(d.site_index, d.chemistry) for d in chunk})
+    column = {pair: i for i, pair in enumerate(pairs)}
+    cols_site = np.array([site for site, _ in pairs], dtype=np.intp)
+    temps = hourly.temp_c[:, cols_site]
+    self_discharge = np.empty_like(temps)
+    available = np.empty_like(temps)
+    for i, (_, chem_id) in enumerate(pairs):
+        self_discharge[:, i] = chems[chem_id].self_discharge_frac_per_h(temps[:, i])
+        available[:, i] = chems[chem_id].available_capacity_fraction(temps[:, i])
+    lane_chems = [chems[d.chemistry] for d in chunk]
+
+    def per_lane(attribute):
+        return np.array([getattr(c, attribute) for c in lane_chems], dtype=float)
+
+    sim = next(iter_soc_chunks(
+        hourly.charge_w[:, cols_site], hourly.load_w[:, cols_site], capacity * soh, temps,
+        usable_fraction=np.array([c.usable_fraction(d.charge_voltage_v_per_cell)
+                                  for c, d in zip(lane_chems, chunk)]),
+        charge_efficiency_frac=per_lane("charge_efficiency_frac"),
+        discharge_efficiency_frac=per_lane("discharge_efficiency_frac"),
+        self_discharge_frac_per_h=self_discharge,
+        max_charge_c_rate=per_lane("max_charge_c_rate"),
+        charge_temp_min_c=per_lane("charge_temp_min_c"),
+        heater_on=hourly.heater_on[:, cols_site], min_soc_frac=1.0 - per_lane("max_dod_frac"),
+        available_capacity_frac=available,
+        lane_site_index=np.array([column[(d.site_index, d.chemistry)] for d in chunk],
+                                 dtype=np.intp),
+        chunk_lanes=len(chunk), series=True))
+    s = sim.summary
+    # SOC stays relative to the faded capacity (it sets the voltage, hence calendar stress,
+    # and an old pack cycles deeper); current is re-expressed against rated capacity.
+    return _Duty(sim.soc_frac, sim.current_c_rate * soh, s.unserved_wh,
+                 s.charge_blocked_hours, s.mean_soc_frac)
+
+
+def _age_by_chemistry(chems, chunk, idx, hourly, duty, volts, peak_c, years):
+    """Age the lanes ``idx`` of the chunk, one engine call per chemistry.
+
+    Returns {chemistry: (chunk positions, FadeResult)}; ``duty`` rows follow ``idx``.
+    """
+    out = {}
+    lane_chem = np.array([chunk[j].chemistry for j in idx])
+    for chem_id in sorted(set(lane_chem)):
+        sel = np.flatnonzero(lane_chem == chem_id)
+        members = idx[sel]
+        sites = np.array([chunk[j].site_index for j in members], dtype=np.intp)
+        fade = age_lanes(chems[chem_id], hourly.temp_c, duty.soc[:, sel], duty.current[:, sel],
+                         volts[members], years, peak_c_rate=peak_c[members], lane_site=sites)
+        out[chem_id] = (members, fade)
+    return out
+
+
+def _years_to(soh: np.ndarray, threshold: np.ndarray) -> np.ndarray:
+    """Years until each lane's SOH first falls to its threshold (inf if never, 0 if at once)."""
+    below = soh <= threshold[None, :]
+    reached = below.any(axis=0)
+    first = np.argmax(below, axis=0)
+    prev = np.maximum(first - 1, 0)
+    lanes = np.arange(soh.shape[1])
+    hi, lo = soh[prev, lanes], soh[first, lanes]
+    frac = np.where(hi > lo, (hi - threshold) / np.where(hi > lo, hi - lo, 1.0), 0.0)
+    months = np.where(first > 0, prev + np.clip(frac, 0.0, 1.0), 0.0)
+    return np.where(reached, months / 12.0, np.inf)
+
+
+def _cause(eol, available, fade, life, j, chem) -> str:
+    if eol >= 1.0:
+        return "too small when new" if available > 0.95 else "cold capacity"
+    if not chem.rechargeable:
+        return "energy drawn" if fade.cycle_loss_frac[-1, j] >= fade.calendar_loss_frac[-1, j] \
+            else "self-discharge"
+    if not np.isfinite(life):
+        return "none within the horizon"
+    month = min(int(life * 12), fade.soh_monthly.shape[0] - 1)
+    cal, cyc = fade.calendar_loss_frac[month, j], fade.cycle_loss_frac[month, j]
+    cause = "calendar" if cal >= cyc else "cycling"
+    if available < 0.8:
+        cause += " (cold derating)"
+    return cause
+
+
+# Below these SOH values a pack is worn out whatever its size: lead-acid loses capacity
+# abruptly after 80 % (the IEEE 450 / IEEE 1188 replacement criterion, from memory) and
+# lithium-ion cells reach a knee of accelerating fade near 70-80 % that the fitted laws do
+# not describe (common practice). Primary cells run down to their reserve.
+WORN_OUT_SOH = {"vrla": 0.80, "lfp": 0.70, "nmc": 0.70, "lto": 0.70, "lisocl2": 0.0}
+
+
+def worn_out_soh_frac(chemistry: str) -> float:
+    """SOH below which a pack of this chemistry is not kept in service."""
+    return WORN_OUT_SOH.get(chemistry, 0.8)
+
+
+# Longest service planned for a pack whatever the fade laws say: seals, electrolyte
+# dry-out, battery-management electronics and terminal corrosion are not in the laws.
+# VRLA: the Eurobat "10-12 years" design-life class (from memory); lithium-ion: the
+# 15-20 year design life of stationary products (common practice); primary cells: the
+# 20-year shelf life quoted for bobbin Li-SOCl2 cells (vendor statements, research notes §5).
+MAX_SERVICE_YEARS = {"vrla": 12.0, "lfp": 20.0, "nmc": 15.0, "lto": 25.0, "lisocl2": 20.0}
+
+
+def max_service_years(chemistry: str) -> float:
+    """Longest service planned for a pack of this chemistry."""
+    return MAX_SERVICE_YEARS.get(chemistry, 15.0)
+
+
+def _activation_energy(chem: Chemistry) -> float:
+    """Ea of the chemistry's default calendar law, for the cells' temperature offsets."""
+    params = chem.aging_sets[chem.default_aging_set].calendar
+    if "activation_energy_j_mol" in params:
+        return float(params["activation_energy_j_mol"])
+    if "temp_coefficient_k" in params:
+        return float(params["temp_coefficient_k"]) * R_GAS
+    if "halving_step_k" in params:  # life halves per step: Ea = R T^2 ln 2 / step at 298 K
+        return R_GAS * 298.15 ** 2 * np.log(2.0) / float(params["halving_step_k"])
+    return 50e3
+
+
+def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
+    """Pack Monte Carlo (cell spread, gradients, balancing): P10/P50/P90 and the
+    probability of failing before each age, for the failure-risk cost."""
+    ea = _activation_energy(chem)
+    cap = max_service_years(chem.id)
+    groups: dict[tuple[int, int], list[int]] = {}
+    for j, d in enumerate(designs):
+        if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable:
+            continue
+        if outcomes[j].life_years >= cap and _nominal_life(outcomes[j]) >= SPREAD_SKIP_FACTOR * cap:
+            # Nominal life far beyond the service limit: cell spread cannot bring the
+            # end of life before the planned replacement (the spreads move P10 by well
+            # under 40 %, docs/pack.md), so the Monte Carlo is skipped for speed.
+            o = outcomes[j]
+            o.life_p10_years = o.life_p50_years = o.life_p90_years = cap
+            o.failure_prob_by_age = (0.0,) * (horizon + 1)
+            continue
+        groups.setdefault((d.pack.series_cells, d.pack.parallel_strings), []).append(j)
+    months = 12 * horizon + 1
+    # The failure risk matters up to the horizon: curves a little past it are enough.
+    rows = slice(0, min(fade.calendar_loss_frac.shape[0], 12 * (horizon + 3) + 1))
+    for (series, parallel), lanes in groups.items():
+        ref_temp = [models[designs[j].site_index].temperatures.effective_temp_c for j in lanes]
+        dist = life_distribution(
+            calendar_loss_frac=fade.calendar_loss_frac[rows, lanes],
+            cycle_loss_frac=fade.cycle_loss_frac[rows, lanes], eol_soh_frac=eol[lanes],
+            series_cells=series, parallel_strings=parallel, draws=PLAN_DRAWS, seed=0,
+            activation_energy_j_mol=ea, reference_temp_c=np.array(ref_temp))
+        for k, j in enumerate(lanes):
+            o = outcomes[j]
+            o.life_p10_years = float(min(dist.p10_years[k], cap))
+            o.life_p50_years = float(min(dist.p50_years[k], cap))
+            o.life_p90_years = float(min(dist.p90_years[k], cap))
+            o.failure_prob_by_age = tuple(float(p) for p in dist.prob_fail_before_year[:, k])
+            o.soh_p10_monthly = dist.soh_p10_by_month[:months, k]
+            o.soh_p90_monthly = dist.soh_p90_by_month[:months, k]

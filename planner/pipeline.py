@@ -1,0 +1,396 @@
+"""The whole chain for one study, from validated inputs to the plan.
+
+scenario -> site models (climate, battery temperature, load, charging)
+         -> candidate designs (energy balance, aging, pack spread)
+         -> fleet problem (costs per candidate) -> optimizer
+         -> chemistry comparison and sensitivity -> plan (a plain dict, docs/plan-json.md)
+
+This is the only module that knows every stage; each stage stays a pure function of
+its inputs.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import numpy as np
+
+from planner import __version__
+from planner.chemistry import get_chemistry
+from planner.designs import Outcome, SiteDesigns, evaluate_fleet, requirement_wh
+from planner.economics import upv
+from planner.energy.freezing import lead_acid_freezing_point_c
+from planner.optimize import (
+    Candidate,
+    ExistingPack,
+    FleetProblem,
+    FleetSolution,
+    SiteOptions,
+    compare_chemistries,
+    solve_fleet,
+)
+from planner.optimize.analysis import compare_solutions, sensitivity
+from planner.scenario import Study
+from planner.site_model import SiteModel, model_sites
+
+# Lives beyond this are "longer than any plan needs" for the optimizer.
+LIFE_CAP_YEARS = 100.0
+WARMING_SENSITIVITY_K = 2.0
+
+
+def run_study(study: Study, *, progress=None) -> dict:
+    """Plan ``study``; returns the plan dict (see docs/plan-json.md)."""
+    models, designs = _model_fleet(study, progress=progress)
+    problem = build_problem(study, models, designs)
+    solution = solve_fleet(problem)
+    comparison = compare_chemistries(problem, list(study.settings["candidates"]["chemistries"]))
+    cases = []
+    if study.settings["output"]["sensitivity"]:
+        cases = sensitivity(problem, solution)
+        warm_models, warm_designs = _model_fleet(study, extra_warming_k=WARMING_SENSITIVITY_K)
+        warm = solve_fleet(build_problem(study, warm_models, warm_designs))
+        cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
+    return assemble_plan(study, models, designs, problem, solution, comparison, cases)
+
+
+def _model_fleet(study: Study, *, extra_warming_k: float = 0.0, progress=None):
+    models = model_sites(study, extra_warming_k=extra_warming_k, progress=progress)
+    return models, evaluate_fleet(study, models)
+
+
+# ---------------------------------------------------------------- fleet problem
+
+
+def pack_price(study: Study, chemistry: str, capacity_wh: float) -> float:
+    """Purchase price of a pack: per-kWh price (study or library) plus the fixed part."""
+    given = study.prices.get(chemistry, {})
+    per_kwh = given.get("price_per_kwh")
+    if per_kwh is None:
+        per_kwh = get_chemistry(chemistry).price_per_kwh
+    return capacity_wh / 1000.0 * per_kwh + given.get("fixed_price", 0.0)
+
+
+def downtime_present_cost(study: Study, model: SiteModel, outcome: Outcome) -> float:
+    """Present value, at installation, of the days off air while this pack serves.
+
+    Load not served in the typical year is counted as energy-equivalent days
+    (unserved Wh / daily load Wh), priced at ``downtime_cost_per_day`` and summed as a
+    uniform series over the pack's service (NIST Handbook 135 uniform present value).
+    """
+    if outcome.unserved_wh_per_year <= 0 or model.daily_load_wh <= 0:
+        return 0.0
+    days = outcome.unserved_wh_per_year / model.daily_load_wh
+    years = min(outcome.life_years, study.settings["study"]["horizon_years"])
+    return float(study.settings["costs"]["downtime_cost_per_day"] * days
+                 * upv(study.discount_rate_frac, years))
+
+
+def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
+    d = outcome.design
+    costs = study.settings["costs"]
+    life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
+    # Days off air are a cost of choosing this pack, carried with its purchase.
+    price = pack_price(study, d.chemistry, d.pack.capacity_wh) + downtime_present_cost(
+        study, model, outcome)
+    return Candidate(
+        design_id=d.design_id, chemistry=d.chemistry, oversize_factor=round(d.oversize_factor, 4),
+        charge_voltage_v_per_cell=d.charge_voltage_v_per_cell, capacity_wh=d.pack.capacity_wh,
+        mass_kg=d.pack.mass_kg, pack_cost=price,
+        install_cost=costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"],
+        disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"],
+        life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=outcome.failure_prob_by_age,
+        limiting_cause=outcome.limiting_cause)
+
+
+def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
+    """Designs worth offering: they carry the site's autonomy requirement when new and
+    last at least a year (days off air are priced, not excluded)."""
+    return [o for o in designs.outcomes if o.eol_soh_frac < 1.0 and o.life_years >= 1.0]
+
+
+def _unserved_reason(model: SiteModel, designs: SiteDesigns) -> str:
+    reasons = [f"{chem}: {why}" for chem, why in sorted(designs.excluded.items())]
+    tried = sorted({o.design.chemistry for o in designs.outcomes})
+    if tried:
+        reasons.append(f"{', '.join(tried)}: no pack size on the grid carries "
+                       f"{requirement_wh(model):.0f} Wh through the coldest hour "
+                       f"({model.design_temp_c:.1f} °C) for at least a year")
+    return f"no candidate serves site {model.site.id} ({'; '.join(reasons)})"
+
+
+def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesigns]) -> FleetProblem:
+    """The optimizer's view of the study: sites, candidates with costs, limits."""
+    costs = study.settings["costs"]
+    sites = []
+    for model, site_designs in zip(models, designs):
+        site = model.site
+        region = study.region(site.region)
+        offered = [_candidate(study, model, o) for o in offered_outcomes(site_designs)]
+        existing = None
+        if site_designs.existing is not None:
+            e = site_designs.existing
+            existing = ExistingPack(
+                remaining_life_years=min(e.life_years, LIFE_CAP_YEARS), chemistry=e.design.chemistry,
+                capacity_wh=e.design.pack.capacity_wh, mass_kg=e.design.pack.mass_kg,
+                disposal_cost=e.design.pack.mass_kg * costs["disposal_per_kg"])
+        unplanned = costs["unplanned_trip_cost"]
+        if unplanned is None:
+            unplanned = 1.5 * region["trip_cost"]
+        sites.append(SiteOptions(
+            site_id=site.id, region=site.region, access_months=model.access_months,
+            candidates=offered, existing=existing, site_visit_cost=region["site_visit_cost"],
+            downtime_cost_per_day=costs["downtime_cost_per_day"], unplanned_trip_cost=unplanned,
+            unserved_reason="" if offered else _unserved_reason(model, site_designs)))
+    limits = study.settings["limits"]
+    solver = study.settings["solver"]
+    return FleetProblem(
+        sites=sites, horizon_years=study.settings["study"]["horizon_years"],
+        discount_rate_frac=study.discount_rate_frac,
+        trip_cost_by_region={s.region: study.region(s.region)["trip_cost"] for s in study.sites},
+        crew_site_visits_per_year=limits["crew_site_visits_per_year"] or None,
+        annual_budget=limits["annual_budget"] or None,
+        payload_kg_per_trip=limits["payload_kg_per_trip"] or None,
+        time_limit_s=solver["time_limit_s"], gap_rel_frac=solver["gap_rel_frac"],
+        solver=solver["name"])
+
+
+# ---------------------------------------------------------------- plan assembly
+
+
+def _find(designs: SiteDesigns, design_id: str | None) -> Outcome | None:
+    return next((o for o in designs.outcomes if o.design.design_id == design_id), None)
+
+
+def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=None) -> list[float]:
+    """Monthly SOH of a site over the horizon: the pack in service, renewed at each
+    replacement (new packs follow ``new_curve`` from month 0)."""
+    months = 12 * horizon_years + 1
+    out = np.full(months, np.nan)
+    if existing_curve is not None:
+        n = min(months, len(existing_curve))
+        out[:n] = existing_curve[:n]
+    for year in sorted(replacement_years):
+        start = 12 * int(year)
+        n = min(months - start, len(new_curve))
+        out[start:start + n] = new_curve[:n]
+    return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
+
+
+def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison) -> dict:
+    site = model.site
+    horizon = study.settings["study"]["horizon_years"]
+    candidate = plan.candidate if plan is not None else None
+    chosen = _find(designs, candidate.design_id) if candidate else None
+    existing = designs.existing
+    shown = chosen or existing
+    temps = model.temperatures.to_dict()
+    entry = {
+        "id": site.id, "name": site.name, "region": site.region, "climate": site.climate,
+        "enclosure": site.enclosure, "charging": site.charging, "notes": site.notes,
+        "system_voltage_v": site.system_voltage_v, "autonomy_days": site.autonomy_days,
+        "access_months": list(model.access_months),
+        "daily_load_wh": model.daily_load_wh, "load_peak_w": model.peak_load_w,
+        "temperature": temps,
+        "climate_monthly": {"air_mean_c": temps.get("air_monthly_mean_c"),
+                            "battery_mean_c": temps.get("battery_monthly_mean_c")},
+        "replacement_years": list(plan.replacement_years) if plan else [],
+        "replacement_months": list(plan.replacement_months) if plan else [],
+        "present_cost": plan.present_cost if plan else None,
+        "cost_breakdown": plan.cost.to_dict() if plan else None,
+        "warnings": list(model.warnings),
+    }
+    if shown is not None:
+        d = shown.design
+        chem = get_chemistry(d.chemistry)
+        reference = designs.references.get(d.chemistry)
+        entry.update({
+            "design_id": d.design_id, "chemistry": d.chemistry,
+            "oversize_factor": round(d.oversize_factor, 4) if not d.is_existing else None,
+            "charge_voltage_v_per_cell": d.charge_voltage_v_per_cell,
+            "charge_voltage_v": round(d.charge_voltage_v_per_cell * d.pack.series_cells, 4),
+            "capacity_wh": d.pack.capacity_wh, "capacity_ah": d.pack.capacity_ah,
+            "pack_structure": d.pack.label, "pack_mass_kg": d.pack.mass_kg,
+            "life_years": _finite(shown.life_years), "limiting_cause": shown.limiting_cause,
+            "eol_soh_frac": shown.eol_soh_frac,
+            "life_p10_years": _finite(shown.life_p10_years),
+            "life_p50_years": _finite(shown.life_p50_years),
+            "life_p90_years": _finite(shown.life_p90_years),
+            "unserved_wh_per_year": shown.unserved_wh_per_year,
+            "equivalent_full_cycles_per_year": shown.efc_per_year,
+            "charge_blocked_hours_per_year": shown.charge_blocked_hours,
+            "reference_capacity_wh": reference.capacity_wh if reference else None,
+            "reference_factors": _reference_factors(reference, model),
+            "chemistry_name": chem.name,
+        })
+        existing_curve = existing.soh_monthly if existing is not None else None
+        new_curve = chosen.soh_monthly if chosen is not None else np.array([])
+        replacements = plan.replacement_years if plan else ()
+        entry["soh_by_month"] = sawtooth(horizon, replacements, new_curve, existing_curve)
+        if chosen is not None and chosen.soh_p10_monthly is not None:
+            entry["soh_p10_by_month"] = sawtooth(horizon, replacements, chosen.soh_p10_monthly,
+                                                 existing_curve)
+            entry["soh_p90_by_month"] = sawtooth(horizon, replacements, chosen.soh_p90_monthly,
+                                                 existing_curve)
+        entry["warnings"] += _design_warnings(model, shown)
+    if existing is not None:
+        entry["existing_pack"] = {
+            "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
+            "age_years": existing.design.existing_age_years,
+            "remaining_life_years": _finite(existing.life_years)}
+    entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
+                                          candidate.chemistry if candidate else None, existing)
+    return entry
+
+
+def _alternatives(study, site_id, designs, comparison, chosen_chemistry, existing) -> list[dict]:
+    horizon = study.settings["study"]["horizon_years"]
+    out = []
+    for result in comparison:
+        if result.chemistry == chosen_chemistry:
+            continue
+        plan = next((p for p in result.solution.sites if p.site_id == site_id), None)
+        if plan is None or plan.candidate is None:
+            continue
+        outcome = _find(designs, plan.candidate.design_id)
+        out.append({
+            "chemistry": result.chemistry, "oversize_factor": plan.candidate.oversize_factor,
+            "charge_voltage_v": round(plan.candidate.charge_voltage_v_per_cell
+                                      * outcome.design.pack.series_cells, 4) if outcome else None,
+            "capacity_wh": plan.candidate.capacity_wh,
+            "life_years": _finite(outcome.life_years) if outcome else None,
+            "present_cost": plan.present_cost,
+            "replacement_years": list(plan.replacement_years),
+            "soh_by_month": sawtooth(horizon, plan.replacement_years,
+                                     outcome.soh_monthly if outcome else np.array([]),
+                                     existing.soh_monthly if existing is not None else None),
+        })
+    return out
+
+
+def _reference_factors(reference, model: SiteModel) -> dict | None:
+    if reference is None:
+        return None
+    return {"daily_load_wh": reference.daily_load_wh, "autonomy_days": reference.autonomy_days,
+            "max_dod_frac": reference.max_dod_frac, "temperature_factor": reference.temperature_factor,
+            "aging_factor": reference.aging_factor, "design_margin": reference.design_margin,
+            "design_temp_c": model.design_temp_c, "system_voltage_v": reference.system_voltage_v,
+            "capacity_ah": reference.capacity_ah}
+
+
+def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
+    d = outcome.design
+    chem = get_chemistry(d.chemistry)
+    out = []
+    if outcome.unserved_wh_per_year > 0:
+        out.append(f"{outcome.unserved_wh_per_year:.0f} Wh of load a year not served with this "
+                   "pack: the charging source is too small for the site's darkest or coldest weeks")
+    if outcome.charge_blocked_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by cold for {outcome.charge_blocked_hours:.0f} h a year "
+                   f"(below {chem.charge_temp_min_c:g} °C); a battery heater would recover it")
+    if d.chemistry == "vrla":
+        depth = 1.0 - (1.0 - chem.max_dod_frac)
+        freezing = float(lead_acid_freezing_point_c(max(1.0 - depth, 0.0)))
+        if model.design_temp_c < freezing + 5.0:
+            out.append(f"lead-acid electrolyte may freeze: battery reaches {model.design_temp_c:.1f} °C "
+                       f"and a pack at the lowest allowed charge freezes near {freezing:.0f} °C "
+                       "(US Army TM 5-1185 table)")
+    if d.is_existing and outcome.life_years < 1.0:
+        out.append("the pack installed today is at or near the end of its life")
+    return out
+
+
+def _finite(value):
+    return float(value) if value is not None and math.isfinite(value) else None
+
+
+def _assumptions(study: Study) -> list[dict]:
+    from planner.schema import SECTIONS
+
+    rows = []
+    illustrative = study.settings["costs"]["illustrative"]
+    for section, specs in SECTIONS.items():
+        for spec in specs:
+            value = study.settings[section][spec.name]
+            source = "study file"
+            if section == "costs" and illustrative:
+                source = "study file (illustrative)"
+            rows.append({"group": f"study [{section}]", "name": spec.name,
+                         "value": _plain(value), "unit": spec.unit, "source": source})
+    for region in sorted({s.region for s in study.sites}):
+        for key, value in study.region(region).items():
+            rows.append({"group": f"region {region}", "name": key, "value": _plain(value),
+                         "unit": "", "source": "study file" + (" (illustrative)" if illustrative and
+                                                               "cost" in key else "")})
+    for chem_id in study.settings["candidates"]["chemistries"]:
+        chem = get_chemistry(chem_id)
+        for name, source in sorted(chem.sources.items()):
+            rows.append({"group": f"chemistry {chem_id}", "name": name,
+                         "value": _plain(_chem_value(chem, name)), "unit": "", "source": source})
+        price = pack_price(study, chem_id, 1000.0) - study.prices.get(chem_id, {}).get("fixed_price", 0.0)
+        rows.append({"group": f"chemistry {chem_id}", "name": "price_per_kwh_used", "value": price,
+                     "unit": f"{study.settings['study']['currency']}/kWh",
+                     "source": "study file" if chem_id in study.prices else
+                     "chemistry library (illustrative)"})
+    rows.append({"group": "method", "name": "planner version", "value": __version__, "unit": "",
+                 "source": "this program"})
+    return rows
+
+
+def _chem_value(chem, name):
+    """The value behind a chemistry source key ('mass_kg_per_kwh', 'aging.<set>.cycle.a')."""
+    if name.startswith("aging."):
+        set_name, section, key = name[len("aging."):].rsplit(".", 2)
+        params = chem.aging_sets.get(set_name)
+        return getattr(params, section).get(key, "") if params else ""
+    value = getattr(chem, name, None)
+    if callable(value) or value is None:
+        return "table (see chemistries.toml)"
+    return value
+
+
+def _plain(value):
+    if isinstance(value, (tuple, list)):
+        return ", ".join(str(v) for v in value)
+    if value is None:
+        return ""
+    return value
+
+
+def assemble_plan(study, models, designs, problem: FleetProblem, solution: FleetSolution,
+                  comparison, cases) -> dict:
+    """The plan dict of docs/plan-json.md."""
+    from planner.report.cautions import STANDARD_CAUTIONS
+
+    plans = {p.site_id: p for p in solution.sites}
+    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison)
+             for m, d in zip(models, designs)]
+    s = study.settings["study"]
+    return {
+        "schema_version": 1,
+        "study": {"name": study.name, "currency": s["currency"], "horizon_years": s["horizon_years"],
+                  "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
+                  "sites_file": study.sites_path.name, "planner_version": __version__},
+        "total_present_cost": solution.objective,
+        "solver": {"name": solution.solver_name, "status": solution.status,
+                   "gap_frac": solution.gap_frac, "seconds": int(solution.seconds),
+                   "objective": solution.objective, "best_bound": solution.best_bound,
+                   "decomposition": solution.decomposition},
+        "sites": sites,
+        "trips": [{"region": t.region, "year": t.year, "month": t.month,
+                   "site_ids": list(t.site_ids), "pack_count": t.pack_count,
+                   "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
+                  for t in solution.trips],
+        "chemistry_comparison": [
+            {"chemistry": r.chemistry, "total_present_cost": r.total_present_cost,
+             "status": r.status, "sites_served": r.sites_served,
+             "sites_unserved": [u.site_id for u in r.unserved]} for r in comparison],
+        "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
+                         "change_frac": c.change_frac, "designs_changed": c.designs_changed,
+                         "status": c.status} for c in cases],
+        "assumptions": _assumptions(study),
+        "cautions": [f"{c.topic}: {c.text} Defer to: {c.defer_to}." for c in STANDARD_CAUTIONS],
+        "unserved_sites": [{"id": u.site_id, "reason": u.reason, "limit": u.limit}
+                           for u in solution.unserved],
+        "binding_limits": list(solution.binding_limits),
+    }
