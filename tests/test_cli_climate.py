@@ -112,3 +112,19 @@ def test_csv_missing_declaration(tmp_path):
     result = CliRunner().invoke(cli, ["climate", str(path)])
     assert result.exit_code == 2
     assert "option 'temperature_unit' is missing" in result.output
+
+
+def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
+    target = tmp_path / "hourly.csv"
+    target.write_text("an earlier export\n")
+
+    def broken(self, path, *args, **kwargs):
+        with open(path, "w") as fh:      # half a file, then the disk "fills up"
+            fh.write("time_start_local,temp")
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(pd.DataFrame, "to_csv", broken)
+    result = CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(target)])
+    assert result.exit_code == 2 and "cannot write the hourly CSV" in result.output
+    assert target.read_text() == "an earlier export\n"
+    assert list(tmp_path.iterdir()) == [target]      # the temporary file was removed
