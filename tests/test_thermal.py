@@ -8,7 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from planner import ground, thermal
+from planner import thermal
 from planner.climate import TypicalYear, load_climate
 from planner.errors import InputError
 

@@ -30,7 +30,7 @@ from importlib import resources
 
 import numpy as np
 
-from planner.climate import HOURS_PER_YEAR, TypicalYear, hour_starts
+from planner.climate import HOURS_PER_YEAR, TypicalYear
 from planner.errors import InputError
 
 #: Parton & Logan (1981), Agricultural Meteorology 23, 205-216, Table 1, air
@@ -319,5 +319,4 @@ def generate_year(*, name: str, source: str, latitude_deg: float, longitude_deg:
 
 
 __all__ = ["names", "descriptions", "load_archetype", "generate_year", "parton_logan_hourly",
-           "mean_preserving_daily", "day_length_h", "daily_extremes", "monthly_mean_of_days",
-           "hour_starts"]
+           "mean_preserving_daily", "day_length_h", "daily_extremes", "monthly_mean_of_days"]

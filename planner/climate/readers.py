@@ -17,7 +17,6 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import functools
-import os
 import re
 import warnings
 import zoneinfo
