@@ -197,7 +197,7 @@ def _summary_sheet(ws, plan, fmt) -> None:
         cols = [Column("Chemistry", _key("chemistry")),
                 Column(f"Fleet present cost [{cur}]", _key("total_present_cost"), fmt["money"]),
                 Column("Sites served", _key("sites_served"), styles.INTEGER, optional=True),
-                Column("Sites not served", _key("sites_unserved"), styles.INTEGER, optional=True),
+                Column("Sites not served", _key("sites_unserved"), optional=True),  # a count or the ids
                 Column("Solver status", _key("status"), optional=True)]
         _, comp_end = _write_table(ws, 4, 4, cols, comparison)
         if comp_end >= 5:
@@ -338,9 +338,8 @@ def _most_expensive(sites, n):
 def _fade_sheet(ws, plan) -> None:
     chosen = [s for s in _most_expensive(_sites(plan), FADE_CHART_SITES) if _fade_series(s)]
     _title(ws, f"State of health over the horizon: the {len(chosen)} most expensive sites",
-           "Chosen design with its replacement saw-tooth, the P10/P90 band where the plan has it, and the best "
-           "design of each other chemistry. All sites, year by year: sheet Fade by year (alternatives "
-           f"listed there for fleets of up to {FADE_TABLE_ALTERNATIVES_MAX_SITES} sites).")
+           "Chosen design (saw-tooth at each replacement), its P10/P90 band where known, and the best design "
+           "of each other chemistry. Every site year by year: sheet Fade by year.")
     if not chosen:
         put(ws, 4, 1, "The plan holds no state-of-health series.")
         styles.landscape_fit_width(ws)
@@ -619,9 +618,7 @@ def _cautions_sheet(ws, plan) -> None:
     cols = [Column("Topic", _key("topic"), width=30), Column("Caution", _key("text"), width=90),
             Column("Defer to", _key("defer"), width=50)]
     _, last = _write_table(ws, 4, 1, cols, records)
-    for row in range(5, last + 1):
-        for c in range(1, 4):
-            ws.cell(row=row, column=c).alignment = styles.WRAP_TOP
+    _wrap_rows(ws, 5, last, 3)
     row = last + 2
     put(ws, row, 1, "Per-site warnings").font = styles.SECTION_FONT
     warn = [{"id": s.get("id"), "name": s.get("name"), "text": w}
@@ -632,12 +629,27 @@ def _cautions_sheet(ws, plan) -> None:
         wcols = [Column("Site id", _key("id"), width=30), Column("Warning", _key("text"), width=90),
                  Column("Site name", _key("name"), width=50)]
         _, wlast = _write_table(ws, row + 1, 1, wcols, warn)
-        for r in range(row + 2, wlast + 1):
-            ws.cell(row=r, column=2).alignment = styles.WRAP_TOP
+        _wrap_rows(ws, row + 2, wlast, 3)
     else:
         put(ws, row + 1, 1, "No per-site warnings were raised.")
     ws.freeze_panes = "A2"
     styles.landscape_fit_width(ws, title_rows="4:4")
+
+
+def _wrap_rows(ws, first: int, last: int, n_cols: int) -> None:
+    """Wrap text in rows first..last and size each row for its longest cell.
+
+    LibreOffice does not grow rows for wrapped text on load, so the height is set here
+    from the text length and the column width (about one character per width unit).
+    """
+    for row in range(first, last + 1):
+        lines = 1
+        for col in range(1, n_cols + 1):
+            cell = ws.cell(row=row, column=col)
+            cell.alignment = styles.WRAP_TOP
+            width = ws.column_dimensions[get_column_letter(col)].width or 10
+            lines = max(lines, math.ceil(len(str(cell.value or "")) * 1.1 / max(width - 1, 1)))
+        ws.row_dimensions[row].height = 15 * lines
 
 
 # ---------------------------------------------------------------- entry point
