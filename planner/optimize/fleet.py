@@ -361,6 +361,7 @@ def _solve_columns(problem, served, cands, deadline):
     converged = True
     weak = []
     lost = []
+    done = []  # per block: graph, local site groups, trip costs, columns, integer-matrix
     for bi, block in enumerate(blocks):
         t_build = time.perf_counter()
         sites = [served[i] for k in block for i in tg[k][2]]
@@ -370,10 +371,11 @@ def _solve_columns(problem, served, cands, deadline):
         trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in block])
         is_open = np.array([tg[k][1] != 0 for k in block], dtype=bool)
         build_seconds += time.perf_counter() - t_build
-        share = max(1.0, (deadline - time.perf_counter()) / (len(blocks) - bi))
+        # column generation gets 60 % of the time left, shared over the blocks still to do
+        share = max(0.5, 0.6 * (deadline - time.perf_counter()) / (len(blocks) - bi))
         mr = generate_columns(gr, site_group, trip_cost, is_open, rate=rate,
                               payload_kg=problem.payload_kg_per_trip, crew=crew, budget=budget,
-                              time_limit_s=0.6 * share, bound_gap_frac=0.2 * problem.gap_rel_frac)
+                              time_limit_s=share, bound_gap_frac=0.2 * problem.gap_rel_frac)
         rounds = max(rounds, mr.iterations)
         n_cols += len(mr.columns)
         converged &= mr.converged
@@ -385,11 +387,17 @@ def _solve_columns(problem, served, cands, deadline):
             return ("infeasible", float("nan"), [], [], text, [f"{names[k]} cannot be met" for k in stuck],
                     build_seconds)
         bound += mr.lower_bound
-        cols = mr.columns
-        m = _column_matrix(gr, cols, np.arange(len(sites)), site_group, np.arange(len(block)),
+        m = _column_matrix(gr, mr.columns, np.arange(len(sites)), site_group, np.arange(len(block)),
                            trip_cost, is_open, problem)
+        done.append((block, gr, site_group, trip_cost, mr, m))
+
+    # integer step per block (measured: one block-diagonal model over 14 groups took 24 s
+    # in HiGHS against 5 s for the 14 models one by one)
+    for bi, (block, gr, site_group, trip_cost, mr, m) in enumerate(done):
+        cols = mr.columns
         rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
-                         solver=problem.solver, time_limit_s=max(1.0, deadline - time.perf_counter()) / (len(blocks) - bi),
+                         solver=problem.solver,
+                         time_limit_s=max(1.0, (deadline - time.perf_counter()) / (len(done) - bi)),
                          gap_rel_frac=problem.gap_rel_frac)
         build_seconds += rep.build_seconds
         if rep.values is None:
@@ -402,9 +410,10 @@ def _solve_columns(problem, served, cands, deadline):
             continue
         if rep.status == "feasible" and status == "optimal":
             status = "feasible"
-        y = np.rint(rep.values[len(cols):]).reshape(len(block), h)
+        xv = rep.values
+        y = np.rint(xv[len(cols):]).reshape(len(block), h)
         if side:
-            chosen = [cols[j] for j in np.nonzero(rep.values[:len(cols)] > 0.5)[0]]
+            chosen = [cols[j] for j in np.nonzero(xv[:len(cols)] > 0.5)[0]]
         else:
             # trips fixed: every site takes its exact cheapest path over its group's trip
             # years in its full time graph (never worse than the columns the MIP saw)
