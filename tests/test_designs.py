@@ -1,0 +1,104 @@
+"""Candidate designs: sizing wiring, end-of-life threshold and behaviour facts."""
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from planner.chemistry import get_chemistry
+from planner.designs import (
+    MAX_SERVICE_YEARS,
+    enumerate_site_designs,
+    evaluate_fleet,
+    requirement_wh,
+    window_frac,
+    worn_out_soh_frac,
+)
+from planner.scenario import load_study
+from planner.site_model import model_sites
+
+QUICK = Path(__file__).resolve().parents[1] / "scenarios" / "quick.toml"
+
+
+@pytest.fixture(scope="module")
+def quick():
+    study = load_study(QUICK)
+    models = model_sites(study)
+    return study, models, evaluate_fleet(study, models)
+
+
+def test_reference_size_follows_the_ieee_1013_chain(quick):
+    # IEEE 1013 / IEEE 1562 chain: E_day x N_aut / DOD_max x K_T x K_age x K_margin, with
+    # K_T = 1 / available capacity at the coldest battery temperature (research notes §1.2).
+    study, models, results = quick
+    model, result = models[0], results[0]
+    for chem_id, reference in result.references.items():
+        chem = get_chemistry(chem_id)
+        if not chem.rechargeable:
+            continue
+        k_t = max(1.0 / float(chem.available_capacity_fraction(model.design_temp_c)), 1.0)
+        expected = (model.daily_load_wh * model.site.autonomy_days / chem.max_dod_frac
+                    * k_t * 1.25 * 1.10)
+        assert reference.capacity_wh == pytest.approx(expected, rel=1e-9)
+
+
+def test_end_of_life_threshold_is_requirement_over_deliverable_energy(quick):
+    # Definition (DESIGN.md): end of life is when the pack can no longer carry
+    # load x days of autonomy at the coldest battery temperature after derating.
+    _, models, results = quick
+    for model, result in zip(models, results):
+        for o in result.outcomes:
+            chem = get_chemistry(o.design.chemistry)
+            deliverable = (o.design.pack.capacity_wh * window_frac(chem, o.design.charge_voltage_v_per_cell)
+                           * float(chem.available_capacity_fraction(model.design_temp_c)))
+            expected = max(requirement_wh(model) / deliverable, worn_out_soh_frac(chem.id))
+            assert o.eol_soh_frac == pytest.approx(expected, rel=1e-9)
+
+
+def test_larger_pack_never_has_a_higher_threshold(quick):
+    # common practice: oversizing buys margin, so a bigger pack of the same chemistry and
+    # charge voltage reaches its end-of-life threshold at a lower SOH.
+    _, _, results = quick
+    for result in results:
+        groups = {}
+        for o in result.outcomes:
+            groups.setdefault((o.design.chemistry, o.design.charge_voltage_v_per_cell), []).append(o)
+        for outcomes in groups.values():
+            outcomes.sort(key=lambda o: o.design.pack.capacity_wh)
+            thresholds = [o.eol_soh_frac for o in outcomes]
+            assert all(a >= b - 1e-12 for a, b in zip(thresholds, thresholds[1:]))
+
+
+def test_lives_respect_the_service_limit(quick):
+    # common practice: no pack is planned beyond its chemistry's design life.
+    _, _, results = quick
+    for result in results:
+        for o in result.outcomes:
+            assert o.life_years <= MAX_SERVICE_YEARS[o.design.chemistry] + 1e-9
+            assert np.all(np.diff(o.soh_monthly) <= 1e-12)  # SOH never increases
+
+
+def test_hotter_climate_never_lengthens_life():
+    # Optimizer issue, behaviour check (common practice: heat shortens battery life).
+    study = load_study(QUICK)
+    base = {o.design.design_id: o.life_years
+            for r in evaluate_fleet(study, model_sites(study)) for o in r.outcomes}
+    warm = {o.design.design_id: o.life_years
+            for r in evaluate_fleet(study, model_sites(study, extra_warming_k=5.0))
+            for o in r.outcomes}
+    shared = set(base) & set(warm)
+    assert len(shared) > 10
+    for design_id in shared:
+        assert warm[design_id] <= base[design_id] + 1e-9, design_id
+
+
+def test_no_rechargeable_pack_without_a_charging_source(tmp_path):
+    # A site with no charging source can only take primary cells.
+    (tmp_path / "s.csv").write_text(
+        "id,region,climate,load_w,charging,autonomy_days\nX,r,hot-desert,0.05,none,30\n")
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "s.csv"\n')
+    study = load_study(tmp_path / "s.toml")
+    model = model_sites(study)[0]
+    designs, excluded, _ = enumerate_site_designs(study, 0, model)
+    assert {d.chemistry for d in designs} == {"lisocl2"}
+    assert set(excluded) == {"vrla", "lfp", "nmc", "lto"}
