@@ -569,6 +569,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
         if math.isfinite(objective) and math.isfinite(bound):
             bound = min(bound, objective)
+        status = _within_gap(status, objective, bound, problem.gap_rel_frac)
         if unserved:
             status = "infeasible"
         trips.sort(key=lambda t: (t.year, t.region, t.month))
@@ -640,6 +641,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
     if plans or not fleet or status != "infeasible":
         objective = float(sum(p.present_cost for p in plans))
         bound = min(bound, objective) if math.isfinite(bound) else bound
+    status = _within_gap(status, objective, bound, problem.gap_rel_frac)
     if unserved:
         status = "infeasible"
     trips.sort(key=lambda t: (t.year, t.region, t.month))
@@ -650,6 +652,15 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
                          solver_name=solver_name, seconds=time.perf_counter() - t0,
                          decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
                          binding_limits=binding, build_seconds=build_seconds)
+
+
+def _within_gap(status: str, objective: float, bound: float, gap_rel_frac: float) -> str:
+    """"optimal" means proved within the relative gap for the whole fleet: a plan stopped
+    early in one group is still optimal in that sense when the fleet-wide bound proves it."""
+    if status == "feasible" and math.isfinite(objective) and math.isfinite(bound):
+        if gap(objective, bound) <= gap_rel_frac:
+            return "optimal"
+    return status
 
 
 def _diagnose(problem: FleetProblem, groups) -> list[str]:
