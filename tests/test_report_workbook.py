@@ -425,3 +425,40 @@ def test_libreoffice_renders_pdf_and_keeps_names_literal(tmp_path):
     assert pdf.stat().st_size > 1000 and pdf.read_bytes()[:5] == b"%PDF-"
     csv_text = (tmp_path / "plan.csv").read_text(encoding="utf-8", errors="replace")
     assert '=HYPERLINK(""x"")' in csv_text and "+1+1" in csv_text
+
+
+def test_each_site_missing_a_different_key_still_writes(tmp_path):
+    # Tolerance (issue 7 brief): a missing optional key leaves that cell blank, never crashes.
+    # Every site loses a different key, so one write covers every key of the fixture.
+    keys = sorted(make_plan(1)["sites"][0])
+    plan = make_plan(len(keys), seed=5)
+    for site, key in zip(plan["sites"], keys):
+        site.pop(key, None)  # odd sites have no P10/P90 fade band anyway
+    xlsx = write_workbook(plan, tmp_path / "holes.xlsx")
+    df = pd.read_excel(xlsx, sheet_name="Sites")
+    assert len(df) == len(keys)
+    missing_cost = keys.index("present_cost")
+    assert pd.isna(df.loc[missing_cost, "Present cost [EUR]"])
+    other = (missing_cost + 1) % len(keys)
+    assert df.loc[other, "Present cost [EUR]"] == pytest.approx(plan["sites"][other]["present_cost"], rel=XL)
+
+
+def test_malformed_plan_parts_do_not_crash(tmp_path):
+    # Tolerance: wrong types or junk entries in optional parts are skipped or left blank.
+    plan = make_plan(4, hostile_names=True)
+    s = plan["sites"]
+    s[0]["soh_by_month"][5], s[0]["soh_by_month"][6] = None, float("nan")
+    s[1]["alternatives"], s[1]["temperature"], s[1]["climate_monthly"] = None, "x", {"air_mean_c": [1, 2]}
+    s[2]["replacement_years"], s[2]["present_cost"], s[2]["name"] = None, float("nan"), "a\x01b\tc"
+    s[3]["soh_by_month"], s[3]["replacement_months"], s[3]["warnings"] = "junk", [13, "x"], None
+    s[3]["alternatives"] = [{"chemistry": "lfp", "soh_by_month": None}, "junk"]
+    plan["trips"][0]["site_ids"] = None
+    plan["trips"].append("junk")
+    plan["study"]["horizon_years"] = None
+    plan["solver"] = None
+    plan["sites"].append("junk")
+    xlsx = write_workbook(plan, tmp_path / "odd.xlsx")
+    df = pd.read_excel(xlsx, sheet_name="Sites")
+    assert len(df) == 4
+    assert pd.isna(df.loc[2, "Present cost [EUR]"])  # NaN is written as an empty cell
+    assert df.loc[2, "Site name"] == "ab\tc"  # control character removed (XML 1.0 §2.2), tab kept

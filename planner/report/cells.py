@@ -95,7 +95,7 @@ def _list_item_text(value) -> str:
     return str(value)
 
 
-def put(ws, row: int, col: int, value, number_format: str | None = None, style=None):
+def put(ws, row: int, col: int, value, number_format: str | None = None):
     """Write one value into ``ws`` at (row, col) safely and return the cell.
 
     Text cells are forced to data type ``'s'`` after assignment so openpyxl cannot turn
@@ -108,10 +108,6 @@ def put(ws, row: int, col: int, value, number_format: str | None = None, style=N
         cell.data_type = "s"
     elif value is not None and number_format:
         cell.number_format = number_format
-    if style is not None:
-        cell.style = style
-        if isinstance(value, (int, float)) and number_format:
-            cell.number_format = number_format
     return cell
 
 

@@ -153,19 +153,29 @@ def _title(ws, text: str, note: str | None = None) -> None:
 
 
 def _sites(plan) -> list[dict]:
-    return [s for s in (plan.get("sites") or []) if isinstance(s, Mapping)]
+    return [s for s in _seq(plan.get("sites")) if isinstance(s, Mapping)]
+
+
+def _seq(value) -> list:
+    """The value if it is a list or tuple, else an empty list (a plan part may be missing)."""
+    return list(value) if isinstance(value, list | tuple) else []
+
+
+def _map(value) -> Mapping:
+    """The value if it is a mapping, else an empty dict."""
+    return value if isinstance(value, Mapping) else {}
 
 
 # ---------------------------------------------------------------- Summary
 def _summary_sheet(ws, plan, fmt) -> None:
-    study = plan.get("study") or {}
+    study = _map(plan.get("study"))
     cur = fmt["cur"]
     name = study.get("name") or "study"
     _title(ws, f"Battery plan: {name}",
            f"Money in {cur or 'the study currency'}, present value at the study start, real terms; "
            "years count from the start (year 0 = first installation).")
-    solver = plan.get("solver") or {}
-    unserved = plan.get("unserved_sites") or []
+    solver = _map(plan.get("solver"))
+    unserved = _seq(plan.get("unserved_sites"))
     facts = [
         (f"Total present cost [{cur}]", plan.get("total_present_cost"), fmt["money"]),
         ("Sites planned", len(_sites(plan)), styles.INTEGER),
@@ -190,7 +200,7 @@ def _summary_sheet(ws, plan, fmt) -> None:
             ws.cell(row=5 + offset, column=2).number_format = number_format
     ws.cell(row=5, column=1).font = ws.cell(row=5, column=2).font = styles.HEADER_FONT  # the total
 
-    comparison = [c for c in (plan.get("chemistry_comparison") or []) if isinstance(c, Mapping)]
+    comparison = [c for c in _seq(plan.get("chemistry_comparison")) if isinstance(c, Mapping)]
     comp_end = 3
     if comparison:
         put(ws, 3, 4, "Whole fleet forced to one chemistry").font = styles.SECTION_FONT
@@ -280,7 +290,7 @@ def _site_columns(fmt) -> list[Column]:
         Column("Pack structure", _key("pack_structure"), optional=True),
         Column("Pack mass [kg]", _key("pack_mass_kg"), styles.ONE_DECIMAL, optional=True),
         Column("Replacement years", _key("replacement_years")),
-        Column("Replacement months", lambda s: [_month_text(m) or m for m in s.get("replacement_months") or []]
+        Column("Replacement months", lambda s: [_month_text(m) or m for m in _seq(s.get("replacement_months"))]
                or None, optional=True),
         Column("Life [years]", _key("life_years"), styles.ONE_DECIMAL),
         Column("Life P10 [years]", _key("life_p10_years"), styles.ONE_DECIMAL, optional=True),
@@ -315,17 +325,17 @@ def _fade_series(site) -> list[tuple[str, list, int, bool]]:
     The P10/P90 band shares the chosen design's colour, dashed; alternatives follow.
     """
     out = []
-    chosen = site.get("soh_by_month")
+    chosen = _seq(site.get("soh_by_month"))
     if chosen:
         out.append((f"chosen: {site.get('chemistry', '')}", chosen, 0, False))
-    p10, p90 = site.get("soh_p10_by_month"), site.get("soh_p90_by_month")
+    p10, p90 = _seq(site.get("soh_p10_by_month")), _seq(site.get("soh_p90_by_month"))
     if chosen and p10 and p90:
         out.append(("chosen P10", p10, 0, True))
         out.append(("chosen P90", p90, 0, True))
     colour = 1
-    for alt in site.get("alternatives") or []:
-        if isinstance(alt, Mapping) and alt.get("soh_by_month"):
-            out.append((f"best {alt.get('chemistry', '')}", alt["soh_by_month"], colour, False))
+    for alt in _seq(site.get("alternatives")):
+        if isinstance(alt, Mapping) and _seq(alt.get("soh_by_month")):
+            out.append((f"best {alt.get('chemistry', '')}", _seq(alt["soh_by_month"]), colour, False))
             colour += 1
     return out
 
@@ -393,7 +403,7 @@ def _fade_table_sheet(ws, plan, horizon_years) -> None:
     for site in _sites(plan):
         designs = [("chosen", site)]
         if with_alternatives:
-            designs += [("alternative", a) for a in site.get("alternatives") or [] if isinstance(a, Mapping)]
+            designs += [("alternative", a) for a in _seq(site.get("alternatives")) if isinstance(a, Mapping)]
         for role, design in designs:
             soh = _as_float_array(design.get("soh_by_month"))
             yearly = soh[: 12 * horizon_years + 1 : 12].tolist()
@@ -419,13 +429,13 @@ def _visit_grid_sheet(ws, plan, horizon_years) -> None:
     sites = _sites(plan)
     visits = {}
     for site in sites:
-        years = site.get("replacement_years") or []
-        months = site.get("replacement_months") or []
+        years = _seq(site.get("replacement_years"))
+        months = _seq(site.get("replacement_months"))
         for k, year in enumerate(years):
             month = months[k] if k < len(months) else None
             visits[(str(site.get("id")), year)] = _month_text(month) or "visit"
-    for trip in plan.get("trips") or []:
-        for site_id in trip.get("site_ids") or []:
+    for trip in (t for t in _seq(plan.get("trips")) if isinstance(t, Mapping)):
+        for site_id in _seq(trip.get("site_ids")):
             visits.setdefault((str(site_id), trip.get("year")), _month_text(trip.get("month")) or "visit")
     cols = [Column("Site id", _key("id")), Column("Site name", _key("name")),
             Column("Region", _key("region"), optional=True)]
@@ -443,12 +453,12 @@ def _visit_grid_sheet(ws, plan, horizon_years) -> None:
 
 def _trip_sheet(ws, plan, fmt) -> None:
     chem_by_site = {str(s.get("id")): s.get("chemistry") for s in _sites(plan)}
-    trips = sorted((t for t in plan.get("trips") or [] if isinstance(t, Mapping)),
+    trips = sorted((t for t in _seq(plan.get("trips")) if isinstance(t, Mapping)),
                    key=lambda t: (cell_value(t.get("year")) or 0, cell_value(t.get("month")) or 0,
                                   str(t.get("region"))))
 
     def lithium(trip):
-        chems = {chem_by_site.get(str(i)) for i in trip.get("site_ids") or []}
+        chems = {chem_by_site.get(str(i)) for i in _seq(trip.get("site_ids"))}
         return "yes: UN 38.3 dangerous goods" if chems & LITHIUM_IDS else "no"
 
     start = _start_year(plan)
@@ -457,7 +467,7 @@ def _trip_sheet(ws, plan, fmt) -> None:
                    else None, "0", optional=True, width=9),
             Column("Month", lambda t: _month_text(t.get("month")), width=7),
             Column("Region", _key("region")),
-            Column("Sites visited", lambda t: len(t.get("site_ids") or []), styles.INTEGER, width=9),
+            Column("Sites visited", lambda t: len(_seq(t.get("site_ids"))), styles.INTEGER, width=9),
             Column("Site ids", _key("site_ids"), width=40),
             Column("Packs to carry", _key("pack_count"), styles.INTEGER, optional=True, width=9),
             Column("Pack mass [kg]", _key("pack_mass_kg"), styles.ONE_DECIMAL, optional=True, width=10),
@@ -479,14 +489,14 @@ def _trip_sheet(ws, plan, fmt) -> None:
 
 # ---------------------------------------------------------------- Cost comparison
 def _cost_sheet(ws, plan, fmt) -> None:
-    order = [str(c.get("chemistry")) for c in plan.get("chemistry_comparison") or [] if isinstance(c, Mapping)]
+    order = [str(c.get("chemistry")) for c in _seq(plan.get("chemistry_comparison")) if isinstance(c, Mapping)]
     for site in _sites(plan):
-        for design in [site] + [a for a in site.get("alternatives") or [] if isinstance(a, Mapping)]:
+        for design in [site] + [a for a in _seq(site.get("alternatives")) if isinstance(a, Mapping)]:
             if str(design.get("chemistry")) not in order:
                 order.append(str(design.get("chemistry")))
 
     def best(site, chem, key):
-        designs = [site] + [a for a in site.get("alternatives") or [] if isinstance(a, Mapping)]
+        designs = [site] + [a for a in _seq(site.get("alternatives")) if isinstance(a, Mapping)]
         found = [d for d in designs if str(d.get("chemistry")) == chem
                  and isinstance(cell_value(d.get("present_cost")), float | int)]
         if not found:
@@ -503,10 +513,9 @@ def _cost_sheet(ws, plan, fmt) -> None:
         cols.append(Column(f"{chem} life [years]", (lambda s, c=chem: best(s, c, "life_years")),
                            styles.ONE_DECIMAL, optional=True))
     kept, last = _write_table(ws, 1, 1, cols, _sites(plan))
-    sens = [s for s in plan.get("sensitivity") or [] if isinstance(s, Mapping)]
+    sens = [s for s in _seq(plan.get("sensitivity")) if isinstance(s, Mapping)]
     if sens:
         left = len(kept) + 2
-        put(ws, 1, left - 1, None)
         base = {"case": "plan as chosen", "total_present_cost": plan.get("total_present_cost"),
                 "change_frac": 0.0, "designs_changed": 0}
         scols = [Column("Sensitivity case", _key("case"), width=24),
@@ -520,7 +529,7 @@ def _cost_sheet(ws, plan, fmt) -> None:
 
 # ---------------------------------------------------------------- Climate
 def _representative(sites, n):
-    """Coldest, hottest, median and most humid-hot-peaked sites by battery temperature."""
+    """Coldest, hottest and median site by mean battery temperature, and the one with the hottest month."""
     have = [s for s in sites if _monthly(s, "battery_mean_c") and _monthly(s, "air_mean_c")]
     if not have:
         return []
@@ -580,12 +589,12 @@ def _assumptions_sheet(ws, plan) -> None:
     _title(ws, "Assumptions and sources",
            "Every study input with its unit, and every model parameter with its source. Rows marked "
            "illustrative are demo figures, not prices to budget with.")
-    study = plan.get("study") or {}
+    study = _map(plan.get("study"))
     units = {"horizon_years": "years", "discount_rate_frac": "fraction", "currency": "", "name": "",
              "sites_file": ""}
     records = [{"group": "study", "name": k, "value": v, "unit": units.get(k, ""), "source": "study file"}
                for k, v in study.items()]
-    records += [a for a in plan.get("assumptions") or [] if isinstance(a, Mapping)]
+    records += [a for a in _seq(plan.get("assumptions")) if isinstance(a, Mapping)]
 
     def illustrative(rec):
         return "illustrative" if "illustrative" in str(rec.get("source", "")).lower() else None
@@ -614,7 +623,7 @@ def _cautions_sheet(ws, plan) -> None:
     # The pipeline may copy the standard cautions into the plan; list only the others.
     standard = tuple(f"{c.topic}:" for c in STANDARD_CAUTIONS)
     records += [{"topic": "From the plan", "text": str(t), "defer": "local codes and licensed practice"}
-                for t in plan.get("cautions") or [] if not str(t).startswith(standard)]
+                for t in _seq(plan.get("cautions")) if not str(t).startswith(standard)]
     cols = [Column("Topic", _key("topic"), width=30), Column("Caution", _key("text"), width=90),
             Column("Defer to", _key("defer"), width=50)]
     _, last = _write_table(ws, 4, 1, cols, records)
@@ -624,7 +633,7 @@ def _cautions_sheet(ws, plan) -> None:
     warn = [{"id": s.get("id"), "name": s.get("name"), "text": w}
             for s in _sites(plan) for w in derived_site_warnings(s)]
     warn += [{"id": u.get("id"), "name": None, "text": f"no feasible design: {u.get('reason', '')}"}
-             for u in plan.get("unserved_sites") or [] if isinstance(u, Mapping)]
+             for u in _seq(plan.get("unserved_sites")) if isinstance(u, Mapping)]
     if warn:
         wcols = [Column("Site id", _key("id"), width=30), Column("Warning", _key("text"), width=90),
                  Column("Site name", _key("name"), width=50)]
@@ -657,7 +666,7 @@ def build_workbook(plan: Mapping) -> Workbook:
     """Build the plan workbook in memory (see module docstring for the sheets)."""
     if not isinstance(plan, Mapping):
         raise TypeError(f"plan must be a mapping, got {type(plan).__name__}")
-    study = plan.get("study") or {}
+    study = _map(plan.get("study"))
     cur = styles.currency_label(study.get("currency"))
     fmt = {"cur": cur, "money": styles.money_format(cur)}
     horizon = _horizon_years(plan)
@@ -701,7 +710,7 @@ def _horizon_years(plan) -> int:
         return int(horizon)
     # Fall back to the longest fade curve or the last replacement year.
     lengths = [len(s.get("soh_by_month") or []) for s in _sites(plan)]
-    years = [y for s in _sites(plan) for y in s.get("replacement_years") or [] if isinstance(y, int | float)]
+    years = [y for s in _sites(plan) for y in _seq(s.get("replacement_years")) if isinstance(y, int | float)]
     return max([(max(lengths, default=1) - 1) // 12, int(max(years, default=0)) + 1, 1])
 
 
