@@ -462,3 +462,24 @@ def test_malformed_plan_parts_do_not_crash(tmp_path):
     assert len(df) == 4
     assert pd.isna(df.loc[2, "Present cost [EUR]"])  # NaN is written as an empty cell
     assert df.loc[2, "Site name"] == "ab\tc"  # control character removed (XML 1.0 §2.2), tab kept
+
+
+def test_fast_block_writer_matches_public_cell_api(monkeypatch, tmp_path):
+    # The fast writer touches openpyxl internals; the public API (openpyxl documentation:
+    # cell.value, cell.number_format) is the reference it must reproduce cell for cell.
+    import planner.report.cells as cells
+
+    rows = [[1.5, "=x", None, 3], ["+y", float("nan"), 2.25, "plain"]]
+    formats = ["0.0", None, "0.00%", "#,##0"]
+    books = []
+    for fast in (True, False):
+        monkeypatch.setattr(cells, "_FAST_CELLS", fast)
+        wb = openpyxl.Workbook()
+        assert cells.write_rows(wb.active, 2, 3, rows, formats) == 4
+        wb.save(tmp_path / f"{fast}.xlsx")
+        books.append(openpyxl.load_workbook(tmp_path / f"{fast}.xlsx").active)
+    fast_ws, public_ws = books
+    for r in range(1, 5):
+        for c in range(1, 8):
+            a, b = fast_ws.cell(r, c), public_ws.cell(r, c)
+            assert (a.value, a.data_type, a.number_format) == (b.value, b.data_type, b.number_format)

@@ -19,13 +19,11 @@ def prepare_target(path, *, what: str) -> Path:
     """Check ``path`` can receive a file; create its folder; return it as a Path."""
     target = Path(path)
     if target.is_dir():
-        raise InputError(f"{what} path {target} is a folder; expected a file name", source=str(target))
+        raise InputError(f"found a folder; expected a file name for the {what}", source=str(target))
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
-        raise InputError(
-            f"cannot create folder {target.parent} for the {what}: {exc.strerror}", source=str(target)
-        ) from None
+        raise InputError(f"cannot create its folder for the {what}: {exc.strerror}", source=str(target)) from None
     return target
 
 
@@ -50,9 +48,7 @@ def write_atomically(path, write, *, what: str) -> Path:
     try:
         fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     except OSError as exc:
-        raise InputError(
-            f"cannot write the {what} into folder {target.parent}: {exc.strerror}", source=str(target)
-        ) from None
+        raise InputError(f"cannot write the {what} into its folder: {exc.strerror}", source=str(target)) from None
     os.close(fd)
     tmp = Path(tmp_name)
     try:

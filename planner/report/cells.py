@@ -25,6 +25,10 @@ from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
 #: (OWASP CSV Injection guidance).
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
 
+#: The fast block writer sets openpyxl 3.1 cell internals (``_value``, ``_style``,
+#: ``Worksheet._cells``); if a later openpyxl lacks them, the public API is used instead.
+_FAST_CELLS = all(hasattr(Cell, name) for name in ("_value", "_style", "data_type"))
+
 #: Longest text a cell may hold (Excel specifications and limits: 32,767 characters).
 MAX_CELL_CHARS = 32767
 
@@ -121,6 +125,8 @@ def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
     and its style array copied to the cells below: setting ``number_format`` cell by
     cell costs a style lookup per cell and dominated the build time for 1,000 sites.
     """
+    if not _FAST_CELLS:
+        return _write_rows_public(ws, first_row, first_col, rows, number_formats)
     templates = []
     for offset, fmt in enumerate(number_formats):
         if fmt:
@@ -150,4 +156,15 @@ def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
             cells[(row_idx, col)] = cell
         row_idx += 1
     ws._current_row = max(ws._current_row, row_idx - 1)
+    return row_idx
+
+
+def _write_rows_public(ws, first_row, first_col, rows, number_formats) -> int:
+    """Same as :func:`write_rows` through openpyxl's public cell API (slower)."""
+    row_idx = first_row
+    for values in rows:
+        for offset, (value, fmt) in enumerate(zip(values, number_formats)):
+            if cell_value(value) is not None:
+                put(ws, row_idx, first_col + offset, value, fmt)
+        row_idx += 1
     return row_idx
