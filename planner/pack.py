@@ -36,6 +36,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy.special import ndtri
 
 from planner.errors import InputError
 
@@ -836,8 +837,18 @@ def _draw_cells(rngs, n_sites, n_draws, p):
     f32 = np.float32
 
     def normal(q):
-        # Streams are nested across pack sizes and independent of the chunking.
-        return np.stack([g.standard_normal((n_sites, n_draws), dtype=f32) for g in rngs[q]])
+        # Latin hypercube per site, cell and quantity (McKay, Beckman and Conover 1979,
+        # Technometrics 21 (2) 239-245): each of the D draws falls in its own 1/D
+        # probability stratum, in random order, which steadies the percentiles. The
+        # streams are nested across pack sizes and independent of the chunking.
+        out = np.empty((len(rngs[q]), n_sites, n_draws), f32)
+        for j, g in enumerate(rngs[q]):
+            # One call per chunk, consumed site by site: [ranking keys, jitter] per site.
+            v = g.random((n_sites, 2, n_draws))
+            stratum = np.argsort(v[:, 0, :], axis=1)  # a uniform random permutation
+            u = (stratum + v[:, 1, :]) / n_draws
+            out[j] = ndtri(np.clip(u, 1e-12, 1.0 - 1e-12))
+        return out
 
     def log_sigma(cv):
         # Log-normal with median 1 and coefficient of variation cv.
