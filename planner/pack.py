@@ -652,14 +652,15 @@ def life_distribution(
     draws : int
         Monte Carlo draws per site (default 1000).
     seed : int
-        Seed; a site's draws do not depend on the chunking.
+        Seed (>= 0); results do not depend on the chunking.
     model_sets : list of (calendar, cycle) pairs or FadeResult, optional
         Alternative nominal curves (aging engine's alternative parameter sets),
         each shaped like ``calendar_loss_frac``; objects with ``calendar_loss_frac``
-        and ``cycle_loss_frac`` attributes (``FadeResult``) are accepted. Draws are spread evenly across the
-        sets (draw ``d`` uses set ``d mod K``), which widens the distribution by the
-        disagreement between published models. When given, the main curves are
-        used only for their shape check and the sets replace them.
+        and ``cycle_loss_frac`` attributes (``FadeResult``) are accepted. Draws are
+        spread evenly across the sets (draw ``d`` uses set ``d mod K``), which widens
+        the distribution by the disagreement between published models. When given,
+        the main curves are used only for their shape check and the sets replace
+        them (list the default set too if it should take part).
     calendar_time_exponent, cycle_time_exponent : float
         Time exponents ``z`` of the nominal laws (0.5 for square-root laws; 1 for
         laws linear in time such as Arrhenius life halving).
@@ -677,11 +678,11 @@ def life_distribution(
     active_recovery_frac : float
         Share of the weakest-to-mean capacity gap active balancing recovers.
     step_months : int
-        Months between re-evaluations of the cell stresses (1 = exact monthly
-        feedback; default 6, which moved P10/P50/P90 by under 0.1 %
-        against monthly steps in the checks of docs/pack.md). Between steps the pack SOH follows the nominal curve
-        times a linearly interpolated pack-to-nominal ratio, so the single-cell
-        case is exact at any step.
+        Months between re-evaluations of the cell stresses (1 = monthly feedback;
+        default 6, which moved P10/P50/P90 by under 0.1 % against monthly steps,
+        docs/pack.md). Between steps the pack SOH follows the nominal curve times a
+        linearly interpolated pack-to-nominal ratio, so the single-cell case is
+        exact at any step.
     chunk_elements : int
         Sites x draws x cells processed at once (memory bound).
 
@@ -689,129 +690,163 @@ def life_distribution(
     -------
     LifeDistribution
     """
-    if balancing not in BALANCING_KINDS:
-        raise InputError(f"balancing: found {balancing!r}, expected one of {', '.join(BALANCING_KINDS)}",
-                         source="life")
-    n_s = _whole("series_cells", series_cells, source="life")
-    n_p = _whole("parallel_strings", parallel_strings, source="life")
-    n_draws = _whole("draws", draws, source="life")
-    step = _whole("step_months", step_months, source="life")
-    sig_c = _fraction("cell_spread_frac", cell_spread_frac, upper=0.3)
-    sig_r = _fraction("resistance_spread_frac", resistance_spread_frac, upper=2.0)
-    sig_k = _fraction("rate_spread_frac", rate_spread_frac, upper=2.0)
-    d_in = _fraction("inner_delta_k", inner_delta_k, upper=40.0)
-    imb = _fraction("parallel_imbalance_frac", parallel_imbalance_frac,
-                    upper=max(n_p - 1.0, 0.0) if n_p > 1 else None)
-    theta = _fraction("self_heating_k", self_heating_k, upper=40.0)
-    g_res = _fraction("resistance_growth_per_loss", resistance_growth_per_loss)
-    kappa = _fraction("depth_stress_exponent", depth_stress_exponent, upper=5.0)
-    sig_u0 = _fraction("soc_offset_spread_frac", soc_offset_spread_frac, upper=0.5)
-    sig_du = _fraction("soc_drift_spread_frac_per_year", soc_drift_spread_frac_per_year, upper=0.5)
-    eta = _fraction("active_recovery_frac", active_recovery_frac, upper=1.0)
-    z_cal = _positive("calendar_time_exponent", calendar_time_exponent, source="life")
-    z_cyc = _positive("cycle_time_exponent", cycle_time_exponent, source="life")
-
-    cal = _curves("calendar_loss_frac", calendar_loss_frac)
-    cyc = _curves("cycle_loss_frac", cycle_loss_frac, cal.shape[0])
-    pairs = [(cal, cyc)]
-    if model_sets is not None:
-        try:
-            model_list = list(model_sets)
-            model_list = [(m.calendar_loss_frac, m.cycle_loss_frac) if hasattr(m, "cycle_loss_frac")
-                          else m for m in model_list]
-            pairs = [(_curves(f"model_sets[{j}] calendar", a, cal.shape[0]),
-                      _curves(f"model_sets[{j}] cycle", b, cal.shape[0]))
-                     for j, (a, b) in enumerate(model_list)]
-        except (TypeError, ValueError):
-            raise InputError("model_sets: expected a list of (calendar, cycle) curve pairs",
-                             source="life") from None
-        if not pairs:
-            raise InputError("model_sets: found an empty list, expected at least one pair", source="life")
-    n_mp1 = cal.shape[0]
-    n_months = n_mp1 - 1
-
-    widths = {a.shape[1] for pair in pairs for a in pair}
-    eol = np.asarray(eol_soh_frac, dtype=float).reshape(-1)
-    t_ref = np.asarray(reference_temp_c, dtype=float).reshape(-1)
-    ea = np.asarray(activation_energy_j_mol, dtype=float).reshape(-1)
-    ea_cyc = ea if cycle_activation_energy_j_mol is None else \
-        np.asarray(cycle_activation_energy_j_mol, dtype=float).reshape(-1)
-    widths |= {eol.size, t_ref.size, ea.size, ea_cyc.size}
-    widths.discard(1)
-    if len(widths) > 1:
-        raise InputError(f"site count: found inconsistent site counts {sorted(widths)} among curves, "
-                         "eol_soh_frac, reference_temp_c and activation_energy_j_mol, expected one",
-                         source="life")
-    n_sites = widths.pop() if widths else 1
-    if np.any(~np.isfinite(eol)) or np.any(eol <= 0) or np.any(eol >= 1.5):
-        raise InputError(f"eol_soh_frac: found {eol_soh_frac!r}, expected fractions in (0, 1.5)", source="life")
-    if np.any(t_ref < -80) or np.any(t_ref > 120):
-        raise InputError(f"reference_temp_c: found {reference_temp_c!r}, expected -80..120 degC", source="life")
-    if np.any(~(ea >= 0)) or np.any(~(ea_cyc >= 0)):
-        raise InputError(f"activation_energy_j_mol: found {activation_energy_j_mol!r} (cycle "
-                         f"{cycle_activation_energy_j_mol!r}), expected >= 0 J/mol", source="life")
-    eol = np.broadcast_to(eol, (n_sites,))
-    t_ref = np.broadcast_to(t_ref, (n_sites,))
-    same_ea = cycle_activation_energy_j_mol is None
-    ea = np.broadcast_to(ea, (n_sites,))
-    ea_cyc = ea if same_ea else np.broadcast_to(ea_cyc, (n_sites,))
+    p = _check_options(
+        balancing=balancing, series_cells=series_cells, parallel_strings=parallel_strings,
+        draws=draws, seed=seed, step_months=step_months, cell_spread_frac=cell_spread_frac,
+        resistance_spread_frac=resistance_spread_frac, rate_spread_frac=rate_spread_frac,
+        inner_delta_k=inner_delta_k, parallel_imbalance_frac=parallel_imbalance_frac,
+        self_heating_k=self_heating_k, resistance_growth_per_loss=resistance_growth_per_loss,
+        depth_stress_exponent=depth_stress_exponent, soc_offset_spread_frac=soc_offset_spread_frac,
+        soc_drift_spread_frac_per_year=soc_drift_spread_frac_per_year,
+        active_recovery_frac=active_recovery_frac, calendar_time_exponent=calendar_time_exponent,
+        cycle_time_exponent=cycle_time_exponent)
+    pairs = _curve_pairs(calendar_loss_frac, cycle_loss_frac, model_sets)
+    site = _site_inputs(pairs, eol_soh_frac, reference_temp_c, activation_energy_j_mol,
+                        cycle_activation_energy_j_mol)
+    p["same_ea"] = site["same_ea"]
+    n_sites, n_mp1, k_sets = site["n_sites"], pairs[0][0].shape[0], len(pairs)
+    n_draws, n_cells = p["draws"], p["n_s"] * p["n_p"]
 
     # (K, M+1, S) float32 curves; model set of draw d is d mod K (evenly spread).
-    k_sets = len(pairs)
     cal_k = np.stack([np.broadcast_to(a, (n_mp1, n_sites)) for a, _ in pairs]).astype(np.float32)
     cyc_k = np.stack([np.broadcast_to(b, (n_mp1, n_sites)) for _, b in pairs]).astype(np.float32)
     set_of_draw = np.arange(n_draws) % k_sets
-
-    params = dict(
-        n_s=n_s, n_p=n_p, sig_c=sig_c, sig_r=sig_r, sig_k=sig_k, theta=theta, g_res=g_res,
-        kappa=kappa, sig_u0=sig_u0, sig_du=sig_du, eta=eta, z_cal=z_cal, z_cyc=z_cyc,
-        balancing=balancing, step=step, same_ea=same_ea,
-        grad_k=inner_temperature_offsets_k(n_s, d_in),
-        share=string_current_shares(n_p, imb),
-    )
-    rngs = {q: [np.random.default_rng([int(seed), qi, j]) for j in range(n_s * n_p)]
+    rngs = {q: [np.random.default_rng([p["seed"], qi, j]) for j in range(n_cells)]
             for qi, q in enumerate(("capacity", "resistance", "rate", "soc0", "drift"))}
 
-    horizon = n_months // 12
     out_years = np.empty((n_sites, n_draws))
     soh_q = np.empty((3, n_mp1, n_sites))
-    per_chunk = max(1, int(chunk_elements) // (n_draws * n_s * n_p))
+    per_chunk = max(1, int(chunk_elements) // (n_draws * n_cells))
     # The gather tables hold (horizon x extension) months per site and set: bound them.
-    per_chunk = min(per_chunk, max(1, 1_000_000 // (k_sets * (n_months * _EXTEND + 2))))
+    per_chunk = min(per_chunk, max(1, 1_000_000 // (k_sets * ((n_mp1 - 1) * _EXTEND + 2))))
     for s0 in range(0, n_sites, per_chunk):
         sl = slice(s0, min(n_sites, s0 + per_chunk))
-        years, q = _simulate_chunk(
-            cal_k[:, :, sl], cyc_k[:, :, sl], set_of_draw, eol[sl], t_ref[sl], ea[sl],
-            ea[sl] if same_ea else ea_cyc[sl], rngs, params)
-        out_years[sl] = years
-        soh_q[:, :, sl] = q
+        out_years[sl], soh_q[:, :, sl] = _simulate_chunk(
+            cal_k[:, :, sl], cyc_k[:, :, sl], set_of_draw, site["eol"][sl], site["t_ref"][sl],
+            site["ea_cal"][sl], site["ea_cyc"][sl], rngs, p)
 
     p10, p50, p90 = _quantiles(out_years, [0.1, 0.5, 0.9], axis=1)
-    ages = np.arange(1, horizon + 1, dtype=float)
+    ages = np.arange(1, (n_mp1 - 1) // 12 + 1, dtype=float)
     prob = (out_years[None, :, :] < ages[:, None, None]).mean(axis=2)
-
-    notes = [
-        f"Monte Carlo over {n_draws} draws per site (seed {int(seed)}), pack {n_s}s{n_p}p, "
-        f"balancing '{balancing}'.",
-        f"Cell spread: capacity CV {sig_c:.3g}, resistance CV {sig_r:.3g}, aging-rate CV {sig_k:.3g}; "
-        f"inner cells up to {d_in:.3g} K warmer; most loaded string +{imb if n_p > 1 else 0:.3g} current.",
-        "Each cell ages along the nominal curves at its own equivalent time (coefficient "
-        "multipliers m act as clock m**(1/z)); stresses re-evaluated every "
-        f"{step} month(s); weakest cell limits each string, strings add.",
-    ]
-    if k_sets > 1:
-        notes.append(f"Model uncertainty: draws spread evenly over {k_sets} alternative aging "
-                     "parameter sets; the life band includes the disagreement between published models.")
-    if np.any(np.isinf(out_years)):
-        notes.append("Some draws stay above the threshold for the whole horizon; their life is "
-                     "reported as beyond the horizon (inf).")
     return LifeDistribution(
         p10_years=p10, p50_years=p50, p90_years=p90,
         prob_fail_before_year=prob,
         soh_p10_by_month=soh_q[0], soh_p50_by_month=soh_q[1], soh_p90_by_month=soh_q[2],
-        draws=n_draws, series_cells=n_s, parallel_strings=n_p, balancing=balancing,
-        notes=tuple(notes),
+        draws=n_draws, series_cells=p["n_s"], parallel_strings=p["n_p"], balancing=balancing,
+        notes=_notes(p, k_sets, bool(np.any(np.isinf(out_years)))),
     )
+
+
+def _check_options(**o):
+    """Validated scalar options of :func:`life_distribution` as the internal dict."""
+    if o["balancing"] not in BALANCING_KINDS:
+        raise InputError(f"balancing: found {o['balancing']!r}, expected one of "
+                         f"{', '.join(BALANCING_KINDS)}", source="life")
+    n_p = _whole("parallel_strings", o["parallel_strings"], source="life")
+    n_s = _whole("series_cells", o["series_cells"], source="life")
+    p = dict(
+        balancing=o["balancing"], n_s=n_s, n_p=n_p,
+        draws=_whole("draws", o["draws"], source="life"),
+        seed=_whole("seed", o["seed"], minimum=0, source="life"),
+        step=_whole("step_months", o["step_months"], source="life"),
+        sig_c=_fraction("cell_spread_frac", o["cell_spread_frac"], upper=0.3),
+        sig_r=_fraction("resistance_spread_frac", o["resistance_spread_frac"], upper=2.0),
+        sig_k=_fraction("rate_spread_frac", o["rate_spread_frac"], upper=2.0),
+        d_in=_fraction("inner_delta_k", o["inner_delta_k"], upper=40.0),
+        imb=_fraction("parallel_imbalance_frac", o["parallel_imbalance_frac"],
+                      upper=n_p - 1.0 if n_p > 1 else None) if n_p > 1 else 0.0,
+        theta=_fraction("self_heating_k", o["self_heating_k"], upper=40.0),
+        g_res=_fraction("resistance_growth_per_loss", o["resistance_growth_per_loss"]),
+        kappa=_fraction("depth_stress_exponent", o["depth_stress_exponent"], upper=5.0),
+        sig_u0=_fraction("soc_offset_spread_frac", o["soc_offset_spread_frac"], upper=0.5),
+        sig_du=_fraction("soc_drift_spread_frac_per_year", o["soc_drift_spread_frac_per_year"], upper=0.5),
+        eta=_fraction("active_recovery_frac", o["active_recovery_frac"], upper=1.0),
+        z_cal=_positive("calendar_time_exponent", o["calendar_time_exponent"], source="life"),
+        z_cyc=_positive("cycle_time_exponent", o["cycle_time_exponent"], source="life"),
+    )
+    if n_p == 1:
+        _fraction("parallel_imbalance_frac", o["parallel_imbalance_frac"])
+    p["grad_k"] = inner_temperature_offsets_k(n_s, p["d_in"])
+    p["share"] = string_current_shares(n_p, p["imb"])
+    return p
+
+
+def _curve_pairs(calendar_loss_frac, cycle_loss_frac, model_sets):
+    """Checked (calendar, cycle) curve pairs, each (M+1, S or 1) float."""
+    cal = _curves("calendar_loss_frac", calendar_loss_frac)
+    cyc = _curves("cycle_loss_frac", cycle_loss_frac, cal.shape[0])
+    if model_sets is None:
+        return [(cal, cyc)]
+    try:
+        model_list = [(m.calendar_loss_frac, m.cycle_loss_frac) if hasattr(m, "cycle_loss_frac")
+                      else m for m in model_sets]
+        pairs = [(_curves(f"model_sets[{j}] calendar", a, cal.shape[0]),
+                  _curves(f"model_sets[{j}] cycle", b, cal.shape[0]))
+                 for j, (a, b) in enumerate(model_list)]
+    except (TypeError, ValueError):
+        raise InputError("model_sets: expected a list of (calendar, cycle) curve pairs",
+                         source="life") from None
+    if not pairs:
+        raise InputError("model_sets: found an empty list, expected at least one pair", source="life")
+    return pairs
+
+
+def _site_inputs(pairs, eol_soh_frac, reference_temp_c, activation_energy_j_mol,
+                 cycle_activation_energy_j_mol):
+    """Per-site arrays (n_sites,) of threshold, reference temperature and Ea."""
+    def flat(value, name):
+        try:
+            return np.asarray(value, dtype=float).reshape(-1)
+        except (TypeError, ValueError):
+            raise InputError(f"{name}: found {value!r}, expected a number or one per site",
+                             source="life") from None
+
+    eol = flat(eol_soh_frac, "eol_soh_frac")
+    t_ref = flat(reference_temp_c, "reference_temp_c")
+    ea = flat(activation_energy_j_mol, "activation_energy_j_mol")
+    same_ea = cycle_activation_energy_j_mol is None
+    ea_cyc = ea if same_ea else flat(cycle_activation_energy_j_mol, "cycle_activation_energy_j_mol")
+    widths = {a.shape[1] for pair in pairs for a in pair} | {eol.size, t_ref.size, ea.size, ea_cyc.size}
+    widths.discard(1)
+    if len(widths) > 1:
+        raise InputError(f"site count: found inconsistent site counts {sorted(widths)} among curves, "
+                         "eol_soh_frac, reference_temp_c and activation energies, expected one",
+                         source="life")
+    if not np.all((eol > 0) & (eol < 1.5)):
+        raise InputError(f"eol_soh_frac: found {eol_soh_frac!r}, expected fractions in (0, 1.5)",
+                         source="life")
+    if not np.all((t_ref >= -80) & (t_ref <= 120)):
+        raise InputError(f"reference_temp_c: found {reference_temp_c!r}, expected -80..120 degC",
+                         source="life")
+    if not (np.all(ea >= 0) and np.all(ea_cyc >= 0)):
+        raise InputError(f"activation_energy_j_mol: found {activation_energy_j_mol!r} (cycle "
+                         f"{cycle_activation_energy_j_mol!r}), expected >= 0 J/mol", source="life")
+    n = widths.pop() if widths else 1
+    ea_b = np.broadcast_to(ea, (n,))
+    return dict(n_sites=n, eol=np.broadcast_to(eol, (n,)), t_ref=np.broadcast_to(t_ref, (n,)),
+                ea_cal=ea_b, ea_cyc=ea_b if same_ea else np.broadcast_to(ea_cyc, (n,)),
+                same_ea=same_ea)
+
+
+def _notes(p, k_sets, beyond):
+    """Plain-text method notes for the plan's cautions and the workbook."""
+    notes = [
+        f"Monte Carlo over {p['draws']} draws per site (seed {p['seed']}, Latin hypercube), "
+        f"pack {p['n_s']}s{p['n_p']}p, balancing '{p['balancing']}'.",
+        f"Cell spread: capacity CV {p['sig_c']:.3g}, resistance CV {p['sig_r']:.3g}, aging-rate "
+        f"CV {p['sig_k']:.3g}; inner cells up to {p['d_in']:.3g} K warmer; most loaded string "
+        f"+{p['imb']:.3g} current.",
+        "Each cell ages along the nominal curves at its own equivalent time (coefficient "
+        "multipliers m act as clock m**(1/z)); stresses re-evaluated every "
+        f"{p['step']} month(s); the weakest cell limits each string, strings add.",
+    ]
+    if k_sets > 1:
+        notes.append(f"Model uncertainty: draws spread evenly over {k_sets} alternative aging "
+                     "parameter sets; the life band includes the disagreement between published models.")
+    if beyond:
+        notes.append("Some draws stay above the threshold for the whole horizon; their life is "
+                     "reported as beyond the horizon (inf).")
+    return tuple(notes)
 
 
 def _simulate_chunk(cal_k, cyc_k, set_of_draw, eol, t_ref_c, ea_cal, ea_cyc, rngs, p):
