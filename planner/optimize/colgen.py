@@ -351,6 +351,23 @@ def _add_cols(hs, cost, lower, upper, entries):
                np.asarray(index, dtype=np.int32), np.asarray(value, dtype=float))
 
 
+def group_costs(pricer: Pricer, site_group: np.ndarray, y: np.ndarray, trip_cost: np.ndarray,
+                rate: float) -> np.ndarray:
+    """Exact present cost of each trip group given its trip years ``y`` (groups x years):
+    trips plus every site's cheapest path over those years (+inf if a site has none)."""
+    g = pricer.g
+    n_groups, h = y.shape
+    allowed = y[site_group[g.arc_site], g.arc_t1] > 0.5
+    final, keep_val, _ = pricer.values(np.where(allowed, 0.0, np.inf), np.zeros(g.ex_cost.size))
+    site_val = keep_val.copy()
+    np.minimum.at(site_val, g.pair_site, final)
+    per_site = np.bincount(site_group, weights=np.where(np.isfinite(site_val), site_val, 0.0),
+                           minlength=n_groups)
+    bad = np.bincount(site_group, weights=~np.isfinite(site_val), minlength=n_groups) > 0
+    trip_pv = trip_cost[:, None] * ec.spv(rate, np.arange(h))[None, :]
+    return np.where(bad, np.inf, per_site + (y * trip_pv).sum(axis=1))
+
+
 def polish_trip_years(g: SiteGraphs, site_group: np.ndarray, y: np.ndarray, trip_cost: np.ndarray,
                       rate: float, *, deadline: float, max_passes: int = 6) -> np.ndarray:
     """Local search on the trip years of several independent trip groups at once.
@@ -362,19 +379,9 @@ def polish_trip_years(g: SiteGraphs, site_group: np.ndarray, y: np.ndarray, trip
     """
     pricer = Pricer(g)
     h = g.horizon_years
-    n_groups = y.shape[0]
-    trip_pv = trip_cost[:, None] * ec.spv(rate, np.arange(h))[None, :]
-    no_ex = np.zeros(g.ex_cost.size)
 
     def cost(yy):
-        allowed = yy[site_group[g.arc_site], g.arc_t1] > 0.5
-        final, keep_val, _ = pricer.values(np.where(allowed, 0.0, np.inf), no_ex)
-        site_val = keep_val.copy()
-        np.minimum.at(site_val, g.pair_site, final)
-        per_site = np.bincount(site_group, weights=np.where(np.isfinite(site_val), site_val, 0.0),
-                               minlength=n_groups)
-        bad = np.bincount(site_group, weights=~np.isfinite(site_val), minlength=n_groups) > 0
-        return np.where(bad, np.inf, per_site + (yy * trip_pv).sum(axis=1))
+        return group_costs(pricer, site_group, yy, trip_cost, rate)
 
     best = cost(y)
     for _ in range(max_passes):
