@@ -577,7 +577,9 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
                          source="fleet problem")
     if method == "auto":
         arcs = sum(min(whole_years(c.life_years), h) * h for s in served for c in cands[s.site_id])
-        method = "columns" if arcs > AUTO_COLUMNS_ABOVE_ARCS and highs_available() else "path"
+        method = "columns" if arcs > AUTO_COLUMNS_ABOVE_ARCS else "path"
+    if method == "columns" and not highs_available():
+        method = "path"  # the pricing master needs highspy; the path model runs on CBC too
     if method == "columns" and served:
         deadline = t0 + float(problem.time_limit_s)
         status, bound, plans, trips, decomposition, extra, build_seconds = _solve_columns(
