@@ -48,3 +48,12 @@ def test_gap_definition_and_solver_choice():
     assert pick_solver("auto") in ("highs", "cbc")
     with pytest.raises(ValueError):
         pick_solver("gurobi-like")
+
+
+def test_column_generation_keeps_stdout_clean(capfd):
+    # ecosystem note §1: every HiGHS instance prints a banner; colgen creates its own
+    from dataclasses import replace
+    sites = [orp_site(1, 4, 1000), orp_site(2, 6, 1500), orp_site(3, 5, 1200)]
+    solve_fleet(replace(orp(sites, 0.03), method="columns"))
+    out, _ = capfd.readouterr()
+    assert out == ""
