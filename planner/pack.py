@@ -44,6 +44,8 @@ __all__ = [
     "BALANCING_KINDS",
     "GAS_CONSTANT_J_MOL_K",
     "SPREAD_PRESETS",
+    "PARAMETER_SOURCES",
+    "DEFAULT_DRAWS",
     "SpreadPreset",
     "PackStructure",
     "LifeDistribution",
@@ -173,6 +175,24 @@ PARAMETER_SOURCES = {
         "differences). Lead-acid and NiMH strings self-equalise on overcharge, so model "
         "them as 'passive'"
     ),
+    "activation_energy_j_mol": (
+        "50 kJ/mol when the aging set gives none: Xu et al. 2018 k_T is equivalent to about "
+        "51 kJ/mol and SEI growth is typically 50-70 kJ/mol (notes 6.3); stress_parameters "
+        "reads each set's own values"
+    ),
+    "time_exponents": (
+        "0.5 by default: square-root laws of Naumann et al. 2018 (J. Energy Storage 17, "
+        "153-169) and 2020 (J. Power Sources 451, 227666); stress_parameters reads each "
+        "set's own (0.75 Schmalstieg 2014 calendar, 1 for laws linear in time)"
+    ),
+    "reference_temp_c": (
+        "25 degC: reference temperature of the fitted laws (T_ref = 298.15 K in Naumann "
+        "et al. 2018); pass the site's effective battery temperature"
+    ),
+    "eol_soh_frac": (
+        "0.8: common practice for reporting life (DESIGN.md); the planner passes the "
+        "site's requirement-based threshold"
+    ),
     "temperature_profile": (
         "parabolic profile along the cell row, 0 K at the two end cells, inner_delta_k at "
         "the centre: 1-D steady conduction with uniform heat generation (F.P. Incropera, "
@@ -181,11 +201,13 @@ PARAMETER_SOURCES = {
 }
 
 #: Equivalent time is followed up to this multiple of the input horizon (a cell
-#: ageing 4x faster than nominal on a square-root law); beyond, its loss stays flat.
+#: aging with a 4x coefficient on a square-root law); beyond, its loss stays flat.
 _EXTEND = 16
 
-#: Default Monte Carlo draws. P50 life is stable within 2 % between seeds at this
-#: count (tests/test_pack.py); P10/P90 within about 3 %.
+#: Default Monte Carlo draws. With one production lot and passive or active
+#: balancing, P50 life differs by at most about 1 % between seeds at this count
+#: (measured, docs/pack.md; checked in tests/test_pack.py); mixed lots or no
+#: balancing widen the distribution and need 4,000-8,000 draws for 2 %.
 DEFAULT_DRAWS = 1000
 
 #: Elements (sites x draws x cells) processed at once: a few MB per array keeps the
@@ -235,7 +257,8 @@ def _positive(name, value, source="pack"):
     try:
         x = float(value)
     except (TypeError, ValueError):
-        raise InputError(f"{name}: found {value!r}, expected a positive number", source=source) from None
+        raise InputError(f"{name}: found {value!r}, expected a positive number",
+                         source=source) from None
     if not math.isfinite(x) or x <= 0.0:
         raise InputError(f"{name}: found {value!r}, expected a positive number", source=source)
     return x
@@ -301,8 +324,10 @@ def pack_structure(
     cap_ah = n_p * c_cell
     v_nom = n_s * v_cell
     cap_wh = v_nom * cap_ah
-    mass = cap_wh / 1000.0 * float(mass_kg_per_kwh) if mass_kg_per_kwh is not None else float("nan")
-    vol = cap_wh / 1000.0 * float(volume_l_per_kwh) if volume_l_per_kwh is not None else float("nan")
+    mass = float("nan") if mass_kg_per_kwh is None else \
+        cap_wh / 1000.0 * _positive("mass_kg_per_kwh", mass_kg_per_kwh)
+    vol = float("nan") if volume_l_per_kwh is None else \
+        cap_wh / 1000.0 * _positive("volume_l_per_kwh", volume_l_per_kwh)
     return PackStructure(
         series_cells=n_s,
         parallel_strings=n_p,
@@ -433,7 +458,8 @@ def scaled_loss_curve(loss_frac, clock_months, *, time_exponent=0.5):
     ``loss(tau)`` for a monthly curve ``loss_frac[m]`` (m = 0..M); beyond the last
     month the curve continues as the power law ``loss[M] * (tau / M)**z`` (notes
     section 6.1). A cell with a constant coefficient multiplier ``m`` ages as
-    ``loss(m**(1/z) * t)``, equal to ``m * loss(t)`` for a ``t**z`` curve.
+    ``loss(m**(1/z) * t)``, equal to ``m * loss(t)`` for a ``t**z`` curve. (The
+    Monte Carlo uses the same reading, capped at 16 x the horizon.)
 
     Parameters
     ----------
@@ -556,7 +582,8 @@ def _curves(name, value, n_months_plus_1=None):
     try:
         a = np.asarray(value, dtype=float)
     except (TypeError, ValueError):
-        raise InputError(f"{name}: found a non-numeric array, expected loss fractions", source="life") from None
+        raise InputError(f"{name}: found a non-numeric array, expected loss fractions",
+                         source="life") from None
     if a.ndim == 1:
         a = a[:, None]
     if a.ndim != 2 or a.shape[0] < 13:

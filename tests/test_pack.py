@@ -124,6 +124,8 @@ def test_pack_structure_exact_requirement_needs_no_extra_string():
     dict(system_voltage_v=12, required_capacity_wh=100, cell_voltage_v="x", cell_capacity_ah=10),
     dict(system_voltage_v=12, required_capacity_wh=100, cell_voltage_v=3.2, cell_capacity_ah=10,
          series_cells=2.5),
+    dict(system_voltage_v=12, required_capacity_wh=100, cell_voltage_v=3.2, cell_capacity_ah=10,
+         mass_kg_per_kwh="heavy"),
 ])
 def test_pack_structure_bad_input_is_one_line_input_error(kwargs):
     with pytest.raises(InputError) as err:
@@ -499,7 +501,8 @@ def test_stress_parameters_of_the_chemistry_library():
     assert nmc["calendar_time_exponent"] == 0.75 and nmc["cycle_time_exponent"] == 0.5
     assert nmc["activation_energy_j_mol"] == pytest.approx(58.0e3, rel=1e-3)
     lfp = stress_parameters(get_chemistry("lfp").aging_set("naumann"))
-    # Naumann 2018 sqrt(t) calendar law with Ea 17 126 J/mol; the 2020 cycle fit has no T term (notes 1.2, 1.3)
+    # Naumann 2018 sqrt(t) calendar law with Ea 17 126 J/mol; the 2020 cycle fit has no
+    # temperature term (notes 1.2, 1.3)
     assert lfp["calendar_time_exponent"] == 0.5 and lfp["cycle_time_exponent"] == 0.5
     assert lfp["activation_energy_j_mol"] == pytest.approx(17126.0)
     assert lfp["cycle_activation_energy_j_mol"] == 0.0
