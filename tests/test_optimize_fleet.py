@@ -146,8 +146,8 @@ def test_crew_limit_infeasible_names_the_limit():
 
 
 def test_crew_limit_binding_is_met_by_joint_model():
-    # 4 existing packs all due at year 2 (life 2 -> replaced at <= 2); crew 2 per year:
-    # the joint model must spread the visits; brute-force check of the count only
+    # 4 existing packs all due by year 2; crew of 2 site visits per year (issue 6 limit):
+    # the joint model must spread the visits over the years
     sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 3, 1000)], existing=ExistingPack(2.0))
              for i in range(4)]
     prob = FleetProblem(sites, 4, 0.0, {"A": 500.0}, crew_site_visits_per_year=2, gap_rel_frac=1e-9)
