@@ -12,7 +12,7 @@ from hypothesis import HealthCheck, given, settings
 
 from planner.optimize import ExistingPack, FleetProblem, SiteOptions, solve_fleet
 
-from optimize_bruteforce import fleet_best
+from test_optimize_bruteforce import fleet_best
 from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
 
 

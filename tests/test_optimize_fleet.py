@@ -14,7 +14,7 @@ from planner.optimize import (
 )
 from planner.optimize.analysis import restrict_chemistry, scale_trip_costs
 
-from optimize_bruteforce import fleet_best
+from test_optimize_bruteforce import fleet_best
 
 ALL_MONTHS = tuple(range(1, 13))
 
