@@ -64,7 +64,7 @@ def test_three_site_vector_without_grouping():
 
 
 def test_three_site_variant_by_brute_force():
-    # our own variant, optimum by brute-force enumeration (tests/optimize_bruteforce.py,
+    # our own variant, optimum by brute-force enumeration (tests/test_optimize_bruteforce.py,
     # priced with NIST HB 135 cash flows): two designs per site, residual value on,
     # disposal and labour, 5 % over 6 years
     sites = [
