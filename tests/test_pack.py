@@ -506,3 +506,48 @@ def test_stress_parameters_of_the_chemistry_library():
     assert lfp["calendar_time_exponent"] == 0.5 and lfp["cycle_time_exponent"] == 0.5
     assert lfp["activation_energy_j_mol"] == pytest.approx(17126.0)
     assert lfp["cycle_activation_energy_j_mol"] == 0.0
+
+
+ZERO = np.zeros_like(CAL)  # no aging: isolates the string arithmetic
+
+
+def test_unbalanced_string_loses_the_charge_offset_spread():
+    # No balancing, two equal cells whose charge offsets start N(0, s0) and drift
+    # N(0, sd) per year: usable = 1 - |u1 - u2| with u1 - u2 ~ N(0, 2 (s0^2 + (sd t)^2)),
+    # so the median usable capacity is 1 - Phi^-1(0.75) sqrt(2 (s0^2 + (sd t)^2))
+    # (median of a half-normal; Phi^-1 from scipy).
+    s0, sd = 0.01, 0.005
+    d = life_distribution(calendar_loss_frac=ZERO, cycle_loss_frac=ZERO, series_cells=2,
+                          balancing="none", soc_offset_spread_frac=s0,
+                          soc_drift_spread_frac_per_year=sd, draws=4000, **NO_SPREAD)
+    for years in (0, 5, 10, 20):
+        expected = 1 - norm.ppf(0.75) * math.sqrt(2 * (s0 ** 2 + (sd * years) ** 2))
+        assert d.soh_p50_by_month[12 * years, 0] == pytest.approx(expected, abs=0.03 * (1 - expected))
+
+
+def test_active_balancing_recovers_its_share_of_the_gap():
+    # Two cells N(1, s), active recovery eta: usable = min + eta (mean - min)
+    # = M - (1 - eta) |D| / 2 with M = mean ~ N(1, s^2/2) and D = c1 - c2 ~ N(0, 2 s^2)
+    # independent (sum and difference of iid normals). Its median solves
+    # P(M <= x + a|D|) = 0.5, integrated over |D| with scipy (quad + brentq).
+    from scipy.integrate import quad
+    from scipy.optimize import brentq
+
+    s, eta = 0.03, 0.8
+    a, sd_d, sd_m = (1 - eta) / 2, math.sqrt(2) * s, s / math.sqrt(2)
+
+    def cdf(x):
+        dens = lambda dd: 2 * norm.pdf(dd, scale=sd_d) * norm.cdf(x + a * dd, loc=1, scale=sd_m)  # noqa: E731
+        return quad(dens, 0, 10 * sd_d)[0]
+
+    expected = brentq(lambda x: cdf(x) - 0.5, 0.9, 1.05)
+    d = life_distribution(calendar_loss_frac=ZERO, cycle_loss_frac=ZERO, series_cells=2,
+                          balancing="active", active_recovery_frac=eta, draws=4000,
+                          **{**NO_SPREAD, "cell_spread_frac": s})
+    assert d.soh_p50_by_month[0, 0] == pytest.approx(expected, abs=0.02 * s)
+    # and passive keeps only the weakest cell: eta = 0 in the same formula
+    a = 0.5
+    expected_passive = brentq(lambda x: cdf(x) - 0.5, 0.9, 1.05)
+    d = life_distribution(calendar_loss_frac=ZERO, cycle_loss_frac=ZERO, series_cells=2,
+                          balancing="passive", draws=4000, **{**NO_SPREAD, "cell_spread_frac": s})
+    assert d.soh_p50_by_month[0, 0] == pytest.approx(expected_passive, abs=0.02 * s)
