@@ -44,9 +44,13 @@ def restrict_chemistry(problem: FleetProblem, chemistry: str) -> FleetProblem:
     return replace(problem, sites=sites)
 
 
-def compare_chemistries(problem: FleetProblem, chemistries=None) -> list[ChemistryResult]:
-    """Best plan per chemistry (whole fleet forced to it), sorted by chemistry id."""
+def compare_chemistries(problem: FleetProblem, chemistries=None, *,
+                        time_limit_s: float | None = None) -> list[ChemistryResult]:
+    """Best plan per chemistry (whole fleet forced to it), in the order given (default:
+    every chemistry offered, sorted). ``time_limit_s`` overrides the limit of each re-solve."""
     found = sorted({c.chemistry for s in problem.sites for c in s.candidates})
+    if time_limit_s is not None:
+        problem = replace(problem, time_limit_s=time_limit_s)
     out = []
     for chem in (chemistries or found):
         sol = solve_fleet(restrict_chemistry(problem, chem))
@@ -73,13 +77,17 @@ def scale_trip_costs(problem: FleetProblem, factor: float) -> FleetProblem:
     return replace(problem, trip_cost_by_region={k: v * factor for k, v in problem.trip_cost_by_region.items()})
 
 
-def sensitivity(problem: FleetProblem, base: FleetSolution | None = None) -> list[SensitivityResult]:
+def sensitivity(problem: FleetProblem, base: FleetSolution | None = None, *,
+                time_limit_s: float | None = None) -> list[SensitivityResult]:
     """Trip cost x0.5 and x2, discount rate -2 and +2 points (floored at 0).
 
     The warming case needs the aging stage re-run: build that modified problem in the
-    pipeline and pass it to :func:`compare_solutions`.
+    pipeline and pass it to :func:`compare_solutions`. ``time_limit_s`` overrides the
+    limit of each re-solve.
     """
     base = base or solve_fleet(problem)
+    if time_limit_s is not None:
+        problem = replace(problem, time_limit_s=time_limit_s)
     cases = [
         ("trip cost x0.5", scale_trip_costs(problem, 0.5)),
         ("trip cost x2", scale_trip_costs(problem, 2.0)),
