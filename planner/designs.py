@@ -42,7 +42,7 @@ HOT_HOURS_ALLOWED = 88
 PRIMARY_YEARS_OF_LOAD = (2.0, 5.0, 10.0, 15.0)
 # Aging runs beyond the horizon so packs still young at its end get a life figure.
 EXTRA_AGING_YEARS = 15
-CHUNK_LANES = 512
+CHUNK_LANES = 2048
 # Draws of the pack Monte Carlo per design in the plan (planner life uses more).
 PLAN_DRAWS = 200
 R_GAS = 8.314462618
@@ -99,6 +99,7 @@ class Outcome:
     soh_p10_monthly: np.ndarray | None = None
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
+    dominated: bool = False
     warnings: list[str] = field(default_factory=list)
 
 
@@ -236,11 +237,17 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
 # ---------------------------------------------------------------- evaluation
 
 
-def evaluate_fleet(study: Study, models: list[SiteModel], progress=None) -> list[SiteDesigns]:
-    """Enumerate and evaluate every site's designs; one :class:`SiteDesigns` per site."""
+def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
+                   price_of=None) -> list[SiteDesigns]:
+    """Enumerate and evaluate every site's designs; one :class:`SiteDesigns` per site.
+
+    ``price_of(chemistry, capacity_wh)`` prices a pack; with it, designs that another
+    design of the same site beats on price, mass, life and unserved load are marked
+    ``dominated`` and skip the pack Monte Carlo (the optimizer would never pick them).
+    """
     per_site = [enumerate_site_designs(study, i, m) for i, m in enumerate(models)]
     designs = [d for site_designs, _, _ in per_site for d in site_designs]
-    outcomes = _evaluate(study, models, designs, progress)
+    outcomes = _evaluate(study, models, designs, progress, price_of)
     results = []
     for i, (_, excluded, references) in enumerate(per_site):
         mine = [o for o in outcomes if o.design.site_index == i]
@@ -250,7 +257,7 @@ def evaluate_fleet(study: Study, models: list[SiteModel], progress=None) -> list
     return results
 
 
-def _evaluate(study, models, designs, progress) -> list[Outcome]:
+def _evaluate(study, models, designs, progress, price_of) -> list[Outcome]:
     horizon = study.settings["study"]["horizon_years"]
     hourly = _SiteHourly(models)
     outcomes: list[Outcome | None] = [None] * len(designs)
@@ -258,7 +265,7 @@ def _evaluate(study, models, designs, progress) -> list[Outcome]:
     # every rechargeable chemistry of the chunk (lanes carry their own parameters).
     for start in range(0, len(designs), CHUNK_LANES):
         lanes = list(range(start, min(start + CHUNK_LANES, len(designs))))
-        for k, outcome in _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
+        for k, outcome in _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
             outcomes[k] = outcome
         if progress:
             progress(0, label="Aging candidate packs")
@@ -281,7 +288,7 @@ class _SiteHourly:
         self.heater_on = np.column_stack([m.heater_on for m in models])
 
 
-def _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
+def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
     chunk = [designs[k] for k in lanes]
     chems = {c: get_chemistry(c) for c in sorted({d.chemistry for d in chunk})}
     n = len(chunk)
@@ -322,6 +329,7 @@ def _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
 
     results = []
     months = 12 * horizon + 1
+    deferred = []
     for chem_id, (members, fade) in fades.items():
         chem = chems[chem_id]
         life_total = _years_to(fade.soh_monthly, eol[members])
@@ -350,10 +358,34 @@ def _evaluate_chunk(study, models, hourly, designs, lanes, horizon):
                 charge_blocked_hours=float(duty.blocked_hours[j]),
                 mean_soc_frac=float(duty.mean_soc[j]))
             members_outcomes.append(outcome)
+        deferred.append((chem, members, members_outcomes, fade))
+        results += [(lanes[j], o) for j, o in zip(members, members_outcomes)]
+    if price_of is not None:
+        mark_dominated([o for _, o in results], price_of)
+    for chem, members, members_outcomes, fade in deferred:
         _add_life_spread(models, chem, [chunk[j] for j in members], members_outcomes, fade,
                          eol[members], horizon)
-        results += [(lanes[j], o) for j, o in zip(members, members_outcomes)]
     return results
+
+
+def mark_dominated(outcomes: list[Outcome], price_of) -> None:
+    """Flag designs another design of the same site and chemistry beats on every count
+    (price, mass, life, unserved load), with one strictly better (ties keep the first
+    listed). Chemistries are kept apart so the per-chemistry comparison stays whole."""
+    by_site: dict[tuple[int, str], list[Outcome]] = {}
+    for o in outcomes:
+        if not o.design.is_existing and o.eol_soh_frac < 1.0:
+            by_site.setdefault((o.design.site_index, o.design.chemistry), []).append(o)
+    for group in by_site.values():
+        feats = np.array([[price_of(o.design.chemistry, o.design.pack.capacity_wh),
+                           o.design.pack.mass_kg, -o.life_years, o.unserved_wh_per_year]
+                          for o in group])
+        le = np.all(feats[:, None, :] <= feats[None, :, :] + 1e-9, axis=2)
+        lt = np.any(feats[:, None, :] < feats[None, :, :] - 1e-9, axis=2)
+        idx = np.arange(len(group))
+        tie_first = le & le.T & (idx[:, None] < idx[None, :])
+        for o, dominated in zip(group, np.any((le & lt) | tie_first, axis=0)):
+            o.dominated = bool(dominated)
 
 
 @dataclass
@@ -477,10 +509,11 @@ def worn_out_soh_frac(chemistry: str) -> float:
 
 # Longest service planned for a pack whatever the fade laws say: seals, electrolyte
 # dry-out, battery-management electronics and terminal corrosion are not in the laws.
-# VRLA: the Eurobat "10-12 years" design-life class (from memory); lithium-ion: the
-# 15-20 year design life of stationary products (common practice); primary cells: the
-# 20-year shelf life quoted for bobbin Li-SOCl2 cells (vendor statements, research notes §5).
-MAX_SERVICE_YEARS = {"vrla": 12.0, "lfp": 20.0, "nmc": 15.0, "lto": 25.0, "lisocl2": 20.0}
+# VRLA: the Eurobat "10-12 years" design-life class (from memory); lithium-ion, LTO
+# included: the 15-20 year design life of stationary products (common practice); primary
+# cells: the 20-year shelf life quoted for bobbin Li-SOCl2 cells (vendor statements,
+# research notes §5).
+MAX_SERVICE_YEARS = {"vrla": 12.0, "lfp": 20.0, "nmc": 15.0, "lto": 20.0, "lisocl2": 20.0}
 
 
 def max_service_years(chemistry: str) -> float:
@@ -507,7 +540,7 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     cap = max_service_years(chem.id)
     groups: dict[tuple[int, int], list[int]] = {}
     for j, d in enumerate(designs):
-        if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable:
+        if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated:
             continue
         if outcomes[j].life_years >= cap and _nominal_life(outcomes[j]) >= SPREAD_SKIP_FACTOR * cap:
             # Nominal life far beyond the service limit: cell spread cannot bring the

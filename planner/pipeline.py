@@ -56,7 +56,7 @@ def run_study(study: Study, *, progress=None) -> dict:
 
 def _model_fleet(study: Study, *, extra_warming_k: float = 0.0, progress=None):
     models = model_sites(study, extra_warming_k=extra_warming_k, progress=progress)
-    return models, evaluate_fleet(study, models)
+    return models, evaluate_fleet(study, models, price_of=lambda chem, wh: pack_price(study, chem, wh))
 
 
 # ---------------------------------------------------------------- fleet problem
@@ -104,9 +104,11 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
 
 
 def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
-    """Designs worth offering: they carry the site's autonomy requirement when new and
-    last at least a year (days off air are priced, not excluded)."""
-    return [o for o in designs.outcomes if o.eol_soh_frac < 1.0 and o.life_years >= 1.0]
+    """Designs worth offering: they carry the site's autonomy requirement when new, last
+    at least a year and are not beaten on every count by another design (days off air
+    are priced, not excluded)."""
+    return [o for o in designs.outcomes
+            if o.eol_soh_frac < 1.0 and o.life_years >= 1.0 and not o.dominated]
 
 
 def _unserved_reason(model: SiteModel, designs: SiteDesigns) -> str:

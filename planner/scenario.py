@@ -270,6 +270,7 @@ def load_study(path) -> Study:
     sites_path = (base / settings["study"]["sites_file"]).resolve()
     raw = read_sites_table(sites_path)
     sites = tuple(_validate_sites(raw, sites_path, settings, named))
+    _check_climates(sites, named["climates"], base, sites_path, source)
     return Study(
         path=path.resolve(),
         settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
@@ -297,6 +298,28 @@ def _check_chemistries(chosen, prices, source):
             raise InputError(
                 f"[prices.{chem}]: unknown chemistry{closest(chem, CHEMISTRY_IDS)};"
                 f" expected one of {', '.join(CHEMISTRY_IDS)}", source=source)
+
+
+def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
+    """Every site's climate must be bundled, a [climates.<name>] entry or an existing file."""
+    from planner.climate import list_bundled
+
+    bundled = [name for name, _ in list_bundled()]
+    for name, options in climates.items():
+        if "file" not in options:
+            raise InputError(f"[climates.{name}] has no key 'file': expected the climate file's path",
+                             source=source)
+        if not (base / str(options["file"])).is_file():
+            raise InputError(f"[climates.{name}].file = {_shown(options['file'])}: file not found; "
+                             "expected an EPW, TMY3, TMY2 or CSV file beside the study", source=source)
+    for site in sites:
+        name = site.climate
+        if name in bundled or name in climates or (base / name).is_file():
+            continue
+        raise InputError(
+            f"row {site.row}, column climate: found {_shown(name)}{closest(name, bundled)}; expected a "
+            f"bundled climate ({', '.join(bundled)}), a [climates.<name>] entry or a climate file",
+            source=str(sites_path))
 
 
 # ---------------------------------------------------------------- sites table

@@ -8,12 +8,13 @@ Climates are cached, because a fleet repeats a few climates over many sites.
 from __future__ import annotations
 
 import functools
+import warnings
 import zlib
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.climate import TypicalYear, load_climate
+from planner.climate import ClimateWarning, TypicalYear, load_climate
 from planner.climate.summary import TemperatureSummary, summarize_temperatures
 from planner.energy.loads import hourly_load_w, peak_power_w
 from planner.energy.mains import float_charge_power_w, mains_available
@@ -57,9 +58,14 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
 
     The enclosure model runs once for the whole fleet (vectorised across sites).
     """
-    years = [_climate(study, site.climate,
-                      study.settings["study"]["warming_k"] + site.warming_k + extra_warming_k)
-             for site in study.sites]
+    years, notices = [], []
+    for site in study.sites:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", ClimateWarning)
+            years.append(_climate(study, site.climate, study.settings["study"]["warming_k"]
+                                  + site.warming_k + extra_warming_k))
+        notices.append([f"climate {site.climate}: {w.message}" for w in caught
+                        if issubclass(w.category, ClimateWarning)])
     internal = [site.load_w if site.electronics_heat_w is None else site.electronics_heat_w
                 for site in study.sites]
     setpoints = np.array([np.nan if site.heater_setpoint_c is None else site.heater_setpoint_c
@@ -69,9 +75,11 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
                                         heater_setpoint_c=setpoints)
     models = []
     for j, (site, year) in enumerate(zip(study.sites, years)):
-        models.append(_model_site(study, site, year, thermal.temp_battery_c[:, j],
-                                  thermal.heater_power_w[:, j], thermal.hvac_power_w[:, j],
-                                  thermal.enclosures[j]))
+        model = _model_site(study, site, year, thermal.temp_battery_c[:, j],
+                            thermal.heater_power_w[:, j], thermal.hvac_power_w[:, j],
+                            thermal.enclosures[j])
+        model.warnings.extend(notices[j])
+        models.append(model)
         if progress:
             progress(1, label=f"Site {site.id}")
     return models

@@ -118,7 +118,7 @@ def test_failed_write_leaves_existing_file_and_no_debris(tmp_path, monkeypatch):
     # Atomic replacement (write to a temporary file in the folder, then os.replace).
     target = tmp_path / "plan.json"
     target.write_bytes(b"earlier plan")
-    import planner.report._atomic as atomic
+    import planner.fileio as atomic
 
     def broken_replace(src, dst):
         raise OSError("simulated crash before rename")

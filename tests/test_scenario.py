@@ -129,6 +129,17 @@ def test_bad_site_cells_name_row_and_column(tmp_path, row, column):
     assert "expected" in message
 
 
+def test_unknown_climate_names_row_and_suggests(tmp_path):
+    row = "A-1,Gauge,hills,alpin,2.0,pv,60,5,6-9\n"
+    message = error_of(write_study(tmp_path, BASE, sites=SITES_HEADER + row))
+    assert "row 2, column climate" in message and "did you mean 'alpine'" in message
+
+
+def test_climate_entry_needs_an_existing_file(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + '[climates.logger]\nfile = "nope.csv"\n'))
+    assert "[climates.logger].file" in message and "not found" in message
+
+
 def test_unknown_column_suggests_closest(tmp_path):
     sites = SITES_HEADER.replace("autonomy_days", "autonomy_day") + GOOD_ROW
     message = error_of(write_study(tmp_path, BASE, sites=sites))

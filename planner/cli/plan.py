@@ -40,15 +40,12 @@ def plan_command(ctx, study, out_path, json_path):
     with _progress(ctx, len(study_obj.sites)) as advance:
         plan = run_study(study_obj, progress=advance)
 
-    out.parent.mkdir(parents=True, exist_ok=True)
     write_workbook(plan, out)
     json_target = json_path or study_obj.settings["output"]["json"] or None
     if json_target == "-":
         sys.stdout.write(plan_to_json_text(plan))
     elif json_target:
-        target = Path(json_target)
-        target.parent.mkdir(parents=True, exist_ok=True)
-        write_json(plan, target)
+        write_json(plan, Path(json_target))
 
     if not quiet:
         click.echo(_summary(plan, out), err=True)

@@ -19,7 +19,7 @@ from pathlib import Path, PurePath
 
 import numpy as np
 
-from planner.report._atomic import write_atomically
+from planner.fileio import write_atomically
 
 #: Significant digits kept for every float in the plan JSON (docs/plan-json.md).
 SIGNIFICANT_DIGITS = 6

@@ -20,7 +20,7 @@ from openpyxl.worksheet.pagebreak import Break
 from openpyxl.utils import get_column_letter
 
 from planner.report import charts, styles
-from planner.report._atomic import write_atomically
+from planner.fileio import write_atomically
 from planner.report.cautions import (
     DEFER_INSTRUCTION,
     LITHIUM_IDS,
