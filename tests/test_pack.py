@@ -304,6 +304,20 @@ def test_cycle_activation_energy_applies_to_cycle_part_only():
     assert d.p50_years[0] == pytest.approx(sqrt_law_life_y(0.2, af * K_CAL + K_CYC), rel=2e-3)
 
 
+def test_parallel_imbalance_splits_throughput():
+    # Two strings, the first carrying 1 + f of an even share and the second 1 - f
+    # (Kirchhoff), no spread, heat or depth effect: each string's cycle clock runs at
+    # its share, so with sqrt laws pack SOH = 1 - k_cal sqrt(t) - k_cyc sqrt(t) *
+    # (sqrt(1+f) + sqrt(1-f)) / 2 and the life is the closed form below.
+    f = 0.2
+    d = life_distribution(calendar_loss_frac=CAL, cycle_loss_frac=CYC, eol_soh_frac=0.8,
+                          series_cells=1, parallel_strings=2, parallel_imbalance_frac=f,
+                          cell_spread_frac=0, resistance_spread_frac=0, rate_spread_frac=0,
+                          inner_delta_k=0, self_heating_k=0, depth_stress_exponent=0, draws=10)
+    k_eff = K_CAL + K_CYC * (math.sqrt(1 + f) + math.sqrt(1 - f)) / 2
+    assert d.p50_years[0] == pytest.approx(sqrt_law_life_y(0.2, k_eff), rel=2e-3)
+
+
 def test_linear_law_halves_life_per_halving_step():
     # Laws linear in time (z = 1), e.g. lead-acid float life: +10 K with the halving-rule
     # Ea halves the life: 10 y at 25 degC -> 5 y at 35 degC (notes 4.1, BU-806a [SRC]).
