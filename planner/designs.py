@@ -31,7 +31,7 @@ from planner.aging import age_lanes
 from planner.chemistry import Chemistry, get_chemistry
 from planner.energy.sizing import ReferenceSize, reference_capacity, temperature_factor_from_derating
 from planner.energy.soc import iter_soc_chunks
-from planner.pack import PackStructure, life_distribution, pack_structure
+from planner.pack import PackStructure, life_distribution, pack_structure, stress_parameters
 from planner.scenario import Study
 from planner.site_model import SiteModel
 
@@ -45,7 +45,6 @@ EXTRA_AGING_YEARS = 15
 CHUNK_LANES = 2048
 # Draws of the pack Monte Carlo per design in the plan (planner life uses more).
 PLAN_DRAWS = 200
-R_GAS = 8.314462618
 
 
 @dataclass(frozen=True)
@@ -521,22 +520,10 @@ def max_service_years(chemistry: str) -> float:
     return MAX_SERVICE_YEARS.get(chemistry, 15.0)
 
 
-def _activation_energy(chem: Chemistry) -> float:
-    """Ea of the chemistry's default calendar law, for the cells' temperature offsets."""
-    params = chem.aging_sets[chem.default_aging_set].calendar
-    if "activation_energy_j_mol" in params:
-        return float(params["activation_energy_j_mol"])
-    if "temp_coefficient_k" in params:
-        return float(params["temp_coefficient_k"]) * R_GAS
-    if "halving_step_k" in params:  # life halves per step: Ea = R T^2 ln 2 / step at 298 K
-        return R_GAS * 298.15 ** 2 * np.log(2.0) / float(params["halving_step_k"])
-    return 50e3
-
-
 def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     """Pack Monte Carlo (cell spread, gradients, balancing): P10/P50/P90 and the
     probability of failing before each age, for the failure-risk cost."""
-    ea = _activation_energy(chem)
+    laws = stress_parameters(chem.aging_sets[chem.default_aging_set])
     cap = max_service_years(chem.id)
     groups: dict[tuple[int, int], list[int]] = {}
     for j, d in enumerate(designs):
@@ -560,7 +547,7 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
             calendar_loss_frac=fade.calendar_loss_frac[rows, lanes],
             cycle_loss_frac=fade.cycle_loss_frac[rows, lanes], eol_soh_frac=eol[lanes],
             series_cells=series, parallel_strings=parallel, draws=PLAN_DRAWS, seed=0,
-            activation_energy_j_mol=ea, reference_temp_c=np.array(ref_temp))
+            reference_temp_c=np.array(ref_temp), **laws)
         for k, j in enumerate(lanes):
             o = outcomes[j]
             o.life_p10_years = float(min(dist.p10_years[k], cap))

@@ -44,10 +44,13 @@ def run_study(study: Study, *, progress=None) -> dict:
     models, designs = _model_fleet(study, progress=progress)
     problem = build_problem(study, models, designs)
     solution = solve_fleet(problem)
-    comparison = compare_chemistries(problem, list(study.settings["candidates"]["chemistries"]))
+    # Every comparison and sensitivity case is a full solve: each gets half the main limit.
+    limit = 0.5 * study.settings["solver"]["time_limit_s"]
+    comparison = compare_chemistries(problem, list(study.settings["candidates"]["chemistries"]),
+                                     time_limit_s=limit)
     cases = []
     if study.settings["output"]["sensitivity"]:
-        cases = sensitivity(problem, solution)
+        cases = sensitivity(problem, solution, time_limit_s=limit)
         warm_models, warm_designs = _model_fleet(study, extra_warming_k=WARMING_SENSITIVITY_K)
         warm = solve_fleet(build_problem(study, warm_models, warm_designs))
         cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))

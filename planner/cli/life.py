@@ -102,10 +102,21 @@ def _print_list():
               help="End of life: state of health (remaining/rated capacity) fraction.")
 @click.option("--years", "years", type=int, default=40, show_default=True,
               help="Horizon in years.")
+@click.option("--series-cells", "series_cells", type=int, default=None,
+              help="Cells in series in the pack: adds a Monte Carlo over cell-to-cell spread "
+                   "and the P10/P50/P90 life (default 1 when another pack option is given).")
+@click.option("--cell-spread-frac", "cell_spread_frac", type=float, default=None,
+              help="Coefficient of variation of the cells' initial capacity (default: one "
+                   "production lot, see docs/pack.md).")
+@click.option("--balancing", "balancing", type=click.Choice(("none", "passive", "active")),
+              default=None, help="Cell balancing of the pack (default passive).")
+@click.option("--draws", "draws", type=int, default=None,
+              help="Monte Carlo draws (default 1000).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
 @click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
 def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
-                 cycles_per_day, c_rate, eol_soh, years, as_json, list_only):
+                 cycles_per_day, c_rate, eol_soh, years, series_cells, cell_spread_frac,
+                 balancing, draws, as_json, list_only):
     """Predict the life of a battery stored or cycled at a temperature or in a climate.
 
     Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
@@ -117,6 +128,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
       planner life --chemistry lfp --temp-c 25
       planner life --chemistry nmc --temp-c 25 --charge-voltage-v 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
       planner life --chemistry vrla --climate hot-desert --enclosure cabinet-sun
+      planner life --chemistry lfp --temp-c 35 --series-cells 16 --balancing passive --json
     """
     if list_only:
         _print_list()
@@ -193,6 +205,9 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         "equivalent_full_cycles_per_year": float(result.efc_per_year[0]),
         "soh_by_year": [float(v) for v in result.soh_monthly[::12, 0]],
     }
+    pack_options = (series_cells, cell_spread_frac, balancing, draws)
+    if any(option is not None for option in pack_options):
+        out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options))
     if cycling:
         out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
         out["dod_frac"] = dod_frac
@@ -212,6 +227,36 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     else:
         click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
     click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+    if "years_to_eol_p50" in out:
+        def shown(value):
+            return f"{value:.1f}" if value is not None else f">{years}"
+        click.echo(f"pack of {out['series_cells']} cells in series, {out['balancing']} balancing, "
+                   f"{out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
+                   f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} years")
+
+
+def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,
+                      balancing, draws) -> dict:
+    """P10/P50/P90 years to end of life of a series string (pack Monte Carlo)."""
+    from planner.pack import DEFAULT_DRAWS, life_summary, stress_parameters
+
+    series_cells = 1 if series_cells is None else series_cells
+    if not 1 <= series_cells <= 1000:
+        raise InputError(f"--series-cells is {series_cells}; expected 1 to 1000", source="life")
+    draws = DEFAULT_DRAWS if draws is None else draws
+    if not 10 <= draws <= 100000:
+        raise InputError(f"--draws is {draws}; expected 10 to 100000", source="life")
+    options = {"series_cells": series_cells, "balancing": balancing or "passive", "draws": draws,
+               "eol_soh_frac": eol_soh, "seed": 0, "reference_temp_c": mean_temp_c}
+    if cell_spread_frac is not None:
+        if not 0.0 <= cell_spread_frac <= 0.3:
+            raise InputError(f"--cell-spread-frac is {cell_spread_frac:g}; expected 0 to 0.3",
+                             source="life")
+        options["cell_spread_frac"] = cell_spread_frac
+    options.update(stress_parameters(chem.aging_sets[result.aging_set]))
+    rows, dist = life_summary(result, prefix="years_to_eol", **options)
+    return {**rows[0], "series_cells": series_cells, "balancing": options["balancing"],
+            "draws": dist.draws, "pack_notes": list(dist.notes)}
 
 
 def _given(name: str) -> bool:

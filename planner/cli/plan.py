@@ -49,7 +49,7 @@ def plan_command(ctx, study, out_path, json_path):
 
     if not quiet:
         click.echo(_summary(plan, out), err=True)
-    if plan.get("unserved_sites"):
+    if plan.get("unserved_sites") or plan["solver"]["status"] == "infeasible":
         ctx.exit(EXIT_INFEASIBLE)
 
 
