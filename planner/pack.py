@@ -104,7 +104,8 @@ SPREAD_PRESETS = {
             "cell_spread_frac": (
                 "L. Wildfeuer, M. Lienkamp, 'Quantifiability of inherent cell-to-cell "
                 "variations of commercial lithium-ion batteries', eTransportation 9 (2021) "
-                "100129 (abstract: published capacity CV 0.2-0.3 %, inherent 0.17 %); "
+                "100129 (venue from memory; abstract read: published capacity CV "
+                "0.2-0.3 %, inherent 0.17 %); "
                 "0.5 % keeps a margin for storage and measurement"
             ),
             "resistance_spread_frac": (
@@ -139,7 +140,7 @@ PARAMETER_SOURCES = {
     ),
     "parallel_imbalance_frac": (
         "from memory: strings tapped at one end of a shared bus share current within "
-        "about 10 %; cf. T. Gogoana et al., J. Power Sources 252 (2014) 8-13 (resistance "
+        "about 10 %; cf. T. Gogoana et al., J. Power Sources 252 (2014) 8-13, from memory (resistance "
         "mismatch between parallel cells shortens cycle life)"
     ),
     "self_heating_k": (
@@ -196,7 +197,8 @@ PARAMETER_SOURCES = {
     "temperature_profile": (
         "parabolic profile along the cell row, 0 K at the two end cells, inner_delta_k at "
         "the centre: 1-D steady conduction with uniform heat generation (F.P. Incropera, "
-        "D.P. DeWitt, Fundamentals of Heat and Mass Transfer, 6th ed., 2007, eq. 3.40)"
+        "D.P. DeWitt, Fundamentals of Heat and Mass Transfer, 6th ed., 2007, eq. 3.40; "
+        "equation number from memory)"
     ),
 }
 
@@ -387,9 +389,9 @@ def inner_temperature_offsets_k(series_cells, inner_delta_k):
     """Temperature offset of each cell of a row of ``series_cells`` [K].
 
     Parabolic profile of 1-D steady conduction with uniform heat generation
-    (Incropera and DeWitt 2007, eq. 3.40): 0 K at the two end cells,
-    ``inner_delta_k`` at the centre of the row. Rows of one or two cells have no
-    inner cell.
+    (Incropera and DeWitt 2007, eq. 3.40, number from memory): 0 K at the two end
+    cells, ``inner_delta_k`` at the centre of the row. Rows of one or two cells have
+    no inner cell.
 
     Returns
     -------
@@ -900,7 +902,7 @@ def _draw_cells(rngs, n_sites, n_draws, p):
 
     def normal(q):
         # Latin hypercube per site, cell and quantity (McKay, Beckman and Conover 1979,
-        # Technometrics 21 (2) 239-245): each of the D draws falls in its own 1/D
+        # Technometrics 21 (2) 239-245, from memory): each of the D draws falls in its own 1/D
         # probability stratum, in random order, which steadies the percentiles. The
         # streams are nested across pack sizes and independent of the chunking.
         out = np.empty((len(rngs[q]), n_sites, n_draws), f32)
