@@ -137,7 +137,7 @@ def test_pack_structure_bad_input_is_one_line_input_error(kwargs):
 
 
 def test_inner_offsets_follow_conduction_parabola():
-    # Incropera & DeWitt 2007 eq. 3.40: uniform generation -> T(x) parabolic, peak in the
+    # Incropera & DeWitt 2007 eq. 3.40 (number from memory): uniform generation -> parabolic T(x), peak in the
     # middle. Cell centres of 5 cells at x = 0.1..0.9; normalising so the end cells are 0
     # and the centre 1 gives (1-(2x-1)^2 - 0.36)/0.64 -> 0, 0.75, 1, 0.75, 0 (computed).
     np.testing.assert_allclose(inner_temperature_offsets_k(5, 4.0), 4.0 * np.array([0, 0.75, 1, 0.75, 0]),
