@@ -171,7 +171,9 @@ def _pack(model: SiteModel, chem: Chemistry, capacity_wh: float) -> PackStructur
     for cell_ah in CELL_LADDER_AH.get(chem.id, (chem.cell_capacity_ah,)):
         pack = pack_structure(system_voltage_v=model.site.system_voltage_v,
                               required_capacity_wh=capacity_wh, cell_voltage_v=chem.cell_voltage_v,
-                              cell_capacity_ah=cell_ah, mass_kg_per_kwh=chem.mass_kg_per_kwh,
+                              cell_capacity_ah=cell_ah,
+                              charge_voltage_v_per_cell=max(chem.charge_voltages_v_per_cell),
+                              mass_kg_per_kwh=chem.mass_kg_per_kwh,
                               volume_l_per_kwh=chem.volume_l_per_kwh)
         key = (round(pack.capacity_wh, 6), pack.parallel_strings)
         if best is None or key < best[0]:

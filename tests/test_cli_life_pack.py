@@ -49,3 +49,13 @@ def test_weakest_link_pack_never_outlives_the_nominal_cell_median():
 def test_bad_pack_options_exit_2(args, words):
     result = CliRunner().invoke(cli, ["life", "--chemistry", "lfp", "--temp-c", "25", *args])
     assert result.exit_code == 2 and words in result.output
+
+
+def test_across_models_widens_the_band_and_says_so():
+    # Pack-design issue: disagreement between published parameter sets (Naumann et al. 2018
+    # published set vs the calibrated default, docs/aging.md) must widen the distribution.
+    one = life_json("--series-cells", "4")
+    both = life_json("--series-cells", "4", "--across-models")
+    assert (both["years_to_eol_p90"] - both["years_to_eol_p10"]
+            >= one["years_to_eol_p90"] - one["years_to_eol_p10"])
+    assert any("model" in note.lower() for note in both["pack_notes"])
