@@ -18,7 +18,16 @@ import numpy as np
 
 from planner import __version__
 from planner.chemistry import get_chemistry
-from planner.designs import Outcome, SiteDesigns, evaluate_fleet, requirement_wh
+from planner.designs import (
+    CELL_LADDER_AH,
+    PRIMARY_MAX_DAILY_LOAD_WH,
+    Outcome,
+    SiteDesigns,
+    evaluate_fleet,
+    max_service_years,
+    requirement_wh,
+    worn_out_soh_frac,
+)
 from planner.economics import upv
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import (
@@ -31,8 +40,10 @@ from planner.optimize import (
     solve_fleet,
 )
 from planner.optimize.analysis import compare_solutions, sensitivity
+from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
 from planner.scenario import Study
 from planner.site_model import SiteModel, model_sites
+from planner.thermal import get_enclosure
 
 # Lives beyond this are "longer than any plan needs" for the optimizer.
 LIFE_CAP_YEARS = 100.0
@@ -337,8 +348,52 @@ def _assumptions(study: Study) -> list[dict]:
                      "unit": f"{study.settings['study']['currency']}/kWh",
                      "source": "study file" if chem_id in study.prices else
                      "chemistry library (illustrative)"})
+    for kind in sorted({site.enclosure for site in study.sites}):
+        enclosure = get_enclosure(kind)
+        for name, source in enclosure.sources:
+            rows.append({"group": f"enclosure {kind}", "name": name,
+                         "value": _plain(getattr(enclosure, name, "")), "unit": "", "source": source})
+    for name, source in PACK_SOURCES.items():
+        rows.append({"group": "pack spread", "name": name, "value": "", "unit": "", "source": source})
+    rows += _design_rule_rows(study)
+    rows += [{"group": "method", "name": name, "value": "", "unit": "", "source": source}
+             for name, source in METHODS]
     rows.append({"group": "method", "name": "planner version", "value": __version__, "unit": "",
                  "source": "this program"})
+    return rows
+
+
+METHODS = (
+    ("1x reference size", "IEEE 1013 / IEEE 1562 sizing chain (aging factor 1.25, design margin)"),
+    ("PV power", "pvlib: Hay-Davies plane-of-array irradiance, SAPM cell temperature, PVWatts DC"),
+    ("enclosure temperature", "lumped first-order model, exact exponential step; buried vaults: "
+                              "Kusuda & Achenbach 1965 ground temperature"),
+    ("calendar fade under varying temperature", "equivalent-time superposition of each t^z law"),
+    ("cycle counting", "rainflow after ASTM E1049-85, checked against the rainflow package"),
+    ("present values", "NIST Handbook 135 (Fuller & Petersen 1996): constant money, real rate, "
+                       "end-of-year discounting, linear residual value"),
+    ("fleet schedule", "opportunistic replacement MILP (Patriksson, Stromberg & Wojciechowski "
+                       "2015, Annals of OR 224), solved with HiGHS or CBC through PuLP"),
+)
+
+
+def _design_rule_rows(study: Study) -> list[dict]:
+    rows = []
+    for chem_id in study.settings["candidates"]["chemistries"]:
+        rows.append({"group": "design rules", "name": f"worn-out SOH {chem_id}",
+                     "value": worn_out_soh_frac(chem_id), "unit": "fraction",
+                     "source": "IEEE 450 / IEEE 1188 80 % replacement criterion for lead-acid "
+                               "(from memory); lithium-ion knee near 70-80 % (common practice)"})
+        rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
+                     "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
+                     "source": "catalogue ladders of cells and monoblocs (common practice)"})
+        rows.append({"group": "design rules", "name": f"service-life limit {chem_id}",
+                     "value": max_service_years(chem_id), "unit": "years",
+                     "source": "design life of stationary products (common practice; VRLA: Eurobat "
+                               "10-12 year class, from memory)"})
+    rows.append({"group": "design rules", "name": "primary cells up to", "value":
+                 PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
+                 "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 1 W"})
     return rows
 
 
