@@ -305,8 +305,8 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
         out.append(f"charging blocked by cold for {outcome.charge_blocked_hours:.0f} h a year "
                    f"(below {chem.charge_temp_min_c:g} °C); a battery heater would recover it")
     if d.chemistry == "vrla":
-        depth = 1.0 - (1.0 - chem.max_dod_frac)
-        freezing = float(lead_acid_freezing_point_c(max(1.0 - depth, 0.0)))
+        lowest_soc = 1.0 - chem.max_dod_frac
+        freezing = float(lead_acid_freezing_point_c(lowest_soc))
         if model.design_temp_c < freezing + 5.0:
             out.append(f"lead-acid electrolyte may freeze: battery reaches {model.design_temp_c:.1f} °C "
                        f"and a pack at the lowest allowed charge freezes near {freezing:.0f} °C "

@@ -60,3 +60,37 @@ def test_new_writes_a_starter_that_validates(runner, tmp_path):
     # A second run must not overwrite the planner's files.
     again = runner.invoke(cli, ["new", str(target)])
     assert again.exit_code == 2 and "already exists" in again.output
+
+
+SITES = "id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
+
+
+@pytest.mark.parametrize("toml, sites, expected", [
+    ('horizon_years = 0', SITES + "A,r,alpine,2,pv,50,5\n", "[study].horizon_years = 0"),
+    ('discount_rate_frac = 0.7', SITES + "A,r,alpine,2,pv,50,5\n", "[study].discount_rate_frac"),
+    ('', SITES + "A,r,alpine,2,pv,50,0\n", "row 2, column autonomy_days"),
+    ('', SITES + "A,r,alpine,2,pv,50,5\nA,r,alpine,2,pv,50,5\n", "duplicate site id 'A'"),
+    ('', SITES, "no rows"),
+    ('', SITES.replace("region", "regoin") + "A,r,alpine,2,pv,50,5\n", "did you mean 'region'"),
+    ('[costs]\ntrip_cost = -1.0', SITES + "A,r,alpine,2,pv,50,5\n", "[costs].trip_cost"),
+])
+def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, sites, expected):
+    (tmp_path / "sites.csv").write_text(sites)
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n' + toml + "\n")
+    result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml")])
+    assert result.exit_code == 2
+    lines = [line for line in result.output.splitlines() if line.strip()]
+    assert len(lines) == 1 and expected in lines[0]
+    assert "Traceback" not in result.output
+
+
+def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path):
+    # Foundation issue: exit 3 when no feasible plan exists; the report is still written.
+    # Only primary cells are allowed, and a 2 W load is above what they are used for.
+    (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n'
+                                     '[candidates]\nchemistries = ["lisocl2"]\n')
+    out = tmp_path / "plan.xlsx"
+    result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out)])
+    assert result.exit_code == 3, result.output
+    assert out.is_file()
