@@ -92,3 +92,28 @@ def test_sawtooth_restarts_at_each_replacement():
 def test_downtime_present_value_uses_uniform_series():
     # NIST Handbook 135 UPV(3 %, 20) = 14.877475 (computed in the research notes §3.3).
     assert float(upv(0.03, 20)) == pytest.approx(14.877475, abs=1e-6)
+
+
+def test_study_with_a_user_csv_climate_in_fahrenheit(tmp_path):
+    # A logger file in °F with hour-ending timestamps, declared in [climates.<name>]; the
+    # planner converts at the input boundary: 77 °F = 25 °C (definition of the scale).
+    import pandas as pd
+
+    times = pd.date_range("2021-01-01 01:00", periods=8760, freq="h")
+    air_c = 25.0 + 8.0 * np.sin(2 * np.pi * (np.arange(8760) / 24.0))
+    pd.DataFrame({"time": times.strftime("%Y-%m-%d %H:%M"),
+                  "air_f": air_c * 9 / 5 + 32}).to_csv(tmp_path / "logger.csv", index=False)
+    (tmp_path / "sites.csv").write_text(
+        "id,region,climate,load_w,charging,pv_wp,autonomy_days\nL-1,r,logger,2,pv,60,5\n")
+    (tmp_path / "s.toml").write_text(
+        '[study]\nsites_file = "sites.csv"\nhorizon_years = 10\n'
+        '[candidates]\nchemistries = ["lfp"]\noversize_factors = [1.0, 2.0]\n'
+        '[output]\nsensitivity = false\n'
+        '[climates.logger]\nfile = "logger.csv"\ntemperature_unit = "F"\ntimestamp_marks = "end"\n'
+        'utc_offset_h = -7\nlatitude_deg = 35.0\nlongitude_deg = -110.0\n'
+        'temperature_column = "air_f"\n')
+    result = CliRunner().invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out",
+                                      str(tmp_path / "p.xlsx"), "--json", str(tmp_path / "p.json")])
+    assert result.exit_code == 0, result.output
+    site = json.loads((tmp_path / "p.json").read_text())["sites"][0]
+    assert site["temperature"]["air_mean_c"] == pytest.approx(25.0, abs=0.05)
