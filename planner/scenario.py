@@ -128,6 +128,8 @@ def _parse(spec: Field, value, *, from_text: bool):
     kind = spec.kind
     if kind == "months":
         return parse_months(value)
+    if kind == "floats" and from_text:
+        value = [item for item in re.split(r"[;\s]+", str(value).strip()) if item]
     if kind in ("floats", "strs"):
         if not isinstance(value, (list, tuple)) or not value:
             raise ValueError
@@ -313,6 +315,9 @@ def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
             raise InputError(f"[climates.{name}].file = {_shown(options['file'])}: file not found; "
                              "expected an EPW, TMY3, TMY2 or CSV file beside the study", source=source)
     for site in sites:
+        if site.load_file and not (base / site.load_file).is_file():
+            raise InputError(f"row {site.row}, column load_file: {_shown(site.load_file)} not found; "
+                             "expected an hourly load CSV beside the study", source=str(sites_path))
         name = site.climate
         if name in bundled or name in climates or (base / name).is_file():
             continue
@@ -404,6 +409,9 @@ def _check_site_rules(values, row, source, start_year):
     if all(bursts) and values["burst_s"] > values["burst_every_min"] * 60:
         fail("burst_s", "a burst longer than the time between bursts; expected burst_s <= "
                         "60 x burst_every_min")
+    for column, count in (("load_schedule_w", 24), ("load_monthly_factors", 12)):
+        if values[column] and len(values[column]) != count:
+            fail(column, f"{len(values[column])} values; expected {count} separated by ';'")
     existing = values["existing_chemistry"]
     if existing:
         from planner.chemistry import CHEMISTRY_IDS

@@ -40,7 +40,7 @@ class Field:
             "str": "text",
             "bool": "true or false",
             "months": "months 1-12 (e.g. 6-9 or 5;6;7)",
-            "floats": "a list of numbers",
+            "floats": "a list of numbers (in a table cell: separated by ';')",
             "strs": "a list of names",
         }[self.kind]
         if self.choices:
@@ -167,10 +167,19 @@ SITE_COLUMNS = (
     F("burst_w", "float", 0.0, "W", 0.0, 20000.0, doc="Extra power during a transmit burst."),
     F("burst_s", "float", 0.0, "s", 0.0, 3600.0, doc="Length of each burst."),
     F("burst_every_min", "float", 0.0, "min", 0.0, 1440.0, doc="Time between burst starts; 0 = no bursts."),
+    F("load_schedule_w", "floats", (), "W", 0.0, 20000.0,
+      doc="Extra load per hour of the day: 24 values separated by ';' (hour 0 first)."),
+    F("load_monthly_factors", "floats", (), "factor", 0.0, 10.0,
+      doc="Multiplies the whole load month by month: 12 values separated by ';'."),
+    F("load_file", "str", "",
+      doc="Hourly load CSV (8,760 rows, column load_w in W), added to the other load terms; "
+          "relative to the study file."),
     F("charging", "str", "pv", choices=("pv", "mains", "none"), doc="Charging source."),
     F("pv_wp", "float", 0.0, "Wp", 0.0, 20000.0, doc="PV array size (with charging = pv)."),
     F("pv_tilt_deg", "float", None, "deg", 0.0, 90.0, doc="Blank: |latitude| + 15, capped at 90 (favours winter)."),
     F("pv_azimuth_deg", "float", None, "deg", 0.0, 360.0, doc="Blank: facing the equator (180 north of it, 0 south)."),
+    F("pv_snow_months", "months", (), "month numbers",
+      doc="Months the array is taken as snow-covered (no PV); blank = none."),
     F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
     F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
     F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,

@@ -16,7 +16,7 @@ import numpy as np
 
 from planner.climate import ClimateWarning, TypicalYear, load_climate
 from planner.climate.summary import TemperatureSummary, summarize_temperatures
-from planner.energy.loads import hourly_load_w, peak_power_w
+from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_csv
 from planner.energy.mains import float_charge_power_w, mains_available
 from planner.energy.pv import pv_dc_power_w
 from planner.scenario import Site, Study
@@ -88,7 +88,11 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
 def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w, enclosure):
     summary = summarize_temperatures(year.temp_air_c, temp_battery_c)
     burst = dict(burst_w=site.burst_w, burst_duration_s=site.burst_s,
-                 burst_interval_min=site.burst_every_min)
+                 burst_interval_min=site.burst_every_min,
+                 daily_schedule_w=site.load_schedule_w or None,
+                 monthly_multipliers=site.load_monthly_factors or None,
+                 hourly_w=(read_hourly_load_csv(study.path.parent / site.load_file)
+                           if site.load_file else None))
     base_load = hourly_load_w(constant_w=site.load_w, **burst)
     load = base_load + heater_power_w
     if site.charging != "mains":
@@ -104,7 +108,8 @@ def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w,
         azimuth = site.pv_azimuth_deg
         if azimuth is None:
             azimuth = 180.0 if year.latitude_deg >= 0 else 0.0
-        charge = pv_dc_power_w(year, array_wp=site.pv_wp, tilt_deg=tilt, azimuth_deg=azimuth)
+        charge = pv_dc_power_w(year, array_wp=site.pv_wp, tilt_deg=tilt, azimuth_deg=azimuth,
+                               snow_months=site.pv_snow_months)
     elif site.charging == "mains":
         up = mains_available(outages_per_year=site.outages_per_year,
                              mean_outage_h=site.outage_mean_h, seed=_stable_seed(site.id))

@@ -237,3 +237,16 @@ def test_junk_sites_table_raises_only_input_error(tmp_path, rows, raw):
             load_study(study)
         except InputError:
             pass
+
+
+def test_load_schedule_needs_24_values(tmp_path):
+    sites = ("id,region,climate,load_w,charging,pv_wp,autonomy_days,load_schedule_w\n"
+             "A,r,alpine,1,pv,50,5," + ";".join(["1"] * 23) + "\n")
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "row 2, column load_schedule_w: 23 values; expected 24" in message
+
+
+def test_missing_load_file_names_row(tmp_path):
+    sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,r,alpine,1,pv,50,5,x.csv\n"
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "row 2, column load_file" in message and "not found" in message
