@@ -41,9 +41,9 @@ from planner.site_model import SiteModel
 # above its upper temperature limit (1 % of the year; a few hot afternoons only warn).
 HOT_HOURS_ALLOWED = 88
 # Primary cells are a candidate only for small loads: bobbin Li-SOCl2 packs serve loggers
-# drawing microwatts to about a watt on average (common practice); above that the pack
+# drawing microwatts to about a tenth of a watt on average (common practice); above that the pack
 # mass and price grow out of any sensible range.
-PRIMARY_MAX_DAILY_LOAD_WH = 24.0
+PRIMARY_MAX_DAILY_LOAD_WH = 2.4
 # Years of load a primary (non-rechargeable) pack is sized for, per "oversize" step.
 PRIMARY_YEARS_OF_LOAD = (2.0, 5.0, 10.0, 15.0)
 # Aging runs beyond the horizon so packs still young at its end get a life figure.
@@ -194,7 +194,7 @@ def _exclusion(model: SiteModel, chem: Chemistry) -> str:
         return "no charging source on site, and the pack is rechargeable"
     if not chem.rechargeable and model.daily_load_wh > PRIMARY_MAX_DAILY_LOAD_WH:
         return (f"load of {model.daily_load_wh:.0f} Wh/day is above the "
-                f"{PRIMARY_MAX_DAILY_LOAD_WH:g} Wh/day (1 W mean) primary cells are used for")
+                f"{PRIMARY_MAX_DAILY_LOAD_WH:g} Wh/day (0.1 W mean) primary cells are used for")
     if model.design_temp_c < chem.discharge_temp_min_c:
         return (f"battery reaches {model.design_temp_c:.1f} °C, below the {chem.discharge_temp_min_c:g} °C "
                 "discharge limit")

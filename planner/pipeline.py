@@ -393,7 +393,7 @@ def _design_rule_rows(study: Study) -> list[dict]:
                                "10-12 year class, from memory)"})
     rows.append({"group": "design rules", "name": "primary cells up to", "value":
                  PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
-                 "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 1 W"})
+                 "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 0.1 W"})
     return rows
 
 
@@ -443,6 +443,7 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                   for t in solution.trips],
         "chemistry_comparison": [
             {"chemistry": r.chemistry, "total_present_cost": r.total_present_cost,
+             "total_with_others_present_cost": r.total_with_others_present_cost,
              "status": r.status, "sites_served": r.sites_served,
              "sites_unserved": [u.site_id for u in r.unserved]} for r in comparison],
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,

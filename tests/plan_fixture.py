@@ -133,6 +133,7 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         "trips": trip_list,
         "chemistry_comparison": [
             {"chemistry": c, "total_present_cost": total * (1.0 + 0.1 * k) if c != "lisocl2" else None,
+             "total_with_others_present_cost": total * (1.0 + 0.1 * k) if c != "lisocl2" else total,
              "sites_served": n_sites if c != "lisocl2" else 0,
              "sites_unserved": 0 if c != "lisocl2" else n_sites}
             for k, c in enumerate(CHEMISTRIES)],

@@ -109,10 +109,13 @@ def test_summary_numbers_equal_plan_and_json(written, book):
     _, comp = _table_at(ws, "Chemistry")
     for row, ref in zip(comp, plan["chemistry_comparison"]):
         assert row["Chemistry"] == ref["chemistry"]
+        served = "Present cost of the sites it serves [EUR]"
         if ref["total_present_cost"] is None:  # no feasible plan with this chemistry: blank cell
-            assert row["Fleet present cost [EUR]"] is None
+            assert row[served] is None
         else:
-            assert row["Fleet present cost [EUR]"] == pytest.approx(ref["total_present_cost"], rel=XL)
+            assert row[served] == pytest.approx(ref["total_present_cost"], rel=XL)
+        assert row["Fleet present cost, others keep their best [EUR]"] == pytest.approx(
+            ref["total_with_others_present_cost"], rel=XL)
 
 
 def _table_at(ws, header_text):

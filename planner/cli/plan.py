@@ -96,12 +96,14 @@ def _summary(plan, out) -> str:
         f"(solver {solver['name']}, {solver['status']}, gap {solver['gap_frac']:.2%})",
     ]
     n_sites = len(plan["sites"])
+    lines.append("  fleet cost with each chemistry wherever it can serve:")
     for row in plan.get("chemistry_comparison", []):
-        text = f"{row['total_present_cost']:,.0f} {currency}"
-        if row.get("sites_unserved"):
-            text += (f" for the {n_sites - len(row['sites_unserved'])} of {n_sites} sites it can "
-                     f"serve (not {', '.join(row['sites_unserved'])})")
-        lines.append(f"  all {row['chemistry']}: {text}")
+        text = f"{row['total_with_others_present_cost']:,.0f} {currency}"
+        unserved = row.get("sites_unserved") or []
+        if unserved:
+            text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
+                     f"{len(unserved)} keep another chemistry)")
+        lines.append(f"    {row['chemistry']}: {text}")
     for item in plan.get("unserved_sites", []):
         lines.append(f"  NOT SERVED {item['id']}: {item['reason']}")
     lines.append(f"  workbook: {out}")

@@ -21,6 +21,9 @@ class ChemistryResult:
     unserved: list[Unserved]
     site_costs: dict[str, float]
     solution: FleetSolution
+    # The fleet total when the sites this chemistry cannot serve keep their best design
+    # of another chemistry (equal to total_present_cost when it serves every site).
+    total_with_others_present_cost: float = float("nan")
 
 
 @dataclass
@@ -34,11 +37,19 @@ class SensitivityResult:
     status: str
 
 
-def restrict_chemistry(problem: FleetProblem, chemistry: str) -> FleetProblem:
-    """The same problem with every site's candidates cut to one chemistry."""
+def restrict_chemistry(problem: FleetProblem, chemistry: str, *,
+                       others_keep_all: bool = False) -> FleetProblem:
+    """The same problem with every site's candidates cut to one chemistry.
+
+    With ``others_keep_all``, a site that has no candidate of that chemistry keeps all of
+    its candidates, so the fleet total stays comparable across chemistries.
+    """
     sites = []
     for s in problem.sites:
         cands = [c for c in s.candidates if c.chemistry == chemistry]
+        if not cands and others_keep_all:
+            sites.append(s)
+            continue
         reason = s.unserved_reason if cands else f"site {s.site_id}: no candidate of chemistry {chemistry}"
         sites.append(replace(s, candidates=cands, unserved_reason=reason))
     return replace(problem, sites=sites)
@@ -54,10 +65,14 @@ def compare_chemistries(problem: FleetProblem, chemistries=None, *,
     out = []
     for chem in (chemistries or found):
         sol = solve_fleet(restrict_chemistry(problem, chem))
+        with_others = sol.objective
+        if sol.unserved:
+            with_others = solve_fleet(restrict_chemistry(problem, chem, others_keep_all=True)).objective
         out.append(ChemistryResult(
             chemistry=chem, total_present_cost=sol.objective, status=sol.status,
             sites_served=len(sol.sites), unserved=list(sol.unserved),
-            site_costs={p.site_id: p.present_cost for p in sol.sites}, solution=sol))
+            site_costs={p.site_id: p.present_cost for p in sol.sites}, solution=sol,
+            total_with_others_present_cost=with_others))
     return out
 
 

@@ -205,14 +205,17 @@ def _summary_sheet(ws, plan, fmt) -> None:
     if comparison:
         put(ws, 3, 4, "Whole fleet forced to one chemistry").font = styles.SECTION_FONT
         cols = [Column("Chemistry", _key("chemistry")),
-                Column(f"Fleet present cost [{cur}]", _key("total_present_cost"), fmt["money"]),
+                Column(f"Fleet present cost, others keep their best [{cur}]",
+                       _key("total_with_others_present_cost"), fmt["money"]),
+                Column(f"Present cost of the sites it serves [{cur}]", _key("total_present_cost"),
+                       fmt["money"]),
                 Column("Sites served", _key("sites_served"), styles.INTEGER, optional=True),
                 Column("Sites not served", _key("sites_unserved"), optional=True),  # a count or the ids
                 Column("Solver status", _key("status"), optional=True)]
         _, comp_end = _write_table(ws, 4, 4, cols, comparison)
         if comp_end >= 5:
             charts.bar_chart(
-                ws, title="Fleet present cost by chemistry",
+                ws, title="Fleet present cost, each chemistry wherever it can serve",
                 categories=Reference(ws, min_col=4, min_row=5, max_row=comp_end),
                 values=Reference(ws, min_col=5, min_row=5, max_row=comp_end),
                 y_title=f"Present cost [{cur}]", y_format=fmt["money"],
