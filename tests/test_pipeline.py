@@ -117,3 +117,15 @@ def test_study_with_a_user_csv_climate_in_fahrenheit(tmp_path):
     assert result.exit_code == 0, result.output
     site = json.loads((tmp_path / "p.json").read_text())["sites"][0]
     assert site["temperature"]["air_mean_c"] == pytest.approx(25.0, abs=0.05)
+
+
+def test_forcing_a_chemistry_never_lowers_the_fleet_cost(quick_run):
+    # Optimizer issue, behaviour check: restricting the choice can never beat the free optimum
+    # (a property of minimisation; the quick study solves to a proven 0 % gap).
+    _, out = quick_run
+    plan = json.loads((out / "q.json").read_text())
+    best = plan["total_present_cost"]
+    for row in plan["chemistry_comparison"]:
+        assert row["total_with_others_present_cost"] >= best * (1 - 1e-6)
+    assert min(r["total_with_others_present_cost"] for r in plan["chemistry_comparison"]) \
+        == pytest.approx(best, rel=1e-6)
