@@ -127,6 +127,6 @@ def test_forcing_a_chemistry_never_lowers_the_fleet_cost(quick_run):
     best = plan["total_present_cost"]
     for row in plan["chemistry_comparison"]:
         assert row["total_with_others_present_cost"] >= best * (1 - 1e-6)
-        # ... and the like-for-like total never exceeds the strict one plus nothing: serving
-        # fewer sites strictly can only cost less than serving all of them.
+        # Serving only the sites a chemistry can serve never costs more than serving them
+        # plus the others (every site's present cost is non-negative).
         assert row["total_present_cost"] <= row["total_with_others_present_cost"] * (1 + 1e-6)
