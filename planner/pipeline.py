@@ -12,7 +12,6 @@ its inputs.
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 import numpy as np
 

@@ -20,7 +20,6 @@ import pandas as pd
 from planner.errors import InputError
 from planner.schema import (
     NAMED_SECTIONS,
-    REQUIRED,
     SECTIONS,
     SITE_COLUMNS,
     Field,

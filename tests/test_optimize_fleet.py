@@ -1,13 +1,11 @@
 """Fleet optimizer checks against published/computed vectors, brute force and
 properties that follow from the model (sources beside each check)."""
 
-import math
 from dataclasses import replace
 
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from planner import economics as ec
 from planner.errors import InputError
 from planner.optimize import (
     Candidate, ExistingPack, FleetProblem, SiteOptions, compare_chemistries, sensitivity, solve_fleet,

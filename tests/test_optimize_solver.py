@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from planner.optimize import FleetProblem, solve_fleet
+from planner.optimize import solve_fleet
 from planner.optimize.solver import gap, pick_solver, solve_milp
 
 from test_optimize_fleet import orp, orp_site

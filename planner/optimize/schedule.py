@@ -97,7 +97,6 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
                  rate: float, residual_value: bool = True) -> SiteGraphs:
     """Arcs and their costs for every site of ``sites`` with its screened candidates."""
     h = int(horizon_years)
-    n_sites = len(sites)
     c_fail = np.array([failure_cost(s) for s in sites], dtype=float)
     pair_site = np.array([i for i, cs in enumerate(cands) for _ in cs], dtype=np.int64)
     pair_cand = [c for cs in cands for c in cs]
