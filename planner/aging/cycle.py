@@ -53,8 +53,10 @@ def naumann2020_coefficient(c_rate, doc_frac, *, a, b, doc_c, doc_d, **_):
     Naumann, M., Spingler, F. B., Jossen, A. (2020), Analysis and modeling of cycle aging
     of a commercial LiFePO4/graphite cell, J. Power Sources 451, 227666; from memory).
     """
-    doc = np.asarray(doc_frac, dtype=float)
-    return (a * np.asarray(c_rate, dtype=float) + b) * (doc_c * (doc - 0.6) ** 3 + doc_d) / 100.0
+    shift = np.asarray(doc_frac, dtype=float) - 0.6
+    # shift * shift * shift, not shift ** 3: numpy's power by 3 calls pow() per element,
+    # about 20x slower, and this runs once per counted cycle.
+    return (a * np.asarray(c_rate, dtype=float) + b) * (doc_c * (shift * shift * shift) + doc_d) / 100.0
 
 
 def naumann2020_cycle_loss(c_rate, doc_frac, full_equivalent_cycles, **params):
@@ -169,7 +171,7 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
         # Coefficient convention, as Wang et al. 2011 apply their Arrhenius term.
         k = naumann2020_coefficient(c_rate, depth, **p) * arrhenius_factor(
             temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
-        return k ** 2 * n * depth, 0.5
+        return k * k * n * depth, 0.5
     if model == "schmalstieg2014_cycle":
         volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
         # Depth and throughput relative to the capacity usable at the charge voltage: the

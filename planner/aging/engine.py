@@ -33,7 +33,8 @@ import numpy as np
 
 from planner.aging.calendar import calendar_rate_parts
 from planner.aging.cycle import cycle_exponent, cycle_state_increment
-from planner.aging.rainflow import extract_cycles_lanes
+from planner.aging import kernels
+from planner.aging.rainflow import Cycles, extract_cycles_lanes
 from planner.aging.superposition import loss_from_state, repeat_year, state_from_loss
 from planner.chemistry import AgingParams, Chemistry, get_chemistry
 
@@ -243,8 +244,110 @@ def _tabulated(func, x, bounds, step):
     return table[scaled.astype(np.intp)]
 
 
-def _as_lanes(name, values, n_hours, n_lanes=None):
-    arr = np.asarray(values, dtype=float)
+def _lookup_table(func, bounds, step):
+    """``func`` at the bin centres ``lo + step * i`` of a lookup table over ``bounds``."""
+    lo, hi = bounds
+    size = int(round((hi - lo) / step)) + 1
+    return np.asarray(func(lo + step * np.arange(size)), dtype=float)
+
+
+def _calendar_numpy(cal_monthly, ch, soc_by_lane, soc_part, soc_bin_frac, rate_row, temp_rate_site):
+    """Monthly calendar state increments of the lanes ``ch`` (numpy path), in place."""
+    rate = _tabulated(soc_part, soc_by_lane, _SOC_TABLE, soc_bin_frac)
+    # sum_h soc_part * temp_part * [month]: the temperature part goes into a per-site
+    # (8760, 12) weight matrix, so each site's lanes need one matrix product and no
+    # elementwise pass over the hourly array.
+    for row in np.unique(rate_row):
+        lanes = np.flatnonzero(rate_row == row)
+        weights = temp_rate_site[row][:, None] * _MONTH_MATRIX
+        contiguous = lanes[-1] - lanes[0] + 1 == lanes.size
+        block = rate[lanes[0]:lanes[-1] + 1] if contiguous else rate[lanes]
+        cal_monthly[:, ch.start + lanes] = (block @ weights).T
+
+
+ENGINES = ("auto", "numba", "numpy", "python")
+"""Engines of :func:`age_lanes`: "auto" (numba when installed, else numpy), "numba",
+"numpy" (vectorised array passes) and "python" (the numba kernels run uncompiled, for
+tests: slow)."""
+
+
+def _use_kernel(engine):
+    if engine not in ENGINES:
+        raise ValueError(f"engine must be one of {ENGINES}, got {engine!r}")
+    if engine == "numba" and not kernels.AVAILABLE:
+        raise ValueError("engine 'numba' needs the numba package (pip install '.[fast]')")
+    return engine in ("numba", "python") or (engine == "auto" and kernels.AVAILABLE)
+
+
+@dataclass(frozen=True)
+class _Sweep:
+    cal_monthly: np.ndarray
+    efc: np.ndarray
+    hours_on: np.ndarray
+    discharge_monthly: np.ndarray
+    cycles: Cycles | None
+
+
+def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin_frac,
+                  do_cycles, compiled):
+    """The kernels of :mod:`planner.aging.kernels` on the lanes ``ch``."""
+    fn = (lambda k: k) if compiled else kernels.python_function
+    n_chunk = ch.stop - ch.start
+    has_current = current is not None
+    cur = current if has_current else np.zeros((1, 1))
+    if soc_table is None:
+        table, lo, hi, offset, inv = np.zeros(1), 0.0, 0.0, 0.0, 0.0
+    else:
+        lo, hi = _SOC_TABLE
+        # The same arithmetic as _tabulated, so each hour falls in the same bin.
+        table, offset, inv = soc_table, lo - 0.5 * soc_bin_frac, 1.0 / soc_bin_frac
+    capacity = kernels.REVERSAL_CAPACITY if do_cycles else 0
+    cal, dis = np.zeros((n_chunk, 12)), np.zeros((n_chunk, 12))
+    efc, hours_on = np.zeros(n_chunk), np.zeros(n_chunk, np.int64)
+    rev_v, rev_i = np.empty((n_chunk, capacity)), np.empty((n_chunk, capacity), np.int64)
+    n_rev = np.zeros(n_chunk, np.int64)
+    rate_hourly = np.ascontiguousarray(temp_rate_site.T)
+    if soc.flags.f_contiguous and not soc.flags.c_contiguous:
+        # Stored lane by lane: sweep each lane along its own contiguous year.
+        cur_t = np.ascontiguousarray(cur.T)
+        fn(kernels.lane_sweep)(
+            soc.T, cur_t, ch.start, ch.stop, has_current, soc_table is not None, do_cycles,
+            rate_row, rate_hourly, table, lo, hi, offset, inv, MONTH_OF_HOUR, cal, efc,
+            hours_on, dis, rev_v, rev_i, n_rev)
+    else:
+        # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
+        n_groups = min(kernels.thread_count(), n_chunk) if compiled else 1
+        fn(kernels.hour_sweep)(
+            np.ascontiguousarray(soc), np.ascontiguousarray(cur), ch.start, ch.stop, n_groups,
+            has_current, soc_table is not None, do_cycles, rate_row, rate_hourly, table, lo, hi,
+            offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev)
+    cycles = None
+    if do_cycles:
+        # Room for n_rev + 1 cycles per lane (a periodic count emits at most that many).
+        stored = np.where(n_rev <= capacity, n_rev + 1, 0)
+        offsets = np.cumsum(stored) - stored
+        total = int(stored.sum())
+        flat = (np.empty(total), np.empty(total), np.empty(total), np.empty(total, np.int64),
+                np.empty(total, np.int64))
+        n_cycles = np.zeros(n_chunk, np.int64)
+        fn(kernels.cycles_pass)(rev_v, rev_i, n_rev, True, offsets, *flat, n_cycles)
+        del rev_v, rev_i
+        keep = np.arange(total) < np.repeat(offsets + n_cycles, stored)
+        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + tuple(f[keep] for f in flat)]
+        for r in np.flatnonzero(n_rev > capacity):
+            # Rare: more reversals than the sweep stored; count this lane on its own column.
+            one = fn(kernels.lane_cycles)(np.ascontiguousarray(soc[:, ch.start + r], dtype=float),
+                                          True)
+            parts.append((np.full(one[0].size, r),) + tuple(one))
+        cycles = Cycles(*(np.concatenate([p[k] for p in parts]) for k in range(6)))
+    return _Sweep(cal, efc, hours_on, dis, cycles)
+
+
+def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
+    arr = np.asarray(values)
+    # The kernels read float32 as is (widening each value exactly): no float64 copy.
+    if not (keep_float32 and arr.dtype == np.float32):
+        arr = np.asarray(arr, dtype=float)
     if arr.ndim == 1:
         arr = arr[:, None]
     if arr.ndim != 2 or arr.shape[0] != n_hours:
@@ -258,7 +361,7 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
               horizon_years, *, initial_state: AgingState | None = None, peak_c_rate=None,
               lane_site=None, aging_set: str | None = None, overrides=None,
               rate_bin_k: float | None = 0.01, soc_bin_frac: float | None = 0.0001,
-              chunk_lanes: int = 1024) -> FadeResult:
+              chunk_lanes: int = 1024, engine: str = "auto") -> FadeResult:
     """Calendar and cycle fade of each lane over ``horizon_years`` repetitions of a typical year.
 
     Parameters
@@ -290,6 +393,10 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         Bin widths of the rate lookup tables (None: evaluate exactly per hour).
     chunk_lanes : int
         Lanes processed together (bounds the temporaries).
+    engine : {"auto", "numba", "numpy", "python"}
+        "auto": the compiled kernels of :mod:`planner.aging.kernels` when numba is
+        installed, else the numpy path; both give the same cycles and the same bins
+        (sums agree to rounding). "python" runs the kernels uncompiled (tests only).
 
     Returns
     -------
@@ -300,7 +407,8 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     horizon = int(horizon_years)
     if horizon < 1:
         raise ValueError(f"horizon_years must be >= 1, got {horizon_years}")
-    soc = _as_lanes("soc_frac", soc_frac, HOURS_PER_YEAR)
+    use_kernel = _use_kernel(engine)
+    soc = _as_lanes("soc_frac", soc_frac, HOURS_PER_YEAR, keep_float32=use_kernel)
     n_lanes = soc.shape[1]
     temp = _as_lanes("temp_battery_c", temp_battery_c, HOURS_PER_YEAR)
     if lane_site is None:
@@ -311,61 +419,78 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     if lane_site.shape != (n_lanes,) or lane_site.min() < 0 or lane_site.max() >= temp.shape[1]:
         raise ValueError("lane_site must hold one valid temperature column per lane")
     current = None if current_c_rate is None else _as_lanes(
-        "current_c_rate", current_c_rate, HOURS_PER_YEAR, n_lanes)
+        "current_c_rate", current_c_rate, HOURS_PER_YEAR, n_lanes, keep_float32=use_kernel)
     charge_v = np.broadcast_to(np.asarray(charge_voltage_v_per_cell, dtype=float), (n_lanes,))
     peak = None if peak_c_rate is None else np.broadcast_to(
         np.asarray(peak_c_rate, dtype=float), (n_lanes,))
 
     temp_part, soc_part, cal_exp = calendar_rate_parts(params.calendar_model, params.calendar, chem)
-    # Temperature part once per site (lanes of a site share it), sites x hours.
-    temp_rate_site = np.ascontiguousarray(_tabulated(temp_part, temp, _TEMP_TABLE_C, rate_bin_k).T)
+    # Temperature part once per site that has lanes here (lanes of a site share it), as
+    # rows: sites x hours; ``rate_row`` is each lane's row.
+    used_sites, rate_row = np.unique(lane_site, return_inverse=True)
+    temp_rate_site = np.ascontiguousarray(
+        _tabulated(temp_part, temp[:, used_sites], _TEMP_TABLE_C, rate_bin_k).T)
+    rate_row = rate_row.astype(np.intp)
     cal_monthly = np.empty((12, n_lanes))
     cyc_monthly = np.zeros((12, n_lanes))
     efc = np.zeros(n_lanes)
     if soc_part is None:
-        cal_monthly[:] = (temp_rate_site @ _MONTH_MATRIX)[lane_site].T
+        cal_monthly[:] = (temp_rate_site @ _MONTH_MATRIX)[rate_row].T
     cyc_exp = cycle_exponent(params.cycle_model)
+    compiled = engine != "python"
+    soc_table = None
+    if use_kernel and soc_part is not None and soc_bin_frac is not None:
+        soc_table = _lookup_table(soc_part, _SOC_TABLE, soc_bin_frac)
+    primary = params.cycle_model == "primary_load_charge"
     step = max(int(chunk_lanes), 1)
     for start in range(0, n_lanes, step):
         ch = slice(start, min(start + step, n_lanes))
         n_chunk = ch.stop - ch.start
-        sites = lane_site[ch]
-        # Lanes x hours, contiguous in time: one copy serves the rate and the rainflow.
-        soc_by_lane = np.ascontiguousarray(soc[:, ch].T)
-        if soc_part is not None:
-            rate = _tabulated(soc_part, soc_by_lane, _SOC_TABLE, soc_bin_frac)
-            # sum_h soc_part * temp_part * [month]: the temperature part goes into a per-site
-            # (8760, 12) weight matrix, so each site's lanes need one matrix product and no
-            # elementwise pass over the hourly array.
-            for site in np.unique(sites):
-                rows = np.flatnonzero(sites == site)
-                weights = temp_rate_site[site][:, None] * _MONTH_MATRIX
-                contiguous = rows[-1] - rows[0] + 1 == rows.size
-                block = rate[rows[0]:rows[-1] + 1] if contiguous else rate[rows]
-                cal_monthly[:, start + rows] = (block @ weights).T
-            del rate
-        discharge = None
-        if current is not None:
-            cur = current[:, ch] if current.shape[1] > 1 else np.broadcast_to(
-                current, (HOURS_PER_YEAR, n_chunk))
-            discharge = np.maximum(cur, 0.0)
-            efc[ch] = discharge.sum(axis=0)
-        if params.cycle_model == "primary_load_charge":
+        discharge_monthly = None
+        if use_kernel:
+            sweep = _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table,
+                                  soc_bin_frac, not primary, compiled)
+            if soc_table is not None:
+                cal_monthly[:, ch] = sweep.cal_monthly.T
+            elif soc_part is not None:
+                _calendar_numpy(cal_monthly, ch, np.ascontiguousarray(soc[:, ch].T), soc_part,
+                                soc_bin_frac, rate_row[ch], temp_rate_site)
+            efc[ch] = sweep.efc
+            hours_on = sweep.hours_on
+            discharge_monthly = sweep.discharge_monthly
+            cycles = sweep.cycles
+        else:
+            # Lanes x hours, contiguous in time: one copy serves the rate and the rainflow.
+            soc_by_lane = np.ascontiguousarray(soc[:, ch].T)
+            if soc_part is not None:
+                _calendar_numpy(cal_monthly, ch, soc_by_lane, soc_part, soc_bin_frac,
+                                rate_row[ch], temp_rate_site)
+            hours_on = None
+            if current is not None:
+                cur = current[:, ch] if current.shape[1] > 1 else np.broadcast_to(
+                    current, (HOURS_PER_YEAR, n_chunk))
+                discharge = np.maximum(cur, 0.0)
+                efc[ch] = discharge.sum(axis=0)
+                hours_on = np.count_nonzero(discharge, axis=0)
+                if primary:
+                    discharge_monthly = (_MONTH_MATRIX.T @ discharge).T
+            cycles = None if primary else extract_cycles_lanes(soc_by_lane, periodic=True,
+                                                               time_axis=1)
+            del soc_by_lane
+        if primary:
             # Primary cell: the load draws charge hour by hour; nothing is recharged.
-            if discharge is not None:
-                cyc_monthly[:, ch] = _MONTH_MATRIX.T @ discharge
+            if current is not None:
+                cyc_monthly[:, ch] = discharge_monthly.T
             continue
-        if discharge is not None:
-            hours_on = np.count_nonzero(discharge, axis=0)
+        if current is not None:
             c_rate = efc[ch] / np.maximum(hours_on, 1)
         else:
             c_rate = np.zeros(n_chunk)
         if peak is not None:
             c_rate = np.maximum(c_rate, peak[ch])
-        cycles = extract_cycles_lanes(soc_by_lane, periodic=True, time_axis=1)
-        del soc_by_lane
         if cycles.lane.size == 0:
             continue
+        sites = lane_site[ch]
         site_of_cycle = sites[cycles.lane]
         temp_cycle = 0.5 * (temp[cycles.i_start, site_of_cycle] + temp[cycles.i_end, site_of_cycle])
         inc, _ = cycle_state_increment(
