@@ -286,10 +286,12 @@ class _Sweep:
     hours_on: np.ndarray
     discharge_monthly: np.ndarray
     cycles: Cycles | None
+    cycle_temp_c: np.ndarray | None
+    cycle_month: np.ndarray | None
 
 
 def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin_frac,
-                  do_cycles, compiled):
+                  do_cycles, compiled, temp, lane_site):
     """The kernels of :mod:`planner.aging.kernels` on the lanes ``ch``."""
     fn = (lambda k: k) if compiled else kernels.python_function
     n_chunk = ch.stop - ch.start
@@ -312,7 +314,8 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
         cur_t = np.ascontiguousarray(cur.T)
         fn(kernels.lane_sweep)(
             soc.T, cur_t, ch.start, ch.stop, has_current, soc_table is not None, do_cycles,
-            rate_row, rate_hourly, table, lo, hi, offset, inv, MONTH_OF_HOUR, cal, efc,
+            rate_row, temp_rate_site, table, lo, hi, offset, inv,
+            np.append(MONTH_START_H, HOURS_PER_YEAR).astype(np.int64), cal, efc,
             hours_on, dis, rev_v, rev_i, n_rev)
     else:
         # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
@@ -332,15 +335,21 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
         n_cycles = np.zeros(n_chunk, np.int64)
         fn(kernels.cycles_pass)(rev_v, rev_i, n_rev, True, offsets, *flat, n_cycles)
         del rev_v, rev_i
-        keep = np.arange(total) < np.repeat(offsets + n_cycles, stored)
-        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + tuple(f[keep] for f in flat)]
+        cycle_temp, cycle_month = np.empty(total), np.empty(total, np.int64)
+        kept = fn(kernels.compact_cycles)(offsets, n_cycles, *flat, ch.start, lane_site, temp,
+                                          MONTH_OF_HOUR, cycle_temp, cycle_month)
+        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + tuple(f[:kept] for f in flat)
+                 + (cycle_temp[:kept], cycle_month[:kept])]
         for r in np.flatnonzero(n_rev > capacity):
             # Rare: more reversals than the sweep stored; count this lane on its own column.
             one = fn(kernels.lane_cycles)(np.ascontiguousarray(soc[:, ch.start + r], dtype=float),
                                           True)
-            parts.append((np.full(one[0].size, r),) + tuple(one))
-        cycles = Cycles(*(np.concatenate([p[k] for p in parts]) for k in range(6)))
-    return _Sweep(cal, efc, hours_on, dis, cycles)
+            site = lane_site[ch.start + r]
+            parts.append((np.full(one[0].size, r),) + tuple(one)
+                         + (0.5 * (temp[one[3], site] + temp[one[4], site]), MONTH_OF_HOUR[one[4]]))
+        joined = [np.concatenate([p[k] for p in parts]) for k in range(8)]
+        return _Sweep(cal, efc, hours_on, dis, Cycles(*joined[:6]), joined[6], joined[7])
+    return _Sweep(cal, efc, hours_on, dis, None, None, None)
 
 
 def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
@@ -449,7 +458,7 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         discharge_monthly = None
         if use_kernel:
             sweep = _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table,
-                                  soc_bin_frac, not primary, compiled)
+                                  soc_bin_frac, not primary, compiled, temp, lane_site)
             if soc_table is not None:
                 cal_monthly[:, ch] = sweep.cal_monthly.T
             elif soc_part is not None:
@@ -458,7 +467,7 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
             efc[ch] = sweep.efc
             hours_on = sweep.hours_on
             discharge_monthly = sweep.discharge_monthly
-            cycles = sweep.cycles
+            cycles, cycle_temp, cycle_month = sweep.cycles, sweep.cycle_temp_c, sweep.cycle_month
         else:
             # Lanes x hours, contiguous in time: one copy serves the rate and the rainflow.
             soc_by_lane = np.ascontiguousarray(soc[:, ch].T)
@@ -490,13 +499,14 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
             c_rate = np.maximum(c_rate, peak[ch])
         if cycles.lane.size == 0:
             continue
-        sites = lane_site[ch]
-        site_of_cycle = sites[cycles.lane]
-        temp_cycle = 0.5 * (temp[cycles.i_start, site_of_cycle] + temp[cycles.i_end, site_of_cycle])
+        if not use_kernel:
+            site_of_cycle = lane_site[ch][cycles.lane]
+            cycle_temp = 0.5 * (temp[cycles.i_start, site_of_cycle] + temp[cycles.i_end, site_of_cycle])
+            cycle_month = MONTH_OF_HOUR[cycles.i_end]
         inc, _ = cycle_state_increment(
             params.cycle_model, params.cycle, chem, cycles.range_, cycles.mean, cycles.count,
-            temp_cycle, c_rate[cycles.lane], charge_v[ch][cycles.lane])
-        key = cycles.lane * 12 + MONTH_OF_HOUR[cycles.i_end]
+            cycle_temp, c_rate[cycles.lane], charge_v[ch][cycles.lane])
+        key = cycles.lane * 12 + cycle_month
         cyc_monthly[:, ch] = np.bincount(key, weights=inc, minlength=12 * n_chunk).reshape(n_chunk, 12).T
 
     if initial_state is None:

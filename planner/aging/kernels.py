@@ -142,9 +142,14 @@ def cycles_from_reversals(rv, ri, m, periodic, o_range, o_mean, o_count, o_i0, o
                 start = k
         rot_v = np.empty(m + 1)
         rot_i = np.empty(m + 1, dtype=np.int64)
-        for k in range(m + 1):
-            rot_v[k] = rv[(start + k) % m]
-            rot_i[k] = ri[(start + k) % m]
+        for k in range(m - start):  # rv[start:], rv[:start], rv[start] (no modulo per point)
+            rot_v[k] = rv[start + k]
+            rot_i[k] = ri[start + k]
+        for k in range(start):
+            rot_v[m - start + k] = rv[k]
+            rot_i[m - start + k] = ri[k]
+        rot_v[m] = rv[start]
+        rot_i[m] = ri[start]
         m = reversals_into(rot_v, m + 1, seq_v, seq_i)
         for k in range(m):
             seq_i[k] = rot_i[seq_i[k]]
@@ -322,14 +327,16 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
 
 
 def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_calendar,
-               do_cycles, lane_rate_row, temp_rate_hourly, soc_table, soc_lo, soc_hi, soc_offset,
-               soc_inv_step, month_of_hour, cal_monthly, efc, hours_on, discharge_monthly,
+               do_cycles, lane_rate_row, temp_rate_site, soc_table, soc_lo, soc_hi, soc_offset,
+               soc_inv_step, month_start_h, cal_monthly, efc, hours_on, discharge_monthly,
                rev_v, rev_i, n_rev):
     """:func:`hour_sweep` for inputs stored lane by lane (lanes x hours, each lane contiguous).
 
     Same outputs from the same arithmetic; used when the caller's hourly arrays are
     column-major (Fortran order), where reading hour rows would jump a lane's length per value.
-    ``current_by_lane`` is (n_lanes, n_hours) or (1, n_hours) (shared by every lane).
+    ``current_by_lane`` is (n_lanes, n_hours) or (1, n_hours) (shared by every lane);
+    ``month_start_h`` (13,) holds each month's first hour and the year's length;
+    ``temp_rate_site`` is (n_rows, n_hours), the transpose of ``temp_rate_hourly``.
     """
     n_hours = soc_by_lane.shape[1]
     shared_current = current_by_lane.shape[0] == 1
@@ -337,22 +344,25 @@ def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_c
         lane = lane_lo + r
         x = soc_by_lane[lane]
         if do_calendar:
-            row = lane_rate_row[lane]
-            for h in range(n_hours):
-                v = min(max(float(x[h]), soc_lo), soc_hi)
-                cal_monthly[r, month_of_hour[h]] += (soc_table[int((v - soc_offset) * soc_inv_step)]
-                                                     * temp_rate_hourly[h, row])
+            rate = temp_rate_site[lane_rate_row[lane]]
+            for month in range(12):
+                acc = 0.0  # a local sum: no store-to-load chain through memory per hour
+                for h in range(month_start_h[month], month_start_h[month + 1]):
+                    v = min(max(float(x[h]), soc_lo), soc_hi)
+                    acc += soc_table[int((v - soc_offset) * soc_inv_step)] * rate[h]
+                cal_monthly[r, month] = acc
         if has_current:
             c = current_by_lane[0] if shared_current else current_by_lane[lane]
             on = 0
-            for h in range(n_hours):
-                d = float(c[h])
-                if d > 0.0:
-                    discharge_monthly[r, month_of_hour[h]] += d
-                    on += 1
             total = 0.0
             for month in range(12):
-                total += discharge_monthly[r, month]
+                acc = 0.0
+                for h in range(month_start_h[month], month_start_h[month + 1]):
+                    d = float(c[h])
+                    acc += d if d > 0.0 else 0.0
+                    on += 1 if d > 0.0 else 0
+                discharge_monthly[r, month] = acc
+                total += acc
             efc[r] = total
             hours_on[r] = on
         if do_cycles:
@@ -374,6 +384,32 @@ def cycles_pass(rev_v, rev_i, n_rev, periodic, offsets, o_range, o_mean, o_count
             n_cycles[r] = end - offsets[r]
 
 
+def compact_cycles(offsets, n_cycles, o_range, o_mean, o_count, o_i0, o_i1, lane_lo, lane_site,
+                   temp_c, month_of_hour, o_temp, o_month):
+    """Close the gaps between the lanes' cycle runs of :func:`cycles_pass`, in place, and
+    give each cycle its temperature (mean of its two reversal hours at the lane's site,
+    ``temp_c`` shaped (n_hours, n_sites)) and the month of its end.
+
+    Returns the total number of cycles; they then fill the first positions, lane by lane.
+    """
+    at = 0
+    for r in range(offsets.shape[0]):
+        start = offsets[r]
+        site = lane_site[lane_lo + r]
+        for k in range(n_cycles[r]):  # at <= start + k: moving forward never overwrites
+            i0 = o_i0[start + k]
+            i1 = o_i1[start + k]
+            o_range[at] = o_range[start + k]
+            o_mean[at] = o_mean[start + k]
+            o_count[at] = o_count[start + k]
+            o_i0[at] = i0
+            o_i1[at] = i1
+            o_temp[at] = 0.5 * (temp_c[i0, site] + temp_c[i1, site])
+            o_month[at] = month_of_hour[i1]
+            at += 1
+    return at
+
+
 if AVAILABLE:
     # Module globals are rebound to the compiled versions, so compiled callers call
     # compiled callees; each keeps its plain-Python original as ``py_func``.
@@ -384,6 +420,7 @@ if AVAILABLE:
     hour_sweep = _numba.njit(cache=True, parallel=True)(hour_sweep)
     lane_sweep = _numba.njit(cache=True, parallel=True)(lane_sweep)
     cycles_pass = _numba.njit(cache=True, parallel=True)(cycles_pass)
+    compact_cycles = _numba.njit(cache=True)(compact_cycles)
 
 
 def python_function(kernel):
