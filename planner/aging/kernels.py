@@ -46,6 +46,9 @@ REVERSAL_CAPACITY = 4096
 """Reversals stored per lane by the hour sweep (a year of daily cycles has ~730); a lane
 with more is counted again on its own column (:func:`lane_cycles`)."""
 
+STAGE = 16
+"""Reversals staged per lane in :func:`hour_sweep` before they are written out together."""
+
 prange = _numba.prange if AVAILABLE else range  # numba.prange is range when interpreted
 
 
@@ -205,6 +208,18 @@ def lane_cycles(x, periodic):
     return o_range[:k], o_mean[:k], o_count[:k], o_i0[:k], o_i1[:k]
 
 
+def _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r):
+    # Append lane q's staged reversals to row r (those beyond the capacity are only counted).
+    capacity = rev_v.shape[1]
+    k = n_rev[r]
+    for t in range(fill[q]):
+        if k + t < capacity:
+            rev_v[r, k + t] = stage_v[q, t]
+            rev_i[r, k + t] = stage_i[q, t]
+    n_rev[r] = k + fill[q]
+    fill[q] = 0
+
+
 def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calendar, do_cycles,
                lane_rate_row, temp_rate_hourly, soc_table, soc_lo, soc_hi, soc_offset,
                soc_inv_step, month_of_hour, cal_monthly, efc, hours_on, discharge_monthly,
@@ -280,35 +295,43 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                         acc[q] += d if d > 0.0 else 0.0
                         on[q] += 1 if d > 0.0 else 0
         if do_cycles and n_hours >= 2:
-            # rainflow.reversals, hour by hour for all lanes of the group: ``value`` is each
-            # lane's last distinct point, ``d_last`` the last non-zero step into it.
-            value = np.empty(w)
+            # rainflow.reversals for all lanes of the group, hour by hour. The package's
+            # "last distinct point" always equals the previous hour's value (a zero step
+            # leaves it unchanged because it is equal), so each lane carries only its last
+            # non-zero step. Reversals are staged STAGE at a time per lane (the stage stays
+            # in cache) and then written as one run: a store per reversal straight into the
+            # lane's row would land a page away from the previous lane's every time.
             d_last = np.empty(w)
+            turned = np.zeros(w, dtype=np.int8)
+            stage_v = np.empty((w, STAGE))
+            stage_i = np.empty((w, STAGE), dtype=np.int64)
+            fill = np.zeros(w, dtype=np.int64)
             for q in range(w):
                 rev_v[r0 + q, 0] = soc[0, first + q]
                 rev_i[r0 + q, 0] = 0
                 n_rev[r0 + q] = 1
-                value[q] = soc[1, first + q]
-                d_last[q] = value[q] - float(soc[0, first + q])
+                d_last[q] = float(soc[1, first + q]) - float(soc[0, first + q])
             for h in range(2, n_hours):
                 x_row = soc[h, first:first + w]
-                # First a reduction alone (vectorises): does any lane turn at hour h - 1?
+                p_row = soc[h - 1, first:first + w]
                 turns = 0
-                for q in range(w):
-                    turns += 1 if d_last[q] * (float(x_row[q]) - value[q]) < 0 else 0
+                for q in range(w):  # branch-free, so it runs along the lanes at full speed
+                    d = float(x_row[q]) - float(p_row[q])
+                    dl = d_last[q]
+                    t = 1 if dl * d < 0 else 0
+                    turned[q] = t
+                    turns += t
+                    d_last[q] = d if d != 0.0 else dl
                 if turns:
                     for q in range(w):
-                        if d_last[q] * (float(x_row[q]) - value[q]) < 0:
-                            k = n_rev[r0 + q]
-                            if k < capacity:
-                                rev_v[r0 + q, k] = value[q]
-                                rev_i[r0 + q, k] = h - 1
-                            n_rev[r0 + q] = k + 1
-                for q in range(w):  # a zero step (plateau) keeps the point and the last step
-                    x = float(x_row[q])
-                    d = x - value[q]
-                    value[q] = x if d != 0.0 else value[q]
-                    d_last[q] = d if d != 0.0 else d_last[q]
+                        if turned[q]:
+                            stage_v[q, fill[q]] = p_row[q]
+                            stage_i[q, fill[q]] = h - 1
+                            fill[q] += 1
+                            if fill[q] == STAGE:
+                                _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
+            for q in range(w):
+                _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
             if n_hours >= 3:
                 for q in range(w):
                     k = n_rev[r0 + q]
@@ -415,6 +438,7 @@ if AVAILABLE:
     # compiled callees; each keeps its plain-Python original as ``py_func``.
     reversals_into = _numba.njit(cache=True)(reversals_into)
     _emit = _numba.njit(cache=True)(_emit)
+    _flush = _numba.njit(cache=True)(_flush)
     cycles_from_reversals = _numba.njit(cache=True)(cycles_from_reversals)
     lane_cycles = _numba.njit(cache=True)(lane_cycles)
     hour_sweep = _numba.njit(cache=True, parallel=True)(hour_sweep)
