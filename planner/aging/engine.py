@@ -335,11 +335,13 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
         n_cycles = np.zeros(n_chunk, np.int64)
         fn(kernels.cycles_pass)(rev_v, rev_i, n_rev, True, offsets, *flat, n_cycles)
         del rev_v, rev_i
-        cycle_temp, cycle_month = np.empty(total), np.empty(total, np.int64)
-        kept = fn(kernels.compact_cycles)(offsets, n_cycles, *flat, ch.start, lane_site, temp,
-                                          MONTH_OF_HOUR, cycle_temp, cycle_month)
-        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + tuple(f[:kept] for f in flat)
-                 + (cycle_temp[:kept], cycle_month[:kept])]
+        kept = int(n_cycles.sum())
+        packed = (np.empty(kept), np.empty(kept), np.empty(kept), np.empty(kept, np.int64),
+                  np.empty(kept, np.int64), np.empty(kept), np.empty(kept, np.int64))
+        fn(kernels.compact_cycles)(offsets, n_cycles, np.cumsum(n_cycles) - n_cycles, *flat,
+                                   ch.start, lane_site, temp, MONTH_OF_HOUR, *packed)
+        del flat
+        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + packed]
         for r in np.flatnonzero(n_rev > capacity):
             # Rare: more reversals than the sweep stored; count this lane on its own column.
             one = fn(kernels.lane_cycles)(np.ascontiguousarray(soc[:, ch.start + r], dtype=float),

@@ -407,30 +407,30 @@ def cycles_pass(rev_v, rev_i, n_rev, periodic, offsets, o_range, o_mean, o_count
             n_cycles[r] = end - offsets[r]
 
 
-def compact_cycles(offsets, n_cycles, o_range, o_mean, o_count, o_i0, o_i1, lane_lo, lane_site,
-                   temp_c, month_of_hour, o_temp, o_month):
-    """Close the gaps between the lanes' cycle runs of :func:`cycles_pass`, in place, and
-    give each cycle its temperature (mean of its two reversal hours at the lane's site,
-    ``temp_c`` shaped (n_hours, n_sites)) and the month of its end.
+def compact_cycles(offsets, n_cycles, dest, o_range, o_mean, o_count, o_i0, o_i1, lane_lo,
+                   lane_site, temp_c, month_of_hour, c_range, c_mean, c_count, c_i0, c_i1,
+                   c_temp, c_month):
+    """Gather the lanes' cycle runs of :func:`cycles_pass` into gap-free arrays ``c_*``.
 
-    Returns the total number of cycles; they then fill the first positions, lane by lane.
+    Lane r's ``n_cycles[r]`` cycles move from ``offsets[r]`` to ``dest[r]`` (the running
+    sum of ``n_cycles``), lanes in parallel. Each cycle also gets its temperature (mean of
+    its two reversal hours at the lane's site, ``temp_c`` shaped (n_hours, n_sites)) and
+    the month of its end.
     """
-    at = 0
-    for r in range(offsets.shape[0]):
-        start = offsets[r]
+    for r in prange(offsets.shape[0]):
         site = lane_site[lane_lo + r]
-        for k in range(n_cycles[r]):  # at <= start + k: moving forward never overwrites
-            i0 = o_i0[start + k]
-            i1 = o_i1[start + k]
-            o_range[at] = o_range[start + k]
-            o_mean[at] = o_mean[start + k]
-            o_count[at] = o_count[start + k]
-            o_i0[at] = i0
-            o_i1[at] = i1
-            o_temp[at] = 0.5 * (temp_c[i0, site] + temp_c[i1, site])
-            o_month[at] = month_of_hour[i1]
-            at += 1
-    return at
+        for k in range(n_cycles[r]):
+            src = offsets[r] + k
+            at = dest[r] + k
+            i0 = o_i0[src]
+            i1 = o_i1[src]
+            c_range[at] = o_range[src]
+            c_mean[at] = o_mean[src]
+            c_count[at] = o_count[src]
+            c_i0[at] = i0
+            c_i1[at] = i1
+            c_temp[at] = 0.5 * (temp_c[i0, site] + temp_c[i1, site])
+            c_month[at] = month_of_hour[i1]
 
 
 if AVAILABLE:
@@ -444,7 +444,7 @@ if AVAILABLE:
     hour_sweep = _numba.njit(cache=True, parallel=True)(hour_sweep)
     lane_sweep = _numba.njit(cache=True, parallel=True)(lane_sweep)
     cycles_pass = _numba.njit(cache=True, parallel=True)(cycles_pass)
-    compact_cycles = _numba.njit(cache=True)(compact_cycles)
+    compact_cycles = _numba.njit(cache=True, parallel=True)(compact_cycles)
 
 
 def python_function(kernel):
