@@ -1,9 +1,14 @@
 """Benchmark: hourly SOC recursion over 8,760 h for a fleet of lanes (sites x designs).
 
-Prints wall time, lanes per second and peak memory; asserts nothing. Target of issue 5:
-100,000 lanes in <= 10 s on the project machine (2 shared cores).
+Prints wall time, CPU time and peak memory of each hour loop; asserts nothing. Target of
+issue 5: 100,000 lanes in <= 10 s on the project machine (2 shared cores).
 
-    python benchmarks/bench_soc.py [n_sites] [designs_per_site] [chunk_lanes]
+    python benchmarks/bench_soc.py [n_sites] [designs_per_site] [chunk_lanes] [--numpy-all]
+
+With numba installed the compiled loop runs the whole fleet; the numpy loop runs one chunk
+and is scaled to the fleet (``--numpy-all`` runs it on the whole fleet: about half a
+minute of CPU). Peak memory is the peak of numpy's traced allocations during the run
+(``tracemalloc``; numpy reports its buffers to it), on top of the inputs.
 """
 
 from __future__ import annotations
@@ -11,10 +16,11 @@ from __future__ import annotations
 import resource
 import sys
 import time
+import tracemalloc
 
 import numpy as np
 
-from planner.energy import soc
+from planner.energy import _soc_kernels, soc
 
 H = 8760
 
@@ -35,52 +41,64 @@ def fleet(n_sites: int, designs: int, seed: int = 0):
     return charge, load, temp, sd, site, cap
 
 
+def run(charge, load, temp, sd, site, cap, chunk, engine):
+    """Stream every chunk like the aging stage would; returns (wall, cpu, peak MiB, sums)."""
+    tracemalloc.start()
+    tracemalloc.reset_peak()
+    t0, c0 = time.perf_counter(), time.process_time()
+    unserved = energy_out = 0.0
+    for chunk_res in soc.iter_soc_chunks(
+            charge, load, cap, temp, usable_fraction=0.95, charge_efficiency_frac=0.95,
+            discharge_efficiency_frac=0.96, self_discharge_frac_per_h=sd,
+            max_charge_c_rate=0.5, charge_temp_min_c=0.0, min_soc_frac=0.2,
+            lane_site_index=site, chunk_lanes=chunk, series=True, engine=engine):
+        # a consumer (the aging stage) would read chunk_res.soc_frac here and drop it
+        unserved += chunk_res.summary.unserved_wh.sum()
+        energy_out += chunk_res.summary.energy_out_wh.sum()
+    wall, cpu = time.perf_counter() - t0, time.process_time() - c0
+    peak = tracemalloc.get_traced_memory()[1] / 2**20
+    tracemalloc.stop()
+    return wall, cpu, peak, unserved, energy_out
+
+
 def main(argv):
+    numpy_all = "--numpy-all" in argv
+    argv = [a for a in argv if a != "--numpy-all"]
     n_sites = int(argv[1]) if len(argv) > 1 else 1000
     designs = int(argv[2]) if len(argv) > 2 else 100
     chunk = int(argv[3]) if len(argv) > 3 else soc.DEFAULT_CHUNK_LANES
     charge, load, temp, sd, site, cap = fleet(n_sites, designs)
     n = cap.size
-    rss0 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    t0, c0 = time.perf_counter(), time.process_time()
-    total_unserved = 0.0
-    n_chunks = 0
-    for chunk_res in soc.iter_soc_chunks(
-            charge, load, cap, temp, usable_fraction=0.95, charge_efficiency_frac=0.95,
-            discharge_efficiency_frac=0.96, self_discharge_frac_per_h=sd,
-            max_charge_c_rate=0.5, charge_temp_min_c=0.0, min_soc_frac=0.2,
-            lane_site_index=site, chunk_lanes=chunk, series=True):
-        # a consumer (the aging stage) would read chunk_res.soc_frac here and drop it
-        total_unserved += chunk_res.summary.unserved_wh.sum()
-        n_chunks += 1
-    dt, cpu = time.perf_counter() - t0, time.process_time() - c0
-    rss1 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    engine = "numba-compiled" if soc._FUSED is not None else "numpy"
     print(f"lanes {n:,} ({n_sites} sites x {designs} designs), chunk {chunk}, "
-          f"{n_chunks} chunks, {engine} hour loop")
-    print(f"SOC recursion 8,760 h: {dt:.2f} s  ({n / dt:,.0f} lanes/s, "
-          f"{dt / n * 1e6:.1f} us/lane)")
-    print(f"peak RSS {rss1:,.0f} MiB (inputs and imports {rss0:,.0f} MiB)")
-    print(f"fleet unserved {total_unserved / 1000:,.1f} kWh/yr (sanity)")
-    print(f"CPU time {cpu:.2f} s (wall time above includes waiting for shared cores)")
+          f"{-(-n // chunk)} chunks, series streamed")
 
-    if soc._FUSED is None:
-        print("numba not installed: the numpy hour loop was timed")
-        return
-    # with numba installed the run above used the compiled loop; time the numpy loop on
-    # one chunk for the ratio (the first compiled call also paid the JIT/cache load)
-    k = min(n, chunk)
-    t0, c0 = time.perf_counter(), time.process_time()
-    for _ in soc.iter_soc_chunks(
-            charge, load, cap[:k], temp, usable_fraction=0.95, charge_efficiency_frac=0.95,
-            discharge_efficiency_frac=0.96, self_discharge_frac_per_h=sd,
-            max_charge_c_rate=0.5, charge_temp_min_c=0.0, min_soc_frac=0.2,
-            lane_site_index=site[:k], chunk_lanes=k, series=True, engine="numpy"):
-        pass
-    dt_np, cpu_np = time.perf_counter() - t0, time.process_time() - c0
-    print(f"numpy loop on {k:,} lanes: {dt_np:.2f} s wall / {cpu_np:.2f} s CPU "
-          f"-> {cpu_np / k * n:.1f} s CPU for all {n:,} lanes "
-          f"(numpy/compiled CPU ratio {cpu_np / k * n / cpu:.1f}x)")
+    if soc._FUSED is not None:
+        import numba
+        t0 = time.perf_counter()
+        _soc_kernels.compiled_kernel()
+        print(f"numba {numba.__version__}, {numba.get_num_threads()} threads: kernel "
+              f"compiled or loaded from cache in {time.perf_counter() - t0:.1f} s "
+              f"(once per process)")
+        wall, cpu, peak, uns, out = run(charge, load, temp, sd, site, cap, chunk, "auto")
+        print(f"compiled loop: {wall:.2f} s wall, {cpu:.2f} s CPU "
+              f"({n / wall:,.0f} lanes/s), peak traced memory {peak:,.0f} MiB")
+        print(f"  fleet unserved {uns / 1000:,.1f} kWh/yr, delivered {out / 1000:,.1f} "
+              f"kWh/yr (sanity)")
+    else:
+        print("numba not installed: only the numpy loop runs")
+
+    k = n if numpy_all or soc._FUSED is None else min(n, chunk)
+    wall, cpu, peak, uns, out = run(charge, load, temp, sd, site[:k], cap[:k], chunk,
+                                    "numpy")
+    scale = n / k
+    print(f"numpy loop on {k:,} lanes: {wall:.2f} s wall, {cpu:.2f} s CPU, peak traced "
+          f"memory {peak:,.0f} MiB" + ("" if k == n else
+                                       f" -> about {wall * scale:.1f} s wall / "
+                                       f"{cpu * scale:.1f} s CPU for all {n:,} lanes"))
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"process peak RSS {rss:,.0f} MiB (inputs, imports and both runs)")
+    print("CPU time counts both cores; wall time includes waiting for cores shared with "
+          "other jobs")
 
 
 if __name__ == "__main__":

@@ -45,10 +45,7 @@ import numpy as np
 
 from planner.errors import InputError
 
-try:  # optional accelerator: the same step compiled into one loop (about 4x less CPU)
-    import numba as _numba
-except ImportError:
-    _numba = None
+from planner.energy import _soc_kernels as _kernels
 
 HOURS_PER_YEAR = 8760
 
@@ -402,7 +399,7 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     the numpy loop).
     """
     if _FUSED is not None and p.get("engine") != "numpy":
-        return _run_chunk_fused(p, start, stop, keep, _FUSED)
+        return _run_chunk_fused(p, start, stop, keep, _kernels.compiled_kernel())
     k = stop - start
     n_hours = p["n_hours"]
     lane = slice(start, stop)
@@ -536,87 +533,10 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
                          soc_s, flow_s)
 
 
-def _fused_hours(charge, load, temp, sd, heater, avail, has_avail, col, cap, inv_cap, e_max,
-                 e_floor, dod_wh, a_max, eta_c, eta_d, inv_eta_d, charge_rate_f,
-                 discharge_rate_f, t_min, low_frac, e, sum_acc, sum_d, sum_sd,
-                 sum_sur, sum_dfc, n_uns, blk, sum_soc, min_soc, max_cr, longest,
-                 series_col, soc_s, cr_s, month_end, snap_dr, snap_dfc):
-    """The step of :func:`_run_chunk`, lane by lane, for compilation with numba.
-
-    Same arithmetic in the same order as the numpy recursion (the energy sums agree to
-    the last bit); the summaries that the numpy path takes from the float32 series in
-    bulk are kept here in float64 as the hours go, and series are written only for lanes
-    with ``series_col[j] >= 0``. Only ever run compiled, except on tiny inputs in tests.
-    Hourly inputs are ``(n_hours, n_columns)`` arrays (broadcast views are fine) read at
-    column ``col[j]``; state and accumulators are updated in place.
-    """
-    n_hours = month_end.shape[0]
-    k = e.shape[0]
-    snap = 0
-    day_max = np.full(k, -1.0)
-    run = np.zeros(k)
-    for t in range(n_hours):
-        day_end = (t + 1) % 24 == 0
-        for j in range(k):
-            c = col[j]
-            net = charge[t, c] - load[t, c]
-            if net > 0.0:
-                sum_sur[j] += net
-                if temp[t, c] >= t_min[j] or heater[t, c]:
-                    x = net * eta_c[j]
-                else:
-                    x = 0.0
-                    blk[j] += 1
-            else:
-                sum_dfc[j] -= net
-                x = net * inv_eta_d[j]     # multiplications: divisions stall the loop
-            if x > a_max[j]:
-                x = a_max[j]
-            ej = e[j]
-            loss = ej * sd[t, c]
-            ej -= loss
-            sum_sd[j] += loss
-            floor = cap[j] - avail[t, c] * dod_wh[j] if has_avail else e_floor[j]
-            lo = floor if floor < ej else ej
-            y = ej + x
-            if y < lo:
-                n_uns[j] += 1
-                y = lo
-            if y > e_max[j]:
-                y = e_max[j]
-            dd = y - ej
-            sum_d[j] += dd
-            if dd > 0.0:
-                sum_acc[j] += dd
-                rate = dd * charge_rate_f[j]
-            else:
-                rate = dd * discharge_rate_f[j]
-            e[j] = y
-            soc = y * inv_cap[j]
-            sum_soc[j] += soc
-            if soc < min_soc[j]:
-                min_soc[j] = soc
-            if abs(rate) > max_cr[j]:
-                max_cr[j] = abs(rate)
-            if soc > day_max[j]:
-                day_max[j] = soc
-            if day_end:
-                run[j] = run[j] + 1.0 if day_max[j] < low_frac[j] else 0.0
-                if run[j] > longest[j]:
-                    longest[j] = run[j]
-                day_max[j] = -1.0
-            s = series_col[j]
-            if s >= 0:
-                soc_s[t, s] = soc
-                cr_s[t, s] = rate
-        if month_end[t]:
-            for j in range(k):
-                snap_dr[snap, j] = sum_acc[j] - sum_d[j]
-                snap_dfc[snap, j] = sum_dfc[j]
-            snap += 1
-
-
-_FUSED = _numba.njit(cache=True)(_fused_hours) if _numba is not None else None
+#: The hour loop run lane block by lane block: plain Python (for tests on tiny inputs).
+_fused_hours = _kernels.block_hours
+#: The same loop compiled with numba (parallel over lane blocks), or ``None``.
+_FUSED = _kernels.BLOCK_KERNEL
 
 
 def _dense(h, n_hours: int, n_columns: int, dtype, fill):
@@ -632,7 +552,11 @@ def _dense(h, n_hours: int, n_columns: int, dtype, fill):
 
 
 def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
-    """:func:`_run_chunk` with the hour loop inside a compiled ``kernel``."""
+    """:func:`_run_chunk` with the hour loop inside ``kernel`` (compiled or plain Python).
+
+    ``kernel`` is :func:`planner.energy._soc_kernels.block_hours` or its compiled form;
+    it runs lane blocks in parallel and steps four lanes at a time.
+    """
     k = stop - start
     n_hours, n_columns = p["n_hours"], p["n_columns"]
     lane = slice(start, stop)
@@ -640,8 +564,7 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     eta_c, eta_d = p["eta_c"][lane], p["eta_d"][lane]
     col = (np.arange(start, stop) if p["site_idx"] is None
            else p["site_idx"][lane]).astype(np.int64)
-    e = np.minimum(p["soc0"][lane], usable) * cap
-    e_start = e.copy()
+    e_start = np.minimum(p["soc0"][lane], usable) * cap
     month_end = np.zeros(n_hours, dtype=bool)
     if n_hours == HOURS_PER_YEAR:
         month_end[np.cumsum([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31]) * 24 - 1] = True
@@ -649,10 +572,6 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
         month_end[-1] = True
     n_snap = int(month_end.sum())
     snap_dr, snap_dfc = np.zeros((n_snap, k)), np.zeros((n_snap, k))
-    sum_acc, sum_d, sum_sd, sum_sur, sum_dfc, sum_soc, max_cr, longest = (
-        np.zeros(k) for _ in range(8))
-    min_soc = np.full(k, np.inf)
-    n_uns, blk = np.zeros(k, dtype=np.int64), np.zeros(k, dtype=np.int64)
     series_col = np.full(k, -1, dtype=np.int64)
     if keep is not None:
         picked = np.arange(k)[keep]
@@ -660,20 +579,50 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     n_series = int((series_col >= 0).sum())
     soc_s = np.empty((n_hours, n_series), dtype=np.float32)
     cr_s = np.empty((n_hours, n_series), dtype=np.float32)
-    dense = [_dense(p[name], n_hours, n_columns, float, 0.0)
-             for name in ("charge", "load", "temp", "sd")]
-    heater = _dense(p["heater"], n_hours, n_columns, np.bool_, False)
-    avail = _dense(p["avail"], n_hours, n_columns, float, 1.0)
-    kernel(*dense, heater, avail, p["avail"] is not None, col, cap, 1.0 / cap, usable * cap,
-           soc_min * cap, (1.0 - soc_min) * cap,
-           np.minimum(p["c_max"][lane] * cap, 1e300) * eta_c, eta_c, eta_d, 1.0 / eta_d,
-           -1.0 / (eta_c * cap), -eta_d / cap, p["t_min"][lane], p["low"][lane], e, sum_acc, sum_d, sum_sd, sum_sur, sum_dfc,
-           n_uns, blk, sum_soc, min_soc, max_cr, longest, series_col, soc_s, cr_s,
-           month_end, snap_dr, snap_dfc)
-    return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
-                         sum_acc - sum_d, sum_sd, n_uns, blk, sum_sur, sum_dfc,
+    # touch the new pages in address order first: the kernel writes them a lane block at a
+    # time, and first-touch page faults scattered over 300 MB cost seconds (measured)
+    soc_s.fill(0.0)
+    cr_s.fill(0.0)
+    par = np.empty((k, _kernels.N_PAR))
+    derated = p["avail"] is not None
+    # without a cold derating the kernel's floor cap - avail * dod_wh must be e_floor
+    par[:, _kernels.P_CAP] = cap if derated else soc_min * cap
+    par[:, _kernels.P_INV_CAP] = 1.0 / cap
+    par[:, _kernels.P_E_MAX] = usable * cap
+    par[:, _kernels.P_E_FLOOR] = soc_min * cap
+    par[:, _kernels.P_DOD_WH] = (1.0 - soc_min) * cap if derated else 0.0
+    par[:, _kernels.P_A_MAX] = np.minimum(p["c_max"][lane] * cap, 1e300) * eta_c
+    par[:, _kernels.P_ETA_C] = eta_c
+    par[:, _kernels.P_INV_ETA_D] = 1.0 / eta_d
+    par[:, _kernels.P_CHARGE_RATE_F] = -1.0 / (eta_c * cap)
+    par[:, _kernels.P_DISCHARGE_RATE_F] = -eta_d / cap
+    par[:, _kernels.P_T_MIN] = p["t_min"][lane]
+    par[:, _kernels.P_LOW] = p["low"][lane]
+    state = _kernels.initial_state(e_start)
+    hourly = [_kernels.readonly(_dense(p[name], n_hours, n_columns, float, 0.0))
+              for name in ("charge", "load", "temp")]
+    heater = _kernels.readonly(_dense(p["heater"], n_hours, n_columns, np.bool_, False))
+    sd = _kernels.readonly(_dense(p["sd"], n_hours, n_columns, float, 0.0))
+    avail = _kernels.readonly(_dense(p["avail"], n_hours, n_columns, float, 1.0))
+    kernel(*hourly, heater, sd, avail, col, par, state, series_col, soc_s, cr_s, month_end, snap_dr, snap_dfc,
+           _kernels.block_lanes(k, _threads()))
+    st = {name: state[:, getattr(_kernels, "S_" + name)].copy()
+          for name in ("E", "ACC", "D", "SD", "SUR", "DFC", "SOC", "MIN_SOC", "MAX_CR",
+                       "LONGEST", "UNS", "BLK")}
+    n_uns = st["UNS"].astype(np.int64)
+    return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, st["E"], e_start,
+                         st["ACC"], st["ACC"] - st["D"], st["SD"], n_uns,
+                         st["BLK"].astype(np.int64), st["SUR"], st["DFC"],
                          _monthly_unserved(list(snap_dr), list(snap_dfc), None, eta_d, n_uns),
-                         sum_soc / n_hours, min_soc, max_cr, longest, soc_s, cr_s)
+                         st["SOC"] / n_hours, st["MIN_SOC"], st["MAX_CR"], st["LONGEST"],
+                         soc_s, cr_s)
+
+
+def _threads() -> int:
+    """Threads the compiled kernel runs on (1 without numba)."""
+    if _kernels._numba is None:
+        return 1
+    return int(_kernels._numba.get_num_threads())
 
 
 def _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns) -> np.ndarray:
