@@ -12,6 +12,12 @@ the site's temperature column (``lane_site``).
 By default a scaled run (``--sites 20``) is timed and extrapolated linearly to 1,000
 sites, because the machine is shared; ``--sites 1000`` runs the full size.
 
+The SOC and current arrays are passed as the SOC simulation writes them: hours x lanes,
+row-major, float32 (``--layout lanes`` / ``--dtype float64`` for the other forms). The
+engine runs with ``--engine auto`` (numba kernels when installed); the first call, which
+loads (or compiles) the kernels, is timed apart. The numpy path is timed on the first
+call's lanes for the speed ratio between the two.
+
 Also times a plain per-hour Python loop of the same model (LFP calendar by the
 equivalent-time update with ``math.exp`` each hour, cycles by the reference ``rainflow``
 package each year) for one lane over the horizon, and prints the speed ratio and the
@@ -20,6 +26,7 @@ difference between the two results.
 Usage::
 
     python benchmarks/bench_aging.py [--sites 20] [--designs 240] [--years 20]
+        [--engine auto|numba|numpy] [--layout hours|lanes] [--dtype float32|float64]
 """
 
 from __future__ import annotations
@@ -33,7 +40,7 @@ import time
 import numpy as np
 import rainflow
 
-from planner.aging import age_lanes
+from planner.aging import age_lanes, kernels
 from planner.chemistry import get_chemistry
 
 H = 8760
@@ -65,8 +72,12 @@ def design_grid(chem, n_designs):
     return grid_f.ravel()[:n_designs], grid_v.ravel()[:n_designs]
 
 
-def lane_inputs(chem, patterns, oversize, volts):
-    """SOC and current (C-rate) for every site x design lane of a chunk of sites."""
+def lane_inputs(chem, patterns, oversize, volts, layout="hours", dtype=np.float32):
+    """SOC and current (C-rate) for every site x design lane of a chunk of sites.
+
+    ``layout="hours"``: (8760, n_lanes) row-major, as the SOC simulation writes it;
+    ``"lanes"``: the same shape stored column-major (each lane's year contiguous).
+    """
     n_sites = patterns.shape[1]
     depth_1x = 0.6  # depth of the deepest day at 1x size
     top = np.asarray(chem.usable_fraction(volts))
@@ -74,7 +85,9 @@ def lane_inputs(chem, patterns, oversize, volts):
     lane_site = np.repeat(np.arange(n_sites), oversize.size)
     soc = np.tile(top, n_sites) - patterns[:, lane_site] * scale
     current = soc - np.roll(soc, -1, axis=0)  # discharge positive
-    return soc, current, lane_site
+    order = "C" if layout == "hours" else "F"
+    return (np.asarray(soc, dtype=dtype, order=order), np.asarray(current, dtype=dtype, order=order),
+            lane_site)
 
 
 def python_loop_one_lane(chem, temp_c, soc, current, volts, years):
@@ -126,47 +139,69 @@ def main():
     parser.add_argument("--sites-per-call", type=int, default=4)
     parser.add_argument("--chemistry", default="lfp")
     parser.add_argument("--skip-loop", action="store_true")
+    parser.add_argument("--engine", default="auto", choices=["auto", "numba", "numpy"])
+    parser.add_argument("--layout", default="hours", choices=["hours", "lanes"])
+    parser.add_argument("--dtype", default="float32", choices=["float32", "float64"])
     args = parser.parse_args()
 
     chem = get_chemistry(args.chemistry)
+    dtype = np.dtype(args.dtype)
     rng = np.random.default_rng(2024)
     print(f"machine load indicator: {machine_speed_s():.3f} s for 5 x 1e7 multiplies "
-          f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs)")
+          f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs); "
+          f"compiled kernels: {'yes, %d threads' % kernels.thread_count() if kernels.AVAILABLE else 'no'}")
     temps = site_temperatures(args.sites, rng)
     patterns = site_depth_patterns(args.sites, rng)
     oversize, volts = design_grid(chem, args.designs)
     n_lanes_total = args.sites * oversize.size
+    per_call = min(args.sites_per_call, args.sites)
+
+    def call(sl, engine):
+        soc, current, lane_site = lane_inputs(chem, patterns[:, sl], oversize, volts,
+                                              args.layout, dtype)
+        c0, t0 = time.process_time(), time.perf_counter()
+        result = age_lanes(chem, temps[:, sl], soc, current, np.tile(volts, sl.stop - sl.start),
+                           args.years, lane_site=lane_site, engine=engine)
+        return result, time.perf_counter() - t0, time.process_time() - c0
+
+    # First call: loads the compiled kernels from numba's cache (or compiles them).
+    first = slice(0, per_call)
+    _, t_first, _ = call(first, args.engine)
+    _, t_numpy, cpu_numpy = call(first, "numpy")
+    n_first = per_call * oversize.size
     t_inputs = t_aging = cpu_aging = 0.0
     last = None
-    for first in range(0, args.sites, args.sites_per_call):
-        sl = slice(first, min(first + args.sites_per_call, args.sites))
+    for start in range(0, args.sites, per_call):
+        sl = slice(start, min(start + per_call, args.sites))
         t0 = time.perf_counter()
-        soc, current, lane_site = lane_inputs(chem, patterns[:, sl], oversize, volts)
-        t1 = time.perf_counter()
-        c1 = time.process_time()
-        last = age_lanes(chem, temps[:, sl], soc, current, np.tile(volts, sl.stop - sl.start),
-                         args.years, lane_site=lane_site)
-        t2 = time.perf_counter()
-        cpu_aging += time.process_time() - c1
-        t_inputs += t1 - t0
-        t_aging += t2 - t1
+        lane_inputs(chem, patterns[:, sl], oversize, volts, args.layout, dtype)
+        t_inputs += time.perf_counter() - t0
+        last, wall, cpu = call(sl, args.engine)
+        t_aging += wall
+        cpu_aging += cpu
     peak_gib = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20
     per_lane = t_aging / n_lanes_total
+    full = 1000 * 240
     print(f"chemistry {chem.id}: {args.sites} sites x {oversize.size} designs = {n_lanes_total} lanes, "
-          f"{args.years} years")
+          f"{args.years} years; SOC/current {args.layout}-major {args.dtype}; engine {args.engine}")
+    print(f"  first call ({n_first} lanes, includes loading the kernels): {t_first:.2f} s")
     print(f"  input generation (not part of the engine): {t_inputs:.2f} s")
     print(f"  aging engine: {t_aging:.2f} s wall, {cpu_aging:.2f} s CPU "
-          f"({per_lane * 1e3:.3f} ms wall, {cpu_aging / n_lanes_total * 1e3:.3f} ms CPU per lane)")
+          f"({per_lane * 1e3:.4f} ms wall, {cpu_aging / n_lanes_total * 1e3:.4f} ms CPU per lane)")
     print(f"  peak resident memory: {peak_gib:.2f} GiB")
-    full = 1000 * 240
-    print(f"  extrapolated to 1,000 sites x 240 designs: {per_lane * full:.0f} s wall, "
-          f"{cpu_aging / n_lanes_total * full:.0f} s CPU (target 20 s)")
+    print(f"  extrapolated to 1,000 sites x 240 designs: {per_lane * full:.1f} s wall, "
+          f"{cpu_aging / n_lanes_total * full:.1f} s CPU (target 20 s)")
+    numpy_lane = t_numpy / n_first
+    print(f"  numpy path on the first {n_first} lanes: {numpy_lane * 1e3:.4f} ms wall, "
+          f"{cpu_numpy / n_first * 1e3:.4f} ms CPU per lane; ratio numpy / this engine: "
+          f"{numpy_lane / per_lane:.1f}x wall, {cpu_numpy / n_first / (cpu_aging / n_lanes_total):.1f}x CPU")
     print(f"  life to 80 % of the last chunk's first designs [y]: "
           f"{np.round(last.years_to_soh(0.8)[:4], 2)}")
 
     if args.skip_loop or chem.id != "lfp":
         return
-    soc, current, _ = lane_inputs(chem, patterns[:, :1], oversize[:1], volts[:1])
+    soc, current, _ = lane_inputs(chem, patterns[:, :1], oversize[:1], volts[:1], "hours",
+                                  np.float64)
     t0 = time.perf_counter()
     soh_loop = python_loop_one_lane(chem, temps[:, 0], soc[:, 0], current[:, 0], float(volts[0]),
                                     args.years)
@@ -174,7 +209,8 @@ def main():
     exact = age_lanes(chem, temps[:, :1], soc, current, volts[:1], args.years,
                       rate_bin_k=None, soc_bin_frac=None)
     print(f"per-hour Python loop, one lane, {args.years} years: {t_loop:.2f} s; "
-          f"engine per lane: {per_lane * 1e3:.3f} ms; speed ratio {t_loop / per_lane:.0f}x")
+          f"engine per lane: {per_lane * 1e3:.4f} ms; speed ratio {t_loop / per_lane:.0f}x "
+          f"(numpy path: {t_loop / numpy_lane:.0f}x)")
     print(f"  final SOH loop {soh_loop:.6f} vs engine (exact rates) {exact.soh_monthly[-1, 0]:.6f}")
 
 

@@ -269,20 +269,37 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
         cal = np.zeros((12, w))
         dis = np.zeros((12, w))
         on = np.zeros(w, dtype=np.int64)
-        if do_calendar:
-            rows = lane_rate_row[first:first + w]
-            for h in range(n_hours):
-                # Row views indexed from 0: the compiler sees non-negative indices and drops
-                # the negative-index wraparound test from the inner loop.
-                x_row = soc[h, first:first + w]
+        rows = lane_rate_row[first:first + w]
+        # rainflow.reversals for all lanes of the group, hour by hour. The package's "last
+        # distinct point" always equals the previous hour's value (a zero step leaves it
+        # unchanged because it is equal), so each lane carries only its last non-zero
+        # step. Reversals are staged STAGE at a time per lane (the stage stays in cache)
+        # and then written as one run: a store per reversal straight into the lane's row
+        # would land a page away from the previous lane's every time.
+        d_last = np.zeros(w)
+        turned = np.zeros(w, dtype=np.int8)
+        stage_v = np.empty((w, STAGE))
+        stage_i = np.empty((w, STAGE), dtype=np.int64)
+        fill = np.zeros(w, dtype=np.int64)
+        if do_cycles and n_hours >= 2:
+            for q in range(w):
+                rev_v[r0 + q, 0] = soc[0, first + q]
+                rev_i[r0 + q, 0] = 0
+                n_rev[r0 + q] = 1
+                d_last[q] = float(soc[1, first + q]) - float(soc[0, first + q])
+        # One pass over the hours; the parts share each hour row while it is in cache.
+        # Row views indexed from 0 let the compiler drop the negative-index test.
+        for h in range(n_hours):
+            x_row = soc[h, first:first + w]
+            month = month_of_hour[h]
+            if do_calendar:
                 rate_row = temp_rate_hourly[h]
-                acc = cal[month_of_hour[h]]
+                acc = cal[month]
                 for q in range(w):
                     v = min(max(float(x_row[q]), soc_lo), soc_hi)
                     acc[q] += soc_table[int((v - soc_offset) * soc_inv_step)] * rate_row[rows[q]]
-        if has_current:
-            for h in range(n_hours):
-                acc = dis[month_of_hour[h]]
+            if has_current:
+                acc = dis[month]
                 if shared_current:
                     d = float(current[h, 0])
                     for q in range(w):
@@ -294,25 +311,7 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                         d = float(c_row[q])
                         acc[q] += d if d > 0.0 else 0.0
                         on[q] += 1 if d > 0.0 else 0
-        if do_cycles and n_hours >= 2:
-            # rainflow.reversals for all lanes of the group, hour by hour. The package's
-            # "last distinct point" always equals the previous hour's value (a zero step
-            # leaves it unchanged because it is equal), so each lane carries only its last
-            # non-zero step. Reversals are staged STAGE at a time per lane (the stage stays
-            # in cache) and then written as one run: a store per reversal straight into the
-            # lane's row would land a page away from the previous lane's every time.
-            d_last = np.empty(w)
-            turned = np.zeros(w, dtype=np.int8)
-            stage_v = np.empty((w, STAGE))
-            stage_i = np.empty((w, STAGE), dtype=np.int64)
-            fill = np.zeros(w, dtype=np.int64)
-            for q in range(w):
-                rev_v[r0 + q, 0] = soc[0, first + q]
-                rev_i[r0 + q, 0] = 0
-                n_rev[r0 + q] = 1
-                d_last[q] = float(soc[1, first + q]) - float(soc[0, first + q])
-            for h in range(2, n_hours):
-                x_row = soc[h, first:first + w]
+            if do_cycles and h >= 2:
                 p_row = soc[h - 1, first:first + w]
                 turns = 0
                 for q in range(w):  # branch-free, so it runs along the lanes at full speed
@@ -330,6 +329,7 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                             fill[q] += 1
                             if fill[q] == STAGE:
                                 _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
+        if do_cycles and n_hours >= 2:
             for q in range(w):
                 _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
             if n_hours >= 3:
