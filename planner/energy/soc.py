@@ -5,6 +5,10 @@ typical year in Python and updates every lane of a chunk at once with numpy; lan
 streamed in chunks (:func:`iter_soc_chunks`) so that no ``8760 x all-lanes`` float64
 array is ever held: 100,000 lanes would be 7 GB per array.
 
+With numba installed the hour loop runs compiled (:mod:`planner.energy._soc_kernels`:
+lane blocks on every core, four lanes stepped together); otherwise the numpy loop below
+runs, vectorised across lanes. Both give the same numbers (tested).
+
 Hourly arrays (charge, load, battery temperature, self-discharge, heater, available
 capacity) may be given once per *site* with ``lane_site_index`` mapping each lane to its
 site column, which is how a fleet of sites x designs stays small in memory.
@@ -133,12 +137,8 @@ class SocChunk:
 
 
 class _Hourly:
-    """An hourly input given as a scalar, ``(n_hours,)`` or ``(n_hours, n_columns)``.
-
-    ``bind(columns)`` selects the columns of the current chunk (a slice, or the unique
-    site columns its lanes read); ``row(t)`` returns hour ``t`` for those columns, or a
-    scalar when the input does not vary across columns.
-    """
+    """An hourly input given as a scalar, ``(n_hours,)`` or ``(n_hours, n_columns)``,
+    validated once; ``kind`` says which (see :func:`_hour_block` for reading it)."""
 
     def __init__(self, value, name: str, n_hours: int | None, n_columns: int,
                  dtype=float):
@@ -161,17 +161,6 @@ class _Hourly:
         self.arr = arr
         self.name = name
         self.n_hours = arr.shape[0] if arr.ndim else None
-        self.columns = slice(None)
-
-    def bind(self, columns) -> None:
-        self.columns = columns
-
-    def row(self, t: int):
-        if self.kind == "scalar":
-            return self.arr
-        if self.kind == "hourly":
-            return self.arr[t]
-        return self.arr[t, self.columns]
 
     def is_constant(self, value) -> bool:
         return self.kind == "scalar" and float(self.arr) == value
@@ -195,10 +184,6 @@ def _lane_param(value, name: str, n: int, lo: float, hi: float,
         rng = f"({lo:g}, {hi:g}]" if lo_open else f"[{lo:g}, {hi:g}]"
         raise InputError(f"{name}[{i}]: found {arr[i]!r}, expected a value in {rng}")
     return arr
-
-
-def _uniform(arr: np.ndarray) -> bool:
-    return arr.size == 0 or bool(np.all(arr == arr[0]))
 
 
 def compensated_charge_voltage_v_per_cell(charge_voltage_v_per_cell, temp_battery_c,
@@ -384,6 +369,22 @@ def _longest_low_days(soc_frac: np.ndarray, low_frac: np.ndarray) -> np.ndarray:
     return best
 
 
+#: Lane-hours of each gathered block of hourly inputs in the numpy loop (16 MB per float64
+#: array): bounds the memory of the block while keeping the number of gathers small.
+_GATHER_LANE_HOURS = 2 ** 21
+
+
+def _hour_block(h, t0: int, t1: int, cols: np.ndarray) -> np.ndarray | None:
+    """Hours ``t0:t1`` of an hourly input at site columns ``cols``, ``(t1 - t0, m)``."""
+    if h is None:
+        return None
+    if h.kind == "scalar":
+        return np.broadcast_to(h.arr, (t1 - t0, cols.size))
+    if h.kind == "hourly":
+        return np.broadcast_to(h.arr[t0:t1, None], (t1 - t0, cols.size))
+    return h.arr[t0:t1, cols]
+
+
 def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     """The hourly recursion for lanes ``start:stop`` (Python loop over hours only).
 
@@ -391,12 +392,17 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     store ``x = eta_c * surplus - deficit / eta_d`` (one of the two is zero), limited by
     the charge acceptance ``c_max * C * eta_c``; the store moves to
     ``clip(E + x, min(E, E_floor), E_max)``. A move cut short at the top is curtailed
-    charge; a move cut short at the floor is unserved load. Site-level quantities (net
-    power, the cold block, the efficiencies when every lane shares them) are computed once
-    per site column, then gathered to the lanes. ``keep`` is ``None`` (no series
-    returned), ``slice(None)`` or local lane indices. When numba is installed the
-    compiled :func:`_fused_hours` runs the same hours (``p["engine"] = "numpy"`` forces
-    the numpy loop).
+    charge; a move cut short at the floor is unserved load.
+
+    What depends only on the site column and the chemistry (net power, the cold block,
+    the offer ``x`` before the acceptance limit, the surplus and deficit sums) is computed
+    once per *group* of lanes sharing a column, efficiencies and charge-temperature limit,
+    for a block of hours at a time with whole-array numpy; the block is then gathered to
+    the lanes with one fancy index per input, so the hour loop reads rows of ready
+    ``(hours, lanes)`` blocks and never gathers hour by hour. ``keep`` is ``None`` (no
+    series returned), ``slice(None)`` or local lane indices. When numba is installed the
+    compiled kernel of :mod:`planner.energy._soc_kernels` runs the same hours instead
+    (``p["engine"] = "numpy"`` forces this loop).
     """
     if _FUSED is not None and p.get("engine") != "numpy":
         return _run_chunk_fused(p, start, stop, keep, _kernels.compiled_kernel())
@@ -405,23 +411,17 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     lane = slice(start, stop)
     cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
     eta_c, eta_d, t_min = p["eta_c"][lane], p["eta_d"][lane], p["t_min"][lane]
-    if p["site_idx"] is None:
-        cols, inv = slice(start, stop), None
-    else:
-        cols, inv = np.unique(p["site_idx"][lane], return_inverse=True)
-    charge, load, temp, sd, heater, avail = (p[x] for x in
-                                             ("charge", "load", "temp", "sd", "heater",
-                                              "avail"))
-    for h in (charge, load, temp, sd, heater, avail):
-        if h is not None:
-            h.bind(cols)
-    m = k if inv is None else len(cols)
-
+    col = np.arange(start, stop) if p["site_idx"] is None else p["site_idx"][lane]
+    # groups: lanes that read the same column with the same efficiencies and limit
+    keys = np.stack([col.astype(float), eta_c, eta_d, t_min], axis=1)
+    keys_g, ginv = np.unique(keys, axis=0, return_inverse=True)
+    ginv = ginv.reshape(-1)
+    gcol = keys_g[:, 0].astype(np.intp)
+    g_eta_c, g_eta_d, g_t_min = keys_g[:, 1], keys_g[:, 2], keys_g[:, 3]
+    m = gcol.size
+    charge, load, temp, sd, heater, avail = (p[x] for x in ("charge", "load", "temp", "sd",
+                                                            "heater", "avail"))
     check_temp = bool(np.any(np.isfinite(t_min)))
-    # one chemistry per call is the usual case: then the efficiencies and the cold block
-    # are the same for every lane and are applied once per site column
-    site_level = k > 0 and _uniform(eta_c) and _uniform(eta_d) and \
-        (not check_temp or _uniform(t_min))
     with_sd = not sd.is_constant(0.0)
     c_limited = bool(np.any(np.isfinite(p["c_max"][lane])))
 
@@ -437,99 +437,79 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
                  if n_hours == HOURS_PER_YEAR else {n_hours})
     snap_dr, snap_dfc = [], []
 
-    # site-level work rows and accumulators
-    net_s, sur_s, dfc_s, x_s = (np.empty(m) for _ in range(4))
-    ok_s, flag_s = np.empty(m, dtype=bool), np.empty(m, dtype=bool)
-    sum_sur_s, sum_dfc_s = np.zeros(m), np.zeros(m)
-    blk_s = np.zeros(m, dtype=np.int64)
-    # lane-level work rows and accumulators
-    sur, dfc, x, y, d, lo, tmp = (np.empty(k) for _ in range(7))
-    ok, flag = np.empty(k, dtype=bool), np.empty(k, dtype=bool)
+    sum_sur_g, sum_dfc_g = np.zeros(m), np.zeros(m)
+    blk_g = np.zeros(m, dtype=np.int64)
+    y, d, lo, tmp = (np.empty(k) for _ in range(4))
+    flag = np.empty(k, dtype=bool)
     sum_acc, sum_d, sum_sd = np.zeros(k), np.zeros(k), np.zeros(k)
     n_uns = np.zeros(k, dtype=np.int64)
-    blk = np.zeros(k, dtype=np.int64)
     # the hourly series of the whole chunk: some summaries are taken from them in bulk
     soc_s = np.empty((n_hours, k), dtype=np.float32)
     flow_s = np.empty((n_hours, k), dtype=np.float32)
 
-    def to_lanes(site_row, out):
-        if inv is None or np.ndim(site_row) == 0:
-            out[...] = site_row
-            return out
-        return np.take(site_row, inv, out=out)
-
-    def cold_block(surplus, temp_row, heater_row, limit, ok_buf, flag_buf, count):
-        np.greater_equal(temp_row, limit, out=ok_buf)
-        if heater_row is not None:
-            np.logical_or(ok_buf, heater_row, out=ok_buf)
-        np.greater(surplus, 0.0, out=flag_buf)
-        flag_buf &= ~ok_buf
-        count += flag_buf
-        surplus *= ok_buf
-
     if fixed_floor:
         lo[...] = e_floor
-    for t in range(n_hours):
-        # --- site level: the source serves the load first; the battery sees the net
-        np.subtract(charge.row(t), load.row(t), out=net_s)
-        np.maximum(net_s, 0.0, out=sur_s)
-        np.subtract(sur_s, net_s, out=dfc_s)
-        sum_sur_s += sur_s
-        sum_dfc_s += dfc_s
-        if site_level:
-            if check_temp:
-                cold_block(sur_s, temp.row(t), None if heater is None else heater.row(t),
-                           t_min[0], ok_s, flag_s, blk_s)
-            np.multiply(sur_s, eta_c[0], out=x_s)
-            dfc_s /= eta_d[0]
-            x_s -= dfc_s
-            to_lanes(x_s, x)
-        else:
-            to_lanes(sur_s, sur)
-            to_lanes(dfc_s, dfc)
-            if check_temp:
-                heat = None if heater is None else to_lanes(heater.row(t), flag)
-                cold_block(sur, to_lanes(temp.row(t), tmp), heat, t_min, ok, flag, blk)
-            np.multiply(sur, eta_c, out=x)
-            dfc /= eta_d
-            x -= dfc
+    block_h = int(max(24, min(n_hours, _GATHER_LANE_HOURS // max(k, 1))))
+    for t0 in range(0, n_hours, block_h):
+        t1 = min(n_hours, t0 + block_h)
+        # --- group level, whole block: the source serves the load first
+        net = _hour_block(charge, t0, t1, gcol) - _hour_block(load, t0, t1, gcol)
+        sur = np.maximum(net, 0.0)
+        dfc = sur - net
+        # running sums continued hour by hour (cumsum adds in order, like a loop would)
+        cum_sur = np.cumsum(np.vstack([sum_sur_g, sur]), axis=0)[1:]
+        cum_dfc = np.cumsum(np.vstack([sum_dfc_g, dfc]), axis=0)[1:]
+        sum_sur_g, sum_dfc_g = cum_sur[-1].copy(), cum_dfc[-1].copy()
+        if check_temp:
+            ok = _hour_block(temp, t0, t1, gcol) >= g_t_min
+            if heater is not None:
+                ok = ok | _hour_block(heater, t0, t1, gcol)
+            cold = (sur > 0.0) & ~ok
+            blk_g += cold.sum(axis=0)
+            sur = sur * ok
+        x_g = sur * g_eta_c - dfc / g_eta_d
+        # --- gathered to the lanes once per block
+        x_b = x_g[:, ginv]
         if c_limited:
-            np.minimum(x, a_max, out=x)
-        # --- lane level: self-discharge over the hour
-        if with_sd:
-            np.multiply(e, to_lanes(sd.row(t), tmp), out=tmp)
-            e -= tmp
-            sum_sd += tmp
-        if not fixed_floor:
-            if avail is not None:
-                np.multiply(to_lanes(avail.row(t), tmp), dod_wh, out=tmp)
-                np.subtract(cap, tmp, out=lo)      # floor = C - f_avail (1 - soc_min) C
-                np.minimum(lo, e, out=lo)
-            else:
-                np.minimum(e_floor, e, out=lo)
-        np.add(e, x, out=y)
-        np.less(y, lo, out=flag)                   # the floor cut the hour short
-        n_uns += flag
-        np.maximum(y, lo, out=y)
-        np.minimum(y, e_max, out=y)
-        np.subtract(y, e, out=d)
-        sum_d += d
-        np.maximum(d, 0.0, out=tmp)
-        sum_acc += tmp
-        e, y = y, e
-        soc_s[t] = e
-        flow_s[t] = d
-        if t + 1 in month_end:
-            snap_dr.append(sum_acc - sum_d)
-            snap_dfc.append(sum_dfc_s.copy())
+            np.minimum(x_b, a_max, out=x_b)
+        sd_b = _hour_block(sd, t0, t1, col) if with_sd else None
+        av_b = _hour_block(avail, t0, t1, col) if avail is not None else None
+        for t in range(t0, t1):
+            r = t - t0
+            x = x_b[r]
+            # --- lane level: self-discharge over the hour
+            if with_sd:
+                np.multiply(e, sd_b[r], out=tmp)
+                e -= tmp
+                sum_sd += tmp
+            if not fixed_floor:
+                if av_b is not None:
+                    np.multiply(av_b[r], dod_wh, out=tmp)
+                    np.subtract(cap, tmp, out=lo)  # floor = C - f_avail (1 - soc_min) C
+                    np.minimum(lo, e, out=lo)
+                else:
+                    np.minimum(e_floor, e, out=lo)
+            np.add(e, x, out=y)
+            np.less(y, lo, out=flag)               # the floor cut the hour short
+            n_uns += flag
+            np.maximum(y, lo, out=y)
+            np.minimum(y, e_max, out=y)
+            np.subtract(y, e, out=d)
+            sum_d += d
+            np.maximum(d, 0.0, out=tmp)
+            sum_acc += tmp
+            e, y = y, e
+            soc_s[t] = e
+            flow_s[t] = d
+            if t + 1 in month_end:
+                snap_dr.append(sum_acc - sum_d)
+                snap_dfc.append(cum_dfc[r].copy())
 
     stats = _series_summaries(soc_s, flow_s, cap, eta_c, eta_d, p["low"][lane])
     return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
-                         sum_acc - sum_d, sum_sd, n_uns,
-                         blk + (blk_s if inv is None else blk_s[inv]),
-                         sum_sur_s if inv is None else sum_sur_s[inv],
-                         sum_dfc_s if inv is None else sum_dfc_s[inv],
-                         _monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns), *stats,
+                         sum_acc - sum_d, sum_sd, n_uns, blk_g[ginv], sum_sur_g[ginv],
+                         sum_dfc_g[ginv],
+                         _monthly_unserved(snap_dr, snap_dfc, ginv, eta_d, n_uns), *stats,
                          soc_s, flow_s)
 
 
