@@ -369,9 +369,10 @@ def _longest_low_days(soc_frac: np.ndarray, low_frac: np.ndarray) -> np.ndarray:
     return best
 
 
-#: Lane-hours of each gathered block of hourly inputs in the numpy loop (16 MB per float64
-#: array): bounds the memory of the block while keeping the number of gathers small.
-_GATHER_LANE_HOURS = 2 ** 21
+#: Lane-hours of each gathered block of hourly inputs in the numpy loop (512 KiB per
+#: float64 array, so a block is still in the second-level cache when the hours read it;
+#: larger blocks measured slower). At least one day per block.
+_GATHER_LANE_HOURS = 2 ** 16
 
 
 def _hour_block(h, t0: int, t1: int, cols: np.ndarray) -> np.ndarray | None:
