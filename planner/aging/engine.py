@@ -22,6 +22,11 @@ How it works (see docs/aging.md):
 
 Lanes are processed in chunks so no temporary exceeds ``(8760, chunk_lanes)``; the
 engine never builds an hours x sites x designs array.
+
+Two engines compute the same thing (``engine=``): the numpy path (array passes over
+each chunk), and one-pass kernels (:mod:`planner.aging.kernels`) compiled with numba
+when it is installed, about five times less CPU (docs/aging.md, "Speed"). They count
+the same cycles and put every hour in the same lookup bin; sums differ by rounding.
 """
 
 from __future__ import annotations
@@ -324,7 +329,6 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
             np.ascontiguousarray(soc), np.ascontiguousarray(cur), ch.start, ch.stop, n_groups,
             has_current, soc_table is not None, do_cycles, rate_row, rate_hourly, table, lo, hi,
             offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev)
-    cycles = None
     if do_cycles:
         # Room for n_rev + 1 cycles per lane (a periodic count emits at most that many).
         stored = np.where(n_rev <= capacity, n_rev + 1, 0)

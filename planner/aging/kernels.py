@@ -3,18 +3,20 @@
 The numpy path of :func:`planner.aging.age_lanes` makes several passes over every
 ``(8760, n_lanes)`` array (a transposed copy, the SOC-rate lookup, the reversal search,
 repeated four-point passes of the rainflow count). Here the same work is done in one
-sweep per lane, compiled with numba when it is installed and spread over the cores:
+sweep over the hours, compiled with numba when it is installed and spread over the cores:
 
-* the lane's SOC (and current) are copied from the hours x lanes array in blocks of
-  :data:`BLOCK_LANES` lanes (each hour row of a block is one cache line, so the copy
-  reads memory once instead of once per lane);
+* :func:`hour_sweep` reads the hours x lanes arrays row by row, in memory order (the
+  layout the SOC simulation writes); :func:`lane_sweep` does the same for arrays stored
+  lane by lane (column-major);
 * calendar rate: ``sum_h table[bin(SOC_h)] * temp_rate[site, h]`` per month, the SOC
   bin found with exactly the arithmetic of the numpy lookup (same bin, same value);
 * discharge throughput (equivalent full cycles), hours of discharge and monthly
   discharged charge (the primary-cell load law);
-* rainflow count (ASTM E1049-85, section 5.4.4) of the year as one period of a repeating
-  history, with the reversal rules and the three-point stack of the reference
-  ``rainflow`` package (3.x), so each cycle is the package's, with its indices.
+* reversals of each lane by the rules of the reference ``rainflow`` package (3.x);
+  then :func:`cycles_pass` counts each lane's year as one period of a repeating
+  history (ASTM E1049-85, section 5.4.4) with the package's three-point stack, so each
+  cycle is the package's, with its indices, and :func:`compact_cycles` gathers them
+  with their temperature and month.
 
 Every function here is plain Python on numpy arrays; ``numba.njit`` compiles it when
 numba is importable (``AVAILABLE``), and its ``py_func`` stays callable, which is how
