@@ -5,18 +5,18 @@ issue 5: 100,000 lanes in <= 10 s on the project machine (2 shared cores).
 
     python benchmarks/bench_soc.py [n_sites] [designs_per_site] [chunk_lanes] [--numpy-all]
 
-With numba installed the compiled loop runs the whole fleet; the numpy loop runs one chunk
-and is scaled to the fleet (``--numpy-all`` runs it on the whole fleet: about half a
-minute of CPU). Peak memory is the peak of numpy's traced allocations during the run
-(``tracemalloc``; numpy reports its buffers to it), on top of the inputs.
+Each hour loop runs in its own child process, so each peak RSS (resident memory, inputs
+and imports included) is that loop's alone. With numba installed the compiled loop runs the
+whole fleet; the numpy loop runs one chunk and is scaled to the fleet (``--numpy-all`` runs
+it on the whole fleet: about half a minute of CPU or more).
 """
 
 from __future__ import annotations
 
 import resource
+import subprocess
 import sys
 import time
-import tracemalloc
 
 import numpy as np
 
@@ -42,9 +42,7 @@ def fleet(n_sites: int, designs: int, seed: int = 0):
 
 
 def run(charge, load, temp, sd, site, cap, chunk, engine):
-    """Stream every chunk like the aging stage would; returns (wall, cpu, peak MiB, sums)."""
-    tracemalloc.start()
-    tracemalloc.reset_peak()
+    """Stream every chunk like the aging stage would; returns (wall s, CPU s, sums)."""
     t0, c0 = time.perf_counter(), time.process_time()
     unserved = energy_out = 0.0
     for chunk_res in soc.iter_soc_chunks(
@@ -55,49 +53,58 @@ def run(charge, load, temp, sd, site, cap, chunk, engine):
         # a consumer (the aging stage) would read chunk_res.soc_frac here and drop it
         unserved += chunk_res.summary.unserved_wh.sum()
         energy_out += chunk_res.summary.energy_out_wh.sum()
-    wall, cpu = time.perf_counter() - t0, time.process_time() - c0
-    peak = tracemalloc.get_traced_memory()[1] / 2**20
-    tracemalloc.stop()
-    return wall, cpu, peak, unserved, energy_out
+    return time.perf_counter() - t0, time.process_time() - c0, unserved, energy_out
 
 
-def main(argv):
-    numpy_all = "--numpy-all" in argv
-    argv = [a for a in argv if a != "--numpy-all"]
-    n_sites = int(argv[1]) if len(argv) > 1 else 1000
-    designs = int(argv[2]) if len(argv) > 2 else 100
-    chunk = int(argv[3]) if len(argv) > 3 else soc.DEFAULT_CHUNK_LANES
+def child(path: str, n_sites: int, designs: int, chunk: int, numpy_all: bool) -> None:
+    """One hour loop, timed, in this (child) process."""
     charge, load, temp, sd, site, cap = fleet(n_sites, designs)
     n = cap.size
-    print(f"lanes {n:,} ({n_sites} sites x {designs} designs), chunk {chunk}, "
-          f"{-(-n // chunk)} chunks, series streamed")
-
-    if soc._FUSED is not None:
+    rss0 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    if path == "compiled":
         import numba
         t0 = time.perf_counter()
         _soc_kernels.compiled_kernel()
         print(f"numba {numba.__version__}, {numba.get_num_threads()} threads: kernel "
               f"compiled or loaded from cache in {time.perf_counter() - t0:.1f} s "
               f"(once per process)")
-        wall, cpu, peak, uns, out = run(charge, load, temp, sd, site, cap, chunk, "auto")
-        print(f"compiled loop: {wall:.2f} s wall, {cpu:.2f} s CPU "
-              f"({n / wall:,.0f} lanes/s), peak traced memory {peak:,.0f} MiB")
-        print(f"  fleet unserved {uns / 1000:,.1f} kWh/yr, delivered {out / 1000:,.1f} "
-              f"kWh/yr (sanity)")
+        wall, cpu, uns, out = run(charge, load, temp, sd, site, cap, chunk, "auto")
+        label, k = "compiled loop", n
     else:
-        print("numba not installed: only the numpy loop runs")
-
-    k = n if numpy_all or soc._FUSED is None else min(n, chunk)
-    wall, cpu, peak, uns, out = run(charge, load, temp, sd, site[:k], cap[:k], chunk,
-                                    "numpy")
-    scale = n / k
-    print(f"numpy loop on {k:,} lanes: {wall:.2f} s wall, {cpu:.2f} s CPU, peak traced "
-          f"memory {peak:,.0f} MiB" + ("" if k == n else
-                                       f" -> about {wall * scale:.1f} s wall / "
-                                       f"{cpu * scale:.1f} s CPU for all {n:,} lanes"))
+        k = n if numpy_all else min(n, chunk)
+        wall, cpu, uns, out = run(charge, load, temp, sd, site[:k], cap[:k], chunk, "numpy")
+        label = "numpy loop"
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
-    print(f"process peak RSS {rss:,.0f} MiB (inputs, imports and both runs)")
-    print("CPU time counts both cores; wall time includes waiting for cores shared with "
+    line = (f"{label} on {k:,} lanes: {wall:.2f} s wall, {cpu:.2f} s CPU "
+            f"({k / wall:,.0f} lanes/s); peak RSS {rss:,.0f} MiB (inputs and imports "
+            f"{rss0:,.0f} MiB)")
+    if k < n:
+        line += (f"\n  -> about {wall * n / k:.1f} s wall / {cpu * n / k:.1f} s CPU for all "
+                 f"{n:,} lanes")
+    print(line)
+    print(f"  unserved {uns / 1000:,.1f} kWh/yr, delivered {out / 1000:,.1f} kWh/yr (sanity)",
+          flush=True)
+
+
+def main(argv):
+    if len(argv) > 1 and argv[1] == "--child":
+        child(argv[2], int(argv[3]), int(argv[4]), int(argv[5]), argv[6] == "1")
+        return
+    numpy_all = "--numpy-all" in argv
+    argv = [a for a in argv if a != "--numpy-all"]
+    n_sites = int(argv[1]) if len(argv) > 1 else 1000
+    designs = int(argv[2]) if len(argv) > 2 else 100
+    chunk = int(argv[3]) if len(argv) > 3 else soc.DEFAULT_CHUNK_LANES
+    n = n_sites * designs
+    print(f"lanes {n:,} ({n_sites} sites x {designs} designs), chunk {chunk}, "
+          f"{-(-n // chunk)} chunks, SOC and C-rate series streamed")
+    paths = (["compiled"] if soc._FUSED is not None else []) + ["numpy"]
+    if soc._FUSED is None:
+        print("numba not installed: only the numpy loop runs")
+    for path in paths:
+        subprocess.run([sys.executable, __file__, "--child", path, str(n_sites),
+                        str(designs), str(chunk), "1" if numpy_all else "0"], check=True)
+    print("CPU time counts every core; wall time includes waiting for cores shared with "
           "other jobs")
 
 
