@@ -101,8 +101,9 @@ def _summary(plan, out) -> str:
         text = f"{row['total_with_others_present_cost']:,.0f} {currency}"
         unserved = row.get("sites_unserved") or []
         if unserved:
+            verb = "keeps" if len(unserved) == 1 else "keep"
             text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
-                     f"{len(unserved)} keep another chemistry)")
+                     f"{len(unserved)} {verb} another chemistry)")
         lines.append(f"    {row['chemistry']}: {text}")
     for item in plan.get("unserved_sites", []):
         lines.append(f"  NOT SERVED {item['id']}: {item['reason']}")
