@@ -16,8 +16,14 @@ chosen from measurements on the project machine (see ``docs/energy.md``, "Speed"
 * Blocks are independent (every block writes only its own lanes), so ``numba.prange``
   spreads them over the cores without shared accumulators.
 
-Hourly inputs are ``(n_hours, n_columns)`` arrays (zero-stride broadcast views are fine)
-read at column ``col[j]`` of lane ``j``. The module imports without numba: then
+* What depends only on the site column and the chemistry (net power, the cold block, the
+  offer to the store, the surplus and deficit sums) is computed beforehand with numpy, once
+  per *group* of lanes sharing a column, efficiencies and charge-temperature limit
+  (:func:`planner.energy.soc._group_offers`); the kernel reads the group's offer.
+
+The offer is ``(n_hours, n_groups)`` read at ``grp[j]``; self-discharge and available
+capacity are ``(n_hours, n_columns)`` (zero-stride broadcast views are fine) read at
+``col[j]``. The module imports without numba: then
 :data:`BLOCK_KERNEL` is ``None`` and :func:`block_hours` is plain Python (the tests run it
 on tiny inputs to check the compiled logic against the numpy loop).
 """
@@ -37,14 +43,14 @@ except ImportError:                 # the numpy loop is used instead
 TILE_HOURS = 72
 
 # Columns of the per-lane parameter array ``par`` (k, N_PAR).
-P_CAP, P_INV_CAP, P_E_MAX, P_E_FLOOR, P_DOD_WH, P_A_MAX, P_ETA_C, P_INV_ETA_D, \
-    P_CHARGE_RATE_F, P_DISCHARGE_RATE_F, P_T_MIN, P_LOW = range(12)
-N_PAR = 12
+P_CAP, P_INV_CAP, P_E_MAX, P_DOD_WH, P_A_MAX, P_CHARGE_RATE_F, P_DISCHARGE_RATE_F, \
+    P_LOW = range(8)
+N_PAR = 8
 # Columns of the per-lane state array ``state`` (k, N_STATE); counts are held as floats
 # (exact below 2**53).
-S_E, S_ACC, S_D, S_SD, S_SUR, S_DFC, S_SOC, S_MIN_SOC, S_MAX_CR, S_DAY_MAX, S_RUN, \
-    S_LONGEST, S_UNS, S_BLK = range(14)
-N_STATE = 14
+S_E, S_ACC, S_D, S_SD, S_SOC, S_MIN_SOC, S_MAX_CR, S_DAY_MAX, S_RUN, S_LONGEST, \
+    S_UNS = range(11)
+N_STATE = 11
 
 
 def block_lanes(k: int, n_threads: int = 2) -> int:
@@ -68,8 +74,7 @@ def initial_state(e0: np.ndarray) -> np.ndarray:
 
 def _load(state, j):
     return (state[j, 0], state[j, 1], state[j, 2], state[j, 3], state[j, 4], state[j, 5],
-            state[j, 6], state[j, 7], state[j, 8], state[j, 9], state[j, 10],
-            state[j, 11], state[j, 12], state[j, 13])
+            state[j, 6], state[j, 7], state[j, 8], state[j, 9], state[j, 10])
 
 
 def _store(state, j, s):
@@ -79,32 +84,21 @@ def _store(state, j, s):
 
 def _params(par, j):
     return (par[j, 0], par[j, 1], par[j, 2], par[j, 3], par[j, 4], par[j, 5], par[j, 6],
-            par[j, 7], par[j, 8], par[j, 9], par[j, 10], par[j, 11])
+            par[j, 7])
 
 
-def _hour(net, temp_c, heater_on, sd_frac, avail_frac, s, p):
+def _hour(x, sd_frac, avail_frac, s, p):
     """One hour of one lane: returns (new state tuple, SOC, terminal C-rate).
 
-    Takes the hour's inputs as scalars (net power, battery temperature, heater, self-
-    discharge fraction, available-capacity fraction): passing whole arrays to a helper
-    that is not inlined costs more than the hour itself. No run-time switches: without
-    self-discharge ``sd_frac`` is 0 (removing ``0 * E`` changes nothing), and without a
-    cold derating the caller sets ``cap = e_floor``, ``dod_wh = 0`` and ``avail_frac = 1``,
-    so ``floor = e_floor`` exactly.
+    ``x`` is the group's offer to the store this hour (Wh: ``eta_c * surplus`` or
+    ``-deficit / eta_d``, zero while charging is blocked by cold). Takes scalars: passing
+    whole arrays to a helper that is not inlined costs more than the hour itself. No
+    run-time switches: without self-discharge ``sd_frac`` is 0 (removing ``0 * E``
+    changes nothing), and without a cold derating the caller sets ``cap = e_floor``,
+    ``dod_wh = 0`` and ``avail_frac = 1``, so ``floor = e_floor`` exactly.
     """
-    e, acc, dsum, sdsum, sur, dfc, socsum, min_soc, max_cr, day_max, run, longest, \
-        uns, blk = s
-    cap, inv_cap, e_max, _, dod_wh, a_max, eta_c, inv_eta_d, crf, drf, t_min, _ = p
-    if net > 0.0:
-        sur += net
-        if temp_c >= t_min or heater_on:
-            x = net * eta_c
-        else:
-            x = 0.0
-            blk += 1.0
-    else:
-        dfc -= net
-        x = net * inv_eta_d            # a multiplication: divisions stall the loop
+    e, acc, dsum, sdsum, socsum, min_soc, max_cr, day_max, run, longest, uns = s
+    cap, inv_cap, e_max, dod_wh, a_max, crf, drf, _ = p
     if x > a_max:
         x = a_max
     loss = e * sd_frac
@@ -133,32 +127,31 @@ def _hour(net, temp_c, heater_on, sd_frac, avail_frac, s, p):
         max_cr = abs(rate)
     if soc > day_max:
         day_max = soc
-    return ((y, acc, dsum, sdsum, sur, dfc, socsum, min_soc, max_cr, day_max, run, longest,
-             uns, blk), soc, rate)
+    return ((y, acc, dsum, sdsum, socsum, min_soc, max_cr, day_max, run, longest, uns),
+            soc, rate)
 
 
 def _day_end(s, low):
     """Close a day: extend or reset the run of days whose highest SOC stayed below
     ``low`` and keep the longest run."""
-    run = s[10] + 1.0 if s[9] < low else 0.0
-    longest = s[11] if s[11] > run else run
-    return (s[0], s[1], s[2], s[3], s[4], s[5], s[6], s[7], s[8], -1.0, run, longest,
-            s[12], s[13])
+    run = s[S_RUN] + 1.0 if s[S_DAY_MAX] < low else 0.0
+    longest = s[S_LONGEST] if s[S_LONGEST] > run else run
+    return (s[0], s[1], s[2], s[3], s[4], s[5], s[6], -1.0, run, longest, s[10])
 
 
-def block_hours(charge, load, temp, heater, sd, avail, col, par, state,
-                series_col, soc_s, cr_s, month_end, snap_dr, snap_dfc, block):
+def block_hours(offer, sd, avail, grp, col, par, state, series_col, soc_s, cr_s, month_end,
+                snap_dr, block):
     """Run every hour for all lanes; ``state`` (k, N_STATE) is updated in place.
 
     Per lane and hour (energies in Wh inside the pack, the step is one hour): the store
-    is offered ``x = eta_c * surplus`` (zero while charging is blocked by cold) or
-    ``-deficit / eta_d``, capped at the acceptance ``a_max``; self-discharge
+    is offered ``x = offer[t, grp[j]]`` (``eta_c * surplus``, zero while charging is
+    blocked by cold, or ``-deficit / eta_d``), capped at the acceptance ``a_max``;
+    self-discharge
     ``E -= E * s``; ``E <- clip(E + x, min(E, floor), e_max)`` where ``floor = cap -
     avail * dod_wh`` (cold-derated low-voltage disconnect; see :func:`_hour` for packs
-    without derating). The running
-    sums (stored charge, net stored change, self-discharge, surplus and deficit offered)
-    give the energy balance; ``snap_dr``/``snap_dfc`` get ``acc - d`` and the deficit sum
-    at each month end (``month_end[t]``) for the unserved load by month. SOC and terminal
+    without derating). The running sums (stored charge, net stored change,
+    self-discharge) give the energy balance; ``snap_dr`` gets ``acc - d`` at each month
+    end (``month_end[t]``) for the unserved load by month. SOC and terminal
     C-rate (discharge positive) go to column ``series_col[j]`` of ``soc_s``/``cr_s`` when
     it is ``>= 0``. ``block`` is the number of lanes per block (a multiple of 4).
     """
@@ -180,6 +173,7 @@ def block_hours(charge, load, temp, heater, sd, avail, col, par, state,
                 # (same inputs, same results, written back identically)
                 ja, jb, jc, jd = g, min(g + 1, k - 1), min(g + 2, k - 1), min(g + 3, k - 1)
                 ca, cb, cc, cd = col[ja], col[jb], col[jc], col[jd]
+                ga, gb, gc, gd = grp[ja], grp[jb], grp[jc], grp[jd]
                 pa, pb, pc, pd = (_params(par, ja), _params(par, jb), _params(par, jc),
                                   _params(par, jd))
                 sa, sb, sc, sdd = (_load(state, ja), _load(state, jb), _load(state, jc),
@@ -187,22 +181,10 @@ def block_hours(charge, load, temp, heater, sd, avail, col, par, state,
                 i = g - j0
                 snap = snap0
                 for t in range(t0, t1):
-                    sa, soc_a, cr_a = _hour(
-                        charge[t, ca] - load[t, ca], temp[t, ca],
-                        heater[t, ca], sd[t, ca], avail[t, ca],
-                        sa, pa)
-                    sb, soc_b, cr_b = _hour(
-                        charge[t, cb] - load[t, cb], temp[t, cb],
-                        heater[t, cb], sd[t, cb], avail[t, cb],
-                        sb, pb)
-                    sc, soc_c, cr_c = _hour(
-                        charge[t, cc] - load[t, cc], temp[t, cc],
-                        heater[t, cc], sd[t, cc], avail[t, cc],
-                        sc, pc)
-                    sdd, soc_d, cr_d = _hour(
-                        charge[t, cd] - load[t, cd], temp[t, cd],
-                        heater[t, cd], sd[t, cd], avail[t, cd],
-                        sdd, pd)
+                    sa, soc_a, cr_a = _hour(offer[t, ga], sd[t, ca], avail[t, ca], sa, pa)
+                    sb, soc_b, cr_b = _hour(offer[t, gb], sd[t, cb], avail[t, cb], sb, pb)
+                    sc, soc_c, cr_c = _hour(offer[t, gc], sd[t, cc], avail[t, cc], sc, pc)
+                    sdd, soc_d, cr_d = _hour(offer[t, gd], sd[t, cd], avail[t, cd], sdd, pd)
                     r = t - t0
                     buf_soc[r, i] = soc_a
                     buf_soc[r, i + 1] = soc_b
@@ -222,10 +204,6 @@ def block_hours(charge, load, temp, heater, sd, avail, col, par, state,
                         snap_dr[snap, jb] = sb[S_ACC] - sb[S_D]
                         snap_dr[snap, jc] = sc[S_ACC] - sc[S_D]
                         snap_dr[snap, jd] = sdd[S_ACC] - sdd[S_D]
-                        snap_dfc[snap, ja] = sa[S_DFC]
-                        snap_dfc[snap, jb] = sb[S_DFC]
-                        snap_dfc[snap, jc] = sc[S_DFC]
-                        snap_dfc[snap, jd] = sdd[S_DFC]
                         snap += 1
                 _store(state, ja, sa)
                 _store(state, jb, sb)
@@ -277,10 +255,9 @@ def compiled_kernel():
         return None
     if not BLOCK_KERNEL.signatures:
         t = _numba.types
-        r2, rb2 = (t.Array(dt, 2, "A", readonly=True) for dt in (t.float64, t.boolean))
+        r2 = t.Array(t.float64, 2, "A", readonly=True)
         f2, i1 = t.float64[:, :], t.int64[:]
-        BLOCK_KERNEL.compile((r2, r2, r2, rb2, r2, r2, i1, f2, f2,
-                              i1, t.float32[:, :], t.float32[:, :], t.boolean[:], f2, f2,
-                              t.int64))
+        BLOCK_KERNEL.compile((r2, r2, r2, i1, i1, f2, f2, i1, t.float32[:, :],
+                              t.float32[:, :], t.boolean[:], f2, t.int64))
         BLOCK_KERNEL.disable_compile()
     return BLOCK_KERNEL

@@ -386,6 +386,40 @@ def _hour_block(h, t0: int, t1: int, cols: np.ndarray) -> np.ndarray | None:
     return h.arr[t0:t1, cols]
 
 
+def _groups(col, eta_c, eta_d, t_min):
+    """Lanes that read the same column with the same efficiencies and charge limit.
+
+    Returns the groups' column, charge and discharge efficiency and minimum charge
+    temperature, ``(m,)`` each, and each lane's group, ``(k,)``.
+    """
+    keys = np.stack([np.asarray(col, dtype=float), eta_c, eta_d, t_min], axis=1)
+    keys_g, ginv = np.unique(keys, axis=0, return_inverse=True)
+    return (keys_g[:, 0].astype(np.intp), keys_g[:, 1], keys_g[:, 2], keys_g[:, 3],
+            ginv.reshape(-1))
+
+
+def _group_offers(p, t0, t1, gcol, g_eta_c, g_eta_d, g_t_min):
+    """Hours ``t0:t1`` of every group: surplus, deficit, cold block and offer to the store.
+
+    The source serves the load first; the store is offered ``eta_c * surplus`` (zero
+    while the battery is below its minimum charge temperature with the heater off) minus
+    ``deficit / eta_d``. Returns ``(surplus_w, deficit_w, cold, offer_wh)``, each
+    ``(t1 - t0, m)``; ``cold`` is ``None`` when no group has a charge-temperature limit.
+    """
+    net = _hour_block(p["charge"], t0, t1, gcol) - _hour_block(p["load"], t0, t1, gcol)
+    sur = np.maximum(net, 0.0)
+    dfc = sur - net
+    cold = None
+    charged = sur
+    if np.any(np.isfinite(g_t_min)):
+        ok = _hour_block(p["temp"], t0, t1, gcol) >= g_t_min
+        if p["heater"] is not None:
+            ok = ok | _hour_block(p["heater"], t0, t1, gcol)
+        cold = (sur > 0.0) & ~ok
+        charged = sur * ok
+    return sur, dfc, cold, charged * g_eta_c - dfc / g_eta_d
+
+
 def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     """The hourly recursion for lanes ``start:stop`` (Python loop over hours only).
 
@@ -413,16 +447,9 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
     eta_c, eta_d, t_min = p["eta_c"][lane], p["eta_d"][lane], p["t_min"][lane]
     col = np.arange(start, stop) if p["site_idx"] is None else p["site_idx"][lane]
-    # groups: lanes that read the same column with the same efficiencies and limit
-    keys = np.stack([col.astype(float), eta_c, eta_d, t_min], axis=1)
-    keys_g, ginv = np.unique(keys, axis=0, return_inverse=True)
-    ginv = ginv.reshape(-1)
-    gcol = keys_g[:, 0].astype(np.intp)
-    g_eta_c, g_eta_d, g_t_min = keys_g[:, 1], keys_g[:, 2], keys_g[:, 3]
+    gcol, g_eta_c, g_eta_d, g_t_min, ginv = _groups(col, eta_c, eta_d, t_min)
     m = gcol.size
-    charge, load, temp, sd, heater, avail = (p[x] for x in ("charge", "load", "temp", "sd",
-                                                            "heater", "avail"))
-    check_temp = bool(np.any(np.isfinite(t_min)))
+    sd, avail = p["sd"], p["avail"]
     with_sd = not sd.is_constant(0.0)
     c_limited = bool(np.any(np.isfinite(p["c_max"][lane])))
 
@@ -453,22 +480,14 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     block_h = int(max(24, min(n_hours, _GATHER_LANE_HOURS // max(k, 1))))
     for t0 in range(0, n_hours, block_h):
         t1 = min(n_hours, t0 + block_h)
-        # --- group level, whole block: the source serves the load first
-        net = _hour_block(charge, t0, t1, gcol) - _hour_block(load, t0, t1, gcol)
-        sur = np.maximum(net, 0.0)
-        dfc = sur - net
+        # --- group level, whole block
+        sur, dfc, cold, x_g = _group_offers(p, t0, t1, gcol, g_eta_c, g_eta_d, g_t_min)
         # running sums continued hour by hour (cumsum adds in order, like a loop would)
         cum_sur = np.cumsum(np.vstack([sum_sur_g, sur]), axis=0)[1:]
         cum_dfc = np.cumsum(np.vstack([sum_dfc_g, dfc]), axis=0)[1:]
         sum_sur_g, sum_dfc_g = cum_sur[-1].copy(), cum_dfc[-1].copy()
-        if check_temp:
-            ok = _hour_block(temp, t0, t1, gcol) >= g_t_min
-            if heater is not None:
-                ok = ok | _hour_block(heater, t0, t1, gcol)
-            cold = (sur > 0.0) & ~ok
+        if cold is not None:
             blk_g += cold.sum(axis=0)
-            sur = sur * ok
-        x_g = sur * g_eta_c - dfc / g_eta_d
         # --- gathered to the lanes once per block
         x_b = x_g[:, ginv]
         if c_limited:
@@ -532,17 +551,25 @@ def _dense(h, n_hours: int, n_columns: int, dtype, fill):
     return arr
 
 
+#: Groups whose offers are precomputed for one kernel call (8,760 h x 256 x 8 bytes =
+#: 18 MB per array); a chunk whose lanes form more groups is run in pieces of lanes.
+_KERNEL_GROUPS = 256
+
+
 def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     """:func:`_run_chunk` with the hour loop inside ``kernel`` (compiled or plain Python).
 
     ``kernel`` is :func:`planner.energy._soc_kernels.block_hours` or its compiled form;
-    it runs lane blocks in parallel and steps four lanes at a time.
+    it runs lane blocks in parallel and steps four lanes at a time. The groups' offers and
+    surplus/deficit sums are computed here with numpy for the whole year (the numpy loop
+    does the same a block of hours at a time), in pieces of at most about
+    :data:`_KERNEL_GROUPS` groups.
     """
     k = stop - start
     n_hours, n_columns = p["n_hours"], p["n_columns"]
     lane = slice(start, stop)
     cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
-    eta_c, eta_d = p["eta_c"][lane], p["eta_d"][lane]
+    eta_c, eta_d, t_min = p["eta_c"][lane], p["eta_d"][lane], p["t_min"][lane]
     col = (np.arange(start, stop) if p["site_idx"] is None
            else p["site_idx"][lane]).astype(np.int64)
     e_start = np.minimum(p["soc0"][lane], usable) * cap
@@ -551,8 +578,9 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
         month_end[np.cumsum([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31]) * 24 - 1] = True
     else:
         month_end[-1] = True
-    n_snap = int(month_end.sum())
-    snap_dr, snap_dfc = np.zeros((n_snap, k)), np.zeros((n_snap, k))
+    month_rows = np.flatnonzero(month_end)
+    snap_dr, snap_dfc = np.zeros((month_rows.size, k)), np.zeros((month_rows.size, k))
+    sum_sur, sum_dfc, blk = np.zeros(k), np.zeros(k), np.zeros(k, dtype=np.int64)
     series_col = np.full(k, -1, dtype=np.int64)
     if keep is not None:
         picked = np.arange(k)[keep]
@@ -564,36 +592,45 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     # time, and first-touch page faults scattered over 300 MB cost seconds (measured)
     soc_s.fill(0.0)
     cr_s.fill(0.0)
-    par = np.empty((k, _kernels.N_PAR))
     derated = p["avail"] is not None
+    par = np.empty((k, _kernels.N_PAR))
     # without a cold derating the kernel's floor cap - avail * dod_wh must be e_floor
     par[:, _kernels.P_CAP] = cap if derated else soc_min * cap
     par[:, _kernels.P_INV_CAP] = 1.0 / cap
     par[:, _kernels.P_E_MAX] = usable * cap
-    par[:, _kernels.P_E_FLOOR] = soc_min * cap
     par[:, _kernels.P_DOD_WH] = (1.0 - soc_min) * cap if derated else 0.0
     par[:, _kernels.P_A_MAX] = np.minimum(p["c_max"][lane] * cap, 1e300) * eta_c
-    par[:, _kernels.P_ETA_C] = eta_c
-    par[:, _kernels.P_INV_ETA_D] = 1.0 / eta_d
     par[:, _kernels.P_CHARGE_RATE_F] = -1.0 / (eta_c * cap)
     par[:, _kernels.P_DISCHARGE_RATE_F] = -eta_d / cap
-    par[:, _kernels.P_T_MIN] = p["t_min"][lane]
     par[:, _kernels.P_LOW] = p["low"][lane]
     state = _kernels.initial_state(e_start)
-    hourly = [_kernels.readonly(_dense(p[name], n_hours, n_columns, float, 0.0))
-              for name in ("charge", "load", "temp")]
-    heater = _kernels.readonly(_dense(p["heater"], n_hours, n_columns, np.bool_, False))
     sd = _kernels.readonly(_dense(p["sd"], n_hours, n_columns, float, 0.0))
     avail = _kernels.readonly(_dense(p["avail"], n_hours, n_columns, float, 1.0))
-    kernel(*hourly, heater, sd, avail, col, par, state, series_col, soc_s, cr_s, month_end, snap_dr, snap_dfc,
-           _kernels.block_lanes(k, _threads()))
+    n_groups = _groups(col, eta_c, eta_d, t_min)[0].size
+    piece = k if n_groups <= _KERNEL_GROUPS else max(4, k * _KERNEL_GROUPS // n_groups)
+    for a in range(0, k, piece):
+        b = min(k, a + piece)
+        gcol, g_eta_c, g_eta_d, g_t_min, ginv = _groups(col[a:b], eta_c[a:b], eta_d[a:b],
+                                                        t_min[a:b])
+        sur, dfc, cold, offer = _group_offers(p, 0, n_hours, gcol, g_eta_c, g_eta_d,
+                                              g_t_min)
+        # running sums in hour order (cumsum adds in order, like the numpy loop)
+        cum_dfc = np.cumsum(dfc, axis=0)
+        sum_sur[a:b] = np.cumsum(sur, axis=0)[-1][ginv]
+        sum_dfc[a:b] = cum_dfc[-1][ginv]
+        snap_dfc[:, a:b] = cum_dfc[month_rows][:, ginv]
+        if cold is not None:
+            blk[a:b] = cold.sum(axis=0)[ginv]
+        del sur, dfc, cold, cum_dfc
+        kernel(_kernels.readonly(offer), sd, avail, ginv.astype(np.int64), col[a:b],
+               par[a:b], state[a:b], series_col[a:b], soc_s, cr_s, month_end,
+               snap_dr[:, a:b], _kernels.block_lanes(b - a, _threads()))
     st = {name: state[:, getattr(_kernels, "S_" + name)].copy()
-          for name in ("E", "ACC", "D", "SD", "SUR", "DFC", "SOC", "MIN_SOC", "MAX_CR",
-                       "LONGEST", "UNS", "BLK")}
+          for name in ("E", "ACC", "D", "SD", "SOC", "MIN_SOC", "MAX_CR", "LONGEST", "UNS")}
     n_uns = st["UNS"].astype(np.int64)
     return _finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, st["E"], e_start,
-                         st["ACC"], st["ACC"] - st["D"], st["SD"], n_uns,
-                         st["BLK"].astype(np.int64), st["SUR"], st["DFC"],
+                         st["ACC"], st["ACC"] - st["D"], st["SD"], n_uns, blk, sum_sur,
+                         sum_dfc,
                          _monthly_unserved(list(snap_dr), list(snap_dfc), None, eta_d, n_uns),
                          st["SOC"] / n_hours, st["MIN_SOC"], st["MAX_CR"], st["LONGEST"],
                          soc_s, cr_s)
