@@ -326,11 +326,20 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                 if turns:
                     for q in range(w):
                         if turned[q]:
-                            stage_v[q, fill[q]] = p_row[q]
-                            stage_i[q, fill[q]] = h - 1
-                            fill[q] += 1
-                            if fill[q] == STAGE:
-                                _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
+                            f = fill[q]
+                            stage_v[q, f] = p_row[q]
+                            stage_i[q, f] = h - 1
+                            f += 1
+                            if f == STAGE:  # write the run out, inline (a call costs more)
+                                r = r0 + q
+                                k = n_rev[r]
+                                for t in range(STAGE):
+                                    if k + t < capacity:
+                                        rev_v[r, k + t] = stage_v[q, t]
+                                        rev_i[r, k + t] = stage_i[q, t]
+                                n_rev[r] = k + STAGE
+                                f = 0
+                            fill[q] = f
         if do_cycles and n_hours >= 2:
             for q in range(w):
                 _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r0 + q)
