@@ -530,3 +530,35 @@ def test_kernel_result_does_not_depend_on_block_size():
     np.testing.assert_array_equal(runs[0].soc_frac, runs[1].soc_frac)
     assert 4 <= _soc_kernels.block_lanes(3) <= _soc_kernels.block_lanes(10**6) == 256
     assert all(_soc_kernels.block_lanes(k) % 4 == 0 for k in (1, 5, 100, 2048, 8192))
+
+
+def test_kernel_in_pieces_of_groups_equals_numpy_loop(monkeypatch):
+    # a chunk whose lanes form more groups than one kernel call takes is run in pieces of
+    # lanes; the pieces must give the numpy loop's numbers (reference: the numpy recursion)
+    monkeypatch.setattr(soc, "_KERNEL_GROUPS", 2)
+    rng = np.random.default_rng(8)
+    c = _mixed_case(rng, 24 * 35, 11, 4)
+    p = _prepare_mixed(c)
+    keep = np.array([1, 2, 3, 9])
+    fused = soc._run_chunk_fused(p, 0, 11, keep, _kernel_py())
+    p["engine"] = "numpy"
+    _assert_same(fused, soc._run_chunk(p, 0, 11, keep))
+
+
+@pytest.mark.parametrize("with_avail", [True, False])
+def test_numpy_loop_hourly_gather_equals_block_gather(monkeypatch, with_avail):
+    # wide chunks gather the group offers hour by hour, narrow ones a block of hours at a
+    # time; both must give the same numbers, and the kernel's Python function agrees
+    # (reference: the block-gather numpy loop, itself checked against the plain loop)
+    rng = np.random.default_rng(13)
+    c = _mixed_case(rng, 24 * 33, 10, 3)
+    p = _prepare_mixed(c, with_avail=with_avail)
+    p["engine"] = "numpy"
+    block = soc._run_chunk(p, 0, 10, slice(None))
+    monkeypatch.setattr(soc, "_PER_HOUR_GATHER_LANES", 1)
+    hourly = soc._run_chunk(p, 0, 10, slice(None))
+    for name in soc._SUMMARY_FIELDS:
+        np.testing.assert_array_equal(getattr(hourly.summary, name),
+                                      getattr(block.summary, name), err_msg=name)
+    np.testing.assert_array_equal(hourly.soc_frac, block.soc_frac)
+    _assert_same(soc._run_chunk_fused(p, 0, 10, slice(None), _kernel_py()), hourly)

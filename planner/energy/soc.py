@@ -373,6 +373,8 @@ def _longest_low_days(soc_frac: np.ndarray, low_frac: np.ndarray) -> np.ndarray:
 #: float64 array, so a block is still in the second-level cache when the hours read it;
 #: larger blocks measured slower). At least one day per block.
 _GATHER_LANE_HOURS = 2 ** 16
+#: From this many lanes in a chunk the numpy loop gathers hour by hour instead.
+_PER_HOUR_GATHER_LANES = 4096
 
 
 def _hour_block(h, t0: int, t1: int, cols: np.ndarray) -> np.ndarray | None:
@@ -478,6 +480,12 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     if fixed_floor:
         lo[...] = e_floor
     block_h = int(max(24, min(n_hours, _GATHER_LANE_HOURS // max(k, 1))))
+    # wide chunks gather hour by hour (measured faster from 4,096 lanes: the rows of a
+    # gathered block no longer stay in cache); narrow ones a block of hours at a time
+    per_hour = k >= _PER_HOUR_GATHER_LANES
+    if per_hour:
+        ucol, cinv = np.unique(col, return_inverse=True)
+        x_buf, sd_buf, av_buf = np.empty(k), np.empty(k), np.empty(k)
     for t0 in range(0, n_hours, block_h):
         t1 = min(n_hours, t0 + block_h)
         # --- group level, whole block
@@ -488,23 +496,37 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
         sum_sur_g, sum_dfc_g = cum_sur[-1].copy(), cum_dfc[-1].copy()
         if cold is not None:
             blk_g += cold.sum(axis=0)
-        # --- gathered to the lanes once per block
-        x_b = x_g[:, ginv]
-        if c_limited:
-            np.minimum(x_b, a_max, out=x_b)
-        sd_b = _hour_block(sd, t0, t1, col) if with_sd else None
-        av_b = _hour_block(avail, t0, t1, col) if avail is not None else None
+        if per_hour:
+            # wide chunks: gather each hour into buffers that stay in cache
+            sd_c = _hour_block(sd, t0, t1, ucol) if with_sd else None
+            av_c = _hour_block(avail, t0, t1, ucol) if avail is not None else None
+        else:
+            # narrow chunks: gathered to the lanes once per block of hours
+            x_b = x_g[:, ginv]
+            if c_limited:
+                np.minimum(x_b, a_max, out=x_b)
+            sd_b = _hour_block(sd, t0, t1, col) if with_sd else None
+            av_b = _hour_block(avail, t0, t1, col) if avail is not None else None
         for t in range(t0, t1):
             r = t - t0
-            x = x_b[r]
+            if per_hour:
+                x = np.take(x_g[r], ginv, out=x_buf)
+                if c_limited:
+                    np.minimum(x, a_max, out=x)
+                sd_row = np.take(sd_c[r], cinv, out=sd_buf) if with_sd else None
+                av_row = np.take(av_c[r], cinv, out=av_buf) if avail is not None else None
+            else:
+                x = x_b[r]
+                sd_row = sd_b[r] if with_sd else None
+                av_row = av_b[r] if avail is not None else None
             # --- lane level: self-discharge over the hour
             if with_sd:
-                np.multiply(e, sd_b[r], out=tmp)
+                np.multiply(e, sd_row, out=tmp)
                 e -= tmp
                 sum_sd += tmp
             if not fixed_floor:
-                if av_b is not None:
-                    np.multiply(av_b[r], dod_wh, out=tmp)
+                if av_row is not None:
+                    np.multiply(av_row, dod_wh, out=tmp)
                     np.subtract(cap, tmp, out=lo)  # floor = C - f_avail (1 - soc_min) C
                     np.minimum(lo, e, out=lo)
                 else:
