@@ -562,3 +562,23 @@ def test_numpy_loop_hourly_gather_equals_block_gather(monkeypatch, with_avail):
                                       getattr(block.summary, name), err_msg=name)
     np.testing.assert_array_equal(hourly.soc_frac, block.soc_frac)
     _assert_same(soc._run_chunk_fused(p, 0, 10, slice(None), _kernel_py()), hourly)
+
+
+def test_failed_compilation_falls_back_to_numpy_loop(monkeypatch):
+    # an optional accelerator must never stop a plan: if numba cannot compile the kernel
+    # the numpy loop runs, with a warning (reference: the numpy engine's own numbers)
+    class Broken:
+        signatures = []
+
+        def compile(self, sig):
+            raise TypeError("unsupported")
+
+    monkeypatch.setattr(_soc_kernels, "BLOCK_KERNEL", Broken())
+    monkeypatch.setattr(_soc_kernels, "_COMPILE_FAILED", False)
+    rng = np.random.default_rng(2)
+    c = _random_case(rng, 48, 3)
+    with pytest.warns(RuntimeWarning, match="numpy hour loop"):
+        auto = _run(c)
+    ref = _run(c, engine="numpy")
+    for name in soc._SUMMARY_FIELDS:
+        np.testing.assert_array_equal(getattr(auto, name), getattr(ref, name), err_msg=name)

@@ -30,6 +30,8 @@ on tiny inputs to check the compiled logic against the numpy loop).
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 
 try:
@@ -254,15 +256,27 @@ def compiled_kernel():
     Compiled on first use, not at import. One signature for every call: the hourly
     inputs are passed as read-only any-layout views (see :func:`readonly`), so a fresh
     install compiles once (several seconds, then loaded from numba's on-disk cache)
-    instead of once per combination of input layouts.
+    instead of once per combination of input layouts. ``None`` without numba, or when
+    compiling fails (an incompatible numba release): the caller then runs the numpy
+    loop, which gives the same numbers, and a warning says so once.
     """
-    if BLOCK_KERNEL is None:
+    global _COMPILE_FAILED
+    if BLOCK_KERNEL is None or _COMPILE_FAILED:
         return None
     if not BLOCK_KERNEL.signatures:
-        t = _numba.types
-        r2 = t.Array(t.float64, 2, "A", readonly=True)
-        f2, i1 = t.float64[:, :], t.int64[:]
-        BLOCK_KERNEL.compile((r2, r2, r2, i1, i1, f2, f2, i1, t.float32[:, :],
-                              t.float32[:, :], t.boolean[:], f2, t.int64))
+        try:
+            t = _numba.types
+            r2 = t.Array(t.float64, 2, "A", readonly=True)
+            f2, i1 = t.float64[:, :], t.int64[:]
+            BLOCK_KERNEL.compile((r2, r2, r2, i1, i1, f2, f2, i1, t.float32[:, :],
+                                  t.float32[:, :], t.boolean[:], f2, t.int64))
+        except Exception as err:  # an optional accelerator must never stop a plan
+            _COMPILE_FAILED = True
+            warnings.warn(f"numba could not compile the SOC kernel ({type(err).__name__}); "
+                          f"using the numpy hour loop instead", RuntimeWarning, stacklevel=2)
+            return None
         BLOCK_KERNEL.disable_compile()
     return BLOCK_KERNEL
+
+
+_COMPILE_FAILED = False

@@ -441,8 +441,9 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     compiled kernel of :mod:`planner.energy._soc_kernels` runs the same hours instead
     (``p["engine"] = "numpy"`` forces this loop).
     """
-    if _FUSED is not None and p.get("engine") != "numpy":
-        return _run_chunk_fused(p, start, stop, keep, _kernels.compiled_kernel())
+    kernel = _kernels.compiled_kernel() if p.get("engine") != "numpy" else None
+    if kernel is not None:
+        return _run_chunk_fused(p, start, stop, keep, kernel)
     k = stop - start
     n_hours = p["n_hours"]
     lane = slice(start, stop)
