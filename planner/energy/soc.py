@@ -613,8 +613,8 @@ def _run_chunk_fused(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     cr_s = np.empty((n_hours, n_series), dtype=np.float32)
     # touch the new pages in address order first: the kernel writes them a lane block at a
     # time, and first-touch page faults scattered over 300 MB cost seconds (measured)
-    soc_s.fill(0.0)
-    cr_s.fill(0.0)
+    _kernels.prefault(soc_s)
+    _kernels.prefault(cr_s)
     derated = p["avail"] is not None
     par = np.empty((k, _kernels.N_PAR))
     # without a cold derating the kernel's floor cap - avail * dod_wh must be e_floor
