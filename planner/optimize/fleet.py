@@ -589,17 +589,8 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
         if math.isfinite(objective) and math.isfinite(bound):
             bound = min(bound, objective)
-        status = _within_gap(status, objective, bound, problem.gap_rel_frac)
-        if unserved:
-            status = "infeasible"
-        trips.sort(key=lambda t: (t.year, t.region, t.month))
-        order = {s.site_id: i for i, s in enumerate(problem.sites)}
-        plans.sort(key=lambda p: order[p.site_id])
-        return FleetSolution(status=status, objective=objective, best_bound=bound,
-                             gap_frac=gap(objective, bound) if plans else float("nan"),
-                             solver_name=solver_name, seconds=time.perf_counter() - t0,
-                             decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
-                             binding_limits=binding, build_seconds=build_seconds)
+        return _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved,
+                         binding, decomposition, build_seconds, gap_without_plans=float("nan"))
 
     groups = []
     t_build = time.perf_counter()
@@ -661,6 +652,15 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
     if plans or not fleet or status != "infeasible":
         objective = float(sum(p.present_cost for p in plans))
         bound = min(bound, objective) if math.isfinite(bound) else bound
+    return _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved,
+                     binding, decomposition, build_seconds,
+                     gap_without_plans=0.0 if not unserved else float("nan"))
+
+
+def _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved, binding,
+              decomposition, build_seconds, *, gap_without_plans) -> FleetSolution:
+    """The answer of either method: fleet-wide gap status, unserved sites make it
+    infeasible, trips and plans in a stable order."""
     status = _within_gap(status, objective, bound, problem.gap_rel_frac)
     if unserved:
         status = "infeasible"
@@ -668,7 +668,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
     order = {s.site_id: i for i, s in enumerate(problem.sites)}
     plans.sort(key=lambda p: order[p.site_id])
     return FleetSolution(status=status, objective=objective, best_bound=bound,
-                         gap_frac=gap(objective, bound) if plans else 0.0 if not unserved else float("nan"),
+                         gap_frac=gap(objective, bound) if plans else gap_without_plans,
                          solver_name=solver_name, seconds=time.perf_counter() - t0,
                          decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
                          binding_limits=binding, build_seconds=build_seconds)
