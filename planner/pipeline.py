@@ -49,27 +49,46 @@ LIFE_CAP_YEARS = 100.0
 WARMING_SENSITIVITY_K = 2.0
 
 
+# Steps a progress bar counts besides one per site: designs, fleet solve, chemistry
+# comparison, sensitivity.
+PROGRESS_STAGES = 4
+
+
 def run_study(study: Study, *, progress=None) -> dict:
-    """Plan ``study``; returns the plan dict (see docs/plan-json.md)."""
-    models, designs = _model_fleet(study, progress=progress)
+    """Plan ``study``; returns the plan dict (see docs/plan-json.md).
+
+    ``progress(step, label)`` is called once per site and once per later stage
+    (``len(study.sites) + PROGRESS_STAGES`` steps in all).
+    """
+    def advance(label):
+        if progress:
+            progress(1, label=label)
+
+    models = model_sites(study, progress=progress)
+    if progress:
+        progress(0, label="Aging candidate packs")
+    designs = _evaluate(study, models)
+    advance("Optimising the fleet")
     problem = build_problem(study, models, designs)
     solution = solve_fleet(problem)
+    advance("Comparing chemistries")
     # Every comparison and sensitivity case is a full solve: each gets half the main limit.
     limit = 0.5 * study.settings["solver"]["time_limit_s"]
     comparison = compare_chemistries(problem, list(study.settings["candidates"]["chemistries"]),
                                      time_limit_s=limit)
+    advance("Sensitivity cases")
     cases = []
     if study.settings["output"]["sensitivity"]:
         cases = sensitivity(problem, solution, time_limit_s=limit)
-        warm_models, warm_designs = _model_fleet(study, extra_warming_k=WARMING_SENSITIVITY_K)
-        warm = solve_fleet(build_problem(study, warm_models, warm_designs))
+        warm_models = model_sites(study, extra_warming_k=WARMING_SENSITIVITY_K)
+        warm = solve_fleet(build_problem(study, warm_models, _evaluate(study, warm_models)))
         cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
+    advance("Writing the plan")
     return assemble_plan(study, models, designs, problem, solution, comparison, cases)
 
 
-def _model_fleet(study: Study, *, extra_warming_k: float = 0.0, progress=None):
-    models = model_sites(study, extra_warming_k=extra_warming_k, progress=progress)
-    return models, evaluate_fleet(study, models, price_of=lambda chem, wh: pack_price(study, chem, wh))
+def _evaluate(study: Study, models):
+    return evaluate_fleet(study, models, price_of=lambda chem, wh: pack_price(study, chem, wh))
 
 
 # ---------------------------------------------------------------- fleet problem

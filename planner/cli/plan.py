@@ -28,7 +28,7 @@ def plan_command(ctx, study, out_path, json_path):
     Example:
       planner plan scenarios/corvale.toml --json output/corvale.json
     """
-    from planner.pipeline import run_study
+    from planner.pipeline import PROGRESS_STAGES, run_study
     from planner.report import plan_to_json_text, write_json, write_workbook
     from planner.scenario import load_study
 
@@ -37,7 +37,7 @@ def plan_command(ctx, study, out_path, json_path):
     out = out_path or _default_workbook(study_obj)
     quiet = opts.get("quiet") or json_path == "-"
 
-    with _progress(ctx, len(study_obj.sites)) as advance:
+    with _progress(ctx, len(study_obj.sites) + PROGRESS_STAGES) as advance:
         plan = run_study(study_obj, progress=advance)
 
     write_workbook(plan, out)
