@@ -1,4 +1,9 @@
-"""Command-line behaviour: help, version, exit codes, starter study (issue: foundation)."""
+"""Command-line behaviour: help, version, exit codes, starter study (issue: foundation).
+
+The exit codes are those the foundation issue fixes: 0 plan written, 2 bad input or usage
+(the convention of click and of POSIX utilities for usage errors: common practice), 3 no
+feasible plan.
+"""
 
 from pathlib import Path
 

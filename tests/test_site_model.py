@@ -27,7 +27,8 @@ def test_load_terms_add_and_scale_by_month(tmp_path):
 
 
 def test_snow_months_stop_pv_charging(tmp_path):
-    # pv_snow_months: the array is taken as covered, so it offers no power those months.
+    # pv_snow_months: the array is taken as covered, so it offers no power those months
+    # (common practice: a snow-covered module produces next to nothing).
     (tmp_path / "sites.csv").write_text(
         "id,region,climate,load_w,charging,pv_wp,pv_snow_months,autonomy_days\n"
         "A,r,alpine,1,pv,80,12-2,5\nB,r,alpine,1,pv,80,,5\n")
