@@ -100,7 +100,9 @@ def _summary(plan, out) -> str:
     for row in plan.get("chemistry_comparison", []):
         text = f"{row['total_with_others_present_cost']:,.0f} {currency}"
         unserved = row.get("sites_unserved") or []
-        if unserved:
+        if len(unserved) == n_sites:
+            text = "cannot serve any site"
+        elif unserved:
             verb = "keeps" if len(unserved) == 1 else "keep"
             text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
                      f"{len(unserved)} {verb} another chemistry)")
