@@ -234,32 +234,12 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     columns: list[Column] = []
 
     def column_entries(col: Column):
-        s = col.site
-        idx = [r_conv + s]
-        val = [1.0]
-        k = site_group[s]
-        mass = g.pair_cand[col.pair].mass_kg if col.pair >= 0 else 0.0
-        spend = np.zeros(h)
-        for a in col.arcs:
-            t1, t2 = int(g.arc_t1[a]), int(g.arc_t2[a])
-            idx.append(int(visit_row[s, t1]))
-            val.append(1.0)
-            if payload_kg is not None:
-                idx.append(r_pay + k * h + t1)
-                val.append(mass)
-            if crew is not None:
-                idx.append(r_crew + t1)
-                val.append(1.0)
-            spend[t1] += g.arc_spend_t1[a]
-            if t2 < h:
-                spend[t2] += g.arc_spend_t2[a]
-        if col.ex is not None and g.ex_t[col.ex] < h:
-            spend[g.ex_t[col.ex]] += g.ex_spend[col.ex]
-        if budget is not None:
-            for t in np.nonzero(spend)[0]:
-                idx.append(r_bud + int(t))
-                val.append(float(spend[t]))
-        return idx, val
+        s, k = col.site, int(site_group[col.site])
+        return column_coefficients(
+            g, col, convex_row=r_conv + s, visit_row=lambda t: int(visit_row[s, t]),
+            pay_row=None if payload_kg is None else (lambda t: r_pay + k * h + t),
+            crew_row=None if crew is None else (lambda t: r_crew + t),
+            budget_row=None if budget is None else (lambda t: r_bud + t))
 
     def add(cols):
         nonlocal n_rows
@@ -338,6 +318,41 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     if n_bud:
         slack["annual_budget"] = float(fleet_slack[n_crew:].sum())
     return MasterResult(columns, lower, z, it, converged, slack, y_lp)
+
+
+def column_coefficients(g: SiteGraphs, col: Column, *, convex_row, visit_row, pay_row=None,
+                        crew_row=None, budget_row=None):
+    """Rows and coefficients of one site schedule (a column) in a master or integer problem.
+
+    The schedule takes its site's convexity row (1), a visit row per replacement year (1),
+    and, where those fleet limits exist, the payload row of its trip group and year (pack
+    mass), the crew row of the year (1) and the budget row of each year it spends in
+    (undiscounted spend). Row numbers come from the callables of year ``t``.
+    """
+    h = g.horizon_years
+    rows, vals = [convex_row], [1.0]
+    mass = g.pair_cand[col.pair].mass_kg if col.pair >= 0 else 0.0
+    spend = np.zeros(h)
+    for a in col.arcs:
+        t1, t2 = int(g.arc_t1[a]), int(g.arc_t2[a])
+        rows.append(visit_row(t1))
+        vals.append(1.0)
+        if pay_row is not None:
+            rows.append(pay_row(t1))
+            vals.append(mass)
+        if crew_row is not None:
+            rows.append(crew_row(t1))
+            vals.append(1.0)
+        spend[t1] += g.arc_spend_t1[a]
+        if t2 < h:
+            spend[t2] += g.arc_spend_t2[a]
+    if col.ex is not None and g.ex_t[col.ex] < h:
+        spend[g.ex_t[col.ex]] += g.ex_spend[col.ex]
+    if budget_row is not None:
+        for t in np.nonzero(spend)[0]:
+            rows.append(budget_row(int(t)))
+            vals.append(float(spend[t]))
+    return rows, vals
 
 
 def _add_cols(hs, cost, lower, upper, entries):

@@ -32,6 +32,7 @@ import numpy as np
 from planner import economics as ec
 from planner.errors import InputError
 from planner.optimize.candidates import screen_site, whole_years
+from planner.optimize.colgen import column_coefficients
 from planner.optimize.problem import (
     FleetProblem, FleetSolution, SiteOptions, SitePlan, Trip, Unserved,
 )
@@ -498,24 +499,14 @@ def _column_matrix(gr, cols, bsites, site_group, block, trip_cost, is_open, prob
     for j, c in enumerate(cols):  # a few columns per site
         s = local[c.site]
         k = kpos[int(site_group[c.site])]
-        mass = gr.pair_cand[c.pair].mass_kg if c.pair >= 0 else 0.0
-        rows.append(s); cidx.append(j); vals.append(1.0)
-        spend = np.zeros(h)
-        for a in c.arcs:
-            t1, t2 = int(gr.arc_t1[a]), int(gr.arc_t2[a])
-            rows.append(r_visit + s * h + t1); cidx.append(j); vals.append(1.0)
-            if payload is not None:
-                rows.append(r_pay + k * h + t1); cidx.append(j); vals.append(mass)
-            if crew is not None:
-                rows.append(r_crew + t1); cidx.append(j); vals.append(1.0)
-            spend[t1] += gr.arc_spend_t1[a]
-            if t2 < h:
-                spend[t2] += gr.arc_spend_t2[a]
-        if c.ex is not None and gr.ex_t[c.ex] < h:
-            spend[gr.ex_t[c.ex]] += gr.ex_spend[c.ex]
-        if budget is not None:
-            for t in np.nonzero(spend)[0]:
-                rows.append(r_bud + int(t)); cidx.append(j); vals.append(float(spend[t]))
+        col_rows, col_vals = column_coefficients(
+            gr, c, convex_row=s, visit_row=lambda t, s=s: r_visit + s * h + t,
+            pay_row=None if payload is None else (lambda t, k=k: r_pay + k * h + t),
+            crew_row=None if crew is None else (lambda t: r_crew + t),
+            budget_row=None if budget is None else (lambda t: r_bud + t))
+        rows += col_rows
+        vals += col_vals
+        cidx += [j] * len(col_rows)
     y_cost, y_ub = [], []
     for bi, k in enumerate(block):
         members = [local[int(s)] for s in np.nonzero(site_group == k)[0]]
