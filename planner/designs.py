@@ -25,7 +25,7 @@ bounded by ``(8760, chunk)`` arrays whatever the fleet size.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -109,11 +109,6 @@ class Outcome:
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
     dominated: bool = False
-    warnings: list[str] = field(default_factory=list)
-
-
-def _nominal_life(outcome: Outcome) -> float:
-    return outcome.nominal_life_years
 
 
 @dataclass
@@ -324,13 +319,13 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
     fades = {}
     if recharge.any():
         idx = np.flatnonzero(recharge)
-        members = [chunk[j] for j in idx]
+        inputs = _SocInputs(hourly, chems, [chunk[j] for j in idx])
         # The first year, new pack: what the plan reports (unserved load, cycles).
-        duty.put(idx, _duty(hourly, chems, members, capacity[idx], np.ones(idx.size)))
+        duty.put(idx, _duty(inputs, capacity[idx], np.ones(idx.size)))
         # Capacity feedback: an old pack cycles deeper. The aging is driven by the year
         # re-run at the capacity the pack has half-way to its end of life.
         mid_soh = np.clip(0.5 * (1.0 + np.minimum(eol[idx], 1.0)), 0.5, 1.0)
-        mid_life = _duty(hourly, chems, members, capacity[idx], mid_soh)
+        mid_life = _duty(inputs, capacity[idx], mid_soh)
         fades.update(_age_by_chemistry(chems, chunk, idx, hourly, mid_life, volts, peak_c, years))
     if (~recharge).any():
         idx = np.flatnonzero(~recharge)
@@ -423,40 +418,51 @@ class _Duty:
         self.efc[idx] = other.efc
 
 
-def _duty(hourly: _SiteHourly, chems, chunk, capacity, soh) -> _Duty:
-    """Hourly SOC run for lanes of mixed chemistries at ``capacity x soh``.
+class _SocInputs:
+    """The SOC stage's inputs for a chunk of lanes of mixed chemistries, built once and
+    used for both simulated years.
 
-    Each (site, chemistry) pair of the chunk becomes one column of the hourly inputs,
-    because self-discharge and cold derating depend on both.
+    Each (site, chemistry) pair becomes one column of the hourly inputs, because
+    self-discharge and cold derating depend on both; lane parameters come from each
+    lane's chemistry and charge voltage.
     """
-    pairs = sorted({(d.site_index, d.chemistry) for d in chunk})
-    column = {pair: i for i, pair in enumerate(pairs)}
-    cols_site = np.array([site for site, _ in pairs], dtype=np.intp)
-    temps = hourly.temp_c[:, cols_site]
-    self_discharge = np.empty_like(temps)
-    available = np.empty_like(temps)
-    for i, (_, chem_id) in enumerate(pairs):
-        self_discharge[:, i] = chems[chem_id].self_discharge_frac_per_h(temps[:, i])
-        available[:, i] = chems[chem_id].available_capacity_fraction(temps[:, i])
-    lane_chems = [chems[d.chemistry] for d in chunk]
 
-    def per_lane(attribute):
-        return np.array([getattr(c, attribute) for c in lane_chems], dtype=float)
+    def __init__(self, hourly: _SiteHourly, chems, chunk):
+        pairs = sorted({(d.site_index, d.chemistry) for d in chunk})
+        column = {pair: i for i, pair in enumerate(pairs)}
+        cols_site = np.array([site for site, _ in pairs], dtype=np.intp)
+        temps = hourly.temp_c[:, cols_site]
+        self_discharge = np.empty_like(temps)
+        available = np.empty_like(temps)
+        for i, (_, chem_id) in enumerate(pairs):
+            self_discharge[:, i] = chems[chem_id].self_discharge_frac_per_h(temps[:, i])
+            available[:, i] = chems[chem_id].available_capacity_fraction(temps[:, i])
+        lane_chems = [chems[d.chemistry] for d in chunk]
 
-    sim = next(iter_soc_chunks(
-        hourly.charge_w[:, cols_site], hourly.load_w[:, cols_site], capacity * soh, temps,
-        usable_fraction=np.array([c.usable_fraction(d.charge_voltage_v_per_cell)
-                                  for c, d in zip(lane_chems, chunk)]),
-        charge_efficiency_frac=per_lane("charge_efficiency_frac"),
-        discharge_efficiency_frac=per_lane("discharge_efficiency_frac"),
-        self_discharge_frac_per_h=self_discharge,
-        max_charge_c_rate=per_lane("max_charge_c_rate"),
-        charge_temp_min_c=per_lane("charge_temp_min_c"),
-        heater_on=hourly.heater_on[:, cols_site], min_soc_frac=1.0 - per_lane("max_dod_frac"),
-        available_capacity_frac=available,
-        lane_site_index=np.array([column[(d.site_index, d.chemistry)] for d in chunk],
-                                 dtype=np.intp),
-        chunk_lanes=len(chunk), series=True))
+        def per_lane(attribute):
+            return np.array([getattr(c, attribute) for c in lane_chems], dtype=float)
+
+        self.hourly = (hourly.charge_w[:, cols_site], hourly.load_w[:, cols_site])
+        self.temps = temps
+        self.options = dict(
+            usable_fraction=np.array([c.usable_fraction(d.charge_voltage_v_per_cell)
+                                      for c, d in zip(lane_chems, chunk)]),
+            charge_efficiency_frac=per_lane("charge_efficiency_frac"),
+            discharge_efficiency_frac=per_lane("discharge_efficiency_frac"),
+            self_discharge_frac_per_h=self_discharge,
+            max_charge_c_rate=per_lane("max_charge_c_rate"),
+            charge_temp_min_c=per_lane("charge_temp_min_c"),
+            heater_on=hourly.heater_on[:, cols_site], min_soc_frac=1.0 - per_lane("max_dod_frac"),
+            available_capacity_frac=available,
+            lane_site_index=np.array([column[(d.site_index, d.chemistry)] for d in chunk],
+                                     dtype=np.intp),
+            chunk_lanes=len(chunk), series=True)
+
+
+def _duty(inputs: _SocInputs, capacity, soh) -> _Duty:
+    """One typical year of hourly SOC for the chunk's lanes at ``capacity x soh``."""
+    charge_w, load_w = inputs.hourly
+    sim = next(iter_soc_chunks(charge_w, load_w, capacity * soh, inputs.temps, **inputs.options))
     s = sim.summary
     # SOC stays relative to the faded capacity (it sets the voltage, hence calendar stress,
     # and an old pack cycles deeper); current is re-expressed against rated capacity.
@@ -547,7 +553,7 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     for j, d in enumerate(designs):
         if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated:
             continue
-        if outcomes[j].life_years >= cap and _nominal_life(outcomes[j]) >= SPREAD_SKIP_FACTOR * cap:
+        if outcomes[j].life_years >= cap and outcomes[j].nominal_life_years >= SPREAD_SKIP_FACTOR * cap:
             # Nominal life far beyond the service limit: cell spread cannot bring the
             # end of life before the planned replacement (the spreads move P10 by well
             # under 40 %, docs/pack.md), so the Monte Carlo is skipped for speed.

@@ -252,6 +252,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
             "life_p90_years": _finite(shown.life_p90_years),
             "unserved_wh_per_year": shown.unserved_wh_per_year,
             "equivalent_full_cycles_per_year": shown.efc_per_year,
+            "mean_soc_frac": shown.mean_soc_frac,
             "charge_blocked_hours_per_year": shown.charge_blocked_hours,
             "reference_capacity_wh": reference.capacity_wh if reference else None,
             "reference_factors": _reference_factors(reference, model),
