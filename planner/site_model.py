@@ -11,6 +11,7 @@ import functools
 import warnings
 import zlib
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -132,24 +133,17 @@ def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w,
 
 
 def _climate(study: Study, name: str, warming_k: float) -> TypicalYear:
-    options = study.climates.get(name)
-    if options is not None:
-        options = dict(options)
-        source = options.pop("file", None)
-        if source is None:
-            from planner.errors import InputError
-
-            raise InputError(f"[climates.{name}] needs a 'file' key: expected the climate file's path",
-                             source=str(study.path))
-        return _cached_climate(source, str(study.path.parent), tuple(sorted(options.items())),
-                               warming_k)
-    return _cached_climate(name, str(study.path.parent), (), warming_k)
+    """The site's typical year; a [climates.<name>] entry (checked at load) names a file."""
+    options = dict(study.climates.get(name, {}))
+    source = options.pop("file", name)
+    return _cached_climate(source, str(study.path.parent), tuple(sorted(options.items())),
+                           warming_k)
 
 
+# Sites sharing a climate and a warming get the same TypicalYear object, which lets the
+# fleet enclosure model build their solar drive once (it groups sites by object).
 @functools.lru_cache(maxsize=64)
 def _cached_climate(source, base_dir, options, warming_k):
-    from pathlib import Path
-
     return load_climate(source, base_dir=Path(base_dir), options=dict(options) or None,
                         warming_k=warming_k)
 
