@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import re
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Mapping
@@ -58,7 +58,6 @@ class Study:
     climates: Mapping[str, Mapping[str, Any]]
     sites: tuple[Site, ...]
     sites_path: Path
-    raw_sites: pd.DataFrame = field(repr=False, compare=False)
 
     @property
     def name(self) -> str:
@@ -280,7 +279,6 @@ def load_study(path) -> Study:
         climates=MappingProxyType(named["climates"]),
         sites=sites,
         sites_path=sites_path,
-        raw_sites=raw,
     )
 
 
