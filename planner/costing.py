@@ -1,0 +1,117 @@
+"""The optimizer's view of a study: every offered design priced as a candidate.
+
+Prices a design's pack (study or library price per kWh plus a fixed part), its days off
+air (NIST Handbook 135 uniform present value), installation labour and disposal, and
+collects sites, candidates, existing packs and limits into a
+:class:`planner.optimize.FleetProblem`.
+"""
+
+from __future__ import annotations
+
+import math
+
+from planner.chemistry import get_chemistry
+from planner.designs import Outcome, SiteDesigns, requirement_wh
+from planner.economics import upv
+from planner.optimize import Candidate, ExistingPack, FleetProblem, SiteOptions
+from planner.scenario import Study
+from planner.site_model import SiteModel
+
+# Lives beyond this are "longer than any plan needs" for the optimizer.
+LIFE_CAP_YEARS = 100.0
+
+
+
+def pack_price(study: Study, chemistry: str, capacity_wh: float) -> float:
+    """Purchase price of a pack: per-kWh price (study or library) plus the fixed part."""
+    given = study.prices.get(chemistry, {})
+    per_kwh = given.get("price_per_kwh")
+    if per_kwh is None:
+        per_kwh = get_chemistry(chemistry).price_per_kwh
+    return capacity_wh / 1000.0 * per_kwh + given.get("fixed_price", 0.0)
+
+
+def downtime_present_cost(study: Study, model: SiteModel, outcome: Outcome) -> float:
+    """Present value, at installation, of the days off air while this pack serves.
+
+    Load not served in the typical year is counted as energy-equivalent days
+    (unserved Wh / daily load Wh), priced at ``downtime_cost_per_day`` and summed as a
+    uniform series over the pack's service (NIST Handbook 135 uniform present value).
+    """
+    if outcome.unserved_wh_per_year <= 0 or model.daily_load_wh <= 0:
+        return 0.0
+    days = outcome.unserved_wh_per_year / model.daily_load_wh
+    years = min(outcome.life_years, study.settings["study"]["horizon_years"])
+    return float(study.settings["costs"]["downtime_cost_per_day"] * days
+                 * upv(study.discount_rate_frac, years))
+
+
+def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
+    d = outcome.design
+    costs = study.settings["costs"]
+    life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
+    # Days off air are a cost of choosing this pack, carried with its purchase.
+    price = pack_price(study, d.chemistry, d.pack.capacity_wh) + downtime_present_cost(
+        study, model, outcome)
+    return Candidate(
+        design_id=d.design_id, chemistry=d.chemistry, oversize_factor=round(d.oversize_factor, 4),
+        charge_voltage_v_per_cell=d.charge_voltage_v_per_cell, capacity_wh=d.pack.capacity_wh,
+        mass_kg=d.pack.mass_kg, pack_cost=price,
+        install_cost=costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"],
+        disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"],
+        life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=outcome.failure_prob_by_age,
+        limiting_cause=outcome.limiting_cause)
+
+
+def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
+    """Designs worth offering: they carry the site's autonomy requirement when new, last
+    at least a year and are not beaten on every count by another design (days off air
+    are priced, not excluded)."""
+    return [o for o in designs.outcomes
+            if o.eol_soh_frac < 1.0 and o.life_years >= 1.0 and not o.dominated]
+
+
+def _unserved_reason(model: SiteModel, designs: SiteDesigns) -> str:
+    reasons = [f"{chem}: {why}" for chem, why in sorted(designs.excluded.items())]
+    tried = sorted({o.design.chemistry for o in designs.outcomes})
+    if tried:
+        reasons.append(f"{', '.join(tried)}: no pack size on the grid carries "
+                       f"{requirement_wh(model):.0f} Wh through the coldest hour "
+                       f"({model.design_temp_c:.1f} °C) for at least a year")
+    return f"no candidate serves site {model.site.id} ({'; '.join(reasons)})"
+
+
+def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesigns]) -> FleetProblem:
+    """The optimizer's view of the study: sites, candidates with costs, limits."""
+    costs = study.settings["costs"]
+    sites = []
+    for model, site_designs in zip(models, designs):
+        site = model.site
+        region = study.region(site.region)
+        offered = [_candidate(study, model, o) for o in offered_outcomes(site_designs)]
+        existing = None
+        if site_designs.existing is not None:
+            e = site_designs.existing
+            existing = ExistingPack(
+                remaining_life_years=min(e.life_years, LIFE_CAP_YEARS), chemistry=e.design.chemistry,
+                capacity_wh=e.design.pack.capacity_wh, mass_kg=e.design.pack.mass_kg,
+                disposal_cost=e.design.pack.mass_kg * costs["disposal_per_kg"])
+        unplanned = costs["unplanned_trip_cost"]
+        if unplanned is None:
+            unplanned = 1.5 * region["trip_cost"]
+        sites.append(SiteOptions(
+            site_id=site.id, region=site.region, access_months=model.access_months,
+            candidates=offered, existing=existing, site_visit_cost=region["site_visit_cost"],
+            downtime_cost_per_day=costs["downtime_cost_per_day"], unplanned_trip_cost=unplanned,
+            unserved_reason="" if offered else _unserved_reason(model, site_designs)))
+    limits = study.settings["limits"]
+    solver = study.settings["solver"]
+    return FleetProblem(
+        sites=sites, horizon_years=study.settings["study"]["horizon_years"],
+        discount_rate_frac=study.discount_rate_frac,
+        trip_cost_by_region={s.region: study.region(s.region)["trip_cost"] for s in study.sites},
+        crew_site_visits_per_year=limits["crew_site_visits_per_year"] or None,
+        annual_budget=limits["annual_budget"] or None,
+        payload_kg_per_trip=limits["payload_kg_per_trip"] or None,
+        time_limit_s=solver["time_limit_s"], gap_rel_frac=solver["gap_rel_frac"],
+        solver=solver["name"])
