@@ -10,9 +10,11 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from planner.chemistry import get_chemistry
 from planner.designs import Outcome, SiteDesigns, requirement_wh
-from planner.economics import upv
+from planner.economics import spv, upv
 from planner.optimize import Candidate, ExistingPack, FleetProblem, SiteOptions
 from planner.scenario import Study
 from planner.site_model import SiteModel
@@ -65,10 +67,34 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
 
 def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
     """Designs worth offering: they carry the site's autonomy requirement when new, last
-    at least a year and are not beaten on every count by another design (days off air
-    are priced, not excluded)."""
+    at least a year, are not beaten on every count by another design and are not far
+    dearer than the site's best (days off air are priced, not excluded)."""
     return [o for o in designs.outcomes
-            if o.eol_soh_frac < 1.0 and o.life_years >= 1.0 and not o.dominated]
+            if o.eol_soh_frac < 1.0 and o.life_years >= 1.0 and not o.dominated
+            and not o.far_from_best]
+
+
+def standalone_cost_bounds(study: Study, model: SiteModel, outcome: Outcome) -> tuple[float, float]:
+    """Present cost of serving the horizon with this design alone: (low, high).
+
+    The pack goes in at year 0 and again every whole year of its life (at least one),
+    each time paying pack price with days off air, labour, disposal and the site visit
+    (NIST Handbook 135 single present values). ``high`` also pays a whole trip of the
+    region per replacement, ``low`` none: a fleet plan shares trips, so a site's share
+    lies between. Failure risk and the residual value are left out.
+    """
+    d = outcome.design
+    costs = study.settings["costs"]
+    horizon = int(study.settings["study"]["horizon_years"])
+    life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
+    step = max(1, int(math.floor(life + 1e-9)))
+    factor = float(np.sum(spv(study.discount_rate_frac, np.arange(0, horizon, step))))
+    region = study.region(model.site.region)
+    each = (pack_price(study, d.chemistry, d.pack.capacity_wh)
+            + downtime_present_cost(study, model, outcome)
+            + costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"]
+            + d.pack.mass_kg * costs["disposal_per_kg"] + region["site_visit_cost"])
+    return each * factor, (each + region["trip_cost"]) * factor
 
 
 def _unserved_reason(model: SiteModel, designs: SiteDesigns) -> str:

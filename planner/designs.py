@@ -109,6 +109,7 @@ class Outcome:
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
     dominated: bool = False
+    far_from_best: bool = False
 
 
 @dataclass
@@ -247,16 +248,20 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
 
 
 def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
-                   price_of=None) -> list[SiteDesigns]:
+                   price_of=None, cost_bounds_of=None) -> list[SiteDesigns]:
     """Enumerate and evaluate every site's designs; one :class:`SiteDesigns` per site.
 
     ``price_of(chemistry, capacity_wh)`` prices a pack; with it, designs that another
     design of the same site beats on price, mass, life and unserved load are marked
     ``dominated`` and skip the pack Monte Carlo (the optimizer would never pick them).
+    ``cost_bounds_of(model, outcome) -> (low, high)`` bounds a design's present cost at
+    its site; with it, designs far dearer than the site's best are marked
+    ``far_from_best`` (:func:`mark_far_from_best`) and skip the Monte Carlo too.
+    Each site's result depends on that site alone.
     """
     per_site = [enumerate_site_designs(study, i, m) for i, m in enumerate(models)]
     designs = [d for site_designs, _, _ in per_site for d in site_designs]
-    outcomes = _evaluate(study, models, designs, progress, price_of)
+    outcomes = _evaluate(study, models, designs, progress, price_of, cost_bounds_of)
     results = []
     for i, (_, excluded, references) in enumerate(per_site):
         mine = [o for o in outcomes if o.design.site_index == i]
@@ -266,19 +271,37 @@ def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
     return results
 
 
-def _evaluate(study, models, designs, progress, price_of) -> list[Outcome]:
+def _evaluate(study, models, designs, progress, price_of, cost_bounds_of) -> list[Outcome]:
     horizon = study.settings["study"]["horizon_years"]
     hourly = _SiteHourly(models)
     outcomes: list[Outcome | None] = [None] * len(designs)
-    # Designs come ordered by site, so a chunk touches few sites; one SOC run serves
-    # every rechargeable chemistry of the chunk (lanes carry their own parameters).
-    for start in range(0, len(designs), CHUNK_LANES):
-        lanes = list(range(start, min(start + CHUNK_LANES, len(designs))))
-        for k, outcome in _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
+    # Designs come ordered by site; a chunk holds whole sites (so the per-site choices
+    # below see all of a site's designs); one SOC run serves every rechargeable
+    # chemistry of the chunk (lanes carry their own parameters).
+    for lanes in _site_chunks(designs, CHUNK_LANES):
+        for k, outcome in _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of,
+                                          cost_bounds_of):
             outcomes[k] = outcome
         if progress:
             progress(0, label="Aging candidate packs")
     return outcomes
+
+
+def _site_chunks(designs, max_lanes):
+    """Lists of design positions holding whole sites, at most ``max_lanes`` (or one site)."""
+    sites = []
+    for k, d in enumerate(designs):
+        if not sites or designs[sites[-1][0]].site_index != d.site_index:
+            sites.append([])
+        sites[-1].append(k)
+    chunk = []
+    for lanes in sites:
+        if chunk and len(chunk) + len(lanes) > max_lanes:
+            yield chunk
+            chunk = []
+        chunk += lanes
+    if chunk:
+        yield chunk
 
 
 @dataclass
@@ -297,7 +320,7 @@ class _SiteHourly:
         self.heater_on = np.column_stack([m.heater_on for m in models])
 
 
-def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
+def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_bounds_of):
     chunk = [designs[k] for k in lanes]
     chems = {c: get_chemistry(c) for c in sorted({d.chemistry for d in chunk})}
     n = len(chunk)
@@ -370,6 +393,9 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
         results += [(lanes[j], o) for j, o in zip(members, members_outcomes)]
     if price_of is not None:
         mark_dominated([o for _, o in results], price_of)
+    if cost_bounds_of is not None:
+        mark_far_from_best([o for _, o in results],
+                           lambda o: cost_bounds_of(models[o.design.site_index], o))
     for chem, members, members_outcomes, fade in deferred:
         _add_life_spread(models, chem, [chunk[j] for j in members], members_outcomes, fade,
                          eol[members], horizon)
@@ -394,6 +420,38 @@ def mark_dominated(outcomes: list[Outcome], price_of) -> None:
         tie_first = le & le.T & (idx[:, None] < idx[None, :])
         for o, dominated in zip(group, np.any((le & lt) | tie_first, axis=0)):
             o.dominated = bool(dominated)
+
+
+# The pack Monte Carlo and the optimizer see a design only if its present cost at its
+# site, with no trip cost, is within this share above the cheapest full-trip cost of the
+# site's designs (costing.standalone_cost_bounds); the share leaves room for the failure
+# risk cost the Monte Carlo adds to the best design. The cheapest designs of every
+# chemistry stay, so the chemistry comparison keeps its choice.
+RELEVANCE_FRAC = 0.10
+RELEVANT_PER_CHEMISTRY = 2
+
+
+def mark_far_from_best(outcomes: list[Outcome], cost_bounds_of) -> None:
+    """Flag designs that cannot be a site's choice: their cost without any trip exceeds
+    the best design's cost with a whole trip per replacement by more than
+    ``RELEVANCE_FRAC``, and they are not among the ``RELEVANT_PER_CHEMISTRY`` cheapest of
+    their chemistry at the site. A fleet plan shares trips, so a site's cost with a
+    design lies between the two bounds; swapping in the best design then cannot raise
+    the fleet's cost by more than the share (fleet-wide limits aside)."""
+    by_site: dict[int, list[tuple[Outcome, float, float]]] = {}
+    for o in outcomes:
+        if not o.design.is_existing and o.eol_soh_frac < 1.0 and not o.dominated \
+                and o.life_years >= 1.0:
+            low, high = cost_bounds_of(o)
+            by_site.setdefault(o.design.site_index, []).append((o, low, high))
+    for group in by_site.values():
+        best_high = min(high for _, _, high in group)
+        keep = set()
+        for chem in {o.design.chemistry for o, _, _ in group}:
+            mine = sorted((low, i) for i, (o, low, _) in enumerate(group) if o.design.chemistry == chem)
+            keep.update(i for _, i in mine[:RELEVANT_PER_CHEMISTRY])
+        for i, (o, low, _) in enumerate(group):
+            o.far_from_best = i not in keep and low > (1.0 + RELEVANCE_FRAC) * best_high
 
 
 @dataclass
@@ -549,9 +607,10 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     probability of failing before each age, for the failure-risk cost."""
     laws = stress_parameters(chem.aging_sets[chem.default_aging_set])
     cap = max_service_years(chem.id)
-    groups: dict[tuple[int, int], list[int]] = {}
+    groups: dict[int, list[int]] = {}
     for j, d in enumerate(designs):
-        if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated:
+        if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated \
+                or outcomes[j].far_from_best:
             continue
         if outcomes[j].life_years >= cap and outcomes[j].nominal_life_years >= SPREAD_SKIP_FACTOR * cap:
             # Nominal life far beyond the service limit: cell spread cannot bring the
@@ -561,17 +620,19 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
             o.life_p10_years = o.life_p50_years = o.life_p90_years = cap
             o.failure_prob_by_age = (0.0,) * (horizon + 1)
             continue
-        groups.setdefault((d.pack.series_cells, d.pack.parallel_strings), []).append(j)
+        groups.setdefault(d.pack.series_cells, []).append(j)
     months = 12 * horizon + 1
     # The failure risk matters up to the horizon: curves a little past it are enough.
     rows = slice(0, min(fade.calendar_loss_frac.shape[0], 12 * (horizon + 3) + 1))
-    for (series, parallel), lanes in groups.items():
+    # One call per series count: string counts vary per lane (strings as units).
+    for series, lanes in groups.items():
         ref_temp = [models[designs[j].site_index].temperatures.effective_temp_c for j in lanes]
         dist = life_distribution(
             calendar_loss_frac=fade.calendar_loss_frac[rows, lanes],
             cycle_loss_frac=fade.cycle_loss_frac[rows, lanes], eol_soh_frac=eol[lanes],
-            series_cells=series, parallel_strings=parallel, draws=PLAN_DRAWS, seed=0,
-            step_months=PLAN_STEP_MONTHS, reference_temp_c=np.array(ref_temp), **laws)
+            series_cells=series, parallel_strings=[designs[j].pack.parallel_strings for j in lanes],
+            draws=PLAN_DRAWS, seed=0, step_months=PLAN_STEP_MONTHS,
+            reference_temp_c=np.array(ref_temp), **laws)
         for k, j in enumerate(lanes):
             o = outcomes[j]
             o.life_p10_years = float(min(dist.p10_years[k], cap))

@@ -1,64 +1,140 @@
 """The whole chain for one study, from validated inputs to the plan.
 
-scenario -> site models (climate, battery temperature, load, charging)
+scenario -> site models (climate, battery temperature, load and charging)
          -> candidate designs (energy balance, aging, pack spread)
          -> fleet problem (costs per candidate) -> optimizer
          -> chemistry comparison and sensitivity -> plan (a plain dict, docs/plan-json.md)
 
 This is the only module that knows every stage; each stage stays a pure function of
-its inputs.
+its inputs. The per-site stages are one function of a list of site rows
+(:func:`plan_sites`), mapped over chunks of a fixed number of sites; the re-solves are
+functions of a fleet problem. Both run over :class:`planner.parallel.Workers`, so the
+plan is the same for any number of workers.
 """
 
 from __future__ import annotations
 
-from planner.costing import build_problem, pack_price
+from dataclasses import replace
+from functools import partial
+
+from planner.costing import build_problem, pack_price, standalone_cost_bounds
 from planner.designs import evaluate_fleet
-from planner.optimize import compare_chemistries, solve_fleet
-from planner.optimize.analysis import compare_solutions, sensitivity
+from planner.optimize import solve_fleet
+from planner.optimize.analysis import (
+    compare_chemistry, compare_solutions, sensitivity_problems,
+)
+from planner.parallel import StageLog, Workers
 from planner.plan_assembly import assemble_plan
 from planner.scenario import Study
 from planner.site_model import model_sites
 
 WARMING_SENSITIVITY_K = 2.0
 
+# Sites per piece of the per-site stages: fixed, so pieces (and results) do not depend
+# on the number of workers; small enough to spread a fleet over the cores and bound
+# each worker's hourly arrays.
+CHUNK_SITES = 25
 
-# Steps a progress bar counts besides one per site: designs, fleet solve, chemistry
-# comparison, sensitivity.
-PROGRESS_STAGES = 4
+# Steps a progress bar counts besides one per site and stage pass: fleet solve,
+# chemistry comparison and sensitivity, plan.
+PROGRESS_STAGES = 3
 
 
-def run_study(study: Study, *, progress=None) -> dict:
+def progress_steps(study: Study) -> int:
+    """Steps of the ``progress`` callback of :func:`run_study` for this study."""
+    passes = 2 if study.settings["output"]["sensitivity"] else 1
+    return passes * len(study.sites) + PROGRESS_STAGES
+
+
+def plan_sites(study: Study, extra_warming_k: float = 0.0):
+    """Site summaries and designs (pack spread included) of every site of ``study``.
+
+    A pure function of the study's settings and its site rows: map it over studies
+    holding a chunk of the sites each (:func:`site_chunks`) and join the lists.
+    """
+    models = model_sites(study, extra_warming_k=extra_warming_k)
+    designs = evaluate_fleet(
+        study, models, price_of=lambda chem, wh: pack_price(study, chem, wh),
+        cost_bounds_of=lambda model, outcome: standalone_cost_bounds(study, model, outcome))
+    return [m.summary() for m in models], designs
+
+
+def _plan_sites_piece(args):
+    study, extra_warming_k = args
+    return plan_sites(study, extra_warming_k)
+
+
+def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
+    """(study holding ``CHUNK_SITES`` of the sites, warming) pieces for :func:`plan_sites`."""
+    return [(replace(study, sites=study.sites[i:i + CHUNK_SITES]), extra_warming_k)
+            for i in range(0, len(study.sites), CHUNK_SITES)]
+
+
+def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | None = None) -> dict:
     """Plan ``study``; returns the plan dict (see docs/plan-json.md).
 
-    ``progress(step, label)`` is called once per site and once per later stage
-    (``len(study.sites) + PROGRESS_STAGES`` steps in all).
+    ``progress(step, label)`` advances a bar of :func:`progress_steps` steps.
+    ``workers`` processes share the per-site stages and the re-solves (1: all in this
+    process); ``log`` collects wall, CPU and memory per stage.
     """
-    def advance(label):
+    log = log if log is not None else StageLog()
+
+    def advance(step, label):
         if progress:
-            progress(1, label=label)
+            progress(step, label=label)
 
-    models = model_sites(study, progress=progress)
-    if progress:
-        progress(0, label="Aging candidate packs")
-    designs = _evaluate(study, models)
-    advance("Optimising the fleet")
-    problem = build_problem(study, models, designs)
-    solution = solve_fleet(problem)
-    advance("Comparing chemistries")
-    # Every comparison and sensitivity case is a full solve: each gets half the main limit.
-    limit = 0.5 * study.settings["solver"]["time_limit_s"]
-    comparison = compare_chemistries(problem, list(study.settings["candidates"]["chemistries"]),
-                                     time_limit_s=limit)
-    advance("Sensitivity cases")
-    cases = []
-    if study.settings["output"]["sensitivity"]:
-        cases = sensitivity(problem, solution, time_limit_s=limit)
-        warm_models = model_sites(study, extra_warming_k=WARMING_SENSITIVITY_K)
-        warm = solve_fleet(build_problem(study, warm_models, _evaluate(study, warm_models)))
-        cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
-    advance("Writing the plan")
-    return assemble_plan(study, models, designs, problem, solution, comparison, cases)
+    sensitivity_on = study.settings["output"]["sensitivity"]
+    with Workers(workers, log) as pool:
+        advance(0, "Sites and candidate packs")
+        with log.stage("sites and designs"):
+            summaries, designs = _join(pool.map(
+                _plan_sites_piece, site_chunks(study),
+                progress=lambda piece: advance(len(piece[0]), "Sites and candidate packs")))
+        # The warming case's sites start in the background while the fleet is solved.
+        warm_handle = pool.submit(_plan_sites_piece, site_chunks(study, WARMING_SENSITIVITY_K)) \
+            if sensitivity_on and pool.workers > 1 else None
+        advance(0, "Optimising the fleet")
+        with log.stage("optimizer"):
+            problem = build_problem(study, summaries, designs)
+            solution = solve_fleet(problem)
+        advance(1, "Comparing chemistries and sensitivity cases")
+        # Every comparison and sensitivity case is a full solve: each gets half the main limit.
+        limit = 0.5 * study.settings["solver"]["time_limit_s"]
+        chems = list(study.settings["candidates"]["chemistries"])
+        with log.stage("comparison and sensitivity solves"):
+            compare_handle = pool.submit(partial(compare_chemistry, problem, base=solution,
+                                                 time_limit_s=limit), chems)
+            cases_handle = pool.submit(_solve, sensitivity_problems(problem, time_limit_s=limit)) \
+                if sensitivity_on else None
+            comparison = pool.gather(compare_handle)
+            cases = []
+            if cases_handle is not None:
+                cases = [compare_solutions(name, solution, sol)
+                         for name, sol in pool.gather(cases_handle)]
+        if sensitivity_on:
+            with log.stage("warming sensitivity"):
+                step = lambda piece: advance(len(piece[0]), "Warming case")  # noqa: E731
+                if warm_handle is None:
+                    warm_handle = pool.submit(_plan_sites_piece,
+                                              site_chunks(study, WARMING_SENSITIVITY_K))
+                warm_summaries, warm_designs = _join(pool.gather(warm_handle, progress=step))
+                warm = solve_fleet(build_problem(study, warm_summaries, warm_designs))
+                cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
+    advance(1, "Writing the plan")
+    with log.stage("plan assembly"):
+        plan = assemble_plan(study, summaries, designs, problem, solution, comparison, cases)
+    advance(1, "Writing the plan")
+    return plan
 
 
-def _evaluate(study: Study, models):
-    return evaluate_fleet(study, models, price_of=lambda chem, wh: pack_price(study, chem, wh))
+def _solve(named_problem):
+    name, problem = named_problem
+    return name, solve_fleet(problem)
+
+
+def _join(pieces):
+    summaries, designs = [], []
+    for piece_summaries, piece_designs in pieces:
+        summaries += piece_summaries
+        designs += piece_designs
+    return summaries, designs

@@ -37,6 +37,9 @@ class Site:
     values: Mapping[str, Any]
 
     def __getattr__(self, name):
+        # "values" itself is not there yet while a copy is being unpickled (worker processes)
+        if name == "values":
+            raise AttributeError(name)
         try:
             return self.values[name]
         except KeyError:

@@ -53,6 +53,30 @@ class SiteModel:
     def heater_on(self) -> np.ndarray:
         return self.heater_power_w > 0
 
+    def summary(self) -> SiteSummary:
+        """What the later stages read of this site, without its hourly arrays."""
+        return SiteSummary(site=self.site, temperatures=self.temperatures,
+                           peak_load_w=self.peak_load_w, daily_load_wh=self.daily_load_wh,
+                           design_temp_c=self.design_temp_c, access_months=self.access_months,
+                           pv_tilt_deg=self.pv_tilt_deg, pv_azimuth_deg=self.pv_azimuth_deg,
+                           warnings=list(self.warnings))
+
+
+@dataclass(frozen=True)
+class SiteSummary:
+    """A site model's scalars (the plan, costing and optimizer need no hourly data), so a
+    fleet's hourly arrays are never all in memory at once."""
+
+    site: Site
+    temperatures: TemperatureSummary
+    peak_load_w: float
+    daily_load_wh: float
+    design_temp_c: float
+    access_months: tuple[int, ...]
+    pv_tilt_deg: float | None
+    pv_azimuth_deg: float | None
+    warnings: list[str] = field(default_factory=list)
+
 
 def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) -> list[SiteModel]:
     """Climate, battery temperature, load and charging power of every site of ``study``.
@@ -109,8 +133,7 @@ def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w,
         azimuth = site.pv_azimuth_deg
         if azimuth is None:
             azimuth = 180.0 if year.latitude_deg >= 0 else 0.0
-        charge = pv_dc_power_w(year, array_wp=site.pv_wp, tilt_deg=tilt, azimuth_deg=azimuth,
-                               snow_months=site.pv_snow_months)
+        charge = site.pv_wp * _pv_per_wp(year, tilt, azimuth, tuple(site.pv_snow_months))
     elif site.charging == "mains":
         up = mains_available(outages_per_year=site.outages_per_year,
                              mean_outage_h=site.outage_mean_h, seed=_stable_seed(site.id))
@@ -146,6 +169,25 @@ def _climate(study: Study, name: str, warming_k: float) -> TypicalYear:
 def _cached_climate(source, base_dir, options, warming_k):
     return load_climate(source, base_dir=Path(base_dir), options=dict(options) or None,
                         warming_k=warming_k)
+
+
+# PVWatts power is proportional to the array's nameplate (pvlib pvwatts_dc: pdc0 scales
+# the whole expression), so sites sharing a climate and an orientation share one
+# per-watt profile: the sun's position and the plane-of-array irradiance are computed
+# once. The key holds the year object itself, so a freed year is never mistaken.
+_PV_CACHE: dict = {}
+
+
+def _pv_per_wp(year: TypicalYear, tilt, azimuth, snow_months) -> np.ndarray:
+    key = (id(year), tilt, azimuth, snow_months)
+    hit = _PV_CACHE.get(key)
+    if hit is None or hit[0] is not year:
+        if len(_PV_CACHE) > 256:
+            _PV_CACHE.clear()
+        hit = (year, pv_dc_power_w(year, array_wp=1.0, tilt_deg=tilt, azimuth_deg=azimuth,
+                                   snow_months=snow_months))
+        _PV_CACHE[key] = hit
+    return hit[1]
 
 
 def _stable_seed(text: str) -> int:

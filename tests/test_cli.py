@@ -42,7 +42,7 @@ def test_unknown_command_is_a_usage_error(runner):
 def test_bad_study_exits_2_with_one_line_and_no_traceback(runner, tmp_path):
     study = tmp_path / "s.toml"
     study.write_text('[study]\nsites_file = "x.csv"\nhorizon_yaers = 3\n')
-    result = runner.invoke(cli, ["plan", str(study)])
+    result = runner.invoke(cli, ["plan", str(study), "--workers", "1"])
     assert result.exit_code == 2
     assert "s.toml: unknown key [study].horizon_yaers; did you mean 'horizon_years'?" in result.output
     assert "Traceback" not in result.output
@@ -51,7 +51,7 @@ def test_bad_study_exits_2_with_one_line_and_no_traceback(runner, tmp_path):
 def test_debug_flag_shows_traceback(runner, tmp_path):
     study = tmp_path / "s.toml"
     study.write_text("[study\n")
-    result = runner.invoke(cli, ["--debug", "plan", str(study)])
+    result = runner.invoke(cli, ["--debug", "plan", str(study), "--workers", "1"])
     assert result.exit_code == 2
     assert "Traceback" in result.output
 
@@ -82,7 +82,7 @@ SITES = "id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
 def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, sites, expected):
     (tmp_path / "sites.csv").write_text(sites)
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n' + toml + "\n")
-    result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml")])
+    result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "1"])
     assert result.exit_code == 2
     lines = [line for line in result.output.splitlines() if line.strip()]
     assert len(lines) == 1 and expected in lines[0]
@@ -96,6 +96,6 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n'
                                      '[candidates]\nchemistries = ["lisocl2"]\n')
     out = tmp_path / "plan.xlsx"
-    result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out)])
+    result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"])
     assert result.exit_code == 3, result.output
     assert out.is_file()

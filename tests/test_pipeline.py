@@ -26,7 +26,7 @@ FIXED_SITE_KEYS = {  # docs/plan-json.md, keys fixed by the optimizer, energy an
 def quick_run(tmp_path_factory):
     out = tmp_path_factory.mktemp("plan")
     runner = CliRunner()
-    result = runner.invoke(cli, ["--quiet", "plan", str(QUICK), "--out", str(out / "q.xlsx"),
+    result = runner.invoke(cli, ["--quiet", "plan", str(QUICK), "--workers", "1", "--out", str(out / "q.xlsx"),
                                  "--json", str(out / "q.json")])
     return result, out
 
@@ -66,7 +66,7 @@ def test_identical_inputs_give_byte_identical_json(quick_run, tmp_path):
     # Optimizer issue: identical inputs must give byte-identical JSON.
     _, out = quick_run
     runner = CliRunner()
-    result = runner.invoke(cli, ["--quiet", "plan", str(QUICK), "--out", str(tmp_path / "a.xlsx"),
+    result = runner.invoke(cli, ["--quiet", "plan", str(QUICK), "--workers", "1", "--out", str(tmp_path / "a.xlsx"),
                                  "--json", str(tmp_path / "a.json")])
     assert result.exit_code == 0, result.output
     assert (tmp_path / "a.json").read_bytes() == (out / "q.json").read_bytes()
@@ -75,7 +75,7 @@ def test_identical_inputs_give_byte_identical_json(quick_run, tmp_path):
 def test_json_to_stdout_is_clean(tmp_path):
     # The solver banner must not reach standard output when the plan is printed there.
     runner = CliRunner()
-    result = runner.invoke(cli, ["plan", str(QUICK), "--out", str(tmp_path / "b.xlsx"), "--json", "-"])
+    result = runner.invoke(cli, ["plan", str(QUICK), "--workers", "1", "--out", str(tmp_path / "b.xlsx"), "--json", "-"])
     assert result.exit_code == 0
     json.loads(result.stdout)
 
@@ -112,7 +112,7 @@ def test_study_with_a_user_csv_climate_in_fahrenheit(tmp_path):
         '[climates.logger]\nfile = "logger.csv"\ntemperature_unit = "F"\ntimestamp_marks = "end"\n'
         'utc_offset_h = -7\nlatitude_deg = 35.0\nlongitude_deg = -110.0\n'
         'temperature_column = "air_f"\n')
-    result = CliRunner().invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out",
+    result = CliRunner().invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--workers", "1", "--out",
                                       str(tmp_path / "p.xlsx"), "--json", str(tmp_path / "p.json")])
     assert result.exit_code == 0, result.output
     site = json.loads((tmp_path / "p.json").read_text())["sites"][0]

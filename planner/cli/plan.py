@@ -16,8 +16,11 @@ from planner.cli import EXIT_INFEASIBLE, options, progress_enabled
               help="Workbook to write (default output/<study name>.xlsx).")
 @click.option("--json", "json_path", type=str, default=None,
               help="Also write the plan as JSON to this path ('-' for standard output).")
+@click.option("--workers", type=click.IntRange(min=1), default=None,
+              help="Processes that share the per-site stages and the re-solves "
+                   "(default: all cores). The plan does not depend on it.")
 @click.pass_context
-def plan_command(ctx, study, out_path, json_path):
+def plan_command(ctx, study, out_path, json_path, workers):
     """Validate STUDY, model every site and candidate pack, optimise the fleet's
     replacements and trips, and write the plan workbook (and JSON).
 
@@ -28,7 +31,8 @@ def plan_command(ctx, study, out_path, json_path):
     Example:
       planner plan scenarios/corvale.toml --json output/corvale.json
     """
-    from planner.pipeline import PROGRESS_STAGES, run_study
+    from planner.parallel import default_workers
+    from planner.pipeline import progress_steps, run_study
     from planner.report import plan_to_json_text, write_json, write_workbook
     from planner.scenario import load_study
 
@@ -37,8 +41,8 @@ def plan_command(ctx, study, out_path, json_path):
     out = out_path or _default_workbook(study_obj)
     quiet = opts.get("quiet") or json_path == "-"
 
-    with _progress(ctx, len(study_obj.sites) + PROGRESS_STAGES) as advance:
-        plan = run_study(study_obj, progress=advance)
+    with _progress(ctx, progress_steps(study_obj)) as advance:
+        plan = run_study(study_obj, progress=advance, workers=workers or default_workers())
 
     write_workbook(plan, out)
     json_target = json_path or study_obj.settings["output"]["json"] or None
@@ -61,7 +65,8 @@ def _default_workbook(study) -> Path:
 
 
 class _progress:
-    """A progress bar on stderr when it is a terminal and --quiet is off."""
+    """A progress bar on stderr when it is a terminal and --quiet is off: the stage as
+    its label, and click's estimate of the time left (from the pace of the steps so far)."""
 
     def __init__(self, ctx, total):
         self.enabled = progress_enabled(ctx)
@@ -70,7 +75,8 @@ class _progress:
 
     def __enter__(self):
         if self.enabled:
-            self.bar = click.progressbar(length=self.total, label="Planning", file=sys.stderr)
+            self.bar = click.progressbar(length=self.total, label="Planning", file=sys.stderr,
+                                         show_eta=True, show_percent=True)
             self.bar.__enter__()
 
         def advance(step=1, label=None):

@@ -56,24 +56,45 @@ def restrict_chemistry(problem: FleetProblem, chemistry: str, *,
 
 
 def compare_chemistries(problem: FleetProblem, chemistries=None, *,
-                        time_limit_s: float | None = None) -> list[ChemistryResult]:
+                        time_limit_s: float | None = None,
+                        base: FleetSolution | None = None) -> list[ChemistryResult]:
     """Best plan per chemistry (whole fleet forced to it), in the order given (default:
-    every chemistry offered, sorted). ``time_limit_s`` overrides the limit of each re-solve."""
+    every chemistry offered, sorted). ``time_limit_s`` overrides the limit of each re-solve;
+    ``base`` (the unrestricted plan) spares the re-solve it already answers."""
     found = sorted({c.chemistry for s in problem.sites for c in s.candidates})
+    return [compare_chemistry(problem, chem, base=base, time_limit_s=time_limit_s)
+            for chem in (chemistries or found)]
+
+
+def compare_chemistry(problem: FleetProblem, chemistry: str, *, base: FleetSolution | None = None,
+                      time_limit_s: float | None = None) -> ChemistryResult:
+    """Best plan with every site forced to ``chemistry`` (one chemistry of the comparison).
+
+    When the unrestricted plan ``base`` already puts that chemistry at every site and
+    every site offers it, ``base`` is the answer: it is feasible for the restricted
+    problem, and no restricted plan can cost less than the unrestricted optimum.
+    """
     if time_limit_s is not None:
         problem = replace(problem, time_limit_s=time_limit_s)
-    out = []
-    for chem in (chemistries or found):
-        sol = solve_fleet(restrict_chemistry(problem, chem))
-        with_others = sol.objective
-        if sol.unserved:
-            with_others = solve_fleet(restrict_chemistry(problem, chem, others_keep_all=True)).objective
-        out.append(ChemistryResult(
-            chemistry=chem, total_present_cost=sol.objective, status=sol.status,
-            sites_served=len(sol.sites), unserved=list(sol.unserved),
-            site_costs={p.site_id: p.present_cost for p in sol.sites}, solution=sol,
-            total_with_others_present_cost=with_others))
-    return out
+    sol = base if base is not None and _uses_only(base, problem, chemistry) else None
+    if sol is None:
+        sol = solve_fleet(restrict_chemistry(problem, chemistry))
+    with_others = sol.objective
+    if sol.unserved:
+        with_others = solve_fleet(restrict_chemistry(problem, chemistry, others_keep_all=True)).objective
+    return ChemistryResult(
+        chemistry=chemistry, total_present_cost=sol.objective, status=sol.status,
+        sites_served=len(sol.sites), unserved=list(sol.unserved),
+        site_costs={p.site_id: p.present_cost for p in sol.sites}, solution=sol,
+        total_with_others_present_cost=with_others)
+
+
+def _uses_only(solution: FleetSolution, problem: FleetProblem, chemistry: str) -> bool:
+    offered = all(any(c.chemistry == chemistry for c in s.candidates) for s in problem.sites)
+    chosen = all(p.candidate is not None and p.candidate.chemistry == chemistry
+                 for p in solution.sites)
+    return (offered and chosen and not solution.unserved
+            and len(solution.sites) == len(problem.sites))
 
 
 def compare_solutions(case: str, base: FleetSolution, other: FleetSolution) -> SensitivityResult:
@@ -101,12 +122,18 @@ def sensitivity(problem: FleetProblem, base: FleetSolution | None = None, *,
     limit of each re-solve.
     """
     base = base or solve_fleet(problem)
+    return [compare_solutions(name, base, solve_fleet(p))
+            for name, p in sensitivity_problems(problem, time_limit_s=time_limit_s)]
+
+
+def sensitivity_problems(problem: FleetProblem, *,
+                         time_limit_s: float | None = None) -> list[tuple[str, FleetProblem]]:
+    """The (case name, modified problem) pairs of :func:`sensitivity`, to solve anywhere."""
     if time_limit_s is not None:
         problem = replace(problem, time_limit_s=time_limit_s)
-    cases = [
+    return [
         ("trip cost x0.5", scale_trip_costs(problem, 0.5)),
         ("trip cost x2", scale_trip_costs(problem, 2.0)),
         ("discount rate -2 points", replace(problem, discount_rate_frac=max(0.0, problem.discount_rate_frac - 0.02))),
         ("discount rate +2 points", replace(problem, discount_rate_frac=problem.discount_rate_frac + 0.02)),
     ]
-    return [compare_solutions(name, base, solve_fleet(p)) for name, p in cases]
