@@ -15,6 +15,7 @@ import numpy as np
 
 CLIMATES = ("alpine", "hot-desert", "humid-continental", "mediterranean", "temperate-maritime",
             "subarctic-continental", "pvlib-greensboro", "tropical-humid")
+COLD = ("alpine", "subarctic-continental")
 ENCLOSURES = ("cabinet-sun", "cabinet-shade", "vault", "shelter", "cabinet-sun+heater")
 COLUMNS = ("id", "region", "climate", "enclosure", "load_w", "burst_w", "burst_s",
            "burst_every_min", "charging", "pv_wp", "outages_per_year", "outage_mean_h",
@@ -30,13 +31,20 @@ def site_rows(n_sites: int, seed: int = 11) -> list[dict]:
     for i in range(n_sites):
         enclosure = ENCLOSURES[rng.integers(len(ENCLOSURES))]
         charging = ("pv", "pv", "pv", "mains", "none")[rng.integers(5)]
+        climate = CLIMATES[rng.integers(len(CLIMATES))]
+        if enclosure == "shelter":
+            charging = "mains"  # a heated, cooled shelter is never left on a battery alone
+        if charging == "none":
+            enclosure = "vault"  # a logger on primary cells, buried
+        elif climate in COLD and enclosure.startswith("cabinet"):
+            enclosure = "cabinet-sun+heater"  # cabinets in cold climates keep a heater
         load_w = float(np.round(rng.uniform(0.5, 15.0), 2))
         if charging == "none":
             load_w = float(np.round(rng.uniform(0.01, 0.09), 3))
         volts = 24.0 if load_w > 8.0 else 12.0
         row = dict(
             id=f"S{i:05d}", region=f"R{rng.integers(n_regions):03d}",
-            climate=CLIMATES[rng.integers(len(CLIMATES))],
+            climate=climate,
             enclosure=enclosure.split("+")[0], load_w=load_w,
             burst_w="", burst_s="", burst_every_min="", charging=charging,
             pv_wp="", outages_per_year="", outage_mean_h="",

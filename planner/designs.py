@@ -25,6 +25,7 @@ bounded by ``(8760, chunk)`` arrays whatever the fleet size.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -132,7 +133,13 @@ def requirement_wh(model: SiteModel) -> float:
 
 def window_frac(chem: Chemistry, charge_voltage_v_per_cell: float) -> float:
     """Usable part of rated capacity between the charge ceiling and the DOD reserve."""
-    return chem.usable_fraction(charge_voltage_v_per_cell) - (1.0 - chem.max_dod_frac)
+    return _usable_fraction(chem.id, float(charge_voltage_v_per_cell)) - (1.0 - chem.max_dod_frac)
+
+
+@functools.lru_cache(maxsize=256)
+def _usable_fraction(chem_id: str, charge_voltage_v_per_cell: float) -> float:
+    # A few charge voltages per chemistry, asked for every design of every site.
+    return float(get_chemistry(chem_id).usable_fraction(charge_voltage_v_per_cell))
 
 
 def _reference(study: Study, model: SiteModel, chem: Chemistry) -> ReferenceSize:
@@ -341,10 +348,13 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_boun
     duty = _Duty.empty(n)
     fades = {}
     if recharge.any():
+        # Lanes of one chemistry side by side: each aging call then reads a block of
+        # columns instead of gathering them (lanes are independent, order is free).
         idx = np.flatnonzero(recharge)
+        idx = idx[np.argsort([chunk[j].chemistry for j in idx], kind="stable")]
         inputs = _SocInputs(hourly, chems, [chunk[j] for j in idx])
         # The first year, new pack: what the plan reports (unserved load, cycles).
-        duty.put(idx, _duty(inputs, capacity[idx], np.ones(idx.size)))
+        duty.put(idx, _duty(inputs, capacity[idx], np.ones(idx.size), series=False))
         # Capacity feedback: an old pack cycles deeper. The aging is driven by the year
         # re-run at the capacity the pack has half-way to its end of life.
         mid_soh = np.clip(0.5 * (1.0 + np.minimum(eol[idx], 1.0)), 0.5, 1.0)
@@ -503,8 +513,8 @@ class _SocInputs:
         self.hourly = (hourly.charge_w[:, cols_site], hourly.load_w[:, cols_site])
         self.temps = temps
         self.options = dict(
-            usable_fraction=np.array([c.usable_fraction(d.charge_voltage_v_per_cell)
-                                      for c, d in zip(lane_chems, chunk)]),
+            usable_fraction=np.array([_usable_fraction(d.chemistry, float(d.charge_voltage_v_per_cell))
+                                      for d in chunk]),
             charge_efficiency_frac=per_lane("charge_efficiency_frac"),
             discharge_efficiency_frac=per_lane("discharge_efficiency_frac"),
             self_discharge_frac_per_h=self_discharge,
@@ -517,11 +527,16 @@ class _SocInputs:
             chunk_lanes=len(chunk), series=True)
 
 
-def _duty(inputs: _SocInputs, capacity, soh) -> _Duty:
-    """One typical year of hourly SOC for the chunk's lanes at ``capacity x soh``."""
+def _duty(inputs: _SocInputs, capacity, soh, series=True) -> _Duty:
+    """One typical year of hourly SOC for the chunk's lanes at ``capacity x soh``
+    (summaries only when ``series`` is False)."""
     charge_w, load_w = inputs.hourly
-    sim = next(iter_soc_chunks(charge_w, load_w, capacity * soh, inputs.temps, **inputs.options))
+    sim = next(iter_soc_chunks(charge_w, load_w, capacity * soh, inputs.temps,
+                               **{**inputs.options, "series": series}))
     s = sim.summary
+    if not series:
+        return _Duty(None, None, s.unserved_wh, s.charge_blocked_hours, s.mean_soc_frac,
+                     s.equivalent_full_cycles_per_year * soh)
     # SOC stays relative to the faded capacity (it sets the voltage, hence calendar stress,
     # and an old pack cycles deeper); current is re-expressed against rated capacity.
     np.multiply(sim.current_c_rate, soh.astype(np.float32), out=sim.current_c_rate)
@@ -539,6 +554,8 @@ def _age_by_chemistry(chems, chunk, idx, hourly, duty, volts, peak_c, years):
     lane_chem = np.array([chunk[j].chemistry for j in idx])
     for chem_id in sorted(set(lane_chem)):
         sel = np.flatnonzero(lane_chem == chem_id)
+        if sel.size and sel[-1] - sel[0] + 1 == sel.size:
+            sel = slice(int(sel[0]), int(sel[-1]) + 1)  # a block of columns: no gather
         members = idx[sel]
         sites = np.array([chunk[j].site_index for j in members], dtype=np.intp)
         fade = age_lanes(chems[chem_id], hourly.temp_c, duty.soc[:, sel], duty.current[:, sel],

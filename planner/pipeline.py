@@ -21,7 +21,7 @@ from planner.costing import build_problem, pack_price, standalone_cost_bounds
 from planner.designs import evaluate_fleet
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (
-    compare_chemistry, compare_solutions, sensitivity_problems,
+    compare_chemistry, compare_solutions, same_method, sensitivity_problems,
 )
 from planner.parallel import StageLog, Workers
 from planner.plan_assembly import assemble_plan
@@ -101,10 +101,11 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
         # Every comparison and sensitivity case is a full solve: each gets half the main limit.
         limit = 0.5 * study.settings["solver"]["time_limit_s"]
         chems = list(study.settings["candidates"]["chemistries"])
+        resolve = same_method(problem, solution)
         with log.stage("comparison and sensitivity solves"):
-            compare_handle = pool.submit(partial(compare_chemistry, problem, base=solution,
+            compare_handle = pool.submit(partial(compare_chemistry, resolve, base=solution,
                                                  time_limit_s=limit), chems)
-            cases_handle = pool.submit(_solve, sensitivity_problems(problem, time_limit_s=limit)) \
+            cases_handle = pool.submit(_solve, sensitivity_problems(resolve, time_limit_s=limit)) \
                 if sensitivity_on else None
             comparison = pool.gather(compare_handle)
             cases = []

@@ -108,6 +108,16 @@ def compare_solutions(case: str, base: FleetSolution, other: FleetSolution) -> S
                              designs_changed=changed, status=other.status)
 
 
+def same_method(problem: FleetProblem, base: FleetSolution) -> FleetProblem:
+    """``problem`` solved the way ``base`` was: a re-solve of a fleet solved by column
+    generation uses it too, even when the restricted problem is small enough for the
+    path model ("auto"), which measured 10-30x slower on the restricted problems of a
+    100-site fleet (benchmarks/bench_plan.py) for the same objective within the gap."""
+    if problem.method == "auto" and base.decomposition.startswith("column generation"):
+        return replace(problem, method="columns")
+    return problem
+
+
 def scale_trip_costs(problem: FleetProblem, factor: float) -> FleetProblem:
     """Trip mobilisation costs (per region) multiplied by ``factor``."""
     return replace(problem, trip_cost_by_region={k: v * factor for k, v in problem.trip_cost_by_region.items()})
