@@ -45,6 +45,7 @@ its relative spread shrinks like ``1/sqrt(n - 1)``. Packs of up to
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -302,7 +303,8 @@ def life_distribution(
     cal_k = np.stack([np.broadcast_to(a, (n_mp1, n_sites)) for a, _ in pairs]).astype(np.float32)
     cyc_k = np.stack([np.broadcast_to(b, (n_mp1, n_sites)) for _, b in pairs]).astype(np.float32)
     set_of_draw = np.arange(n_draws) % k_sets
-    cells = _draw_cells(n_draws, p)
+    cells = _cells(n_draws, p["n_s"], p["units"], p["seed"], p["balancing"], p["sig_c"],
+                   p["sig_r"], p["sig_k"], p["sig_u0"], p["sig_du"])
 
     out_years = np.empty((n_sites, n_draws))
     soh_q = np.empty((3, n_mp1, n_sites))
@@ -498,6 +500,17 @@ def _simulate_chunk(cal_k, cyc_k, set_of_draw, eol, t_ref_c, ea_cal, ea_cyc, n_p
     bands = _soh_bands(soh_marks, marks, soh_nom_k)
     years = _years_between_marks(soh_marks, marks, soh_nom_k, set_of_draw, eol)
     return years, bands
+
+
+@functools.lru_cache(maxsize=64)
+def _cells(n_draws, n_s, units, seed, balancing, sig_c, sig_r, sig_k, sig_u0, sig_du):
+    # A plan asks for the same few structures chunk after chunk; the arrays are only read.
+    cells = _draw_cells(n_draws, dict(n_s=n_s, units=units, seed=seed, balancing=balancing,
+                                      sig_c=sig_c, sig_r=sig_r, sig_k=sig_k, sig_u0=sig_u0,
+                                      sig_du=sig_du))
+    for v in cells.values():
+        v.flags.writeable = False
+    return cells
 
 
 def _draw_cells(n_draws, p):

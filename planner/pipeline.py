@@ -17,6 +17,8 @@ from __future__ import annotations
 from dataclasses import replace
 from functools import partial
 
+import numpy as np
+
 from planner.costing import build_problem, offered_outcomes, pack_price, standalone_cost_bounds
 from planner.designs import evaluate_fleet
 from planner.optimize import solve_fleet
@@ -59,7 +61,21 @@ def plan_sites(study: Study, extra_warming_k: float = 0.0, only=None):
         study, models, price_of=lambda chem, wh: pack_price(study, chem, wh),
         cost_bounds_of=lambda model, outcome: standalone_cost_bounds(study, model, outcome),
         only=only)
+    _drop_unused_curves(designs)
     return [m.summary() for m in models], designs
+
+
+def _drop_unused_curves(designs) -> None:
+    """Keep monthly curves only where the plan can show them (designs offered to the
+    optimizer, packs installed today): a fleet's outcomes then stay small in memory."""
+    empty = np.empty(0)
+    for site_designs in designs:
+        offered = {id(o) for o in offered_outcomes(site_designs)}
+        for o in site_designs.outcomes:
+            o.calendar_loss_frac = o.cycle_loss_frac = empty
+            if id(o) not in offered:
+                o.soh_monthly = empty
+                o.soh_p10_monthly = o.soh_p90_monthly = None
 
 
 def offered_keys(designs) -> list:

@@ -39,3 +39,22 @@ def test_snow_months_stop_pv_charging(tmp_path):
     assert open_sky.charge_w[january].sum() > 0.0
     july = slice(181 * 24, 212 * 24)
     assert covered.charge_w[july].sum() == pytest.approx(open_sky.charge_w[july].sum())
+
+
+def test_pv_sites_sharing_a_climate_scale_one_profile(tmp_path):
+    # PVWatts DC power is proportional to the array nameplate pdc0 (pvlib pvwatts_dc:
+    # P = E/1000 * pdc0 * (1 + gamma (T_cell - 25)); Dobos 2014, PVWatts Version 5 Manual,
+    # NREL/TP-6A20-62641, eq. 1, from memory), so sites of one climate and orientation
+    # share a per-watt profile; it must equal the site's own PVWatts run.
+    from planner.energy.pv import pv_dc_power_w
+
+    (tmp_path / "sites.csv").write_text(
+        "id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
+        "A,r,mediterranean,1,pv,40,5\nB,r,mediterranean,1,pv,130,5\n")
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n')
+    models = model_sites(load_study(tmp_path / "s.toml"))
+    for m in models:
+        own = pv_dc_power_w(m.year, array_wp=m.site.pv_wp, tilt_deg=m.pv_tilt_deg,
+                            azimuth_deg=m.pv_azimuth_deg)
+        np.testing.assert_allclose(m.charge_w, own, rtol=1e-12, atol=1e-12)
+    assert models[1].charge_w.sum() == pytest.approx(130 / 40 * models[0].charge_w.sum())
