@@ -99,3 +99,12 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
     result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out), "--workers", "1"])
     assert result.exit_code == 3, result.output
     assert out.is_file()
+
+
+def test_workers_must_be_a_whole_number_from_one(runner, tmp_path):
+    # --workers N (issue 11): at least one process; a bad value is a usage error, exit 2
+    (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n')
+    result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "0"])
+    assert result.exit_code == 2 and "--workers" in result.output
+    assert "Traceback" not in result.output
