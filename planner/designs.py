@@ -447,34 +447,30 @@ def mark_dominated(outcomes: list[Outcome], price_of) -> None:
 
 # The pack Monte Carlo and the optimizer see a design only if its present cost at its
 # site, with no trip cost, is within this share above the cheapest full-trip cost of the
-# site's designs (costing.standalone_cost_bounds); the share leaves room for the failure
-# risk cost the Monte Carlo adds to the best design. The cheapest designs of every
-# chemistry stay, so the chemistry comparison keeps its choice.
+# site's designs of its chemistry (costing.standalone_cost_bounds); the share leaves
+# room for the failure risk cost the Monte Carlo adds to the best design. Comparing
+# within a chemistry keeps what the chemistry comparison (every site forced to one
+# chemistry) can choose.
 RELEVANCE_FRAC = 0.10
-RELEVANT_PER_CHEMISTRY = 2
 
 
 def mark_far_from_best(outcomes: list[Outcome], cost_bounds_of) -> None:
-    """Flag designs that cannot be a site's choice: their cost without any trip exceeds
-    the best design's cost with a whole trip per replacement by more than
-    ``RELEVANCE_FRAC``, and they are not among the ``RELEVANT_PER_CHEMISTRY`` cheapest of
-    their chemistry at the site. A fleet plan shares trips, so a site's cost with a
-    design lies between the two bounds; swapping in the best design then cannot raise
-    the fleet's cost by more than the share (fleet-wide limits aside)."""
-    by_site: dict[int, list[tuple[Outcome, float, float]]] = {}
+    """Flag designs that cannot be a site's choice, in the plan or in the chemistry
+    comparison: their cost without any trip exceeds, by more than ``RELEVANCE_FRAC``, the
+    cost of the best design of their chemistry at the site with a whole trip per
+    replacement. A fleet plan shares trips, so a site's cost with a design lies between
+    the two bounds; swapping in the best design then cannot raise the fleet's cost by
+    more than the share (fleet-wide limits aside)."""
+    by_site: dict[tuple[int, str], list[tuple[Outcome, float, float]]] = {}
     for o in outcomes:
         if not o.design.is_existing and o.eol_soh_frac < 1.0 and not o.dominated \
                 and o.life_years >= 1.0:
             low, high = cost_bounds_of(o)
-            by_site.setdefault(o.design.site_index, []).append((o, low, high))
+            by_site.setdefault((o.design.site_index, o.design.chemistry), []).append((o, low, high))
     for group in by_site.values():
         best_high = min(high for _, _, high in group)
-        keep = set()
-        for chem in {o.design.chemistry for o, _, _ in group}:
-            mine = sorted((low, i) for i, (o, low, _) in enumerate(group) if o.design.chemistry == chem)
-            keep.update(i for _, i in mine[:RELEVANT_PER_CHEMISTRY])
-        for i, (o, low, _) in enumerate(group):
-            o.far_from_best = i not in keep and low > (1.0 + RELEVANCE_FRAC) * best_high
+        for o, low, _ in group:
+            o.far_from_best = low > (1.0 + RELEVANCE_FRAC) * best_high
 
 
 @dataclass

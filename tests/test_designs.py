@@ -102,3 +102,24 @@ def test_no_rechargeable_pack_without_a_charging_source(tmp_path):
     designs, excluded, _ = enumerate_site_designs(study, 0, model)
     assert {d.chemistry for d in designs} == {"lisocl2"}
     assert set(excluded) == {"vrla", "lfp", "nmc", "lto"}
+
+
+def test_far_from_best_keeps_what_can_win_within_each_chemistry():
+    # Definition of the screen (docs/scaling.md): a design is out when its cost with no
+    # trip exceeds the best full-trip cost of its chemistry at the site by over 10 %.
+    from types import SimpleNamespace
+
+    from planner.designs import RELEVANCE_FRAC, mark_far_from_best
+
+    def outcome(chem, low, high):
+        design = SimpleNamespace(site_index=0, chemistry=chem, is_existing=False)
+        return SimpleNamespace(design=design, eol_soh_frac=0.8, dominated=False, life_years=5.0,
+                               far_from_best=False, bounds=(low, high))
+
+    best = outcome("lfp", 900.0, 1000.0)
+    close = outcome("lfp", 1000.0 * (1 + RELEVANCE_FRAC) - 1.0, 2000.0)
+    far = outcome("lfp", 1000.0 * (1 + RELEVANCE_FRAC) + 1.0, 2000.0)
+    other = outcome("vrla", 5000.0, 6000.0)  # dear, but the best of its own chemistry
+    group = [best, close, far, other]
+    mark_far_from_best(group, lambda o: o.bounds)
+    assert [o.far_from_best for o in group] == [False, False, True, False]
