@@ -70,12 +70,6 @@ class Design:
     reference: ReferenceSize | None
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
-    step: float | None = None  # the oversize factor (or years of load) it was sized from
-
-    @property
-    def step_key(self) -> tuple:
-        """(chemistry, sizing step, charge voltage): the same design at a changed climate."""
-        return (self.chemistry, self.step, self.charge_voltage_v_per_cell)
 
     @property
     def is_existing(self) -> bool:
@@ -218,11 +212,8 @@ def _exclusion(model: SiteModel, chem: Chemistry) -> str:
     return ""
 
 
-def enumerate_site_designs(study: Study, index: int, model: SiteModel, only=None):
-    """Designs of one site: (designs, excluded chemistries with reasons, references).
-
-    ``only``: a set of :attr:`Design.step_key` to keep (None: all); the pack installed
-    today is always kept."""
+def enumerate_site_designs(study: Study, index: int, model: SiteModel):
+    """Designs of one site: (designs, excluded chemistries with reasons, references)."""
     designs, excluded, references = [], {}, {}
     factors = study.settings["candidates"]["oversize_factors"]
     for chem_id in study.settings["candidates"]["chemistries"]:
@@ -247,10 +238,8 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel, only=None
             for volts in chem.charge_voltages_v_per_cell:
                 if window_frac(chem, volts) <= 0:
                     continue
-                design = Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
-                                float(volts), pack, reference, step=float(factor))
-                if only is None or design.step_key in only:
-                    designs.append(design)
+                designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
+                                      float(volts), pack, reference))
     site = model.site
     if site.has_existing_pack:
         chem = get_chemistry(site.existing_chemistry)
@@ -266,7 +255,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel, only=None
 
 
 def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
-                   price_of=None, cost_bounds_of=None, only=None) -> list[SiteDesigns]:
+                   price_of=None, cost_bounds_of=None) -> list[SiteDesigns]:
     """Enumerate and evaluate every site's designs; one :class:`SiteDesigns` per site.
 
     ``price_of(chemistry, capacity_wh)`` prices a pack; with it, designs that another
@@ -275,11 +264,9 @@ def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
     ``cost_bounds_of(model, outcome) -> (low, high)`` bounds a design's present cost at
     its site; with it, designs far dearer than the site's best are marked
     ``far_from_best`` (:func:`mark_far_from_best`) and skip the Monte Carlo too.
-    ``only``: per site, a set of :attr:`Design.step_key` to evaluate, or None for all.
     Each site's result depends on that site alone.
     """
-    per_site = [enumerate_site_designs(study, i, m, None if only is None else only[i])
-                for i, m in enumerate(models)]
+    per_site = [enumerate_site_designs(study, i, m) for i, m in enumerate(models)]
     designs = [d for site_designs, _, _ in per_site for d in site_designs]
     outcomes = _evaluate(study, models, designs, progress, price_of, cost_bounds_of)
     results = []

@@ -48,19 +48,16 @@ def progress_steps(study: Study) -> int:
     return passes * len(study.sites) + PROGRESS_STAGES
 
 
-def plan_sites(study: Study, extra_warming_k: float = 0.0, only=None):
+def plan_sites(study: Study, extra_warming_k: float = 0.0):
     """Site summaries and designs (pack spread included) of every site of ``study``.
 
     A pure function of the study's settings and its site rows: map it over studies
     holding a chunk of the sites each (:func:`site_chunks`) and join the lists.
-    ``only``: per site, the design keys to evaluate (None: all; see
-    :func:`offered_keys`).
     """
     models = model_sites(study, extra_warming_k=extra_warming_k)
     designs = evaluate_fleet(
         study, models, price_of=lambda chem, wh: pack_price(study, chem, wh),
-        cost_bounds_of=lambda model, outcome: standalone_cost_bounds(study, model, outcome),
-        only=only)
+        cost_bounds_of=lambda model, outcome: standalone_cost_bounds(study, model, outcome))
     _drop_unused_curves(designs)
     return [m.summary() for m in models], designs
 
@@ -78,37 +75,22 @@ def _drop_unused_curves(designs) -> None:
                 o.soh_p10_monthly = o.soh_p90_monthly = None
 
 
-def offered_keys(designs) -> list:
-    """Per site, the keys (chemistry, sizing step, charge voltage) of the designs offered
-    to the optimizer; None where none is offered (a warmer climate may serve the site)."""
-    out = []
-    for site_designs in designs:
-        keys = {o.design.step_key for o in offered_outcomes(site_designs)}
-        out.append(keys or None)
-    return out
-
-
 def _plan_sites_piece(args):
-    study, extra_warming_k, only = args
-    return plan_sites(study, extra_warming_k, only)
+    study, extra_warming_k = args
+    return plan_sites(study, extra_warming_k)
 
 
-def site_chunks(study: Study, extra_warming_k: float = 0.0, only=None) -> list:
-    """(study holding ``CHUNK_SITES`` of the sites, warming, design keys) pieces for
-    :func:`plan_sites`."""
-    return [(replace(study, sites=study.sites[i:i + CHUNK_SITES]), extra_warming_k,
-             None if only is None else only[i:i + CHUNK_SITES])
+def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
+    """(study holding ``CHUNK_SITES`` of the sites, warming) pieces for :func:`plan_sites`.
+
+    The warming case uses the same pieces with ``extra_warming_k``: every piece of the
+    per-site stage depends on air temperature (climate, battery temperature, heater and
+    shelter energy in the load, PV cell temperature, the design temperature of the
+    reference size, hence the packs themselves, energy balance, aging, spread), so it
+    is recomputed, on the workers and while the parent solves the base plan.
+    """
+    return [(replace(study, sites=study.sites[i:i + CHUNK_SITES]), extra_warming_k)
             for i in range(0, len(study.sites), CHUNK_SITES)]
-
-
-def warming_chunks(study: Study, designs) -> list:
-    """Pieces of the warming case. Only what depends on air temperature is recomputed:
-    every site's climate, battery temperature, heater and shelter energy, PV cell
-    temperature, reference size, energy balance, aging and pack spread. The base plan's
-    screening is reused: each site evaluates only the designs the base plan offered
-    (same chemistry, sizing step and charge voltage, re-sized for the warmer climate),
-    so a design screened out as dominated or far from its site's best stays out."""
-    return site_chunks(study, WARMING_SENSITIVITY_K, offered_keys(designs))
 
 
 def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | None = None) -> dict:
@@ -132,7 +114,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                 _plan_sites_piece, site_chunks(study),
                 progress=lambda piece: advance(len(piece[0]), "Sites and candidate packs")))
         # The warming case's sites start in the background while the fleet is solved.
-        warm_handle = pool.submit(_plan_sites_piece, warming_chunks(study, designs)) \
+        warm_handle = pool.submit(_plan_sites_piece, site_chunks(study, WARMING_SENSITIVITY_K)) \
             if sensitivity_on and pool.workers > 1 else None
         advance(0, "Optimising the fleet")
         with log.stage("optimizer"):
@@ -157,7 +139,8 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
             with log.stage("warming sensitivity"):
                 step = lambda piece: advance(len(piece[0]), "Warming case")  # noqa: E731
                 if warm_handle is None:
-                    warm_handle = pool.submit(_plan_sites_piece, warming_chunks(study, designs))
+                    warm_handle = pool.submit(_plan_sites_piece,
+                                              site_chunks(study, WARMING_SENSITIVITY_K))
                 warm_summaries, warm_designs = _join(pool.gather(warm_handle, progress=step))
                 warm = solve_fleet(build_problem(study, warm_summaries, warm_designs))
                 cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
