@@ -338,8 +338,12 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_boun
     years = horizon + EXTRA_AGING_YEARS + int(np.ceil(ages.max()))
     peak_c = np.array([models[d.site_index].peak_load_w for d in chunk]) / capacity
     required = np.array([requirement_wh(models[d.site_index]) for d in chunk])
-    available = np.array([float(chems[d.chemistry].available_capacity_fraction(
-        models[d.site_index].design_temp_c)) for d in chunk])
+    cold = {}  # available capacity at the coldest hour, once per (site, chemistry)
+    for d in chunk:
+        if (d.site_index, d.chemistry) not in cold:
+            cold[d.site_index, d.chemistry] = float(chems[d.chemistry].available_capacity_fraction(
+                models[d.site_index].design_temp_c))
+    available = np.array([cold[d.site_index, d.chemistry] for d in chunk])
     window = np.array([window_frac(chems[d.chemistry], d.charge_voltage_v_per_cell) for d in chunk])
     eol = np.maximum(required / (capacity * window * available),
                      np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
@@ -377,7 +381,7 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_boun
         members_outcomes = []
         for col, j in enumerate(members):
             d = chunk[j]
-            start = int(round(ages[j] * 12))
+            start = int(round(float(ages[j]) * 12))  # a Python float: numpy's round is slow
             soh_col = fade.soh_monthly[:, col]
             if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
                 start = int(np.argmax(soh_col <= d.measured_soh_frac))

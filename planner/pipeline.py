@@ -32,10 +32,14 @@ from planner.site_model import model_sites
 
 WARMING_SENSITIVITY_K = 2.0
 
-# Sites per piece of the per-site stages: fixed, so pieces (and results) do not depend
-# on the number of workers; small enough to spread a fleet over the cores and bound
-# each worker's hourly arrays.
-CHUNK_SITES = 25
+# Sites per piece of the per-site stages: set by the fleet's size alone, never by the
+# number of workers (results do not depend on it anyway). About 8 pieces spread a fleet
+# over the cores; up to 100 sites a piece amortise the hour loops (measured 31.8 ms of
+# CPU per site at 100 sites a piece, 38.5 at 25) and bound each worker's hourly arrays
+# (a 100-site piece peaked at 655 MB, benchmarks/bench_plan.py fleet).
+CHUNK_SITES_MIN = 10
+CHUNK_SITES_MAX = 100
+PIECES = 8
 
 # Steps a progress bar counts besides one per site and stage pass: fleet solve,
 # chemistry comparison and sensitivity, plan.
@@ -81,7 +85,7 @@ def _plan_sites_piece(args):
 
 
 def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
-    """(study holding ``CHUNK_SITES`` of the sites, warming) pieces for :func:`plan_sites`.
+    """(study holding a piece of the sites, warming) pieces for :func:`plan_sites`.
 
     The warming case uses the same pieces with ``extra_warming_k``: every piece of the
     per-site stage depends on air temperature (climate, battery temperature, heater and
@@ -89,8 +93,14 @@ def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
     reference size, hence the packs themselves, energy balance, aging, spread), so it
     is recomputed, on the workers and while the parent solves the base plan.
     """
-    return [(replace(study, sites=study.sites[i:i + CHUNK_SITES]), extra_warming_k)
-            for i in range(0, len(study.sites), CHUNK_SITES)]
+    size = chunk_sites(len(study.sites))
+    return [(replace(study, sites=study.sites[i:i + size]), extra_warming_k)
+            for i in range(0, len(study.sites), size)]
+
+
+def chunk_sites(n_sites: int) -> int:
+    """Sites per piece of a fleet of ``n_sites``."""
+    return min(CHUNK_SITES_MAX, max(CHUNK_SITES_MIN, -(-n_sites // PIECES)))
 
 
 def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | None = None) -> dict:

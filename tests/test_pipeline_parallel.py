@@ -45,7 +45,7 @@ def _without_timing(plan):
 
 def test_parallel_plan_equals_serial_plan(tmp_path, monkeypatch):
     study = _small_fleet(tmp_path, 24, sensitivity=True)
-    monkeypatch.setattr(pipeline, "CHUNK_SITES", 8)  # 3 pieces over 2 worker processes
+    monkeypatch.setattr(pipeline, "CHUNK_SITES_MAX", 8)  # 3 pieces over 2 worker processes
     assert len(pipeline.site_chunks(study)) == 3
     serial = pipeline.run_study(study, workers=1)
     log = StageLog()
