@@ -326,7 +326,7 @@ def _annual_spend(problem, plans, trips) -> np.ndarray:
         c = p.candidate
         s = sites[p.site_id]
         for j, t in enumerate(p.replacement_years):
-            spend[t] += c.pack_cost + c.install_cost + s.site_visit_cost
+            spend[t] += c.pack_cost + c.downtime_cost + c.install_cost + s.site_visit_cost
             if j > 0:
                 spend[t] += c.disposal_cost
             elif s.existing is not None:
