@@ -15,11 +15,6 @@ from planner.economics import expected_wait_days
 from planner.optimize.problem import SiteOptions, SitePlan
 from planner.optimize.schedule import failure_cost
 
-#: The report highlights sites above this probability: a one-in-ten chance of an unplanned
-#: trip before the next visit (the threshold finance and crew leads asked to see).
-AT_RISK_FRAC = 0.10
-
-
 def _prob_at(probs, age_years: int) -> float:
     if not probs or age_years <= 0:
         return 0.0

@@ -86,28 +86,37 @@ class _progress:
         return False
 
 
+#: Sites not served listed one per line on the console; beyond it, a count.
+MAX_UNSERVED_LINES = 10
+
+
 def _summary(plan, out) -> str:
+    from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
+
     currency = plan["study"]["currency"]
-    solver = plan["solver"]
-    lines = [
-        f"Plan for {plan['study']['name']}: {len(plan['sites'])} sites, "
-        f"{plan['study']['horizon_years']} years",
-        f"  total present cost: {plan['total_present_cost']:,.0f} {currency} "
-        f"(solver {solver['name']}, {solver['status']}, gap {solver['gap_frac']:.2%})",
-    ]
     n_sites = len(plan["sites"])
-    lines.append("  fleet cost with each chemistry wherever it can serve:")
+    lines = [
+        f"Plan for {plan['study']['name']}: {n_sites} sites, {plan['study']['horizon_years']} years",
+        f"  total present cost: {plan['total_present_cost']:,.0f} {currency} ({plan_status_text(plan)})",
+        "  fleet cost with each chemistry wherever it can serve (other sites keep their best design):",
+    ]
     for row in plan.get("chemistry_comparison", []):
-        text = f"{row['total_with_others_present_cost']:,.0f} {currency}"
-        unserved = row.get("sites_unserved") or []
-        if len(unserved) == n_sites:
-            text = "cannot serve any site"
-        elif unserved:
-            verb = "keeps" if len(unserved) == 1 else "keep"
-            text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
-                     f"{len(unserved)} {verb} another chemistry)")
-        lines.append(f"    {row['chemistry']}: {text}")
-    for item in plan.get("unserved_sites", []):
+        served = row.get("sites_served") or 0
+        cost = (f"{row['total_with_others_present_cost']:,.0f} {currency}, " if served else "")
+        lines.append(f"    {row['chemistry']}: {cost}{coverage_text(row, n_sites)}")
+        share = downtime_share(row)
+        if served and share is not None:
+            lines.append(f"      equipment {row['equipment']:,.0f}, trips and labour "
+                         f"{row['trips_and_labour']:,.0f}, days off air {row['downtime']:,.0f} "
+                         f"({share:.0%}), failure risk {row['failure_risk']:,.0f}")
+        drivers = drivers_text(row, currency)
+        if served and drivers:
+            lines.append(f"      most of the difference to the plan: {drivers}")
+    unserved = plan.get("unserved_sites", [])
+    for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {item['id']}: {item['reason']}")
+    if len(unserved) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites not served "
+                     "(all listed on the workbook's Cautions sheet)")
     lines.append(f"  workbook: {out}")
     return "\n".join(lines)
