@@ -59,7 +59,7 @@ def cautions_sheet(ws, plan) -> None:
     put(ws, row, 1, "Per-site warnings").font = styles.SECTION_FONT
     warn = [{"id": s.get("id"), "name": s.get("name"), "text": w}
             for s in plan_sites(plan) for w in derived_site_warnings(s)]
-    warn += [{"id": u.get("id"), "name": None, "text": f"no feasible design: {u.get('reason', '')}"}
+    warn += [{"id": u.get("id"), "name": None, "text": f"no design can serve this site: {u.get('reason', '')}"}
              for u in seq(plan.get("unserved_sites")) if isinstance(u, Mapping)]
     if warn:
         wcols = [Column("Site id", field_of("id"), width=30), Column("Warning", field_of("text"), width=90),

@@ -50,7 +50,7 @@ def _facts(plan, fmt) -> list[tuple[str, object, str | None]]:
         (f"Total present cost [{cur}]", plan.get("total_present_cost"), fmt["money"]),
         ("Plan status", plan_status_text(plan), None),
         ("Sites planned", len(sites), styles.INTEGER),
-        ("Sites without a feasible design", len(unserved), styles.INTEGER),
+        ("Sites no design can serve", len(unserved), styles.INTEGER),
         ("Installed capacity, first packs [kWh]", installed, styles.ONE_DECIMAL),
         ("Pack replacements over the horizon", replacements, styles.INTEGER),
         ("Crew trips over the horizon", trips, styles.INTEGER),
@@ -199,7 +199,7 @@ def _unserved(ws, plan, top: int) -> int:
         put(ws, top + 1, 1, "Every site has a plan.")
         return top + 1
     if len(unserved) > MAX_UNSERVED_LISTED:
-        put(ws, top + 1, 1, f"{len(unserved):,} sites have no feasible design; each is listed with its "
+        put(ws, top + 1, 1, f"{len(unserved):,} sites cannot be served by any design; each is listed with its "
                             "reason on sheet Cautions.")
         return top + 1
     cols = [Column("Site id", field_of("id"), width=12), Column("Reason", field_of("reason"), width=90)]
@@ -218,7 +218,7 @@ def _safety(ws, plan, top: int) -> int:
                         "sheet Cautions.")
     n_warn = sum(len(derived_site_warnings(s)) for s in plan_sites(plan))
     n_unserved = len(seq(plan.get("unserved_sites")))
-    put(ws, top + 3, 1, f"Per-site warnings raised: {n_warn:,}; sites without a feasible design: "
+    put(ws, top + 3, 1, f"Per-site warnings raised: {n_warn:,}; sites no design can serve: "
                         f"{n_unserved:,}.")
     return top + 3
 
