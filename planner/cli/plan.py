@@ -26,7 +26,7 @@ def plan_command(ctx, study, out_path, json_path):
 
     \b
     Example:
-      planner plan scenarios/corvale.toml --json output/corvale.json
+      planner plan scenarios/quick.toml --json output/quick.json
     """
     from planner.pipeline import PROGRESS_STAGES, run_study
     from planner.report import plan_to_json_text, write_json, write_workbook
