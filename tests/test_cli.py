@@ -99,3 +99,52 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
     result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out)])
     assert result.exit_code == 3, result.output
     assert out.is_file()
+
+
+def _help_examples(runner, command) -> list[list[str]]:
+    """Command lines under 'Example(s):' in a help text (continuation lines joined,
+    '&&' chains split), without the leading 'planner'."""
+    import shlex
+
+    text = runner.invoke(cli, [*command, "--help"], terminal_width=200).output
+    lines = text.split("Example", 1)[1].splitlines()[1:]
+    examples = []
+    for line in lines:
+        stripped = line.strip()
+        if not stripped:
+            break
+        if stripped.startswith("planner "):
+            examples.append(stripped)
+        elif examples:
+            examples[-1] += " " + stripped
+    return [shlex.split(part)[1:] for ex in examples for part in ex.split("&&")]
+
+
+@pytest.mark.parametrize("command", [[], ["plan"], ["new"], ["climate"], ["life"]])
+def test_every_help_example_runs(runner, command, tmp_path, monkeypatch):
+    # Help texts promise these lines work as typed (from a checkout: scenarios/ at hand).
+    import shutil
+
+    shutil.copytree(REPO / "scenarios", tmp_path / "scenarios")
+    monkeypatch.chdir(tmp_path)
+    examples = _help_examples(runner, command)
+    assert examples
+    for args in examples:
+        result = runner.invoke(cli, args)
+        assert result.exit_code == 0, (args, result.output)
+
+
+def test_quiet_and_debug_also_after_the_subcommand(runner, tmp_path, monkeypatch):
+    import shutil
+
+    shutil.copytree(REPO / "scenarios", tmp_path / "scenarios")
+    monkeypatch.chdir(tmp_path)
+    result = runner.invoke(cli, ["plan", "scenarios/quick.toml", "--quiet", "--out", "q.xlsx"])
+    assert result.exit_code == 0, result.output
+    assert "total present cost" not in result.output  # --quiet: no console summary
+    loud = runner.invoke(cli, ["plan", "scenarios/quick.toml", "--out", "q.xlsx"])
+    assert "total present cost" in loud.output
+    study = tmp_path / "s.toml"
+    study.write_text("[study\n")
+    result = runner.invoke(cli, ["plan", str(study), "--debug"])
+    assert result.exit_code == 2 and "Traceback" in result.output
