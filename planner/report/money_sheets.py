@@ -48,10 +48,9 @@ def spending_sheet(ws, plan, fmt) -> None:
     inflation = _number(study.get("inflation_frac")) or 0.0
     rate = _number(study.get("discount_rate_frac"))
     title(ws, "Spending by year",
-          f"Constant money of the study start [{cur}] as the optimizer prices it; the nominal column "
-          f"is money of each year at {inflation:.1%} inflation a year. Present value at the real rate"
-          + (f" of {rate:.1%}" if rate is not None else "")
-          + ". The last year is the end of the study: the residual value of the packs still in service.")
+          f"Constant money of the study start [{cur}], as the optimizer prices it; money of the year at "
+          f"{inflation:.1%} inflation; present value at the real rate"
+          + (f" of {rate:.1%}" if rate is not None else "") + ". Last row: end of the study.")
     rows = _spending_rows(plan)
     if not rows:
         put(ws, 4, 1, "The plan holds no spending by year.")

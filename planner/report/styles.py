@@ -23,6 +23,7 @@ HEADER_ALIGN_INDENT = Alignment(horizontal="left", wrap_text=True, vertical="cen
 INDENT = Alignment(horizontal="left", indent=1)
 WRAP_TOP = Alignment(wrap_text=True, vertical="top")
 TOP = Alignment(vertical="top")
+WRAP_TOP_INDENT = Alignment(horizontal="left", wrap_text=True, vertical="top", indent=1)
 YEAR_BORDER = Border(top=Side(style="thin", color="7A8B9C"))
 
 #: Chart series colours: muted, distinguishable, of our own choosing.
@@ -48,8 +49,8 @@ def money_format(currency: str) -> str:
 
 
 def money_format_dash_zero(currency: str) -> str:
-    """:func:`money_format` with a dash for zero: tables of mostly empty years stay readable
-    (positive;negative;zero sections, ECMA-376 Part 1, §18.8.31 numFmts)."""
+    """:func:`money_format` with a dash for zero, so tables of mostly empty years stay
+    readable (positive;negative;zero sections, ECMA-376 Part 1, §18.8.31 numFmts)."""
     base = money_format(currency)
     return f'{base};-{base};"-"'
 

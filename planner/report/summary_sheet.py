@@ -14,6 +14,7 @@ from collections.abc import Mapping
 
 from openpyxl.chart import Reference
 from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.pagebreak import Break
 
 from planner.report import charts, styles
 from planner.report.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
@@ -107,7 +108,7 @@ def _comparison(ws, plan, fmt, top: int) -> int:
         for offset, col in enumerate(kept):
             cell = ws.cell(row=row, column=1 + offset)
             # every cell reads from the top, so wrapped text and numbers stay on one line
-            cell.alignment = styles.WRAP_TOP if col.fmt is None else styles.TOP
+            cell.alignment = styles.WRAP_TOP_INDENT if col.fmt is None else styles.TOP
             if col.fmt is None and col.width:
                 lines = max(lines, -(-len(str(cell.value or "")) // int(col.width - 2)))
         ws.row_dimensions[row].height = 15 * min(lines, 4)
@@ -234,9 +235,11 @@ def summary_sheet(ws, plan, fmt) -> None:
     comp_top = max(facts_end, 3 + CHART_ROWS) + 2
     comp_last = _comparison(ws, plan, fmt, comp_top)
     _comparison_chart(ws, plan, fmt, comp_top, comp_last, anchor="D3")
+    # Page 2 starts with the fleet overview: no table is cut from its header.
+    ws.row_breaks.append(Break(id=comp_last + 1))
     row = _overview(ws, plan, fmt, comp_last + 2) + 2
     row = _top_sites(ws, plan, fmt, row) + 2
     row = _unserved(ws, plan, row) + 2
     last = _safety(ws, plan, row)
     ws.freeze_panes = "A3"
-    styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(max(ws.max_column, 14))}{last}")
+    styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(ws.max_column)}{last}")
