@@ -40,6 +40,7 @@ def bar_chart(ws, *, title: str, categories: Reference, values: Reference, y_tit
     chart.y_axis.title = y_title
     chart.y_axis.numFmt = y_format
     chart.y_axis.majorGridlines = None
+    chart.y_axis.scaling.min = 0  # bars from zero: an axis starting higher exaggerates differences
     chart.series[0].graphicalProperties.solidFill = SERIES_COLOURS[0]
     chart.series[0].graphicalProperties.line.solidFill = SERIES_COLOURS[0]
     chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM

@@ -58,10 +58,11 @@ def spending_sheet(ws, plan, fmt) -> None:
         return
     cols = [Column("Year", field_of("year"), styles.INTEGER, width=6),
             Column("Calendar year", field_of("calendar_year"), "0", optional=True, width=9)]
-    cols += [Column(f"{word} [{cur}]", field_of(key), money, width=12) for key, word in SPENDING_COLUMNS]
-    cols += [Column(f"Total [{cur}]", field_of("total"), money, width=12),
-             Column(f"Total, money of the year [{cur}]", field_of("total_nominal"), money, width=13),
-             Column(f"Present value [{cur}]", field_of("present_value"), money, width=12)]
+    # money columns take their width from the values (a 1,000-site fleet spends millions)
+    cols += [Column(f"{word} [{cur}]", field_of(key), money) for key, word in SPENDING_COLUMNS]
+    cols += [Column(f"Total [{cur}]", field_of("total"), money),
+             Column(f"Total, money of the year [{cur}]", field_of("total_nominal"), money),
+             Column(f"Present value [{cur}]", field_of("present_value"), money)]
     top = 4
     kept, last = write_table(ws, top, 1, cols, rows)
     headers = [c.header for c in kept]
@@ -79,6 +80,9 @@ def spending_sheet(ws, plan, fmt) -> None:
     for offset, (label, value) in enumerate(check):
         put(ws, last + 1 + offset, 1, label).font = styles.HEADER_FONT
         put(ws, last + 1 + offset, pv_col, value, fmt["money"]).font = styles.HEADER_FONT
+    widest = max(len(f"{v:,.0f} {cur}") for _, v in check if v is not None) + 3
+    letter = get_column_letter(pv_col)
+    ws.column_dimensions[letter].width = max(ws.column_dimensions[letter].width or 0, widest)
     if plan_total is not None:
         ok = abs(total_pv - plan_total) <= present_value_tolerance(rows, plan_total)
         put(ws, last + 1 + len(check), 1,
@@ -117,12 +121,12 @@ def _region_table(ws, plan, fmt, top: int) -> int:
     years = [r for r in seq(blocks[0].get("rows")) if isinstance(r, Mapping)]
     records = [{"year": r.get("year"), "calendar_year": r.get("calendar_year"),
                 "totals": [dig(rows, r.get("year"), "total") for rows in by_region]} for r in years]
-    records.append({"year": f"Present value [{cur}]",
+    records.append({"year": "Present value",
                     "totals": [sum(_number(x.get("present_value")) or 0.0 for x in rows.values())
                                for rows in by_region]})
     cols = [Column("Year", field_of("year"), styles.INTEGER, width=6),
             Column("Calendar year", field_of("calendar_year"), "0", optional=True, width=9)]
-    cols += [Column(f"{b.get('region')} [{cur}]", (lambda rec, k=k: rec["totals"][k]), money, width=12)
+    cols += [Column(f"{b.get('region')} [{cur}]", (lambda rec, k=k: rec["totals"][k]), money)
              for k, b in enumerate(blocks)]
     _, last = write_table(ws, top + 1, 1, cols, records)
     for c in range(1, len(cols) + 1):

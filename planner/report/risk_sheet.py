@@ -37,8 +37,8 @@ def risk_sheet(ws, plan, fmt) -> None:
           f"{AT_RISK_FRAC:.0%}. Costs are undiscounted, money of the study start.")
     start = study_start_year(plan)
     cols = [Column("Site id", field_of("id"), width=12),
-            Column("Site name", field_of("name"), width=26),
-            Column("Region", field_of("region"), optional=True, width=14),
+            Column("Site name", field_of("name")),
+            Column("Region", field_of("region"), optional=True),
             Column("Chemistry", field_of("chemistry"), width=10),
             Column("Risk before the next visit [%]", _risk, styles.PERCENT, width=11),
             Column("Next visit [year]", field_of("next_visit_year"), styles.INTEGER, width=8),

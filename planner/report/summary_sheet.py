@@ -52,7 +52,7 @@ def _facts(plan, fmt) -> list[tuple[str, object, str | None]]:
         ("Plan status", plan_status_text(plan), None),
         ("Sites planned", len(sites), styles.INTEGER),
         ("Sites no design can serve", len(unserved), styles.INTEGER),
-        ("Installed capacity, first packs [kWh]", installed, styles.ONE_DECIMAL),
+        ("Installed capacity of the chosen packs [kWh]", installed, styles.ONE_DECIMAL),
         ("Pack replacements over the horizon", replacements, styles.INTEGER),
         ("Crew trips over the horizon", trips, styles.INTEGER),
         ("Horizon [years]", study.get("horizon_years"), styles.INTEGER),
@@ -180,8 +180,8 @@ def _top_sites(ws, plan, fmt, top: int) -> int:
     total = _number(plan.get("total_present_cost"))
     put(ws, top, 1, f"The {len(ranked)} most expensive sites of {len(sites):,} "
                     "(every site: sheet Sites)").font = styles.SECTION_FONT
-    cols = [Column("Site id", field_of("id"), width=12), Column("Site name", field_of("name"), width=24),
-            Column("Region", field_of("region"), optional=True, width=14),
+    cols = [Column("Site id", field_of("id"), width=12), Column("Site name", field_of("name")),
+            Column("Region", field_of("region"), optional=True),
             Column("Chemistry", field_of("chemistry"), width=10),
             Column("Pack size [Wh]", field_of("capacity_wh"), styles.INTEGER, width=9),
             Column("Replacement years", field_of("replacement_years"), width=12),
