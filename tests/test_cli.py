@@ -148,3 +148,21 @@ def test_quiet_and_debug_also_after_the_subcommand(runner, tmp_path, monkeypatch
     study.write_text("[study\n")
     result = runner.invoke(cli, ["plan", str(study), "--debug"])
     assert result.exit_code == 2 and "Traceback" in result.output
+
+
+def test_console_summary_speaks_the_readers_words():
+    # The console summary describes partial coverage in words and shows what each
+    # chemistry's cost is made of; the solver's status word stays in the JSON.
+    import sys
+
+    sys.path.insert(0, str(REPO / "tests"))
+    from plan_fixture import make_plan
+
+    from planner.cli.plan import _summary
+
+    plan = make_plan(5)
+    text = _summary(plan, "plan.xlsx")
+    assert "nmc: " in text and "serves 4 of 5 sites; S0000 keeps lfp" in text
+    assert "serves none of the 5 sites" in text
+    assert "days off air" in text and "most of the difference to the plan: S0000" in text
+    assert "infeasible" not in text and "optimal" not in text

@@ -77,6 +77,9 @@ def _site_columns(fmt) -> list[Column]:
         Column(f"Disposal [{cur}]", field_of("cost_breakdown", "disposal"), money, optional=True),
         Column(f"Residual value [{cur}]", field_of("cost_breakdown", "residual"), money, optional=True),
         Column(f"Failure risk [{cur}]", field_of("cost_breakdown", "failure_risk"), money, optional=True),
+        Column(f"Days off air [{cur}]", field_of("cost_breakdown", "downtime"), money, optional=True),
+        Column("Risk before the next visit [%]", field_of("risk_before_next_visit_frac"), styles.PERCENT,
+               optional=True),
     ]
 
 
