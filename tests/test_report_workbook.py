@@ -175,6 +175,8 @@ SITES_MAP = {
     "Labour [EUR]": ("cost_breakdown", "labour"), "Trips share [EUR]": ("cost_breakdown", "trips"),
     "Disposal [EUR]": ("cost_breakdown", "disposal"), "Residual value [EUR]": ("cost_breakdown", "residual"),
     "Failure risk [EUR]": ("cost_breakdown", "failure_risk"),
+    "Days off air [EUR]": ("cost_breakdown", "downtime"),
+    "Risk before the next visit [%]": ("risk_before_next_visit_frac",),
 }
 SITES_TEXT = {"Site id": "id", "Region": "region", "Climate": "climate", "Enclosure": "enclosure",
               "Charging source": "charging", "Chemistry": "chemistry", "Pack structure": "pack_structure",
