@@ -59,10 +59,9 @@ def failure_probabilities(study: Study, outcome: Outcome) -> tuple[float, ...]:
     if outcome.failure_prob_by_age is not None:
         return outcome.failure_prob_by_age
     d = outcome.design
-    nominal = outcome.nominal_life_years
-    if not math.isfinite(nominal):
-        nominal = outcome.life_years
-    return failure_prob_by_age(nominal, study.settings["study"]["horizon_years"] + 1,
+    # The nominal life is not capped by the service-life limit (a planning rule, not a
+    # failure); an infinite one (never worn out in the simulated years) gives no risk.
+    return failure_prob_by_age(outcome.nominal_life_years, study.settings["study"]["horizon_years"] + 1,
                                chemistry_life_log_sigma(d.chemistry),
                                age_years=d.existing_age_years or 0.0)
 
