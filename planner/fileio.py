@@ -131,10 +131,11 @@ def prepare_target(path, *, what: str) -> Path:
     return target
 
 
-def _is_char_device(target: Path) -> bool:
+def is_char_device(target) -> bool:
+    """Whether ``target`` exists and is a character device (``/dev/null``, a terminal)."""
     try:
         return stat.S_ISCHR(os.stat(target).st_mode)
-    except OSError:
+    except (OSError, ValueError):
         return False
 
 
@@ -213,7 +214,7 @@ class OutputBatch:
     def add(self, path, write, *, what: str) -> Path:
         """Stage ``write(tmp_path)`` for ``path``; returns the target path."""
         target = prepare_target(path, what=what)
-        if _is_char_device(target):
+        if is_char_device(target):
             self._direct.append((target, write, what))
             return target
         tmp = _new_temp(target, what)
@@ -296,7 +297,7 @@ def atomic_path(target, *, what: str = "output file"):
     If the body raises, the temporary file is removed and ``target`` is untouched.
     """
     target = prepare_target(target, what=what)
-    if _is_char_device(target):
+    if is_char_device(target):
         yield target  # a device is written straight through, never replaced
         return
     tmp = _new_temp(target, what)
@@ -307,8 +308,3 @@ def atomic_path(target, *, what: str = "output file"):
     finally:
         tmp.unlink(missing_ok=True)
 
-
-def write_text_atomic(target, text: str, *, what: str = "file") -> Path:
-    """Write ``text`` (UTF-8) to ``target`` through a temporary file and a rename."""
-    return write_atomically(target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
-                            what=what)

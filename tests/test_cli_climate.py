@@ -125,6 +125,7 @@ def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
 
     monkeypatch.setattr(pd.DataFrame, "to_csv", broken)
     result = CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(target)])
-    assert result.exit_code == 2 and "cannot write the hourly CSV" in result.output
+    # Issue 15: "could not write the output" has its own exit code, 4 (README).
+    assert result.exit_code == 4 and "could not write the hourly CSV" in result.output
     assert target.read_text() == "an earlier export\n"
     assert list(tmp_path.iterdir()) == [target]      # the temporary file was removed

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import click
 
-from planner.errors import InputError
+from planner.errors import InputError, OutputError
 
 
 def _enclosure_choices():
@@ -137,6 +137,8 @@ def _write_csv(path: Path, year, thermal) -> None:
     try:
         with atomic_path(path) as tmp:
             frame.to_csv(tmp, index=False, float_format="%.3f")
+    except OutputError:
+        raise
     except OSError as err:
-        raise InputError(f"cannot write the hourly CSV ({err.strerror}); expected a writable "
-                         "folder", source=str(path)) from None
+        raise OutputError(f"could not write the hourly CSV ({err.strerror}); expected a "
+                          "writable folder", source=str(path)) from None
