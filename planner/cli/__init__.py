@@ -17,7 +17,7 @@ import traceback
 import click
 
 from planner import __version__
-from planner.cli.terminal import Stopped, printable, stop_on_signals
+from planner.cli.terminal import Stopped, console_warnings, printable, stop_on_signals
 from planner.errors import InputError, OutputError
 
 EXIT_OK = 0
@@ -80,7 +80,7 @@ def cli(ctx, quiet, debug):
 
 def main(argv=None):
     """Console entry point."""
-    with stop_on_signals():
+    with stop_on_signals(), console_warnings():
         return cli.main(args=argv, prog_name="planner")
 
 

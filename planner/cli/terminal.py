@@ -2,6 +2,8 @@
 
 - :func:`printable`: user text (a study name, a file name) with control characters shown
   as escapes, so a NUL or BEL in a study never reaches the terminal raw.
+- :func:`console_warnings`: a warning (a repaired gap in a climate file) is one line
+  ``warning: ...``, never the Python source line that issued it.
 - :func:`stop_on_signals`: SIGTERM and SIGHUP end the command the way Ctrl-C does (every
   ``finally`` runs, so temporary output files are removed); the exit status is then
   128 + the signal number, as shells report a process ended by a signal (POSIX shell
@@ -12,6 +14,7 @@ from __future__ import annotations
 
 import re
 import signal
+import warnings
 from contextlib import contextmanager
 
 _CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
@@ -20,6 +23,21 @@ _CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
 def printable(text) -> str:
     """``text`` with control characters (except tab and newline) written as ``\\xNN``."""
     return _CONTROL.sub(lambda m: f"\\x{ord(m.group()):02x}", str(text))
+
+
+def _warning_line(message, category, filename, lineno, line=None) -> str:
+    return f"warning: {printable(message)}\n"
+
+
+@contextmanager
+def console_warnings():
+    """Within the block, warnings print as one ``warning: <message>`` line."""
+    previous = warnings.formatwarning
+    warnings.formatwarning = _warning_line
+    try:
+        yield
+    finally:
+        warnings.formatwarning = previous
 
 
 class Stopped(BaseException):

@@ -183,13 +183,12 @@ def _read_file_cached(path: Path, options: dict | None) -> TypicalYear:
     import hashlib
 
     from planner.climate import readers
+    from planner.fileio import read_input_bytes
 
-    try:
-        digest = hashlib.blake2b(path.read_bytes(), digest_size=16).hexdigest()
-        key = (str(path.resolve()), digest,
-               tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
-    except OSError:
-        return readers.read_climate_file(path, options=options)
+    data = read_input_bytes(path, what="an EPW, TMY3, TMY2 or CSV climate file")
+    digest = hashlib.blake2b(data, digest_size=16).hexdigest()
+    key = (str(path.resolve()), digest,
+           tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
     cached = _FILE_CACHE.get(key)
     if cached is None:
         cached = readers.read_climate_file(path, options=options)
