@@ -11,6 +11,7 @@ import click
 
 from planner.cli import EXIT_INFEASIBLE, options, progress_enabled
 from planner.cli.terminal import printable
+from planner.energy.balance import SHORTFALL_CAUSE
 from planner.errors import InputError, OutputError
 from planner.fileio import OutputBatch, is_char_device, prepare_target, same_file
 
@@ -183,6 +184,10 @@ def _summary(plan, out) -> str:
             text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
                      f"{len(unserved)} {verb} another chemistry)")
         lines.append(f"    {row['chemistry']}: {text}")
+    for site in plan["sites"]:
+        for warning in site.get("warnings") or []:
+            if str(warning).startswith(SHORTFALL_CAUSE):
+                lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
     for item in plan.get("unserved_sites", []):
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
     lines.append(f"  workbook: {printable(out)}")
