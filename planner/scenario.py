@@ -109,11 +109,11 @@ class Study:
 
 # ---------------------------------------------------------------- value parsing
 
-_MONTH_RANGE = re.compile(r"^\s*(\d{1,2})\s*-\s*(\d{1,2})\s*$")
-_PLAIN_INTEGER = re.compile(r"^\d{1,2}$")
+_MONTH_RANGE = re.compile(r"^\s*([0-9]{1,2})\s*-\s*([0-9]{1,2})\s*$")
+_PLAIN_INTEGER = re.compile(r"^[0-9]{1,2}$")
 #: The one number syntax of a sites-table cell: optional sign, digits, optional decimals
 #: ("2", "-1.5", ".5", "60."). No exponent, digit separators, inf or nan.
-_PLAIN_DECIMAL = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)$")
+_PLAIN_DECIMAL = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)$")
 
 
 def parse_months(text) -> tuple[int, ...]:
@@ -445,7 +445,7 @@ def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Si
     by_name = {s.name: s for s in SITE_COLUMNS}
     for column in frame.columns:
         if column not in by_name:
-            hint = closest(column, by_name) or _table_hint(frame, column)
+            hint = closest(column, by_name) + _table_hint(frame, column)
             raise InputError(f"unknown column '{_shown(column)[1:-1]}'{hint}", source=source)
     for spec in SITE_COLUMNS:
         if spec.required and spec.name not in frame.columns:
