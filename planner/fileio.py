@@ -106,8 +106,11 @@ def same_file(a, b) -> bool:
     """True when paths ``a`` and ``b`` name the same file (existing or not)."""
     try:
         return os.path.samefile(a, b)
-    except OSError:
-        return Path(a).resolve() == Path(b).resolve()
+    except (OSError, ValueError):
+        try:
+            return Path(a).resolve() == Path(b).resolve()
+        except (OSError, ValueError):  # a name the OS cannot look up is no existing file
+            return str(a) == str(b)
 
 
 def prepare_target(path, *, what: str) -> Path:
@@ -117,10 +120,15 @@ def prepare_target(path, *, what: str) -> Path:
     through); folders and other special files are refused.
     """
     target = Path(path)
+    if "\x00" in str(target):
+        raise InputError(f"a NUL character in the path; expected a file name for the {what}",
+                         source=repr(str(target)))
     try:
         info = os.stat(target)
-    except OSError:
+    except FileNotFoundError:
         info = None
+    except OSError as exc:  # a name too long, a loop of links, a file used as a folder...
+        raise InputError(f"cannot be used for the {what}: {exc.strerror}", source=str(target)) from None
     if info is not None and not (stat.S_ISREG(info.st_mode) or stat.S_ISCHR(info.st_mode)):
         words = file_kind(info.st_mode)
         raise InputError(f"found {words}; expected a file name for the {what}", source=str(target))

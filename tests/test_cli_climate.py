@@ -152,3 +152,11 @@ def test_climate_warning_is_one_line_without_python_source(tmp_path):
     lines = [line for line in done.stderr.splitlines() if line.strip()]
     assert len(lines) == 1 and lines[0].startswith("warning: ") and "interpolated 1 short gap" in lines[0]
     assert "ClimateWarning" not in done.stderr and ".py:" not in done.stderr
+
+
+def test_overlong_source_name_is_a_one_line_error():
+    # Issue 15: a name past NAME_MAX (255 bytes, POSIX limits.h) raised OSError ENAMETOOLONG.
+    for name in ("x" * 5000, "x" * 5000 + ".epw"):
+        result = CliRunner().invoke(cli, ["climate", name])
+        assert result.exit_code == 2 and "Traceback" not in result.output
+        assert len([line for line in result.output.splitlines() if line.strip()]) == 1

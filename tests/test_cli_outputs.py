@@ -217,3 +217,16 @@ def test_json_written_with_the_workbook(study_dir, no_planning):
     result = run(study_dir, "quick.toml", "--out", "p.xlsx", "--json", "p.json")
     assert result.exit_code == 0, result.output
     assert json.loads((study_dir / "p.json").read_text())["sites"]
+
+
+@pytest.mark.parametrize("workbook, expected", [
+    ("a\\u0000b.xlsx", "a NUL character in the path"),
+    ("x" * 300 + ".xlsx", "File name too long"),          # NAME_MAX 255 (POSIX limits.h)
+    ("quick_sites.csv/p.xlsx", "Not a directory"),
+])
+def test_unusable_output_names_are_refused_before_planning(study_dir, no_planning, workbook, expected):
+    text = (study_dir / "quick.toml").read_text().replace("[output]\n", f'[output]\nworkbook = "{workbook}"\n')
+    (study_dir / "quick.toml").write_text(text)
+    result = run(study_dir, "quick.toml")
+    assert result.exit_code == 2 and expected in one_error_line(result)
+    assert no_planning == []

@@ -51,7 +51,9 @@ TOML_VALID = {
     ("costs", "labour_rate_per_h"): ["1e12", "85.0"], ("limits", "annual_budget"): ["1e15", "0.0"],
     ("candidates", "oversize_factors"): ["[1.0]", "[10.0, 1.0]"], ("regions.hills", "trip_cost"): ["0.0"],
     ("regions.hill", "trip_cost"): ["1.0"], ("regions.plain", "access_months"): ["[1]", "[12, 1]"],
-    ("prices.lfp", "price_per_kwh"): ["1e12", "0.0"], ("output", "workbook"): ['"w.xlsx"', '"a/b.xlsx"'],
+    ("prices.lfp", "price_per_kwh"): ["1e12", "0.0"],
+    ("output", "workbook"): ['"w.xlsx"', '"a/b.xlsx"', '"' + "x" * 300 + '.xlsx"', '"a\\u0000b.xlsx"',
+                             '"sites.csv/"'],
     ("output", "json"): ['"j.json"', '"study.toml"'], ("study", "horizon_year"): ["1"],
 }
 KEYS = st.sampled_from(sorted(TOML_VALID))

@@ -88,6 +88,9 @@ def output_paths(study, out_option: str | None, json_option: str | None):
         outputs.append((json_target, json_source, "plan JSON"))
     inputs = study.input_files()
     for index, (path, where, what) in enumerate(outputs):
+        if "\x00" in str(path):
+            raise InputError(f"{where} {printable(path)} holds a NUL character in the path; "
+                             "expected a file name", source="plan")
         for known, words in inputs.items():
             if same_file(path, known):
                 raise InputError(f"{where} {printable(path)} is {words}; expected an output path "
@@ -103,7 +106,7 @@ def output_paths(study, out_option: str | None, json_option: str | None):
 
 def _as_file(path: Path, text: str, study) -> Path:
     """A folder (trailing separator or existing folder) becomes <folder>/<study>.xlsx."""
-    if text.endswith(("/", os.sep)) or path.is_dir():
+    if text.endswith(("/", os.sep)) or os.path.isdir(path):
         return path / f"{study.stem}.xlsx"
     return path
 

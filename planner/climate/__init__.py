@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import functools
+import os
 from pathlib import Path
 
 import numpy as np
@@ -162,7 +163,7 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
         path = Path(name)
         if not path.is_absolute():
             path = Path(base_dir or ".") / path
-        if not path.suffix and not path.exists():
+        if not path.suffix and not os.path.exists(path):
             import difflib
             known = [n for n, _ in list_bundled()]
             close = difflib.get_close_matches(name, known, n=1)
