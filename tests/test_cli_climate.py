@@ -160,3 +160,14 @@ def test_overlong_source_name_is_a_one_line_error():
         result = CliRunner().invoke(cli, ["climate", name])
         assert result.exit_code == 2 and "Traceback" not in result.output
         assert len([line for line in result.output.splitlines() if line.strip()]) == 1
+
+
+def test_csv_output_onto_the_weather_file_is_refused(tmp_path):
+    # Issue 15: an output never destroys an input.
+    from test_climate_readers import write_epw
+
+    path = write_epw(tmp_path / "site.epw", np.full(8760, 10.0))
+    before = path.read_bytes()
+    result = CliRunner().invoke(cli, ["climate", str(path), "--csv", str(path)])
+    assert result.exit_code == 2 and "is the weather file read" in result.output
+    assert path.read_bytes() == before
