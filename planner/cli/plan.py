@@ -153,7 +153,7 @@ class _progress:
         def advance(step=1, label=None):
             if self.bar is not None:
                 if label:
-                    self.bar.label = label
+                    self.bar.label = printable(label)  # a site id may hold control characters
                 self.bar.update(step)
         return advance
 
