@@ -166,3 +166,21 @@ def test_console_summary_speaks_the_readers_words():
     assert "serves none of the 5 sites" in text
     assert "days off air" in text and "most of the difference to the plan: S0000" in text
     assert "infeasible" not in text and "optimal" not in text
+
+
+def test_endless_study_files_are_refused_by_type(runner, tmp_path):
+    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO read until memory ran out. Nodes
+    # made here stand in for them (never real /dev paths); 1:5 is the Linux "zero" device
+    # (Linux kernel documentation, admin-guide/devices.txt).
+    import os
+    import stat
+
+    nodes = [tmp_path / "fifo.toml"]
+    os.mkfifo(nodes[0])
+    if os.geteuid() == 0:
+        nodes.append(tmp_path / "zero.toml")
+        os.mknod(nodes[1], stat.S_IFCHR | 0o666, os.makedev(1, 5))
+    for node in nodes:
+        result = runner.invoke(cli, ["plan", str(node)])
+        assert result.exit_code == 2, result.output
+        assert "not a regular file: expected a study file (TOML)" in result.output

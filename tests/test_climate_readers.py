@@ -467,3 +467,13 @@ def test_declarations_at_the_top_of_a_csv_replace_options(tmp_path):
     bad.write_text("# temperature_units = C\n" + frame.to_csv(index=False))
     with pytest.raises(InputError, match="unknown climate option 'temperature_units'; did you mean 'temperature_unit'"):
         load_climate(str(bad))
+
+
+def test_fifo_climate_file_is_refused_before_reading(tmp_path):
+    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO as a climate file read without
+    # end; a node made here stands in for them (refused by type, never opened).
+    import os
+
+    os.mkfifo(tmp_path / "site.epw")
+    with pytest.raises(InputError, match=r"named pipe \(FIFO\), not a regular file"):
+        load_climate(str(tmp_path / "site.epw"))

@@ -8,6 +8,7 @@ the JSON (``solver.status``, ``chemistry_comparison[].status``).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 
 #: Longest list of site ids written out in a sentence; beyond it, a count and a pointer.
@@ -19,7 +20,10 @@ def _seq(value) -> list:
 
 
 def _num(value):
-    return value if isinstance(value, int | float) and not isinstance(value, bool) else None
+    """A finite number, else None (NaN and infinities read as missing)."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return None
+    return value if math.isfinite(value) else None
 
 
 def _count(value) -> int | None:
