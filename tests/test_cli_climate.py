@@ -119,8 +119,9 @@ def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
     target = tmp_path / "hourly.csv"
     target.write_text("an earlier export\n")
 
-    def broken(self, target, *args, **kwargs):
-        target.write("time_start_local,temp")  # half a file, then the disk "fills up"
+    def broken(self, path, *args, **kwargs):
+        with open(path, "w") as fh:      # half a file, then the disk "fills up"
+            fh.write("time_start_local,temp")
         raise OSError(28, "No space left on device")
 
     monkeypatch.setattr(pd.DataFrame, "to_csv", broken)

@@ -160,9 +160,8 @@ def _write_csv(path: Path, year, thermal) -> None:
         "hvac_power_w": thermal.hvac_power_w})
     try:
         with atomic_path(path) as tmp:
-            with open(tmp, "w", encoding="utf-8", newline="") as fh:
-                fh.write(csv_declarations(year))
-                frame.to_csv(fh, index=False, float_format="%.3f")
+            Path(tmp).write_text(csv_declarations(year), encoding="utf-8")
+            frame.to_csv(tmp, mode="a", index=False, float_format="%.3f")
     except OutputError:
         raise
     except OSError as err:
