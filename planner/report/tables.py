@@ -47,6 +47,7 @@ def dig(mapping, *keys):
 
 
 def field_of(*keys):
+    """A column getter reading ``record[keys[0]][keys[1]]...`` (None when missing)."""
     return lambda record: dig(record, *keys)
 
 
