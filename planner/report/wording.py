@@ -105,7 +105,8 @@ def plan_status_text(plan: Mapping) -> str:
     n_sites = len([s for s in _seq(plan.get("sites")) if isinstance(s, Mapping)])
     n_unserved = len(_seq(plan.get("unserved_sites")))
     served = max(n_sites - n_unserved, 0)
-    coverage = (f"all {n_sites:,} sites served" if n_unserved == 0 else
+    every = f"all {n_sites:,} sites served" if n_sites != 1 else "the site is served"
+    coverage = (every if n_unserved == 0 else
                 f"{served:,} of {n_sites:,} sites served; {n_unserved:,} cannot be (see Cautions)")
     gap = _num(solver.get("gap_frac"))
     status = str(solver.get("status") or "")
