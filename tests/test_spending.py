@@ -95,3 +95,26 @@ def test_regions_split_the_fleet_without_loss():
     totals = np.array([r["total"] for r in fleet])
     assert np.allclose(totals, [a["total"] + b["total"] for a, b in zip(*parts)])
     assert sum(r["present_value"] for r in fleet) == pytest.approx(solution.objective, abs=0.01)
+
+
+def test_existing_pack_disposal_and_risk_fall_in_their_years():
+    # HB 135 end-of-year convention (research note §3.2): the pack in service goes out at
+    # the first replacement and its disposal is paid that year; its expected failure
+    # cost (F(a) - F(a-1)) x cost falls in year a; the years add up to the objective.
+    from planner.life_risk import failure_prob_by_age
+    from planner.optimize import ExistingPack
+
+    probs = failure_prob_by_age(2.5, 12, 0.3, age_years=4.0)
+    cand = Candidate("d", "lfp", 1.0, 3.4, 1000.0, 10.0, 2000.0, 300.0, 50.0, 6.0, None, "calendar")
+    site = SiteOptions("S1", "A", ALL_MONTHS, [cand], unplanned_trip_cost=1500.0,
+                       existing=ExistingPack(2.5, disposal_cost=80.0, failure_prob_by_age=probs))
+    problem = FleetProblem([site], 12, 0.03, {"A": 1000.0}, gap_rel_frac=1e-9)
+    solution = solve_fleet(problem)
+    first = solution.sites[0].replacement_years[0]
+    assert first == 2  # kept two years: the optimizer's trade of risk against an early pack
+    rows = spending_by_year(problem, solution, start_year=2030)
+    assert rows[first]["disposal"] == pytest.approx(80.0)
+    for year in range(1, first + 1):
+        expected = (probs[year - 1] - (probs[year - 2] if year > 1 else 0.0)) * 1500.0
+        assert rows[year]["risk"] == pytest.approx(expected, rel=1e-12)
+    assert abs(sum(r["present_value"] for r in rows) - solution.objective) <= 0.01
