@@ -90,7 +90,9 @@ def spending_sheet(ws, plan, fmt) -> None:
             else "CHECK FAILED: the years do not add up to the plan's total present cost."
             ).font = styles.NOTE_FONT
     chart_top = last + 1 + len(check) + 2
-    ws.row_breaks.append(Break(id=chart_top - 1))  # chart and region table on a page of their own
+    # chart and region table on a page of their own; the chart one row below the break, so
+    # its frame is not drawn at the foot of the table's page
+    ws.row_breaks.append(Break(id=chart_top - 1))
     first_part = headers.index(f"{SPENDING_COLUMNS[0][1]} [{cur}]") + 1
     series = [Reference(ws, min_col=first_part + k, min_row=top, max_row=last)
               for k, (key, _) in enumerate(SPENDING_COLUMNS)
@@ -99,8 +101,8 @@ def spending_sheet(ws, plan, fmt) -> None:
     charts.stacked_bar_chart(
         ws, title="Spending by year, constant money", x_title="Year",
         categories=Reference(ws, min_col=year_col, min_row=top + 1, max_row=last), series=series,
-        y_title=f"[{cur}]", y_format=money, anchor=f"A{chart_top}", width_cm=2 * charts.CHART_WIDTH_CM)
-    region_top = chart_top + CHART_ROWS + 1
+        y_title=f"[{cur}]", y_format=money, anchor=f"A{chart_top + 1}", width_cm=2 * charts.CHART_WIDTH_CM)
+    region_top = chart_top + 1 + CHART_ROWS + 1
     region_last = _region_table(ws, plan, fmt, region_top)
     ws.freeze_panes = f"C{top + 1}"
     styles.landscape_fit_width(ws, title_rows=f"{top}:{top}",
