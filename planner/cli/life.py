@@ -179,7 +179,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
             raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
                              f"at most {max_per_day:g} at this depth and C-rate", source="life")
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
-        peak = c_rate
+        peak = charge_rate = c_rate
     else:
         stored = top if soc_frac is None else soc_frac
         if not 0.0 <= stored <= top + 1e-9:
@@ -189,10 +189,10 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         # A primary cell feeds its load (--c-rate given explicitly); a stored pack carries none.
         load = c_rate if not chem.rechargeable and _given("c_rate") else 0.0
         current = np.full(HOURS_PER_YEAR, load)
-        peak = None
+        peak = charge_rate = None
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
-                       peak_c_rate=peak)
+                       peak_c_rate=peak, charge_c_rate=charge_rate)
     eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
     reached = math.isfinite(eol_years)
     out = {
@@ -214,7 +214,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         model_sets = None
         if across_models:
             model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
-                                    years, peak_c_rate=peak, aging_set=name)
+                                    years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
                           for name in chem.aging_sets]
         out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
