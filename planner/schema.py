@@ -144,10 +144,19 @@ OUTPUT = (
     F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
 )
 
+# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
+# electronics, so a cap applies (chemistries.toml holds the default with its source).
+SERVICE_LIFE = tuple(
+    F(chem_id, "float", None, "years", 1.0, 60.0,
+      doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
+          "blank = the chemistry library's value (`planner life --list`).")
+    for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
+
 SECTIONS = {
     "study": STUDY,
     "candidates": CANDIDATES,
     "costs": COSTS,
+    "service_life": SERVICE_LIFE,
     "limits": LIMITS,
     "solver": SOLVER,
     "output": OUTPUT,
