@@ -31,7 +31,12 @@ import numpy as np
 
 from planner.aging import age_lanes
 from planner.chemistry import Chemistry, get_chemistry
-from planner.energy.sizing import ReferenceSize, reference_capacity, temperature_factor_from_derating
+from planner.energy.sizing import (
+    ReferenceSize,
+    lead_acid_sizing_temperature_factor,
+    reference_capacity,
+    temperature_factor_from_derating,
+)
 from planner.energy.soc import iter_soc_chunks
 from planner.pack import PackStructure, life_distribution, pack_structure, stress_parameters
 from planner.scenario import Study
@@ -138,10 +143,13 @@ def window_frac(chem: Chemistry, charge_voltage_v_per_cell: float) -> float:
 def _reference(study: Study, model: SiteModel, chem: Chemistry) -> ReferenceSize:
     cand = study.settings["candidates"]
     available = float(chem.available_capacity_fraction(model.design_temp_c))
+    factor = (lead_acid_sizing_temperature_factor(model.design_temp_c, available,
+                                                  cand.get("lead_acid_temperature_factor", "datasheet"))
+              if chem.id == "vrla" else temperature_factor_from_derating(available))
     return reference_capacity(
         daily_load_wh=max(model.daily_load_wh, 1e-6), system_voltage_v=model.site.system_voltage_v,
         autonomy_days=model.site.autonomy_days, max_dod_frac=chem.max_dod_frac,
-        temperature_factor=temperature_factor_from_derating(available),
+        temperature_factor=factor,
         aging_factor=cand["aging_factor"], design_margin=cand["design_margin"])
 
 

@@ -89,6 +89,10 @@ CANDIDATES = (
       doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
     F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
       doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("lead_acid_temperature_factor", "str", "datasheet", choices=("datasheet", "ieee485"),
+      doc="VRLA cold correction in the 1x size: the chemistry's low-rate datasheet curve "
+          "(about 1.18 at 0 °C; telemetry packs discharge over days) or IEEE 485 Table 1 "
+          "(about 1.40 at 0 °C, written for 1-8 h rates; more conservative)."),
 )
 
 COSTS = (
