@@ -1,4 +1,4 @@
-"""Service-life caps: read from chemistries.toml with a source, overridden per study.
+"""Service-life caps (chemistries.toml, overridden per study) and how the plan shows them.
 
 Check values: the caps of the chemistry library (common practice: 15-20 year design life
 of stationary lithium-ion products; Eurobat 10-12 year class for VRLA, from memory) and
@@ -55,3 +55,27 @@ def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
     assert capped["service_life_limited_sites"] >= 1
     rows = [r for r in capped["assumptions"] if r["name"] == "service-life limit lfp"]
     assert rows and rows[0]["value"] == 10.0 and rows[0]["source"] == "study file [service_life]"
+
+
+def test_workbook_shows_the_cap_count_and_extrapolated_lives(tmp_path):
+    # Issue 12: the Summary says how many sites the cap decides; the Sites sheet marks
+    # lives that lean on extrapolated laws (plan keys of docs/plan-json.md).
+    import openpyxl
+
+    plan = _plan(tmp_path, "\n[service_life]\nlfp = 10\n")
+    book = openpyxl.load_workbook(tmp_path / "p.xlsx")
+    summary = {row[0]: row[1] for row in book["Summary"].iter_rows(min_col=1, max_col=2,
+                                                                      values_only=True)}
+    assert summary["Sites whose life the service-life limit decides"] == \
+        plan["service_life_limited_sites"]
+    sites = book["Sites"]
+    header = [c.value for c in sites[1]]
+    column = header.index("Life extrapolated")
+    by_id = {row[0]: row[column] for row in sites.iter_rows(min_row=2, values_only=True)}
+    for site in plan["sites"]:
+        assert isinstance(site["life_extrapolated"], bool)
+        text = by_id[site["id"]]
+        assert text.startswith("yes: ") == site["life_extrapolated"]
+        if site["life_extrapolated"]:
+            assert site["life_extrapolation_note"] in text
+            assert any(w.startswith("life leans on extrapolated") for w in site["warnings"])
