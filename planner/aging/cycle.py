@@ -82,8 +82,19 @@ def plating_factor(temp_c, charge_c_rate, *, plating_below_c, plating_share_ref,
     return np.where(temp < plating_below_c, factor, 1.0)
 
 
-def _has_plating(params) -> bool:
-    return "plating_below_c" in params
+def temperature_factor_with_plating(temp_c, charge_c_rate, params):
+    """The set's Arrhenius factor, times :func:`plating_factor` below the crossover.
+
+    Above ``plating_below_c`` (or for a set without plating parameters) the set's own
+    ``activation_energy_j_mol`` / ``temp_ref_c`` law; below it that law is held at the
+    crossover and the plating factor takes over.
+    """
+    temp = np.asarray(temp_c, dtype=float)
+    if "plating_below_c" not in params:
+        return arrhenius_factor(temp, params["activation_energy_j_mol"], params["temp_ref_c"])
+    held = arrhenius_factor(np.maximum(temp, params["plating_below_c"]),
+                            params["activation_energy_j_mol"], params["temp_ref_c"])
+    return held * plating_factor(temp, charge_c_rate, **params)
 
 
 def naumann2020_coefficient(c_rate, doc_frac, *, a, b, doc_c, doc_d, **_):
@@ -212,15 +223,8 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
     charge_rate = c_rate if charge_c_rate is None else charge_c_rate
     if model == "naumann2020":
         # Coefficient convention, as Wang et al. 2011 and Schimpe et al. 2018 apply their
-        # Arrhenius terms; below the plating crossover the set's law stops at T_x and the
-        # plating factor takes over.
-        temp = np.asarray(temp_c, dtype=float)
-        if _has_plating(p):
-            heat = arrhenius_factor(np.maximum(temp, p["plating_below_c"]),
-                                    p["activation_energy_j_mol"], p["temp_ref_c"])
-            heat = heat * plating_factor(temp, charge_rate, **p)
-        else:
-            heat = arrhenius_factor(temp, p["activation_energy_j_mol"], p["temp_ref_c"])
+        # Arrhenius terms (Schimpe's plating factor scales the coefficient).
+        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
         k = naumann2020_coefficient(c_rate, depth, **p) * heat
         return k * k * n * depth, 0.5
     if model == "schmalstieg2014_cycle":
@@ -239,14 +243,8 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
         # The temperature and charge-voltage rules of practice scale cycle *life*: clock convention.
         life = charge_voltage_life_factor(charge_voltage_v_per_cell, p["voltage_ref_v_per_cell"],
                                           p["voltage_doubling_step_v"])
-        temp = np.asarray(temp_c, dtype=float)
-        if _has_plating(p):
-            heat = arrhenius_factor(np.maximum(temp, p["plating_below_c"]),
-                                    p["activation_energy_j_mol"], p["temp_ref_c"])
-            # Waldmann et al. 2014 plot the ageing *rate*: the factor scales the rate here.
-            heat = heat * plating_factor(temp, charge_rate, **p)
-        else:
-            heat = arrhenius_factor(temp, p["activation_energy_j_mol"], p["temp_ref_c"])
+        # Waldmann et al. 2014 plot the ageing *rate*: here the factor scales the rate.
+        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
         directions = 2.0 if p["throughput_both_directions"] >= 0.5 else 1.0
         throughput_ah = n * depth * p["cell_capacity_ah"] * directions
         return (beta * c_term) ** 2 * throughput_ah * heat / life, 0.5
