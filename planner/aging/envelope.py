@@ -52,23 +52,24 @@ def extrapolation_notes(envelope, *, mean_temp_c, life_years=None, efc_per_year=
         return []
     notes = []
     low, high = envelope.calendar_temp_c
-    if not low <= mean_temp_c <= high:
-        notes.append(f"calendar fit spans {_range_text(envelope.calendar_temp_c, '°C')}; "
-                     f"this is {mean_temp_c:.1f} °C")
-    if life_years is not None and life_years > TEST_LENGTH_FACTOR * envelope.test_years:
-        shown = "beyond the horizon" if not math.isfinite(life_years) else f"{life_years:.1f} years"
-        notes.append(f"longest test behind the fit is {envelope.test_years:g} years; "
-                     f"this life is {shown} (more than {TEST_LENGTH_FACTOR:g} times)")
+    too_long = life_years is not None and life_years > TEST_LENGTH_FACTOR * envelope.test_years
+    if not low <= mean_temp_c <= high or too_long:
+        if life_years is None:
+            over = ""
+        elif math.isfinite(life_years):
+            over = f" over {life_years:.1f} years"
+        else:
+            over = " over more than the horizon"
+        notes.append(f"calendar fit spans {_range_text(envelope.calendar_temp_c, '°C')} and "
+                     f"{envelope.test_years:g} years; this is {mean_temp_c:.1f} °C{over}")
     if efc_per_year >= CYCLING_EFC_PER_YEAR:
         low, high = envelope.cycle_temp_c
-        if not low <= mean_temp_c <= high:
-            notes.append(f"cycle fit spans {_range_text(envelope.cycle_temp_c, '°C')}; "
-                         f"this is {mean_temp_c:.1f} °C")
-        if c_rate is not None:
-            low, high = envelope.c_rate
-            if not low - 1e-9 <= c_rate <= high + 1e-9:
-                notes.append(f"cycle fit spans {_range_text(envelope.c_rate, 'C')}; "
-                             f"this is {c_rate:.2g} C")
+        c_low, c_high = envelope.c_rate
+        rate_out = c_rate is not None and not c_low - 1e-9 <= c_rate <= c_high + 1e-9
+        if not low <= mean_temp_c <= high or rate_out:
+            rate = f" at {c_rate:.2g} C" if c_rate is not None else ""
+            notes.append(f"cycle fit spans {_range_text(envelope.cycle_temp_c, '°C')} at "
+                         f"{_range_text(envelope.c_rate, 'C')}; this is {mean_temp_c:.1f} °C{rate}")
     if soc_frac is not None:
         low, high = envelope.soc_frac
         if not low - 1e-9 <= soc_frac <= high + 1e-9:
