@@ -75,10 +75,13 @@ def plating_factor(temp_c, charge_c_rate, *, plating_below_c, plating_share_ref,
         Mean charge current as a C-rate.
     """
     temp = np.asarray(temp_c, dtype=float)
-    w = plating_share_ref * np.exp(plating_c_rate_beta * (np.asarray(charge_c_rate, dtype=float) - 1.0))
-    sei = arrhenius_factor(temp, plating_sei_activation_energy_j_mol, plating_below_c)
-    plating = arrhenius_factor(temp, -plating_activation_energy_j_mol, plating_below_c)
-    factor = ((1.0 - plating_share_ref) * sei + w * plating) / ((1.0 - plating_share_ref) + w)
+    share = plating_share_ref
+    w = share * np.exp(plating_c_rate_beta * (np.asarray(charge_c_rate, dtype=float) - 1.0))
+    # Both Arrhenius terms relative to T_x share x = 1/T - 1/T_x.
+    x = 1.0 / (temp + KELVIN_OFFSET) - 1.0 / (plating_below_c + KELVIN_OFFSET)
+    sei = np.exp(-plating_sei_activation_energy_j_mol / R_GAS_J_MOL_K * x)
+    plating = np.exp(plating_activation_energy_j_mol / R_GAS_J_MOL_K * x)
+    factor = ((1.0 - share) * sei + w * plating) / ((1.0 - share) + w)
     return np.where(temp < plating_below_c, factor, 1.0)
 
 
@@ -87,14 +90,23 @@ def temperature_factor_with_plating(temp_c, charge_c_rate, params):
 
     Above ``plating_below_c`` (or for a set without plating parameters) the set's own
     ``activation_energy_j_mol`` / ``temp_ref_c`` law; below it that law is held at the
-    crossover and the plating factor takes over.
+    crossover and the plating factor takes over. Runs once per counted cycle of every
+    lane, so each branch is evaluated on its own cycles only.
     """
     temp = np.asarray(temp_c, dtype=float)
+    ea, ref = params["activation_energy_j_mol"], params["temp_ref_c"]
     if "plating_below_c" not in params:
-        return arrhenius_factor(temp, params["activation_energy_j_mol"], params["temp_ref_c"])
-    held = arrhenius_factor(np.maximum(temp, params["plating_below_c"]),
-                            params["activation_energy_j_mol"], params["temp_ref_c"])
-    return held * plating_factor(temp, charge_c_rate, **params)
+        return arrhenius_factor(temp, ea, ref)
+    below = params["plating_below_c"]
+    if temp.ndim == 0:
+        return (arrhenius_factor(max(float(temp), below), ea, ref)
+                * plating_factor(temp, charge_c_rate, **params))
+    cold = temp < below
+    factor = np.empty_like(temp)
+    factor[~cold] = arrhenius_factor(temp[~cold], ea, ref)
+    rate = np.broadcast_to(np.asarray(charge_c_rate, dtype=float), temp.shape)[cold]
+    factor[cold] = float(arrhenius_factor(below, ea, ref)) * plating_factor(temp[cold], rate, **params)
+    return factor
 
 
 def naumann2020_coefficient(c_rate, doc_frac, *, a, b, doc_c, doc_d, **_):
