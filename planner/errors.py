@@ -22,3 +22,15 @@ class InfeasibleError(RuntimeError):
     def __init__(self, reasons: list[str]):
         self.reasons = list(reasons)
         super().__init__("; ".join(self.reasons) if self.reasons else "no feasible plan")
+
+
+class OutputError(OSError):
+    """An output could not be written (disk full, no permission, device error).
+
+    ``str(err)`` is the one-line message shown to the user; the command line exits with
+    its own code for it (see README). Earlier files of the same names are left untouched.
+    """
+
+    def __init__(self, message: str, *, source: str | None = None):
+        self.source = source
+        super().__init__(f"{source}: {message}" if source else message)

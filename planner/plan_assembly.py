@@ -24,6 +24,7 @@ from planner.designs import (
     max_service_years,
     worn_out_soh_frac,
 )
+from planner.energy.balance import charging_shortfall
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
@@ -119,6 +120,11 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
             "remaining_life_years": _finite(existing.life_years)}
+    shortfall = charging_shortfall(model.load_w, model.charge_w, charging=site.charging)
+    if shortfall is not None:
+        # The source, not the pack, limits this site: say it first, with the two numbers.
+        entry["warnings"].insert(0, shortfall.warning())
+        entry["limiting_cause"] = shortfall.cause()
     entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
                                           candidate.chemistry if candidate else None, existing)
     return entry

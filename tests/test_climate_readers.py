@@ -441,3 +441,13 @@ def test_csv_damaged_year_raises_only_input_error(tmp_path, drop, dup, unit, mar
             pass
         else:
             assert np.isfinite(year.temp_air_c).all() and not math.isnan(year.temp_air_c.mean())
+
+
+def test_fifo_climate_file_is_refused_before_reading(tmp_path):
+    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO as a climate file read without
+    # end; a node made here stands in for them (refused by type, never opened).
+    import os
+
+    os.mkfifo(tmp_path / "site.epw")
+    with pytest.raises(InputError, match=r"named pipe \(FIFO\), not a regular file"):
+        load_climate(str(tmp_path / "site.epw"))
