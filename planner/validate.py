@@ -329,11 +329,12 @@ def main(argv=None) -> int:
     parser.add_argument("--out", default="docs/validation.md",
                         help="Markdown report to write (default docs/validation.md).")
     args = parser.parse_args(argv)
-    from planner.fileio import write_text_atomic
+    from planner.fileio import write_atomically
 
     rows = run_validation()
     text = render_markdown(rows)
-    write_text_atomic(Path(args.out), text, what="validation report")
+    write_atomically(Path(args.out), lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                     what="validation report")
     failed = [row.point.key for row in rows if not row.passed]
     print(f"{len(rows)} points, {len(rows) - len(failed)} pass, {len(failed)} fail; wrote {args.out}")
     for key in failed:
