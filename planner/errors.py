@@ -8,12 +8,18 @@ line turns it into that line on stderr and exit code 2, with no traceback unless
 """
 
 
+def one_line(text: str) -> str:
+    """``text`` with its line breaks written as ``\\n``: a message quoting a user's cell
+    (a CSV field may hold a quoted newline) stays one line on the terminal."""
+    return text.replace("\r\n", "\\n").replace("\n", "\\n").replace("\r", "\\r")
+
+
 class InputError(ValueError):
     """Bad user input. ``str(err)`` is the one-line message shown to the user."""
 
     def __init__(self, message: str, *, source: str | None = None):
         self.source = source
-        super().__init__(f"{source}: {message}" if source else message)
+        super().__init__(one_line(f"{source}: {message}" if source else message))
 
 
 class InfeasibleError(RuntimeError):
@@ -33,4 +39,4 @@ class OutputError(OSError):
 
     def __init__(self, message: str, *, source: str | None = None):
         self.source = source
-        super().__init__(f"{source}: {message}" if source else message)
+        super().__init__(one_line(f"{source}: {message}" if source else message))

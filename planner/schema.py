@@ -99,6 +99,10 @@ CANDIDATES = (
       doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
     F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
       doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("lead_acid_temperature_factor", "str", "datasheet", choices=("datasheet", "ieee485"),
+      doc="VRLA cold correction in the 1x size: the chemistry's low-rate datasheet curve "
+          "(about 1.18 at 0 °C; telemetry packs discharge over days) or IEEE 485 Table 1 "
+          "(about 1.40 at 0 °C, written for 1-8 h rates; more conservative)."),
 )
 
 COSTS = (
@@ -154,10 +158,19 @@ OUTPUT = (
     F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
 )
 
+# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
+# electronics, so a cap applies (chemistries.toml holds the default with its source).
+SERVICE_LIFE = tuple(
+    F(chem_id, "float", None, "years", 1.0, 60.0,
+      doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
+          "blank = the chemistry library's value (`planner life --list`).")
+    for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
+
 SECTIONS = {
     "study": STUDY,
     "candidates": CANDIDATES,
     "costs": COSTS,
+    "service_life": SERVICE_LIFE,
     "limits": LIMITS,
     "solver": SOLVER,
     "output": OUTPUT,

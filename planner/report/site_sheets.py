@@ -68,6 +68,7 @@ def _site_columns(fmt) -> list[Column]:
         Column("Life P50 [years]", field_of("life_p50_years"), styles.ONE_DECIMAL, optional=True),
         Column("Life P90 [years]", field_of("life_p90_years"), styles.ONE_DECIMAL, optional=True),
         Column("Limiting cause", field_of("limiting_cause"), optional=True),
+        Column("Life extrapolated", _extrapolated_text, optional=True),
         Column("Unserved load [Wh/year]", field_of("unserved_wh_per_year"), styles.ONE_DECIMAL),
         Column("Equivalent full cycles [1/year]", field_of("equivalent_full_cycles_per_year"), styles.ONE_DECIMAL),
         Column(f"Present cost [{cur}]", field_of("present_cost"), money),
@@ -81,6 +82,13 @@ def _site_columns(fmt) -> list[Column]:
         Column("Risk before the next visit [%]", field_of("risk_before_next_visit_frac"), styles.PERCENT,
                optional=True),
     ]
+
+
+def _extrapolated_text(site):
+    """'yes: why' when the life leans on an aging law outside its fitted envelope."""
+    if "life_extrapolated" not in site:
+        return None
+    return f"yes: {site.get('life_extrapolation_note', '')}" if site["life_extrapolated"] else "no"
 
 
 def sites_sheet(ws, plan, fmt) -> None:
@@ -151,7 +159,8 @@ def fade_sheet(ws, plan) -> None:
             y_floor = min(y_floor, min(finite, default=1.0))
             col += 1
         anchor = f"{get_column_letter(1 + (index % 2) * CHART_COLS)}{3 + (index // 2) * CHART_ROWS}"
-        charts.soh_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}", x_values=x_ref,
+        mark = " (life extrapolated)" if site.get("life_extrapolated") else ""
+        charts.soh_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}{mark}", x_values=x_ref,
                          series=refs, anchor=anchor, horizon_years=(n_months - 1) / 12.0,
                          y_min=max(0.0, np.floor(y_floor * 10) / 10 - 0.1))
         y_floor = 1.0

@@ -52,6 +52,8 @@ def _facts(plan, fmt) -> list[tuple[str, object, str | None]]:
         ("Plan status", plan_status_text(plan), None),
         ("Sites planned", len(sites), styles.INTEGER),
         ("Sites no design can serve", len(unserved), styles.INTEGER),
+        ("Sites whose life the service-life limit decides", plan.get("service_life_limited_sites"),
+         styles.INTEGER),
         ("Installed capacity of the chosen packs [kWh]", installed, styles.ONE_DECIMAL),
         ("Pack replacements over the horizon", replacements, styles.INTEGER),
         ("Crew trips over the horizon", trips, styles.INTEGER),
