@@ -79,9 +79,9 @@ def _facts_table(ws, plan, fmt, top: int) -> int:
         if number_format and isinstance(cell_value(value), float | int):
             cell.number_format = number_format
         elif isinstance(cell.value, str) and len(cell.value) > 20:
-            # a sentence (plan status): wrap it, label and value both read from the top
+            # a sentence (plan status): wrap it, label and value both read from the top; the
+            # row height is set once the column widths are final (_fit_sentences)
             cell.alignment = ws.cell(row=cell.row, column=1).alignment = styles.WRAP_TOP
-            ws.row_dimensions[cell.row].height = 15 * min(4, 1 + len(cell.value) // 20)
     ws.cell(row=top + 1, column=1).font = ws.cell(row=top + 1, column=2).font = styles.HEADER_FONT
     return end
 
@@ -226,6 +226,17 @@ def _safety(ws, plan, top: int) -> int:
     return top + 3
 
 
+def _fit_sentences(ws, first: int, last: int) -> None:
+    """Rows of the facts table whose value wraps get the height of their lines (LibreOffice
+    does not grow rows for wrapped text on load; about one character per width unit)."""
+    width = ws.column_dimensions["B"].width or 10
+    for row in range(first, last + 1):
+        value = ws.cell(row=row, column=2).value
+        if isinstance(value, str) and len(value) > 20:
+            lines = -(-int(len(value) * 1.1) // max(int(width) - 1, 1))
+            ws.row_dimensions[row].height = 15 * min(max(lines, 1), 4)
+
+
 def summary_sheet(ws, plan, fmt) -> None:
     study = mapping_of(plan.get("study"))
     cur = fmt["cur"]
@@ -243,5 +254,6 @@ def summary_sheet(ws, plan, fmt) -> None:
     row = _top_sites(ws, plan, fmt, row) + 2
     row = _unserved(ws, plan, row) + 2
     last = _safety(ws, plan, row)
+    _fit_sentences(ws, 5, facts_end)
     ws.freeze_panes = "A3"
     styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(ws.max_column)}{last}")
