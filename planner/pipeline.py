@@ -117,7 +117,8 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
             progress(step, label=label)
 
     sensitivity_on = study.settings["output"]["sensitivity"]
-    with Workers(workers, log) as pool:
+    # A study of one piece gains nothing from starting processes (the plan is the same).
+    with Workers(min(workers, len(site_chunks(study))), log) as pool:
         advance(0, "Sites and candidate packs")
         with log.stage("sites and designs"):
             summaries, designs = _join(pool.map(

@@ -13,6 +13,7 @@ import math
 import numpy as np
 
 from planner import __version__
+from planner.aging.envelope import extrapolation_notes
 from planner.chemistry import get_chemistry
 from planner.costing import pack_price
 from planner.designs import (
@@ -26,9 +27,12 @@ from planner.designs import (
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
+from planner.plan_comparison import comparison_rows
 from planner.scenario import Study
 from planner.site_model import SiteModel
+from planner.spending import spending_by_year
 from planner.thermal import get_enclosure
+from planner.visit_risk import risk_before_next_visit
 
 
 
@@ -51,7 +55,7 @@ def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=No
     return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
 
 
-def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison) -> dict:
+def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison, options) -> dict:
     site = model.site
     horizon = study.settings["study"]["horizon_years"]
     candidate = plan.candidate if plan is not None else None
@@ -73,6 +77,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
         "warnings": list(model.warnings),
+        **risk_before_next_visit(plan, options, horizon),
     }
     if shown is not None:
         d = shown.design
@@ -107,12 +112,22 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
                                                  existing_curve)
             entry["soh_p90_by_month"] = sawtooth(horizon, replacements, chosen.soh_p90_monthly,
                                                  existing_curve)
+        notes = _extrapolation(model, shown)
+        entry["life_extrapolated"] = bool(notes)
+        entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
+        if notes:
+            entry["warnings"].append("life leans on extrapolated aging laws: " + "; ".join(notes))
     if existing is not None:
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
             "remaining_life_years": _finite(existing.life_years)}
+    shortfall = model.charging_shortfall
+    if shortfall is not None:
+        # The source, not the pack, limits this site: say it first, with the two numbers.
+        entry["warnings"].insert(0, shortfall.warning())
+        entry["limiting_cause"] = shortfall.cause()
     entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
                                           candidate.chemistry if candidate else None, existing)
     return entry
@@ -173,6 +188,14 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
     if d.is_existing and outcome.life_years < 1.0:
         out.append("the pack installed today is at or near the end of its life")
     return out
+
+
+def _extrapolation(model: SiteModel, outcome: Outcome) -> list[str]:
+    """Where the predicted life leaves the envelope the default aging set was fitted on."""
+    chem = get_chemistry(outcome.design.chemistry)
+    return extrapolation_notes(chem.aging.envelope,
+                               mean_temp_c=float(model.temperatures.battery_mean_c),
+                               life_years=outcome.life_years, efc_per_year=outcome.efc_per_year)
 
 
 def _finite(value):
@@ -246,10 +269,11 @@ def _design_rule_rows(study: Study) -> list[dict]:
         rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
                      "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
                      "source": "catalogue ladders of cells and monoblocs (common practice)"})
+        override = study.settings.get("service_life", {}).get(chem_id)
         rows.append({"group": "design rules", "name": f"service-life limit {chem_id}",
-                     "value": max_service_years(chem_id), "unit": "years",
-                     "source": "design life of stationary products (common practice; VRLA: Eurobat "
-                               "10-12 year class, from memory)"})
+                     "value": max_service_years(chem_id, override), "unit": "years",
+                     "source": "study file [service_life]" if override is not None
+                     else get_chemistry(chem_id).sources["service_life_years"]})
     rows.append({"group": "design rules", "name": "primary cells up to", "value":
                  PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
                  "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 0.1 W"})
@@ -282,13 +306,16 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
     from planner.report.cautions import STANDARD_CAUTIONS
 
     plans = {p.site_id: p for p in solution.sites}
-    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison)
+    options = {o.site_id: o for o in problem.sites}
+    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison, options[m.site.id])
              for m, d in zip(models, designs)]
     s = study.settings["study"]
+    spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
     return {
         "schema_version": 1,
         "study": {"name": study.name, "currency": s["currency"], "horizon_years": s["horizon_years"],
                   "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
+                  "inflation_frac": s["inflation_frac"],
                   "sites_file": study.sites_path.name, "planner_version": __version__},
         "total_present_cost": solution.objective,
         "solver": {"name": solution.solver_name, "status": solution.status,
@@ -296,15 +323,17 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                    "objective": solution.objective, "best_bound": solution.best_bound,
                    "decomposition": solution.decomposition},
         "sites": sites,
+        "service_life_limited_sites": sum(
+            1 for site in sites if site.get("limiting_cause") == "service-life limit"),
         "trips": [{"region": t.region, "year": t.year, "month": t.month,
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
                    "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
                   for t in solution.trips],
-        "chemistry_comparison": [
-            {"chemistry": r.chemistry, "total_present_cost": r.total_present_cost,
-             "total_with_others_present_cost": r.total_with_others_present_cost,
-             "status": r.status, "sites_served": r.sites_served,
-             "sites_unserved": [u.site_id for u in r.unserved]} for r in comparison],
+        "spending_by_year": spending_by_year(problem, solution, **spend),
+        "spending_by_region": [
+            {"region": region, "rows": spending_by_year(problem, solution, regions=[region], **spend)}
+            for region in sorted({o.region for o in problem.sites})],
+        "chemistry_comparison": comparison_rows(solution, comparison),
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
                          "change_frac": c.change_frac, "designs_changed": c.designs_changed,
                          "status": c.status} for c in cases],

@@ -17,6 +17,7 @@ import numpy as np
 
 from planner.climate import ClimateWarning, TypicalYear, load_climate
 from planner.climate.summary import TemperatureSummary, summarize_temperatures
+from planner.energy.balance import ChargingShortfall, charging_shortfall
 from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_csv
 from planner.energy.mains import float_charge_power_w, mains_available
 from planner.energy.pv import pv_dc_power_w
@@ -53,9 +54,15 @@ class SiteModel:
     def heater_on(self) -> np.ndarray:
         return self.heater_power_w > 0
 
+    @property
+    def charging_shortfall(self) -> ChargingShortfall | None:
+        """The period in which the charging source yields less than the load, or None."""
+        return charging_shortfall(self.load_w, self.charge_w, charging=self.site.charging)
+
     def summary(self) -> SiteSummary:
         """What the later stages read of this site, without its hourly arrays."""
         return SiteSummary(site=self.site, temperatures=self.temperatures,
+                           charging_shortfall=self.charging_shortfall,
                            peak_load_w=self.peak_load_w, daily_load_wh=self.daily_load_wh,
                            design_temp_c=self.design_temp_c, access_months=self.access_months,
                            pv_tilt_deg=self.pv_tilt_deg, pv_azimuth_deg=self.pv_azimuth_deg,
@@ -69,6 +76,7 @@ class SiteSummary:
 
     site: Site
     temperatures: TemperatureSummary
+    charging_shortfall: ChargingShortfall | None
     peak_load_w: float
     daily_load_wh: float
     design_temp_c: float

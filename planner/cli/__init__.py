@@ -3,7 +3,9 @@
 Each command lives in its own module of this package and is imported only when
 used, so ``planner --help`` stays fast. Errors the user can fix are
 :class:`planner.errors.InputError`: one line on stderr, exit code 2, and a
-traceback only with ``--debug``.
+traceback only with ``--debug``. An output that cannot be written is
+:class:`planner.errors.OutputError` (exit code 4); Ctrl-C exits 130, SIGTERM 143 and
+SIGHUP 129, each after removing the temporary files of an unfinished write.
 """
 
 from __future__ import annotations
@@ -15,11 +17,14 @@ import traceback
 import click
 
 from planner import __version__
-from planner.errors import InputError
+from planner.cli.terminal import Stopped, console_warnings, printable, stop_on_signals
+from planner.errors import InputError, OutputError
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 EXIT_INFEASIBLE = 3
+EXIT_WRITE_FAILED = 4
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C (common practice)
 
 _COMMANDS = {
     "plan": ("planner.cli.plan", "plan_command"),
@@ -27,6 +32,30 @@ _COMMANDS = {
     "climate": ("planner.cli.climate", "climate_command"),
     "life": ("planner.cli.life", "life_command"),
 }
+
+
+def _set_root_flag(ctx, param, value):
+    """Record --quiet / --debug given after a sub-command on the root context."""
+    if value:
+        root = ctx.find_root()
+        root.ensure_object(dict)
+        root.obj[param.name] = True
+    return value
+
+
+#: Options accepted both before and after the sub-command (``planner --quiet plan X`` and
+#: ``planner plan X --quiet``): name -> help text.
+SHARED_FLAGS = {"quiet": "No progress bar and no summary on the console.",
+                "debug": "Show a traceback for errors."}
+
+
+def _with_shared_flags(command: click.Command) -> click.Command:
+    have = {p.name for p in command.params}
+    for name, text in SHARED_FLAGS.items():
+        if name not in have:
+            command.params.append(click.Option([f"--{name}"], is_flag=True, expose_value=False,
+                                               callback=_set_root_flag, help=text))
+    return command
 
 
 class _LazyGroup(click.Group):
@@ -37,22 +66,28 @@ class _LazyGroup(click.Group):
         if name not in _COMMANDS:
             return None
         module_name, attr = _COMMANDS[name]
-        return getattr(importlib.import_module(module_name), attr)
+        return _with_shared_flags(getattr(importlib.import_module(module_name), attr))
 
     def invoke(self, ctx):
         try:
             return super().invoke(ctx)
-        except InputError as err:
+        except (InputError, OutputError) as err:
             if ctx.obj and ctx.obj.get("debug"):
                 traceback.print_exc()
-            click.echo(f"error: {err}", err=True)
-            ctx.exit(EXIT_BAD_INPUT)
+            click.echo(f"error: {printable(err)}", err=True)
+            ctx.exit(EXIT_BAD_INPUT if isinstance(err, InputError) else EXIT_WRITE_FAILED)
+        except KeyboardInterrupt:
+            click.echo("interrupted; unfinished outputs were removed", err=True)
+            ctx.exit(EXIT_INTERRUPTED)
+        except Stopped as err:
+            click.echo(f"{err}; unfinished outputs were removed", err=True)
+            ctx.exit(err.exit_code)
 
 
 @click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, "--version", prog_name="planner")
-@click.option("--quiet", is_flag=True, help="No progress bar and no summary on the console.")
-@click.option("--debug", is_flag=True, help="Show a traceback for errors.")
+@click.option("--quiet", is_flag=True, help=SHARED_FLAGS["quiet"])
+@click.option("--debug", is_flag=True, help=SHARED_FLAGS["debug"])
 @click.pass_context
 def cli(ctx, quiet, debug):
     """Plan batteries for remote, unattended sites: chemistry, oversizing, charge
@@ -60,7 +95,7 @@ def cli(ctx, quiet, debug):
 
     \b
     Example:
-      planner plan scenarios/highmoor.toml
+      planner plan scenarios/quick.toml --quiet
     """
     ctx.ensure_object(dict)
     ctx.obj["quiet"] = quiet
@@ -69,7 +104,8 @@ def cli(ctx, quiet, debug):
 
 def main(argv=None):
     """Console entry point."""
-    return cli.main(args=argv, prog_name="planner")
+    with stop_on_signals(), console_warnings():
+        return cli.main(args=argv, prog_name="planner")
 
 
 def options(ctx: click.Context) -> dict:

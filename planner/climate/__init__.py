@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import functools
+import os
 from pathlib import Path
 
 import numpy as np
@@ -149,6 +150,12 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
         raise InputError(f"warming_k is {warming_k!r}; expected a number of kelvin between -20 and 20",
                          source="climate")
     name = source.strip()
+    if name in readers.DEPRECATED_IDS:
+        import warnings
+        new = readers.DEPRECATED_IDS[name]
+        warnings.warn(f"climate '{name}' is now called '{new}'; the old name is accepted in this "
+                      "release only, please use the new one", ClimateWarning, stacklevel=2)
+        name = new
     bundled = name in readers.PVLIB_FILES or name in archetypes.names()
     if bundled and options:
         raise InputError(f"options {sorted(options)} were given for the bundled climate "
@@ -162,7 +169,7 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
         path = Path(name)
         if not path.is_absolute():
             path = Path(base_dir or ".") / path
-        if not path.suffix and not path.exists():
+        if not path.suffix and not os.path.exists(path):
             import difflib
             known = [n for n, _ in list_bundled()]
             close = difflib.get_close_matches(name, known, n=1)
@@ -183,13 +190,12 @@ def _read_file_cached(path: Path, options: dict | None) -> TypicalYear:
     import hashlib
 
     from planner.climate import readers
+    from planner.fileio import read_input_bytes
 
-    try:
-        digest = hashlib.blake2b(path.read_bytes(), digest_size=16).hexdigest()
-        key = (str(path.resolve()), digest,
-               tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
-    except OSError:
-        return readers.read_climate_file(path, options=options)
+    data = read_input_bytes(path, what="an EPW, TMY3, TMY2 or CSV climate file")
+    digest = hashlib.blake2b(data, digest_size=16).hexdigest()
+    key = (str(path.resolve()), digest,
+           tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
     cached = _FILE_CACHE.get(key)
     if cached is None:
         cached = readers.read_climate_file(path, options=options)

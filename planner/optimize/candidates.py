@@ -43,7 +43,9 @@ def prune_dominated(cands: list[Candidate] | tuple[Candidate, ...]) -> list[Cand
     if len(cands) < 2:
         return cands
     n_ages = 1 + max((len(c.failure_prob_by_age or ()) for c in cands), default=0)
-    cost = np.array([[c.pack_cost, c.install_cost, c.disposal_cost, c.mass_kg, -c.life_years]
+    # pack price and days off air travel together (both are paid per pack and credited
+    # by the same residual fraction), so their sum is one count
+    cost = np.array([[c.pack_cost + c.downtime_cost, c.install_cost, c.disposal_cost, c.mass_kg, -c.life_years]
                      for c in cands], dtype=float)
     feats = np.hstack([cost, _risk_matrix(cands, n_ages)])
     # le[i, j]: i is no worse than j on every count; lt: strictly better on one

@@ -20,6 +20,9 @@ class Candidate:
 
     ``pack_cost`` is the purchase price including the fixed part, ``install_cost`` the
     installation labour and ``disposal_cost`` the cost of taking the pack out (per pack).
+    ``downtime_cost`` is the present value, at installation, of the pack's expected days
+    off air over its service; it is paid with the pack and its share beyond the horizon
+    is credited like the residual value.
     ``life_years`` is how long the pack can carry the site; a replacement is planned at
     or before it. ``failure_prob_by_age[i]`` is the probability that the pack can no
     longer carry the site before age ``i + 1`` years (cumulative), or None when life is
@@ -38,6 +41,7 @@ class Candidate:
     life_years: float
     failure_prob_by_age: tuple[float, ...] | None = None
     limiting_cause: str = ""
+    downtime_cost: float = 0.0
 
 
 @dataclass(frozen=True)

@@ -27,7 +27,7 @@ from planner import economics as ec
 from planner.optimize.candidates import whole_years
 from planner.optimize.problem import Candidate, SiteOptions
 
-COST_PARTS = ("packs", "labour", "trips", "disposal", "residual", "failure_risk")
+COST_PARTS = ("packs", "labour", "trips", "disposal", "residual", "failure_risk", "downtime")
 _EPS = 1e-9
 
 
@@ -108,6 +108,7 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     life = col("life_years")
     life_whole = np.array([whole_years(x) for x in life], dtype=np.int64)
     pack, labour, disposal, mass = col("pack_cost"), col("install_cost"), col("disposal_cost"), col("mass_kg")
+    downtime = col("downtime_cost")
     visit = np.array([s.site_visit_cost for s in sites], dtype=float)[pair_site] if n_pairs else np.zeros(0)
     risk_cum = _cum_discounted_pdf([c.failure_prob_by_age for c in pair_cand], h, rate)
 
@@ -123,14 +124,17 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     a_t2 = a_t1 + a_span
     is_term = a_t2 == h
     f1 = ec.spv(rate, a_t1)
+    # share of the last pack's price (and of its days off air) left at the horizon
+    left = (ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
+            if residual_value else np.zeros(p_idx.size))
     parts = {
         "packs": pack[p_idx] * f1,
         "labour": labour[p_idx] * f1,
         "trips": visit[p_idx] * f1,
         "disposal": np.where(is_term, 0.0, disposal[p_idx] * ec.spv(rate, a_t2)),
-        "residual": (-pack[p_idx] * ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
-                     if residual_value else np.zeros(p_idx.size)),
+        "residual": -pack[p_idx] * left,
         "failure_risk": c_fail[pair_site[p_idx]] * f1 * risk_cum[p_idx, a_span],
+        "downtime": downtime[p_idx] * (f1 - left),
     }
 
     # existing packs: taken out in year t (0..min(floor R, H-1)), then design k goes in
@@ -158,7 +162,7 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
         pair_site=pair_site, pair_cand=pair_cand,
         arc_pair=p_idx.astype(np.int64), arc_t1=a_t1.astype(np.int64), arc_t2=a_t2.astype(np.int64),
         arc_parts=parts, arc_cost=sum(parts.values()), arc_mass_kg=mass[p_idx],
-        arc_spend_t1=(pack + labour + visit)[p_idx],
+        arc_spend_t1=(pack + downtime + labour + visit)[p_idx],
         arc_spend_t2=np.where(is_term, 0.0, disposal[p_idx]),
         ex_site=ex[:, 0].astype(np.int64), ex_pair=ex[:, 1].astype(np.int64), ex_t=ex_t,
         ex_parts=ex_parts, ex_cost=sum(ex_parts.values()) if len(ex) else np.zeros(0),
