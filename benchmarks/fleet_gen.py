@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 
 CLIMATES = ("alpine", "hot-desert", "humid-continental", "mediterranean", "temperate-maritime",
-            "subarctic-continental", "pvlib-greensboro", "tropical-humid")
+            "subarctic-continental", "tmy3-greensboro-nc", "tropical-humid")
 COLD = ("alpine", "subarctic-continental")
 ENCLOSURES = ("cabinet-sun", "cabinet-shade", "vault", "shelter", "cabinet-sun+heater")
 COLUMNS = ("id", "region", "climate", "enclosure", "load_w", "burst_w", "burst_s",

@@ -45,7 +45,7 @@ def no_planning(monkeypatch):
     """Count planning runs and answer with a synthetic plan."""
     calls = []
 
-    def fake_run(study, progress=None):
+    def fake_run(study, progress=None, **_options):  # workers, log
         calls.append(study)
         return synthetic_plan(3)
 
@@ -202,7 +202,7 @@ def test_console_summary_of_an_infeasible_plan_has_no_nan(study_dir, monkeypatch
     plan["total_present_cost"] = None
     plan["solver"].update(status="infeasible", gap_frac=None)
     plan["study"]["name"] = "net\x00work\x07"
-    monkeypatch.setattr(planner.pipeline, "run_study", lambda study, progress=None: plan)
+    monkeypatch.setattr(planner.pipeline, "run_study", lambda study, progress=None, **_options: plan)
     result = run(study_dir, "quick.toml", "--out", "p.xlsx")
     assert "total present cost: none (no feasible plan)" in result.output
     assert "nan" not in result.output and "\x00" not in result.output and "\x07" not in result.output
