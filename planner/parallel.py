@@ -19,6 +19,7 @@ import copyreg
 import multiprocessing
 import os
 import resource
+import signal
 import sys
 import time
 import types
@@ -54,6 +55,9 @@ def _peak_rss_bytes() -> int:
 
 
 def _init_worker():
+    # Ctrl-C reaches the whole process group: the planner's own process answers it and
+    # ends the workers, which would otherwise each print a traceback.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
     try:
         import numba
 
@@ -122,13 +126,19 @@ class Workers:
     def __enter__(self):
         return self
 
-    def __exit__(self, *exc):
-        self.close()
+    def __exit__(self, exc_type, *exc):
+        self.close(abandon=exc_type is not None)
         return False
 
-    def close(self):
+    def close(self, abandon: bool = False):
+        """Stop the workers; ``abandon`` (an error or an interrupt) ends their running
+        pieces at once instead of waiting for them."""
         if self._pool is not None:
-            self._pool.shutdown(wait=True, cancel_futures=True)
+            if abandon:
+                # the pool's own processes, started by this object (no public API for it)
+                for process in list(getattr(self._pool, "_processes", {}).values()):
+                    process.terminate()
+            self._pool.shutdown(wait=not abandon, cancel_futures=True)
             self._pool = None
             for k, v in self._saved_env.items():
                 if v is None:
