@@ -136,17 +136,14 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
         limit = 0.5 * study.settings["solver"]["time_limit_s"]
         chems = list(study.settings["candidates"]["chemistries"])
         resolve = same_method(problem, solution)
-        with log.stage("comparison and sensitivity solves"):
-            compare_handle = pool.submit(partial(compare_chemistry, resolve, base=solution,
-                                                 time_limit_s=limit), chems)
-            cases_handle = pool.submit(_solve, sensitivity_problems(resolve, time_limit_s=limit)) \
-                if sensitivity_on else None
-            comparison = pool.gather(compare_handle)
-            cases = []
-            if cases_handle is not None:
-                cases = [compare_solutions(name, solution, sol)
-                         for name, sol in pool.gather(cases_handle)]
+        compare_handle = pool.submit(partial(compare_chemistry, resolve, base=solution,
+                                             time_limit_s=limit), chems)
+        cases_handle = pool.submit(_solve, sensitivity_problems(resolve, time_limit_s=limit)) \
+            if sensitivity_on else None
+        warm = None
         if sensitivity_on:
+            # The warming case's sites were queued first: the planner's process solves its
+            # fleet while the workers carry on with the re-solves queued behind them.
             with log.stage("warming sensitivity"):
                 step = lambda piece: advance(len(piece[0]), "Warming case")  # noqa: E731
                 if warm_handle is None:
@@ -154,6 +151,13 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                                               site_chunks(study, WARMING_SENSITIVITY_K))
                 warm_summaries, warm_designs = _join(pool.gather(warm_handle, progress=step))
                 warm = solve_fleet(build_problem(study, warm_summaries, warm_designs))
+        with log.stage("comparison and sensitivity solves"):
+            comparison = pool.gather(compare_handle)
+            cases = []
+            if cases_handle is not None:
+                cases = [compare_solutions(name, solution, sol)
+                         for name, sol in pool.gather(cases_handle)]
+            if warm is not None:
                 cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
     advance(1, "Writing the plan")
     with log.stage("plan assembly"):
