@@ -23,7 +23,7 @@ from planner.costing import build_problem, offered_outcomes, pack_price, standal
 from planner.designs import evaluate_fleet
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (
-    compare_chemistry, compare_solutions, same_method, sensitivity_problems,
+    compare_chemistry, compare_solutions, restrict_chemistry, same_method, sensitivity_problems,
 )
 from planner.parallel import StageLog, Workers
 from planner.plan_assembly import assemble_plan
@@ -136,8 +136,11 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
         limit = 0.5 * study.settings["solver"]["time_limit_s"]
         chems = list(study.settings["candidates"]["chemistries"])
         resolve = same_method(problem, solution)
-        compare_handle = pool.submit(partial(compare_chemistry, resolve, base=solution,
-                                             time_limit_s=limit), chems)
+        # Each comparison task gets its chemistry's problem only (sites that lack the
+        # chemistry keep their own candidates): the same answer from a smaller problem.
+        compare_handle = pool.submit(partial(_compare, base=solution, time_limit_s=limit),
+                                     [(chem, restrict_chemistry(resolve, chem, others_keep_all=True))
+                                      for chem in chems])
         cases_handle = pool.submit(_solve, sensitivity_problems(resolve, time_limit_s=limit)) \
             if sensitivity_on else None
         warm = None
@@ -164,6 +167,11 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
         plan = assemble_plan(study, summaries, designs, problem, solution, comparison, cases)
     advance(1, "Writing the plan")
     return plan
+
+
+def _compare(chem_problem, **options):
+    chemistry, problem = chem_problem
+    return compare_chemistry(problem, chemistry, **options)
 
 
 def _solve(named_problem):
