@@ -50,9 +50,10 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
     d = outcome.design
     costs = study.settings["costs"]
     life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
-    # Days off air are a cost of choosing this pack, carried with its purchase.
-    price = pack_price(study, d.chemistry, d.pack.capacity_wh) + downtime_present_cost(
-        study, model, outcome)
+    # Days off air are a cost of choosing this pack, carried with its purchase; they do
+    # not follow the market price trend.
+    downtime = downtime_present_cost(study, model, outcome)
+    price = pack_price(study, d.chemistry, d.pack.capacity_wh) + downtime
     return Candidate(
         design_id=d.design_id, chemistry=d.chemistry, oversize_factor=round(d.oversize_factor, 4),
         charge_voltage_v_per_cell=d.charge_voltage_v_per_cell, capacity_wh=d.pack.capacity_wh,
@@ -60,7 +61,8 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
         install_cost=costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"],
         disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"],
         life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=outcome.failure_prob_by_age,
-        limiting_cause=outcome.limiting_cause)
+        limiting_cause=outcome.limiting_cause, untrended_cost=downtime,
+        price_trend_frac_per_year=study.prices.get(d.chemistry, {}).get("price_trend_frac_per_year", 0.0))
 
 
 def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
@@ -114,4 +116,4 @@ def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesig
         annual_budget=limits["annual_budget"] or None,
         payload_kg_per_trip=limits["payload_kg_per_trip"] or None,
         time_limit_s=solver["time_limit_s"], gap_rel_frac=solver["gap_rel_frac"],
-        solver=solver["name"])
+        solver=solver["name"], design_changes=study.settings["candidates"]["design_changes"])

@@ -89,6 +89,9 @@ CANDIDATES = (
       doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
     F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
       doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("design_changes", "bool", True,
+      doc="A replacement may install any candidate design of the site (false: a site keeps "
+          "the design of its first new pack)."),
 )
 
 COSTS = (
@@ -114,6 +117,9 @@ PRICE = (
       doc="Pack price per nominal kWh; default the chemistry library's illustrative price."),
     F("fixed_price", "float", 0.0, "currency/pack", 0.0,
       doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
+    F("price_trend_frac_per_year", "float", 0.0, "1/year", -0.5, 0.5,
+      doc="Real yearly change of the pack price (-0.03: 3 % cheaper each year); a pack bought "
+          "in year t costs price x (1 + change)^t."),
 )
 
 REGION = (

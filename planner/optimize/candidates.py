@@ -2,7 +2,8 @@
 
 A candidate is dominated when another one at the same site costs no more on every count
 (pack, labour, disposal), lives at least as long, weighs no more and is never more
-likely to fail at any age. Dropping it cannot raise the optimum: in any plan the
+likely to fail at any age, under the same price trend and install window. Dropping it
+cannot raise the optimum: in any plan the
 dominating design can take its place at no extra cost (a longer life also keeps at least
 the same residual value share of a no-dearer pack; NIST HB 135 linear residual).
 """
@@ -43,11 +44,16 @@ def prune_dominated(cands: list[Candidate] | tuple[Candidate, ...]) -> list[Cand
     if len(cands) < 2:
         return cands
     n_ages = 1 + max((len(c.failure_prob_by_age or ()) for c in cands), default=0)
-    cost = np.array([[c.pack_cost, c.install_cost, c.disposal_cost, c.mass_kg, -c.life_years]
-                     for c in cands], dtype=float)
+    # the trended and untrended parts of the price apart: with one price trend, no dearer
+    # on both is no dearer in every year
+    cost = np.array([[c.pack_cost - c.untrended_cost, c.untrended_cost, c.install_cost, c.disposal_cost,
+                      c.mass_kg, -c.life_years] for c in cands], dtype=float)
     feats = np.hstack([cost, _risk_matrix(cands, n_ages)])
+    # only candidates of one price trend and one install window compare
+    key = [(c.price_trend_frac_per_year, c.first_install_year, c.last_install_year) for c in cands]
+    same = np.array([[a == b for b in key] for a in key], dtype=bool)
     # le[i, j]: i is no worse than j on every count; lt: strictly better on one
-    le = np.all(feats[:, None, :] <= feats[None, :, :] + _EPS, axis=2)
+    le = same & np.all(feats[:, None, :] <= feats[None, :, :] + _EPS, axis=2)
     lt = np.any(feats[:, None, :] < feats[None, :, :] - _EPS, axis=2)
     idx = np.arange(len(cands))
     tie_first = le & le.T & (idx[:, None] < idx[None, :])

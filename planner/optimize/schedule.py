@@ -1,6 +1,8 @@
 """A site's replacement schedule as a path through a small time graph.
 
-Nodes are (design, year): "a pack of this design goes in this year". An arc
+Nodes are (design, year): "a pack of this design goes in this year"; when a site may
+change its design at a replacement, a node is (site, year): "a new pack goes in this
+year", and every design's arcs leave and enter the same nodes. An arc
 ``(design, t1 -> t2)`` is one pack's service: bought and installed in year ``t1``, taken
 out (and disposed of) in year ``t2`` when the next pack goes in, with
 ``1 <= t2 - t1 <= floor(life)``; a terminal arc ``t2 = H`` carries the site to the horizon
@@ -35,7 +37,9 @@ _EPS = 1e-9
 class SiteGraphs:
     """Arcs of the time graphs of a list of sites (indices are local to the list).
 
-    ``pair_*`` describe (site, design) pairs; ``arc_*`` pack-service arcs (``arc_t2 == H``
+    ``pair_*`` describe (site, design) pairs; ``pair_node[p]`` is the node family of a
+    pair (the first pair of its site when designs may change at a replacement, else the
+    first pair of its site with the same design id); ``arc_*`` pack-service arcs (``arc_t2 == H``
     is terminal); ``ex_*`` the arcs of existing packs (``ex_pair == -1`` keeps the
     existing pack to the horizon, ``ex_t == H``). ``*_parts`` hold the present cost split
     into :data:`COST_PARTS` (site-visit cost under "trips"); ``*_cost`` is their sum.
@@ -48,6 +52,7 @@ class SiteGraphs:
     failure_cost: np.ndarray
     pair_site: np.ndarray
     pair_cand: list[Candidate]
+    pair_node: np.ndarray
     arc_pair: np.ndarray
     arc_t1: np.ndarray
     arc_t2: np.ndarray
@@ -93,13 +98,31 @@ def _cum_discounted_pdf(probs_list, n_ages: int, rate: float) -> np.ndarray:
     return out
 
 
+def _pair_nodes(cands: list[list[Candidate]], design_changes: bool) -> np.ndarray:
+    """Node family of each (site, design) pair: its site's first pair when designs may
+    change, else the first pair of the site with the same design id."""
+    out, base = [], 0
+    for cs in cands:  # per site, a few tens of candidates
+        first = {}
+        for k, c in enumerate(cs):
+            key = "" if design_changes else c.design_id
+            out.append(first.setdefault(key, base + k))
+        base += len(cs)
+    return np.array(out, dtype=np.int64)
+
+
 def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, horizon_years: int,
-                 rate: float, residual_value: bool = True) -> SiteGraphs:
-    """Arcs and their costs for every site of ``sites`` with its screened candidates."""
+                 rate: float, residual_value: bool = True, design_changes: bool = False) -> SiteGraphs:
+    """Arcs and their costs for every site of ``sites`` with its screened candidates.
+
+    A pack's purchase cost follows its price trend from the year it is bought
+    (:meth:`Candidate.pack_cost_in`); arcs start only in its install years.
+    """
     h = int(horizon_years)
     c_fail = np.array([failure_cost(s) for s in sites], dtype=float)
     pair_site = np.array([i for i, cs in enumerate(cands) for _ in cs], dtype=np.int64)
     pair_cand = [c for cs in cands for c in cs]
+    pair_node = _pair_nodes(cands, design_changes)
     n_pairs = len(pair_cand)
 
     def col(attr):
@@ -107,7 +130,12 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
 
     life = col("life_years")
     life_whole = np.array([whole_years(x) for x in life], dtype=np.int64)
-    pack, labour, disposal, mass = col("pack_cost"), col("install_cost"), col("disposal_cost"), col("mass_kg")
+    labour, disposal, mass = col("install_cost"), col("disposal_cost"), col("mass_kg")
+    trend, fixed = col("price_trend_frac_per_year"), col("untrended_cost")
+    trended = col("pack_cost") - fixed
+    first_t = np.array([c.first_install_year for c in pair_cand], dtype=np.int64)
+    last_t = np.array([h - 1 if c.last_install_year is None else c.last_install_year for c in pair_cand],
+                      dtype=np.int64)
     visit = np.array([s.site_visit_cost for s in sites], dtype=float)[pair_site] if n_pairs else np.zeros(0)
     risk_cum = _cum_discounted_pdf([c.failure_prob_by_age for c in pair_cand], h, rate)
 
@@ -118,17 +146,19 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     t2 = t1 + span
     inner = (span <= life_whole[:, None, None]) & (t2 <= h - 1)
     terminal = (t2 == h) & (span <= life[:, None, None] + _EPS)
-    p_idx, a_t1, span_i = np.nonzero(inner | terminal)
+    window = (t1 >= first_t[:, None, None]) & (t1 <= last_t[:, None, None])
+    p_idx, a_t1, span_i = np.nonzero((inner | terminal) & window)
     a_span = span_i + 1
     a_t2 = a_t1 + a_span
     is_term = a_t2 == h
     f1 = ec.spv(rate, a_t1)
+    pack = trended[p_idx] * (1.0 + trend[p_idx]) ** a_t1 + fixed[p_idx]  # bought in year t1
     parts = {
-        "packs": pack[p_idx] * f1,
+        "packs": pack * f1,
         "labour": labour[p_idx] * f1,
         "trips": visit[p_idx] * f1,
         "disposal": np.where(is_term, 0.0, disposal[p_idx] * ec.spv(rate, a_t2)),
-        "residual": (-pack[p_idx] * ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
+        "residual": (-pack * ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
                      if residual_value else np.zeros(p_idx.size)),
         "failure_risk": c_fail[pair_site[p_idx]] * f1 * risk_cum[p_idx, a_span],
     }
@@ -141,7 +171,7 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
         r = max(0.0, float(s.existing.remaining_life_years))
         last = min(whole_years(r), h - 1)
         cum = _cum_discounted_pdf([s.existing.failure_prob_by_age], h, rate)[0]
-        for p in np.nonzero(pair_site == i)[0]:
+        for p in np.unique(pair_node[pair_site == i]):  # one start per node family
             for t in range(last + 1):
                 ex_rows.append((i, p, t, s.existing.disposal_cost, c_fail[i] * cum[t]))
         if r >= h - _EPS:
@@ -155,10 +185,10 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
 
     return SiteGraphs(
         horizon_years=h, sites=list(sites), failure_cost=c_fail,
-        pair_site=pair_site, pair_cand=pair_cand,
+        pair_site=pair_site, pair_cand=pair_cand, pair_node=pair_node,
         arc_pair=p_idx.astype(np.int64), arc_t1=a_t1.astype(np.int64), arc_t2=a_t2.astype(np.int64),
         arc_parts=parts, arc_cost=sum(parts.values()), arc_mass_kg=mass[p_idx],
-        arc_spend_t1=(pack + labour + visit)[p_idx],
+        arc_spend_t1=pack + (labour + visit)[p_idx],
         arc_spend_t2=np.where(is_term, 0.0, disposal[p_idx]),
         ex_site=ex[:, 0].astype(np.int64), ex_pair=ex[:, 1].astype(np.int64), ex_t=ex_t,
         ex_parts=ex_parts, ex_cost=sum(ex_parts.values()) if len(ex) else np.zeros(0),

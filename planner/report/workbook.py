@@ -428,15 +428,41 @@ def _fade_table_sheet(ws, plan, horizon_years) -> None:
 
 
 # ---------------------------------------------------------------- Visits
+def _installs(plan) -> dict:
+    """(site id, year) -> the new pack a visit installs (a ``replacements`` entry)."""
+    out = {}
+    for site in _sites(plan):
+        for rep in (r for r in _seq(site.get("replacements")) if isinstance(r, Mapping)):
+            out[(str(site.get("id")), rep.get("year"))] = rep
+    return out
+
+
+def _install_text(rep) -> str:
+    """What a visit installs, short: 'LFP 1.2 kWh + heater'."""
+    if not rep:
+        return ""
+    kwh = cell_value(rep.get("capacity_wh"))
+    text = str(rep.get("chemistry") or "").upper()
+    if isinstance(kwh, (int, float)):
+        text += f" {kwh / 1000.0:.2g} kWh"
+    measure = rep.get("thermal_measure")
+    if measure and measure != "none":
+        text += f" + {measure}"
+    return text
+
+
 def _visit_grid_sheet(ws, plan, horizon_years) -> None:
     sites = _sites(plan)
+    installs = _installs(plan)
     visits = {}
     for site in sites:
         years = _seq(site.get("replacement_years"))
         months = _seq(site.get("replacement_months"))
         for k, year in enumerate(years):
             month = months[k] if k < len(months) else None
-            visits[(str(site.get("id")), year)] = _month_text(month) or "visit"
+            what = _install_text(installs.get((str(site.get("id")), year)))
+            visits[(str(site.get("id")), year)] = " ".join(
+                x for x in (_month_text(month) or "visit", what) if x)
     for trip in (t for t in _seq(plan.get("trips")) if isinstance(t, Mapping)):
         for site_id in _seq(trip.get("site_ids")):
             visits.setdefault((str(site_id), trip.get("year")), _month_text(trip.get("month")) or "visit")
@@ -444,7 +470,7 @@ def _visit_grid_sheet(ws, plan, horizon_years) -> None:
             Column("Region", _key("region"), optional=True)]
     start = _start_year(plan)
     cols += [Column(f"Year {y}" + (f" ({start + y})" if start else ""),
-                    (lambda s, y=y: visits.get((str(s.get("id")), y))), width=7)
+                    (lambda s, y=y: visits.get((str(s.get("id")), y))), width=12)
              for y in range(horizon_years)]
     kept, last = _write_table(ws, 1, 1, cols, sites, drop_empty=True)
     cols_letter = get_column_letter(len(kept))
@@ -460,9 +486,17 @@ def _trip_sheet(ws, plan, fmt) -> None:
                    key=lambda t: (cell_value(t.get("year")) or 0, cell_value(t.get("month")) or 0,
                                   str(t.get("region"))))
 
+    installs = _installs(plan)
+
+    def installed(trip):
+        return [(str(i), installs.get((str(i), trip.get("year")))) for i in _seq(trip.get("site_ids"))]
+
     def lithium(trip):
-        chems = {chem_by_site.get(str(i)) for i in _seq(trip.get("site_ids"))}
+        chems = {(rep or {}).get("chemistry") or chem_by_site.get(i) for i, rep in installed(trip)}
         return "yes: UN 38.3 dangerous goods" if chems & LITHIUM_IDS else "no"
+
+    def installs_text(trip):
+        return "; ".join(f"{i}: {_install_text(rep)}" for i, rep in installed(trip) if rep) or None
 
     start = _start_year(plan)
     cols = [Column("Year", _key("year"), styles.INTEGER, width=7),
@@ -472,6 +506,7 @@ def _trip_sheet(ws, plan, fmt) -> None:
             Column("Region", _key("region")),
             Column("Sites visited", lambda t: len(_seq(t.get("site_ids"))), styles.INTEGER, width=9),
             Column("Site ids", _key("site_ids"), width=40),
+            Column("Installs", installs_text, optional=True, width=48),
             Column("Packs to carry", _key("pack_count"), styles.INTEGER, optional=True, width=9),
             Column("Pack mass [kg]", _key("pack_mass_kg"), styles.ONE_DECIMAL, optional=True, width=10),
             Column(f"Trip cost [{fmt['cur']}]", _key("cost"), fmt["money"], optional=True, width=14),
@@ -482,7 +517,7 @@ def _trip_sheet(ws, plan, fmt) -> None:
         if ws.cell(row=row, column=1).value != ws.cell(row=row - 1, column=1).value:
             for c in range(1, len(kept) + 1):
                 ws.cell(row=row, column=c).border = styles.YEAR_BORDER
-    ids_col = [i for i, c in enumerate(kept) if c.header == "Site ids"]
+    ids_col = [i for i, c in enumerate(kept) if c.header in ("Site ids", "Installs")]
     for i in ids_col:
         for row in range(2, last + 1):
             ws.cell(row=row, column=i + 1).alignment = styles.WRAP_TOP
