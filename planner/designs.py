@@ -233,7 +233,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
                                       float(volts), pack, reference))
     site = model.site
-    if site.has_existing_pack:
+    if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)
         pack = _pack(model, chem, site.existing_capacity_wh)
         age = float(study.settings["study"]["start_year"] - site.existing_installed_year)

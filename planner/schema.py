@@ -135,6 +135,27 @@ LIMITS = (
     F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, doc="0 means no limit."),
 )
 
+THERMAL = (
+    F("measures", "strs", ("insulated-box", "heater", "heater-box", "sun-shield", "vault"),
+      doc="Thermal measures a new installation may add where they can matter (heaters and the "
+          "box where the battery gets too cold to charge, shade, a vault and the box where it gets "
+          "hot); [\"none\"] switches them off. Ids: insulated-box, heater, heater-box, sun-shield, vault."),
+    F("heater_setpoint_c", "float", 5.0, "°C", -30.0, 30.0,
+      doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
+    F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,
+      doc="Electric power of an added heater pad, drawn from the battery hour by hour."),
+    F("heater_price", "float", 120.0, "currency", 0.0, doc="Heater pad with thermostat."),
+    F("heater_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit a heater."),
+    F("box_ua_w_k", "float", 1.0, "W/K", 0.05, 100.0,
+      doc="Conductance of the insulated battery box (in series with the enclosure's)."),
+    F("box_price", "float", 150.0, "currency", 0.0, doc="Insulated battery box."),
+    F("box_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit the box."),
+    F("shield_price", "float", 250.0, "currency", 0.0, doc="Sun shield or canopy over a cabinet."),
+    F("shield_labour_h", "float", 2.0, "h", 0.0, 200.0, doc="Crew hours to fit a sun shield."),
+    F("vault_price", "float", 2500.0, "currency", 0.0, doc="Buried vault for the battery, dug in."),
+    F("vault_labour_h", "float", 16.0, "h", 0.0, 500.0, doc="Crew hours to dig in and move to a vault."),
+)
+
 SOLVER = (
     F("name", "str", "auto", choices=("auto", "highs", "cbc"),
       doc="MILP solver: HiGHS where installed, CBC otherwise."),
@@ -155,6 +176,7 @@ SECTIONS = {
     "candidates": CANDIDATES,
     "costs": COSTS,
     "limits": LIMITS,
+    "thermal": THERMAL,
     "solver": SOLVER,
     "output": OUTPUT,
 }
@@ -194,6 +216,8 @@ SITE_COLUMNS = (
     F("access_months", "months", (), "month numbers", doc="Months the site can be reached; blank = its region's."),
     F("heater_setpoint_c", "float", None, "°C", -40.0, 40.0,
       doc="Battery heater thermostat; blank = no heater."),
+    F("thermal_measures", "str", "",
+      doc="Thermal measures this site may use, separated by ';' ('none': none); blank = [thermal].measures."),
     F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
       doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
     F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),

@@ -48,6 +48,7 @@ class SiteModel:
     pv_tilt_deg: float | None
     pv_azimuth_deg: float | None
     warnings: list[str] = field(default_factory=list)
+    thermal_measure: str = ""     # a thermal measure's variant of the site (planner.thermal_measures)
 
     @property
     def heater_on(self) -> np.ndarray:

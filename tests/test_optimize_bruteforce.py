@@ -23,11 +23,15 @@ def _segment_ok(span, life, terminal):
 def path_cost(years, packs, site, h, rate, residual=True):
     """Present cost of one schedule whose pack ``packs[i]`` goes in at ``years[i]``, priced
     pack by pack from NIST HB 135 cash flows (SPV, linear residual, failure risk), each
-    pack's price following its trend from the year it is bought. None if infeasible."""
+    pack's price following its trend from the year it is bought, and the thermal measure
+    of the first new pack paid once with it. None if infeasible."""
     ex = site.existing
     fail_cost = site.unplanned_trip_cost + site.downtime_cost_per_day * ec.expected_wait_days(site.access_months)
     ends = list(years[1:]) + [h]
-    total = 0.0
+    if len({c.thermal_measure for c in packs}) > 1:
+        return None  # a site keeps the thermal measure of its first new pack
+    first = packs[0]
+    total = (first.measure_price + first.measure_labour_cost) * float(ec.spv(rate, years[0]))
     for t1, t2, c in zip(years, ends, packs):
         if not c.first_install_year <= t1 <= (h - 1 if c.last_install_year is None else c.last_install_year):
             return None
@@ -55,7 +59,7 @@ def schedule_costs(site, h, rate, residual=True, design_changes=False):
     fail_cost = site.unplanned_trip_cost + site.downtime_cost_per_day * ec.expected_wait_days(site.access_months)
     n = len(site.candidates)
     trended = any(c.price_trend_frac_per_year or c.first_install_year or c.last_install_year is not None
-                  for c in site.candidates)
+                  or c.measure_price or c.measure_labour_cost for c in site.candidates)
     out = {}
     for r in range(1, h + 1):
         for years in itertools.combinations(range(h), r):

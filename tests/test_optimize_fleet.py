@@ -17,9 +17,11 @@ from test_optimize_bruteforce import fleet_best
 ALL_MONTHS = tuple(range(1, 13))
 
 
-def cand(design, life, pack, chem="lfp", install=0.0, disposal=0.0, mass=10.0, probs=None, trend=0.0):
+def cand(design, life, pack, chem="lfp", install=0.0, disposal=0.0, mass=10.0, probs=None, trend=0.0,
+         measure="", measure_price=0.0, measure_labour=0.0):
     return Candidate(design, chem, 1.0, 3.4, 1000.0, mass, pack, install, disposal, life, probs, "calendar",
-                     price_trend_frac_per_year=trend)
+                     price_trend_frac_per_year=trend, thermal_measure=measure, measure_price=measure_price,
+                     measure_labour_cost=measure_labour)
 
 
 def orp_site(i, life, pack, region="A"):
@@ -197,6 +199,8 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
     h = draw(st.integers(2, h_max))
     # one real price trend per chemistry (the study's [prices.<chem>] table)
     trend = {c: draw(st.sampled_from([0.0, 0.0, -0.03, -0.2, 0.05])) for c in chems}
+    # thermal measures: none, or a priced one paid once with the first new pack
+    measures = {"": (0.0, 0.0), "heater": (float(draw(st.integers(0, 800))), float(draw(st.integers(0, 200))))}
     n_regions = draw(st.integers(1, max_regions))
     sites = []
     for i in range(draw(st.integers(1, max_sites))):
@@ -212,9 +216,12 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
                     probs.append(acc)
                 probs = tuple(probs)
             chem = draw(st.sampled_from(chems))
-            cands.append(cand(f"d{i}{k}", draw(st.floats(1.0, 6.0)), float(draw(st.integers(100, 3000))),
+            measure = draw(st.sampled_from(sorted(measures)))
+            cands.append(cand(f"d{i}{k}{measure}", draw(st.floats(1.0, 6.0)), float(draw(st.integers(100, 3000))),
                               chem=chem, install=float(draw(st.integers(0, 300))),
-                              disposal=float(draw(st.integers(0, 200))), probs=probs, trend=trend[chem]))
+                              disposal=float(draw(st.integers(0, 200))), probs=probs, trend=trend[chem],
+                              measure=measure, measure_price=measures[measure][0],
+                              measure_labour=measures[measure][1]))
         existing = None
         if draw(st.booleans()):
             existing = ExistingPack(draw(st.floats(0.0, 7.0)), disposal_cost=float(draw(st.integers(0, 100))))

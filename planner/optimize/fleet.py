@@ -331,7 +331,9 @@ def _annual_spend(problem, plans, trips) -> np.ndarray:
             spend[t] += float(c.pack_cost_in(t)) + c.install_cost + s.site_visit_cost
             if j > 0:
                 spend[t] += p.installations[j - 1].disposal_cost
-            elif s.existing is not None:
+            else:
+                spend[t] += c.measure_price + c.measure_labour_cost  # thermal measure, once
+            if j == 0 and s.existing is not None:
                 spend[t] += s.existing.disposal_cost
     for tr in trips:
         spend[tr.year] += tr.cost

@@ -32,7 +32,9 @@ class Candidate:
     not follow the market, such as priced days off air). A candidate may go in only in
     years ``first_install_year`` .. ``last_install_year`` (None: to the end of the study),
     so a design sized for a grown load can be offered from the year it applies.
-    ``thermal_measure`` names the heat or cold measure installed with the pack ("" none).
+    ``thermal_measure`` names the heat or cold measure the pack is installed with ("" or
+    "none": none); its ``measure_price`` and ``measure_labour_cost`` are paid once, with
+    the site's first new pack, and a site keeps its measure to the end of the study.
     """
 
     design_id: str
@@ -52,6 +54,8 @@ class Candidate:
     first_install_year: int = 0
     last_install_year: int | None = None
     thermal_measure: str = ""
+    measure_price: float = 0.0
+    measure_labour_cost: float = 0.0
 
     def pack_cost_in(self, years):
         """Purchase cost of this pack bought in year(s) ``years`` (0 = start), real money."""

@@ -99,13 +99,14 @@ def _cum_discounted_pdf(probs_list, n_ages: int, rate: float) -> np.ndarray:
 
 
 def _pair_nodes(cands: list[list[Candidate]], design_changes: bool) -> np.ndarray:
-    """Node family of each (site, design) pair: its site's first pair when designs may
-    change, else the first pair of the site with the same design id."""
+    """Node family of each (site, design) pair: the first pair of its site with the same
+    thermal measure when designs may change (a site keeps its measure), else the first
+    pair of the site with the same design id."""
     out, base = [], 0
     for cs in cands:  # per site, a few tens of candidates
         first = {}
         for k, c in enumerate(cs):
-            key = "" if design_changes else c.design_id
+            key = c.thermal_measure if design_changes else c.design_id
             out.append(first.setdefault(key, base + k))
         base += len(cs)
     return np.array(out, dtype=np.int64)
@@ -139,6 +140,11 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     visit = np.array([s.site_visit_cost for s in sites], dtype=float)[pair_site] if n_pairs else np.zeros(0)
     risk_cum = _cum_discounted_pdf([c.failure_prob_by_age for c in pair_cand], h, rate)
 
+    # a thermal measure is paid once, with the site's first new pack: on the start arcs
+    # of a site without a pack in service, on the existing-pack arcs otherwise
+    m_price, m_labour = col("measure_price"), col("measure_labour_cost")
+    has_ex = np.array([s.existing is not None for s in sites], dtype=bool)
+
     # first year a new pack may go in: 0 without an existing pack; with one, any year up
     # to its remaining life (the existing arcs below connect to those nodes)
     t1 = np.arange(h)[None, :, None]
@@ -153,9 +159,12 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     is_term = a_t2 == h
     f1 = ec.spv(rate, a_t1)
     pack = trended[p_idx] * (1.0 + trend[p_idx]) ** a_t1 + fixed[p_idx]  # bought in year t1
+    starts = (a_t1 == 0) & ~has_ex[pair_site[p_idx]] if n_pairs else np.zeros(0, dtype=bool)
+    once_price = np.where(starts, m_price[p_idx], 0.0)
+    once_labour = np.where(starts, m_labour[p_idx], 0.0)
     parts = {
-        "packs": pack * f1,
-        "labour": labour[p_idx] * f1,
+        "packs": (pack + once_price) * f1,
+        "labour": (labour[p_idx] + once_labour) * f1,
         "trips": visit[p_idx] * f1,
         "disposal": np.where(is_term, 0.0, disposal[p_idx] * ec.spv(rate, a_t2)),
         "residual": (-pack * ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
@@ -173,26 +182,28 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
         cum = _cum_discounted_pdf([s.existing.failure_prob_by_age], h, rate)[0]
         for p in np.unique(pair_node[pair_site == i]):  # one start per node family
             for t in range(last + 1):
-                ex_rows.append((i, p, t, s.existing.disposal_cost, c_fail[i] * cum[t]))
+                ex_rows.append((i, p, t, s.existing.disposal_cost, c_fail[i] * cum[t], m_price[p], m_labour[p]))
         if r >= h - _EPS:
-            ex_rows.append((i, -1, h, 0.0, c_fail[i] * cum[h]))
-    ex = np.array(ex_rows, dtype=float).reshape(-1, 5)
+            ex_rows.append((i, -1, h, 0.0, c_fail[i] * cum[h], 0.0, 0.0))
+    ex = np.array(ex_rows, dtype=float).reshape(-1, 7)
     ex_t = ex[:, 2].astype(np.int64)
     ex_disp = np.where(ex_t < h, ex[:, 3], 0.0)
     ex_parts = {k: np.zeros(len(ex)) for k in COST_PARTS}
     ex_parts["disposal"] = ex_disp * ec.spv(rate, ex_t)
     ex_parts["failure_risk"] = ex[:, 4]
+    ex_parts["packs"] = ex[:, 5] * ec.spv(rate, ex_t)
+    ex_parts["labour"] = ex[:, 6] * ec.spv(rate, ex_t)
 
     return SiteGraphs(
         horizon_years=h, sites=list(sites), failure_cost=c_fail,
         pair_site=pair_site, pair_cand=pair_cand, pair_node=pair_node,
         arc_pair=p_idx.astype(np.int64), arc_t1=a_t1.astype(np.int64), arc_t2=a_t2.astype(np.int64),
         arc_parts=parts, arc_cost=sum(parts.values()), arc_mass_kg=mass[p_idx],
-        arc_spend_t1=pack + (labour + visit)[p_idx],
+        arc_spend_t1=pack + (labour + visit)[p_idx] + once_price + once_labour,
         arc_spend_t2=np.where(is_term, 0.0, disposal[p_idx]),
         ex_site=ex[:, 0].astype(np.int64), ex_pair=ex[:, 1].astype(np.int64), ex_t=ex_t,
         ex_parts=ex_parts, ex_cost=sum(ex_parts.values()) if len(ex) else np.zeros(0),
-        ex_spend=ex_disp,
+        ex_spend=ex_disp + ex[:, 5] + ex[:, 6],
     )
 
 

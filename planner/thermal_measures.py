@@ -1,0 +1,204 @@
+"""Thermal measures: what a new installation may add to keep its battery in range.
+
+A measure changes the battery's thermal world, not the pack: a heater pad with a
+thermostat (its energy drawn from the battery and the charging source hour by hour), an
+insulated battery box inside the cabinet (a small conductance in series with the
+cabinet's: a longer time constant and smaller daily swings), a sun shield over a
+sun-exposed cabinet, or moving the battery into a buried vault. Each measure is a
+*variant* of a site's model (its own battery temperature, heater power and load), so
+the energy balance, the aging and the cost of every design see it; the optimizer then
+chooses the pack and the measure together.
+
+The sites table's ``enclosure`` and ``heater_setpoint_c`` describe what is installed
+today: a setpoint given there forces the heater (the heater measures are then not
+offered, the others keep that heater). Measures are offered only where they can change
+a decision: heaters and the box where the battery gets colder than some chemistry of the
+study may be charged, shade, a vault and the box where it gets hot.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.chemistry import get_chemistry
+from planner.climate.summary import summarize_temperatures
+from planner.errors import InputError
+from planner.scenario import Study
+from planner.site_model import SiteModel
+from planner.thermal import battery_temperature_fleet, get_enclosure
+
+#: Above this 99th-percentile battery temperature a site counts as hot: lead-acid life
+#: halves for every 8-10 K above 25 °C (IEEE 1188 / vendor practice, from memory), and
+#: lithium-ion calendar fade roughly doubles per 10 K (Arrhenius, common practice).
+HOT_P99_C = 35.0
+#: A variant whose battery temperature moves less than this (1st and 99th percentile) is
+#: not offered: it cannot change a decision.
+MIN_EFFECT_K = 0.5
+#: Enclosure kinds that take each kind of measure (a shelter has its own HVAC).
+_CABINETS = ("cabinet-sun", "cabinet-shade")
+
+
+@dataclass(frozen=True)
+class Measure:
+    """One thermal measure: what it changes and what it costs (capital and crew hours)."""
+
+    id: str
+    description: str
+    helps: str                      # "cold", "hot" or "both"
+    fits: tuple[str, ...]           # enclosure kinds it can be added to
+    heater: bool = False
+    box: bool = False
+    enclosure: str | None = None    # replaces today's enclosure kind
+    price: float = 0.0
+    labour_h: float = 0.0
+
+
+def catalogue(study: Study) -> dict[str, Measure]:
+    """Every measure the study knows, priced from its ``[thermal]`` section."""
+    t = study.settings["thermal"]
+    return {m.id: m for m in (
+        Measure("insulated-box", "insulated battery box inside the enclosure", "both",
+                _CABINETS + ("vault",), box=True, price=t["box_price"], labour_h=t["box_labour_h"]),
+        Measure("heater", f"battery heater pad, {t['heater_power_w']:g} W, thermostat at "
+                          f"{t['heater_setpoint_c']:g} °C", "cold", _CABINETS + ("vault",), heater=True,
+                price=t["heater_price"], labour_h=t["heater_labour_h"]),
+        Measure("heater-box", "battery heater pad inside an insulated battery box", "cold",
+                _CABINETS + ("vault",), heater=True, box=True, price=t["heater_price"] + t["box_price"],
+                labour_h=t["heater_labour_h"] + t["box_labour_h"]),
+        Measure("sun-shield", "sun shield or canopy over the cabinet", "hot", ("cabinet-sun",),
+                enclosure="cabinet-shade", price=t["shield_price"], labour_h=t["shield_labour_h"]),
+        Measure("vault", "battery moved into a buried vault", "both", _CABINETS, enclosure="vault",
+                price=t["vault_price"], labour_h=t["vault_labour_h"]),
+    )}
+
+
+def _allowed_ids(study: Study, site) -> tuple[str, ...]:
+    """Measure ids a site may use: its ``thermal_measures`` column, else the study's list."""
+    known = catalogue(study)
+    text = str(site.thermal_measures or "").strip()
+    if text:
+        ids = tuple(x.strip() for x in text.replace(",", ";").split(";") if x.strip())
+        where = f"sites table row {site.row}, column thermal_measures"
+    else:
+        ids = tuple(study.settings["thermal"]["measures"])
+        where = "[thermal].measures"
+    if ids == ("none",):
+        return ()
+    for i in ids:
+        if i not in known:
+            raise InputError(f"{where}: unknown thermal measure {i!r}; expected 'none' or some of "
+                             f"{', '.join(known)}", source=study.path.name)
+    return ids
+
+
+def cold_limit_c(study: Study) -> float:
+    """Highest charging limit among the study's rechargeable chemistries: below it some
+    chemistry cannot be charged without help."""
+    limits = [get_chemistry(c).charge_temp_min_c for c in study.settings["candidates"]["chemistries"]
+              if get_chemistry(c).rechargeable]
+    return max(limits) if limits else -np.inf
+
+
+def can_matter(measure: Measure, model: SiteModel, cold_c: float) -> bool:
+    """A measure can change a decision at this site (cold, hot, its enclosure fits, and a
+    heater is not there already)."""
+    site = model.site
+    if site.enclosure not in measure.fits:
+        return False
+    if measure.heater and site.heater_setpoint_c is not None:
+        return False  # the site table forces its own heater
+    cold = model.design_temp_c < cold_c
+    hot = model.temperatures.battery_p99_c > HOT_P99_C
+    return {"cold": cold, "hot": hot, "both": cold or hot}[measure.helps]
+
+
+def offered_measures(study: Study, models: list[SiteModel]) -> list[tuple[int, Measure]]:
+    """(site index, measure) pairs worth evaluating: allowed and able to matter."""
+    known = catalogue(study)
+    cold_c = cold_limit_c(study)
+    out = []
+    for i, model in enumerate(models):
+        for mid in _allowed_ids(study, model.site):
+            if can_matter(known[mid], model, cold_c):
+                out.append((i, known[mid]))
+    return out
+
+
+def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int, Measure]],
+                   *, keep_all: bool = False) -> list[tuple[int, Measure, SiteModel]]:
+    """The site models with each measure applied (one vectorised enclosure run).
+
+    The variant keeps the site's load and charging; its battery temperature, heater
+    power (added to the load the battery carries) and temperature summary come from the
+    enclosure model with the measure. Variants that move the battery temperature less
+    than :data:`MIN_EFFECT_K` are dropped unless ``keep_all``.
+    """
+    if not pairs:
+        return []
+    t = study.settings["thermal"]
+    kinds, overrides, setpoints, internal, years = [], [], [], [], []
+    for i, m in pairs:
+        model = models[i]
+        site = model.site
+        kind = m.enclosure or site.enclosure
+        kinds.append(kind)
+        over = {}
+        if m.box:
+            # the box's conductance in series with the enclosure's (to air and to ground)
+            e = get_enclosure(kind)
+            scale = 1.0 / (1.0 + e.total_ua_w_k / t["box_ua_w_k"])
+            over = {"ua_w_k": e.ua_w_k * scale, "ground_ua_w_k": e.ground_ua_w_k * scale}
+        overrides.append(over or None)
+        sp = site.heater_setpoint_c if site.heater_setpoint_c is not None else (
+            t["heater_setpoint_c"] if m.heater else None)
+        setpoints.append(np.nan if sp is None else sp)
+        internal.append(site.load_w if site.electronics_heat_w is None else site.electronics_heat_w)
+        years.append(model.year)
+    thermal = battery_temperature_fleet(years, kinds, internal_heat_w=np.array(internal),
+                                        heater_setpoint_c=np.array(setpoints),
+                                        heater_power_w=t["heater_power_w"], overrides=overrides)
+    out = []
+    for j, (i, m) in enumerate(pairs):
+        variant = apply_thermal(models[i], m.id, thermal.temp_battery_c[:, j], thermal.heater_power_w[:, j],
+                                thermal.enclosures[j])
+        base, new = models[i].temperatures, variant.temperatures
+        moved = max(abs(new.battery_p1_c - base.battery_p1_c), abs(new.battery_p99_c - base.battery_p99_c),
+                    abs(new.battery_min_c - base.battery_min_c))
+        if keep_all or moved >= MIN_EFFECT_K:
+            out.append((i, m, variant))
+    return out
+
+
+def apply_thermal(model: SiteModel, measure_id: str, temp_battery_c, heater_power_w, enclosure) -> SiteModel:
+    """``model`` with another battery temperature and heater power (same load otherwise).
+
+    The heater's electric power is drawn from the battery hour by hour: it replaces the
+    old heater's share of the load the battery carries. The peak load keeps the old
+    bursts and adds the new heater's full power (an upper bound).
+    """
+    temp = np.asarray(temp_battery_c, dtype=float)
+    heater = np.asarray(heater_power_w, dtype=float)
+    load = model.load_w - model.heater_power_w + heater
+    heater_kwh = float(heater.sum()) / 1000.0
+    notes = [w for w in model.warnings if not w.startswith("battery heater")]
+    if heater_kwh > 0:
+        notes.append(f"with {measure_id}: the battery heater draws {heater_kwh:.1f} kWh a year from the battery")
+    return dataclasses.replace(
+        model, temp_battery_c=temp, heater_power_w=heater, enclosure=enclosure,
+        temperatures=summarize_temperatures(model.year.temp_air_c, temp), load_w=load,
+        peak_load_w=float(model.peak_load_w - np.max(model.heater_power_w) + np.max(heater)),
+        daily_load_wh=float(load.sum() / 365.0), design_temp_c=float(np.min(temp)),
+        warnings=notes, thermal_measure=measure_id)
+
+
+def measure_cost(study: Study, measure: Measure) -> tuple[float, float]:
+    """(capital, labour cost) of a measure, paid once with the first new pack."""
+    return float(measure.price), float(measure.labour_h * study.settings["costs"]["labour_rate_per_h"])
+
+
+def base_measure_id(model: SiteModel) -> str:
+    """What today's installation has: 'site-heater' when the sites table sets a heater."""
+    return "site-heater" if model.site.heater_setpoint_c is not None else "none"
