@@ -25,7 +25,7 @@ bounded by ``(8760, chunk)`` arrays whatever the fleet size.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -69,6 +69,7 @@ class Design:
     reference: ReferenceSize | None
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
+    thermal_measure: str = ""   # the thermal measure installed with it (planner.thermal_measures)
 
     @property
     def is_existing(self) -> bool:
@@ -78,7 +79,8 @@ class Design:
     def design_id(self) -> str:
         if self.is_existing:
             return f"existing-{self.chemistry}"
-        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v")
+        measure = f"+{self.thermal_measure}" if self.thermal_measure else ""
+        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v{measure}")
 
 
 # Skip the pack Monte Carlo when the nominal life is this many times the service limit.
@@ -119,6 +121,8 @@ class SiteDesigns:
     existing: Outcome | None
     excluded: dict[str, str]
     references: dict[str, ReferenceSize]
+    # thermal measure id -> the site's model with it, for designs evaluated with a measure
+    measure_models: dict = field(default_factory=dict)
 
 
 # ---------------------------------------------------------------- enumeration
@@ -231,7 +235,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                 if window_frac(chem, volts) <= 0:
                     continue
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
-                                      float(volts), pack, reference))
+                                      float(volts), pack, reference, thermal_measure=model.thermal_measure))
     site = model.site
     if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)

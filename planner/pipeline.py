@@ -11,13 +11,14 @@ its inputs.
 
 from __future__ import annotations
 
-from planner.costing import build_problem, pack_price
+from planner.costing import build_problem, offered_outcomes, pack_price
 from planner.designs import evaluate_fleet
 from planner.optimize import compare_chemistries, solve_fleet
 from planner.optimize.analysis import compare_solutions, sensitivity
 from planner.plan_assembly import assemble_plan
 from planner.scenario import Study
 from planner.site_model import model_sites
+from planner.thermal_measures import evaluate_with_measures
 
 WARMING_SENSITIVITY_K = 2.0
 
@@ -40,9 +41,9 @@ def run_study(study: Study, *, progress=None) -> dict:
     models = model_sites(study, progress=progress)
     if progress:
         progress(0, label="Aging candidate packs")
-    designs = _evaluate(study, models)
+    designs, hints = _evaluate_with_measures(study, models)
     advance("Optimising the fleet")
-    problem = build_problem(study, models, designs)
+    problem = build_problem(study, models, designs, hints)
     solution = solve_fleet(problem)
     advance("Comparing chemistries")
     # Every comparison and sensitivity case is a full solve: each gets half the main limit.
@@ -54,7 +55,7 @@ def run_study(study: Study, *, progress=None) -> dict:
     if study.settings["output"]["sensitivity"]:
         cases = sensitivity(problem, solution, time_limit_s=limit)
         warm_models = model_sites(study, extra_warming_k=WARMING_SENSITIVITY_K)
-        warm = solve_fleet(build_problem(study, warm_models, _evaluate(study, warm_models)))
+        warm = solve_fleet(build_problem(study, warm_models, _evaluate_with_measures(study, warm_models)[0]))
         cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
     advance("Writing the plan")
     return assemble_plan(study, models, designs, problem, solution, comparison, cases)
@@ -62,3 +63,10 @@ def run_study(study: Study, *, progress=None) -> dict:
 
 def _evaluate(study: Study, models):
     return evaluate_fleet(study, models, price_of=lambda chem, wh: pack_price(study, chem, wh))
+
+
+def _evaluate_with_measures(study: Study, models):
+    """Designs of every site, its thermal-measure variants included (and what measure
+    would serve a site nothing serves)."""
+    return evaluate_with_measures(study, models, lambda ms: _evaluate(study, ms),
+                                  lambda d: bool(offered_outcomes(d)))

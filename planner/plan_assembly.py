@@ -29,6 +29,7 @@ from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
 from planner.scenario import Study
 from planner.site_model import SiteModel
 from planner.thermal import get_enclosure
+from planner.thermal_measures import base_measure_id
 
 
 
@@ -61,6 +62,9 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
     chosen = _find(designs, candidate.design_id) if candidate else None
     existing = designs.existing
     shown = chosen or existing
+    measure = candidate.thermal_measure if candidate else base_measure_id(model)
+    # what the first new pack sees: the site with its thermal measure
+    model = designs.measure_models.get(measure, model)
     temps = model.temperatures.to_dict()
     entry = {
         "id": site.id, "name": site.name, "region": site.region, "climate": site.climate,
@@ -76,6 +80,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
         "warnings": list(model.warnings),
+        "thermal_measure": measure,
+        "heater_energy_wh_per_year": float(np.sum(model.heater_power_w)),
     }
     if shown is not None:
         d = shown.design
@@ -137,6 +143,8 @@ def _replacements(designs: SiteDesigns, plan) -> list[dict]:
             "charge_voltage_v": round(c.charge_voltage_v_per_cell * cells, 4) if cells else None,
             "pack_mass_kg": c.mass_kg, "life_years": _finite(c.life_years),
             "thermal_measure": c.thermal_measure or "none",
+            "thermal_measure_cost": (c.measure_price + c.measure_labour_cost) if year == plan.replacement_years[0]
+            else 0.0,
             "purchase_price": float(c.pack_cost_in(year)) - c.untrended_cost,
         })
     return out

@@ -136,10 +136,11 @@ LIMITS = (
 )
 
 THERMAL = (
-    F("measures", "strs", ("insulated-box", "heater", "heater-box", "sun-shield", "vault"),
+    F("measures", "strs", ("insulated-box", "heater-box", "sun-shield", "vault"),
       doc="Thermal measures a new installation may add where they can matter (heaters and the "
           "box where the battery gets too cold to charge, shade, a vault and the box where it gets "
-          "hot); [\"none\"] switches them off. Ids: insulated-box, heater, heater-box, sun-shield, vault."),
+          "hot); [\"none\"] switches them off. Ids: insulated-box, heater (a pad alone), heater-box, "
+          "sun-shield, vault."),
     F("heater_setpoint_c", "float", 5.0, "°C", -30.0, 30.0,
       doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
     F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,

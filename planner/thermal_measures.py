@@ -30,13 +30,16 @@ from planner.scenario import Study
 from planner.site_model import SiteModel
 from planner.thermal import battery_temperature_fleet, get_enclosure
 
-#: Above this 99th-percentile battery temperature a site counts as hot: lead-acid life
-#: halves for every 8-10 K above 25 °C (IEEE 1188 / vendor practice, from memory), and
-#: lithium-ion calendar fade roughly doubles per 10 K (Arrhenius, common practice).
-HOT_P99_C = 35.0
-#: A variant whose battery temperature moves less than this (1st and 99th percentile) is
-#: not offered: it cannot change a decision.
-MIN_EFFECT_K = 0.5
+#: A site counts as hot when its aging-effective battery temperature passes this: lead-acid
+#: life halves for every 8-10 K above 25 °C (IEEE 1188 / vendor practice, from memory) and
+#: lithium-ion calendar fade roughly doubles per 10 K (Arrhenius, common practice), so 5 K
+#: above 25 °C costs about a third of the life.
+HOT_EFFECTIVE_C = 30.0
+#: ... or when the battery spends any hour above this (the plan's heat warning).
+HOT_HOUR_C = 45.0
+#: A variant that moves neither the coldest battery hour nor the aging-effective
+#: temperature by this much is not offered: it cannot change a decision.
+MIN_EFFECT_K = 2.0
 #: Enclosure kinds that take each kind of measure (a shelter has its own HVAC).
 _CABINETS = ("cabinet-sun", "cabinet-shade")
 
@@ -111,7 +114,8 @@ def can_matter(measure: Measure, model: SiteModel, cold_c: float) -> bool:
     if measure.heater and site.heater_setpoint_c is not None:
         return False  # the site table forces its own heater
     cold = model.design_temp_c < cold_c
-    hot = model.temperatures.battery_p99_c > HOT_P99_C
+    t = model.temperatures
+    hot = t.effective_temp_c > HOT_EFFECTIVE_C or t.battery_max_c > HOT_HOUR_C
     return {"cold": cold, "hot": hot, "both": cold or hot}[measure.helps]
 
 
@@ -146,16 +150,21 @@ def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int,
         kind = m.enclosure or site.enclosure
         kinds.append(kind)
         over = {}
+        heat = site.load_w if site.electronics_heat_w is None else site.electronics_heat_w
         if m.box:
-            # the box's conductance in series with the enclosure's (to air and to ground)
+            # the box's conductance in series with the enclosure's (to air and to ground);
+            # sun on the shell keeps its sol-air drive (the gain scales with ua_w_k), and the
+            # electronics outside the box warm the enclosure air, not the battery: their heat
+            # reaches the battery node scaled by the same series ratio
             e = get_enclosure(kind)
             scale = 1.0 / (1.0 + e.total_ua_w_k / t["box_ua_w_k"])
             over = {"ua_w_k": e.ua_w_k * scale, "ground_ua_w_k": e.ground_ua_w_k * scale}
+            heat *= scale
         overrides.append(over or None)
         sp = site.heater_setpoint_c if site.heater_setpoint_c is not None else (
             t["heater_setpoint_c"] if m.heater else None)
         setpoints.append(np.nan if sp is None else sp)
-        internal.append(site.load_w if site.electronics_heat_w is None else site.electronics_heat_w)
+        internal.append(heat)
         years.append(model.year)
     thermal = battery_temperature_fleet(years, kinds, internal_heat_w=np.array(internal),
                                         heater_setpoint_c=np.array(setpoints),
@@ -165,8 +174,8 @@ def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int,
         variant = apply_thermal(models[i], m.id, thermal.temp_battery_c[:, j], thermal.heater_power_w[:, j],
                                 thermal.enclosures[j])
         base, new = models[i].temperatures, variant.temperatures
-        moved = max(abs(new.battery_p1_c - base.battery_p1_c), abs(new.battery_p99_c - base.battery_p99_c),
-                    abs(new.battery_min_c - base.battery_min_c))
+        moved = max(abs(new.battery_min_c - base.battery_min_c),
+                    abs(new.effective_temp_c - base.effective_temp_c))
         if keep_all or moved >= MIN_EFFECT_K:
             out.append((i, m, variant))
     return out
@@ -202,3 +211,55 @@ def measure_cost(study: Study, measure: Measure) -> tuple[float, float]:
 def base_measure_id(model: SiteModel) -> str:
     """What today's installation has: 'site-heater' when the sites table sets a heater."""
     return "site-heater" if model.site.heater_setpoint_c is not None else "none"
+
+
+def evaluate_with_measures(study: Study, models: list[SiteModel], evaluate, serves):
+    """Every site's designs with and without the thermal measures it may use.
+
+    ``evaluate(models) -> [SiteDesigns]`` runs the design stage; ``serves(site_designs)``
+    says whether any design can be offered. Returns ``(designs, hints)``: one
+    SiteDesigns per site whose outcomes include the designs of its measure variants
+    (``measure_models`` maps each measure to its variant model), and for every site no
+    design serves, a one-line hint naming the cheapest thermal measure that would serve
+    it (the whole catalogue is tried for those sites only) or saying none does.
+    """
+    variants = variant_models(study, models, offered_measures(study, models))
+    evaluated = evaluate(list(models) + [v for _, _, v in variants])
+    designs = [_merge(d, [(m, v, e) for (i, m, v), e in zip(variants, evaluated[len(models):]) if i == k])
+               for k, d in enumerate(evaluated[:len(models)])]
+    lost = [k for k, d in enumerate(designs) if not serves(d)]
+    hints = {}
+    if lost:
+        tried = {(i, m.id) for i, m, _ in variants}
+        known = catalogue(study)
+        pairs = [(k, m) for k in lost for m in known.values()
+                 if models[k].site.enclosure in m.fits and (k, m.id) not in tried
+                 and not (m.heater and models[k].site.heater_setpoint_c is not None)]
+        extra = variant_models(study, models, pairs, keep_all=True)
+        extra_designs = evaluate([v for _, _, v in extra]) if extra else []
+        for k in lost:
+            # the variants already merged in serve nothing here (else the site is served)
+            serving = [m for (i, m, _), d in zip(extra, extra_designs) if i == k and serves(d)]
+            hints[k] = _hint(study, serving)
+    return designs, hints
+
+
+def _merge(base, variants):
+    """``base`` SiteDesigns with the outcomes of its measure variants added."""
+    if not variants:
+        return base
+    outcomes = list(base.outcomes)
+    for _, _, d in variants:
+        outcomes += d.outcomes
+    return dataclasses.replace(base, outcomes=outcomes,
+                               measure_models={m.id: v for m, v, _ in variants})
+
+
+def _hint(study: Study, serving: list[Measure]) -> str:
+    currency = study.settings["study"]["currency"]
+    if not serving:
+        return "no thermal measure of the catalogue serves it either"
+    best = min(serving, key=lambda m: sum(measure_cost(study, m)))
+    price, labour = measure_cost(study, best)
+    return (f"the cheapest thermal measure that serves it is {best.id} ({best.description}): "
+            f"{price:,.0f} {currency} + {best.labour_h:g} h crew ({labour:,.0f} {currency})")
