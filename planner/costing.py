@@ -68,6 +68,8 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
         limiting_cause=outcome.limiting_cause, untrended_cost=downtime,
         thermal_measure=d.thermal_measure or base_measure_id(model), measure_price=measure_price,
         measure_labour_cost=measure_labour,
+        first_install_year=d.install_years[0] if d.install_years else 0,
+        last_install_year=d.install_years[1] if d.install_years else None,
         price_trend_frac_per_year=study.prices.get(d.chemistry, {}).get("price_trend_frac_per_year", 0.0))
 
 

@@ -70,6 +70,7 @@ class Design:
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
     thermal_measure: str = ""   # the thermal measure installed with it (planner.thermal_measures)
+    install_years: tuple[int, int] | None = None  # its load step's install window (planner.load_growth)
 
     @property
     def is_existing(self) -> bool:
@@ -80,7 +81,8 @@ class Design:
         if self.is_existing:
             return f"existing-{self.chemistry}"
         measure = f"+{self.thermal_measure}" if self.thermal_measure else ""
-        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v{measure}")
+        step = f"@y{self.install_years[0]}" if self.install_years and self.install_years[0] > 0 else ""
+        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v{measure}{step}")
 
 
 # Skip the pack Monte Carlo when the nominal life is this many times the service limit.

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from planner.costing import build_problem, offered_outcomes, pack_price
 from planner.designs import evaluate_fleet
+from planner.load_growth import evaluate_with_growth
 from planner.optimize import compare_chemistries, solve_fleet
 from planner.optimize.analysis import compare_solutions, sensitivity
 from planner.plan_assembly import assemble_plan
@@ -66,7 +67,8 @@ def _evaluate(study: Study, models):
 
 
 def _evaluate_with_measures(study: Study, models):
-    """Designs of every site, its thermal-measure variants included (and what measure
-    would serve a site nothing serves)."""
-    return evaluate_with_measures(study, models, lambda ms: _evaluate(study, ms),
+    """Designs of every site, its thermal-measure variants and load-growth steps included
+    (and what measure would serve a site nothing serves)."""
+    return evaluate_with_measures(study, models,
+                                  lambda ms: evaluate_with_growth(study, ms, lambda x: _evaluate(study, x)),
                                   lambda d: bool(offered_outcomes(d)))

@@ -89,6 +89,9 @@ CANDIDATES = (
       doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
     F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
       doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("load_growth_step_years", "int", 5, "years", 1, 30,
+      doc="With a site's load growth: the load is re-simulated in steps of this many years; a "
+          "pack installed in a step is designed for the load at the step's end."),
     F("design_changes", "bool", True,
       doc="A replacement may install any candidate design of the site (false: a site keeps "
           "the design of its first new pack)."),
@@ -211,6 +214,8 @@ SITE_COLUMNS = (
       doc="Months the array is taken as snow-covered (no PV); blank = none."),
     F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
     F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
+    F("load_growth_frac_per_year", "float", 0.0, "1/year", -0.2, 0.5,
+      doc="Yearly growth of the site's own load (0.05: 5 % a year); later packs are designed for it."),
     F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,
       doc="Days the pack must carry the load with no charging."),
     F("system_voltage_v", "float", 12.0, "V", 1.0, 60.0, doc="Nominal DC bus voltage."),
