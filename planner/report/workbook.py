@@ -244,7 +244,11 @@ def _summary_sheet(ws, plan, fmt) -> None:
         Column("Pack size [Wh]", _key("capacity_wh"), styles.INTEGER),
         Column("Capacity [Ah]", _key("capacity_ah"), styles.ONE_DECIMAL, optional=True),
         Column("Charge voltage [V]", _key("charge_voltage_v"), styles.TWO_DECIMALS),
+        Column("Thermal measure", _key("thermal_measure"), optional=True),
         Column("Replacement years", _key("replacement_years")),
+        Column("Later packs", lambda s: "; ".join(f"{r.get('year')}: {_install_text(r)}"
+                                                  for r in _seq(s.get("replacements"))[1:]
+                                                  if isinstance(r, Mapping)) or None, optional=True),
         Column("Life [years]", _key("life_years"), styles.ONE_DECIMAL),
         Column("Life P10 [years]", _key("life_p10_years"), styles.ONE_DECIMAL, optional=True),
         Column(f"Present cost [{cur}]", _key("present_cost"), fmt["money"]),
@@ -292,7 +296,12 @@ def _site_columns(fmt) -> list[Column]:
         Column("Capacity [Ah]", _key("capacity_ah"), styles.ONE_DECIMAL, optional=True),
         Column("Pack structure", _key("pack_structure"), optional=True),
         Column("Pack mass [kg]", _key("pack_mass_kg"), styles.ONE_DECIMAL, optional=True),
+        Column("Thermal measure", _key("thermal_measure"), optional=True),
+        Column("Heater energy [Wh/year]", _key("heater_energy_wh_per_year"), styles.INTEGER, optional=True),
         Column("Replacement years", _key("replacement_years")),
+        Column("Later packs", lambda s: "; ".join(f"{r.get('year')}: {_install_text(r)}"
+                                                  for r in _seq(s.get("replacements"))[1:]
+                                                  if isinstance(r, Mapping)) or None, optional=True),
         Column("Replacement months", lambda s: [_month_text(m) or m for m in _seq(s.get("replacement_months"))]
                or None, optional=True),
         Column("Life [years]", _key("life_years"), styles.ONE_DECIMAL),
