@@ -45,7 +45,7 @@ class Column:
 class Pricer:
     """Shortest paths with dual prices for every site of a :class:`SiteGraphs`."""
 
-    def __init__(self, g: SiteGraphs):
+    def __init__(self, g: SiteGraphs, single_design: bool = False):
         self.g = g
         h = g.horizon_years
         self.h = h
@@ -66,6 +66,33 @@ class Pricer:
         # node families shared by several designs (a site that may change design): the
         # best arc into a node is then the cheapest over its designs
         self.shared = bool(n_pairs) and np.unique(self.node).size < n_pairs
+        # existing-pack arcs that start each family's paths: (row of best, existing arc)
+        self.ex_rows, self.ex_arcs = g.ex_pair[self.ex_new], self.ex_new
+        self.single = None
+        if single_design:
+            # every design its own family (paths that keep one design: still paths of
+            # the shared graph); an existing arc into a family starts each of its designs
+            self.node = np.arange(n_pairs)
+            self.shared = False
+            order = np.argsort(g.ex_pair[self.ex_new], kind="stable")
+            fam = g.ex_pair[self.ex_new][order]
+            lo = np.searchsorted(fam, g.pair_node, side="left")
+            hi = np.searchsorted(fam, g.pair_node, side="right")
+            counts = hi - lo
+            self.ex_rows = np.repeat(np.arange(n_pairs), counts)
+            self.ex_arcs = self.ex_new[order][np.concatenate(
+                [np.arange(a, b) for a, b in zip(lo, hi)]) if counts.sum() else np.zeros(0, dtype=np.int64)]
+        elif self.shared:
+            # one-design paths as extra columns: pricing one path per site and round
+            # converges slowly; the best path of each design adds variety cheaply
+            self.single = Pricer(g, single_design=True)
+            # families laid out contiguously, so a family's cheapest design is a segment
+            # minimum (np.minimum.reduceat) instead of a sort per year
+            self.perm = np.argsort(self.node, kind="stable")
+            fam_sorted = self.node[self.perm]
+            self.seg_start = np.flatnonzero(np.r_[True, fam_sorted[1:] != fam_sorted[:-1]])
+            self.seg_fam = fam_sorted[self.seg_start]
+            self.seg_len = np.diff(np.r_[self.seg_start, n_pairs])
         self.new_nodes = np.unique(self.node[~self.has_ex[g.pair_site]])
 
     def values(self, arc_extra: np.ndarray, ex_extra: np.ndarray):
@@ -81,10 +108,10 @@ class Pricer:
         best = np.full((n, h + 1), np.inf)
         pred = np.full((n, h + 1), -1, dtype=np.int64)
         best[self.new_nodes, 0] = 0.0
-        if self.ex_new.size:
-            e = self.ex_new
-            best[g.ex_pair[e], g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
-            pred[g.ex_pair[e], g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
+        if self.ex_arcs.size:
+            e, r = self.ex_arcs, self.ex_rows
+            best[r, g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
+            pred[r, g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
         rows = np.arange(n)
         node = self.node
         for t2 in range(1, h + 1):  # years of the horizon (about 20), each step over all designs
@@ -94,12 +121,12 @@ class Pricer:
             v = cand[rows, j]
             arc = self.arc_id[rows, j, t2 - j - 1]
             if self.shared:
-                # cheapest design per node family (first pair on ties)
-                order = np.lexsort((rows, v, node))
-                first = np.ones(n, dtype=bool)
-                first[1:] = node[order[1:]] != node[order[:-1]]
-                win = order[first]
-                fam, v, arc = node[win], v[win], arc[win]
+                # cheapest design per node family (first pair in family order on ties)
+                vp = v[self.perm]
+                low = np.minimum.reduceat(vp, self.seg_start)
+                at = np.where(vp <= np.repeat(low, self.seg_len), np.arange(n), n)
+                win = self.perm[np.minimum.reduceat(at, self.seg_start)]
+                fam, v, arc = self.seg_fam, low, arc[win]
             else:
                 fam = rows
             better = v < best[fam, t2]
@@ -167,6 +194,9 @@ class Pricer:
                 continue
             taken[s_] += 1
             cols.append(self.column(int(p), s_))
+        if self.single is not None and per_site > 1:
+            _, more = self.single.price(arc_extra, ex_extra, sigma, per_site=per_site - 1, tol=tol)
+            cols += [c for c in more if c.pair >= 0]
         return site_val, cols
 
 
