@@ -96,7 +96,7 @@ def life_under_growth(soh_monthly, requirement_share: float, worn_out_soh_frac: 
 def evaluate_with_growth(study: Study, models: list[SiteModel], evaluate) -> list[SiteDesigns]:
     """Designs of every model, with one set per load step at sites whose load grows.
 
-    ``evaluate(models) -> [SiteDesigns]`` runs the design stage. Designs of a step carry
+    ``evaluate(study, models) -> [SiteDesigns]`` runs the design stage. Designs of a step carry
     its install window (``Design.install_years``; ids of later steps end in ``@y<first>``)
     and a life shortened by the growth after it. A site without growth is evaluated as
     it is.
@@ -109,7 +109,7 @@ def evaluate_with_growth(study: Study, models: list[SiteModel], evaluate) -> lis
         for step in load_steps(g, h, step_years):
             runs.append(model if g == 0.0 else scaled_model(model, step.load_factor))
             owner.append((j, step, g))
-    evaluated = evaluate(runs)
+    evaluated = evaluate(study, runs)
     out: list[SiteDesigns | None] = [None] * len(models)
     for (j, step, g), run, designs in zip(owner, runs, evaluated):
         if g == 0.0:

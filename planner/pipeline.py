@@ -70,5 +70,5 @@ def _evaluate_with_measures(study: Study, models):
     """Designs of every site, its thermal-measure variants and load-growth steps included
     (and what measure would serve a site nothing serves)."""
     return evaluate_with_measures(study, models,
-                                  lambda ms: evaluate_with_growth(study, ms, lambda x: _evaluate(study, x)),
+                                  lambda st, ms: evaluate_with_growth(st, ms, _evaluate),
                                   lambda d: bool(offered_outcomes(d)))

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from types import MappingProxyType
 
 import numpy as np
 
@@ -216,17 +217,27 @@ def base_measure_id(model: SiteModel) -> str:
 def evaluate_with_measures(study: Study, models: list[SiteModel], evaluate, serves):
     """Every site's designs with and without the thermal measures it may use.
 
-    ``evaluate(models) -> [SiteDesigns]`` runs the design stage; ``serves(site_designs)``
-    says whether any design can be offered. Returns ``(designs, hints)``: one
-    SiteDesigns per site whose outcomes include the designs of its measure variants
-    (``measure_models`` maps each measure to its variant model), and for every site no
-    design serves, a one-line hint naming the cheapest thermal measure that would serve
-    it (the whole catalogue is tried for those sites only) or saying none does.
+    ``evaluate(study, models) -> [SiteDesigns]`` runs the design stage; ``serves(site_designs)``
+    says whether any design can be offered. A measure variant is evaluated only for the
+    chemistries it can help at that site (:func:`helped_chemistries`). Returns
+    ``(designs, hints)``: one SiteDesigns per site whose outcomes include the designs of
+    its measure variants (``measure_models`` maps each measure to its variant model), and
+    for every site no design serves, a one-line hint naming the cheapest thermal measure
+    that would serve it (the whole catalogue, every chemistry, is tried for those sites
+    only) or saying none does.
     """
+    base = evaluate(study, list(models))
     variants = variant_models(study, models, offered_measures(study, models))
-    evaluated = evaluate(list(models) + [v for _, _, v in variants])
-    designs = [_merge(d, [(m, v, e) for (i, m, v), e in zip(variants, evaluated[len(models):]) if i == k])
-               for k, d in enumerate(evaluated[:len(models)])]
+    by_chems: dict[tuple, list] = {}
+    for i, m, v in variants:
+        chems = helped_chemistries(study, base[i], m, models[i])
+        if chems:
+            by_chems.setdefault(chems, []).append((i, m, v))
+    found = {k: [] for k in range(len(models))}
+    for chems, members in by_chems.items():  # a few chemistry sets, each one design run
+        for (i, m, v), d in zip(members, evaluate(with_chemistries(study, chems), [v for _, _, v in members])):
+            found[i].append((m, v, d))
+    designs = [_merge(d, found[k]) for k, d in enumerate(base)]
     lost = [k for k, d in enumerate(designs) if not serves(d)]
     hints = {}
     if lost:
@@ -236,12 +247,41 @@ def evaluate_with_measures(study: Study, models: list[SiteModel], evaluate, serv
                  if models[k].site.enclosure in m.fits and (k, m.id) not in tried
                  and not (m.heater and models[k].site.heater_setpoint_c is not None)]
         extra = variant_models(study, models, pairs, keep_all=True)
-        extra_designs = evaluate([v for _, _, v in extra]) if extra else []
+        extra_designs = evaluate(study, [v for _, _, v in extra]) if extra else []
         for k in lost:
             # the variants already merged in serve nothing here (else the site is served)
             serving = [m for (i, m, _), d in zip(extra, extra_designs) if i == k and serves(d)]
             hints[k] = _hint(study, serving)
     return designs, hints
+
+
+def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel) -> tuple[str, ...]:
+    """Chemistries of the study whose decision a measure can change at a site, judged from
+    the site's designs without it (``base``, a SiteDesigns): those left out for a
+    temperature limit, those whose charging the cold blocks (cold measures at a cold
+    site), and those whose life ends by aging rather than at the service-life limit
+    (temperature sets the aging rate). A smaller pack from less cold derating alone is
+    not counted: it saves a part of one pack's price, less than a measure costs."""
+    cold = measure.helps in ("cold", "both") and model.design_temp_c < cold_limit_c(study)
+    out = []
+    for chem in study.settings["candidates"]["chemistries"]:
+        why = base.excluded.get(chem, "")
+        mine = [o for o in base.outcomes if o.design.chemistry == chem]
+        if "°C" in why:
+            out.append(chem)
+        elif mine and cold and any(o.charge_blocked_hours > 0 for o in mine):
+            out.append(chem)
+        elif mine and not any(o.limiting_cause == "service-life limit" for o in mine):
+            out.append(chem)
+    return tuple(out)
+
+
+def with_chemistries(study: Study, chemistries: tuple[str, ...]) -> Study:
+    """``study`` with its candidate chemistries cut to ``chemistries``."""
+    settings = {k: dict(v) for k, v in study.settings.items()}
+    settings["candidates"]["chemistries"] = tuple(chemistries)
+    return dataclasses.replace(study, settings=MappingProxyType(
+        {k: MappingProxyType(v) for k, v in settings.items()}))
 
 
 def _merge(base, variants):

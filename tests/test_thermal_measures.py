@@ -108,3 +108,31 @@ def test_measures_switched_off_and_bad_ids(tmp_path):
     study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,heated-blanket\n")
     with pytest.raises(InputError, match="row .*thermal_measures.*heated-blanket"):
         offered_measures(study, models)
+
+
+def test_measure_evaluated_only_for_chemistries_it_can_help(tmp_path):
+    # A measure changes a decision only through temperature: a chemistry left out for a
+    # temperature limit, one whose charging the cold blocks (lithium-ion is not charged
+    # below 0 °C, common practice), or one whose life ends by aging. A chemistry that lasts
+    # to its service-life limit and is never blocked gains nothing worth a measure.
+    from types import SimpleNamespace as NS
+
+    from planner.thermal_measures import helped_chemistries
+
+    study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,\n")
+    model = models[0]
+    assert model.design_temp_c < 0.0
+
+    def outcome(chem, blocked, cause):
+        return NS(design=NS(chemistry=chem), charge_blocked_hours=blocked, limiting_cause=cause)
+
+    box = catalogue(study)["heater-box"]
+    capped = NS(excluded={}, outcomes=[outcome("lfp", 0.0, "service-life limit"),
+                                       outcome("lto", 0.0, "service-life limit")])
+    assert helped_chemistries(study, capped, box, model) == ()
+    blocked = NS(excluded={}, outcomes=[outcome("lfp", 120.0, "service-life limit"),
+                                        outcome("lto", 0.0, "service-life limit")])
+    assert helped_chemistries(study, blocked, box, model) == ("lfp",)
+    cold_out = NS(excluded={"lto": "battery reaches -31.0 °C, below the -30 °C discharge limit"},
+                  outcomes=[outcome("lfp", 0.0, "calendar")])
+    assert helped_chemistries(study, cold_out, box, model) == ("lfp", "lto")

@@ -195,7 +195,7 @@ class Pricer:
             taken[s_] += 1
             cols.append(self.column(int(p), s_))
         if self.single is not None and per_site > 1:
-            _, more = self.single.price(arc_extra, ex_extra, sigma, per_site=per_site - 1, tol=tol)
+            _, more = self.single.price(arc_extra, ex_extra, sigma, per_site=per_site, tol=tol)
             cols += [c for c in more if c.pair >= 0]
         return site_val, cols
 
