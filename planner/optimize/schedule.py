@@ -101,13 +101,16 @@ def _cum_discounted_pdf(probs_list, n_ages: int, rate: float) -> np.ndarray:
 def _pair_nodes(cands: list[list[Candidate]], design_changes: bool) -> np.ndarray:
     """Node family of each (site, design) pair: the first pair of its site with the same
     thermal measure when designs may change (a site keeps its measure), else the first
-    pair of the site with the same design id (before any '@': one design offered in
-    several install windows, e.g. for a growing load, stays one design)."""
+    pair of the site with the same design; a design offered in install windows (a
+    growing load) is its chemistry, charge voltage and measure, its pack growing with
+    the load."""
     out, base = [], 0
     for cs in cands:  # per site, a few tens of candidates
         first = {}
         for k, c in enumerate(cs):
-            key = c.thermal_measure if design_changes else c.design_id.split("@")[0]
+            windowed = c.first_install_year > 0 or c.last_install_year is not None
+            key = (c.thermal_measure if design_changes else
+                   (c.chemistry, c.charge_voltage_v_per_cell, c.thermal_measure) if windowed else c.design_id)
             out.append(first.setdefault(key, base + k))
         base += len(cs)
     return np.array(out, dtype=np.int64)
