@@ -148,6 +148,10 @@ THERMAL = (
       doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
     F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,
       doc="Electric power of an added heater pad, drawn from the battery hour by hour."),
+    F("heater_control", "str", "charging", choices=("charging", "thermostat"),
+      doc="charging: an added heater runs on the charging source's surplus over the load (up to its "
+          "power) while the battery is below the setpoint, warming the pack to accept charge; "
+          "thermostat: it holds the setpoint day and night from the battery."),
     F("heater_price", "float", 120.0, "currency", 0.0, doc="Heater pad with thermostat."),
     F("heater_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit a heater."),
     F("box_ua_w_k", "float", 1.0, "W/K", 0.05, 100.0,

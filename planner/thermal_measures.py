@@ -66,8 +66,8 @@ def catalogue(study: Study) -> dict[str, Measure]:
     return {m.id: m for m in (
         Measure("insulated-box", "insulated battery box inside the enclosure", "both",
                 _CABINETS + ("vault",), box=True, price=t["box_price"], labour_h=t["box_labour_h"]),
-        Measure("heater", f"battery heater pad, {t['heater_power_w']:g} W, thermostat at "
-                          f"{t['heater_setpoint_c']:g} °C", "cold", _CABINETS + ("vault",), heater=True,
+        Measure("heater", f"battery heater pad, {t['heater_power_w']:g} W, to {t['heater_setpoint_c']:g} °C "
+                          f"({t['heater_control']})", "cold", _CABINETS + ("vault",), heater=True,
                 price=t["heater_price"], labour_h=t["heater_labour_h"]),
         Measure("heater-box", "battery heater pad inside an insulated battery box", "cold",
                 _CABINETS + ("vault",), heater=True, box=True, price=t["heater_price"] + t["box_price"],
@@ -138,8 +138,12 @@ def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int,
 
     The variant keeps the site's load and charging; its battery temperature, heater
     power (added to the load the battery carries) and temperature summary come from the
-    enclosure model with the measure. Variants that move the battery temperature less
-    than :data:`MIN_EFFECT_K` are dropped unless ``keep_all``.
+    enclosure model with the measure. An added heater either heats to charge
+    (``[thermal].heater_control = "charging"``: it runs on the charging source's surplus
+    over the load, up to its power, while the battery is below the setpoint) or holds its
+    setpoint day and night ("thermostat"). Variants that
+    move the battery temperature less than :data:`MIN_EFFECT_K` are dropped unless
+    ``keep_all``.
     """
     if not pairs:
         return []
@@ -163,17 +167,33 @@ def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int,
             heat *= scale
         overrides.append(over or None)
         sp = site.heater_setpoint_c if site.heater_setpoint_c is not None else (
-            t["heater_setpoint_c"] if m.heater else None)
+            t["heater_setpoint_c"] if m.heater and t["heater_control"] == "thermostat" else None)
         setpoints.append(np.nan if sp is None else sp)
         internal.append(heat)
         years.append(model.year)
     thermal = battery_temperature_fleet(years, kinds, internal_heat_w=np.array(internal),
                                         heater_setpoint_c=np.array(setpoints),
                                         heater_power_w=t["heater_power_w"], overrides=overrides)
+    temps, heaters = thermal.temp_battery_c, thermal.heater_power_w
+    charging = [j for j, (i, m) in enumerate(pairs)
+                if m.heater and t["heater_control"] == "charging" and models[i].site.heater_setpoint_c is None]
+    if charging:
+        # heat to charge: the charging source's surplus over the load (up to the pad's
+        # power) in the hours the unheated battery is below the setpoint, energy a cold
+        # lithium pack could not have taken anyway; the heat is an input of the linear
+        # enclosure model, so the heated temperature is exact for that schedule
+        power = np.column_stack([
+            np.where(temps[:, j] < t["heater_setpoint_c"],
+                     np.clip(models[pairs[j][0]].charge_w - models[pairs[j][0]].load_w, 0.0, t["heater_power_w"]),
+                     0.0) for j in charging])
+        heated = battery_temperature_fleet([years[j] for j in charging], [kinds[j] for j in charging],
+                                           internal_heat_w=np.array([internal[j] for j in charging]) + power,
+                                           overrides=[overrides[j] for j in charging])
+        temps, heaters = temps.copy(), heaters.copy()
+        temps[:, charging], heaters[:, charging] = heated.temp_battery_c, power
     out = []
     for j, (i, m) in enumerate(pairs):
-        variant = apply_thermal(models[i], m.id, thermal.temp_battery_c[:, j], thermal.heater_power_w[:, j],
-                                thermal.enclosures[j])
+        variant = apply_thermal(models[i], m.id, temps[:, j], heaters[:, j], thermal.enclosures[j])
         base, new = models[i].temperatures, variant.temperatures
         moved = max(abs(new.battery_min_c - base.battery_min_c),
                     abs(new.effective_temp_c - base.effective_temp_c))
