@@ -91,17 +91,41 @@ def lane_inputs(chem, patterns, oversize, volts, layout="hours", dtype=np.float3
 
 
 def python_loop_one_lane(chem, temp_c, soc, current, volts, years):
-    """Plain per-hour loop of the LFP model (calendar: Naumann form; cycles: Naumann form)."""
+    """Plain per-hour loop of the LFP model (calendar: Naumann form with the cold-storage
+    activation energy below its fitted range; cycles: Naumann form with the plating factor
+    below 25 °C, Schimpe et al. 2018)."""
     cal_p = chem.aging.calendar
     cyc_p = chem.aging.cycle
     r_gas = 8.314462618
-    t_ref = cal_p["temp_ref_c"] + 273.15
+
+    def arrhenius(temp_k, ea, ref_c):
+        return math.exp(-ea / r_gas * (1 / temp_k - 1 / (ref_c + 273.15)))
+
+    def calendar_af(temp_k):
+        below = cal_p["low_temp_below_c"]
+        if temp_k - 273.15 >= below:
+            return arrhenius(temp_k, cal_p["activation_energy_j_mol"], cal_p["temp_ref_c"])
+        return (arrhenius(below + 273.15, cal_p["activation_energy_j_mol"], cal_p["temp_ref_c"])
+                * arrhenius(temp_k, cal_p["low_temp_activation_energy_j_mol"], below))
+
+    charge = [max(-c, 0.0) for c in current]
+    charge_rate = sum(charge) / max(sum(1 for c in charge if c > 0), 1)
+
+    def cycle_af(temp_k):
+        below = cyc_p["plating_below_c"]
+        if temp_k - 273.15 >= below:
+            return arrhenius(temp_k, cyc_p["activation_energy_j_mol"], cyc_p["temp_ref_c"])
+        share = cyc_p["plating_share_ref"]
+        w = share * math.exp(cyc_p["plating_c_rate_beta"] * (charge_rate - 1.0))
+        sei = arrhenius(temp_k, cyc_p["plating_sei_activation_energy_j_mol"], below)
+        plating = arrhenius(temp_k, -cyc_p["plating_activation_energy_j_mol"], below)
+        return (arrhenius(below + 273.15, cyc_p["activation_energy_j_mol"], cyc_p["temp_ref_c"])
+                * ((1 - share) * sei + w * plating) / ((1 - share) + w))
+
     loss_cal = 0.0
     for _ in range(years):
         for h in range(H):
-            temp_k = temp_c[h] + 273.15
-            k = (cal_p["k_ref_per_sqrt_s"]
-                 * math.exp(-cal_p["activation_energy_j_mol"] / r_gas * (1 / temp_k - 1 / t_ref))
+            k = (cal_p["k_ref_per_sqrt_s"] * calendar_af(temp_c[h] + 273.15)
                  * (cal_p["soc_c"] * (soc[h] - 0.5) ** 3 + cal_p["soc_d"]))
             t_eq = (loss_cal / k) ** 2
             loss_cal = k * math.sqrt(t_eq + 3600.0)
@@ -115,9 +139,7 @@ def python_loop_one_lane(chem, temp_c, soc, current, volts, years):
         for rng_, mean, count, i0, i1 in rainflow.extract_cycles(closed):
             t_c = 0.5 * (temp_c[(i0 + k_top) % H] + temp_c[(i1 + k_top) % H]) + 273.15
             k = ((cyc_p["a"] * c_rate + cyc_p["b"])
-                 * (cyc_p["doc_c"] * (rng_ - 0.6) ** 3 + cyc_p["doc_d"]) / 100.0
-                 * math.exp(-cyc_p["activation_energy_j_mol"] / r_gas
-                            * (1 / t_c - 1 / (cyc_p["temp_ref_c"] + 273.15))))
+                 * (cyc_p["doc_c"] * (rng_ - 0.6) ** 3 + cyc_p["doc_d"]) / 100.0 * cycle_af(t_c))
             state += k * k * count * rng_
     return 1.0 - loss_cal - math.sqrt(state)
 

@@ -55,6 +55,29 @@ _SCALARS = (
 
 
 @dataclass(frozen=True)
+class AgingEnvelope:
+    """Conditions an aging parameter set was fitted on (outside them it extrapolates).
+
+    Attributes
+    ----------
+    calendar_temp_c, cycle_temp_c : tuple[float, float]
+        Lowest and highest test temperature behind the calendar and cycle fits, °C.
+    soc_frac, c_rate : tuple[float, float]
+        Range of storage state of charge and of cycling C-rate in the tests.
+    test_years : float
+        Longest test (or field statement) behind the fit, years.
+    source : str
+    """
+
+    calendar_temp_c: tuple[float, float]
+    cycle_temp_c: tuple[float, float]
+    soc_frac: tuple[float, float]
+    c_rate: tuple[float, float]
+    test_years: float
+    source: str
+
+
+@dataclass(frozen=True)
 class AgingParams:
     """One named set of aging-model parameters for a chemistry.
 
@@ -70,6 +93,8 @@ class AgingParams:
         Parameter values by name (units in the names).
     sources : Mapping[str, str]
         ``"calendar.<name>"`` / ``"cycle.<name>"`` -> source text.
+    envelope : AgingEnvelope or None
+        Conditions the set was fitted on.
     """
 
     name: str
@@ -79,6 +104,7 @@ class AgingParams:
     calendar: Mapping[str, float]
     cycle: Mapping[str, float]
     sources: Mapping[str, str]
+    envelope: AgingEnvelope | None = None
 
 
 @dataclass(frozen=True)
@@ -122,6 +148,7 @@ class Chemistry:
     aging_sets: Mapping[str, AgingParams]
     default_aging_set: str
     sources: Mapping[str, str] = field(default_factory=dict)
+    service_life_years: float = 15.0
 
     @property
     def round_trip_efficiency_frac(self) -> float:
@@ -208,6 +235,20 @@ def _table(table: dict, key: str, x: str, y: str, chem_id: str, sources: dict):
     return xs, ys
 
 
+def _envelope(chem_id: str, set_name: str, raw) -> AgingEnvelope | None:
+    if raw is None:
+        return None
+    where = f"chemistries.toml: [{chem_id}.aging.sets.{set_name}].envelope"
+    try:
+        pairs = {key: tuple(float(v) for v in raw[key])
+                 for key in ("calendar_temp_c", "cycle_temp_c", "soc_frac", "c_rate")}
+        if any(len(pair) != 2 or pair[1] < pair[0] for pair in pairs.values()):
+            raise ValueError("ranges need [low, high]")
+        return AgingEnvelope(test_years=float(raw["test_years"]), source=str(raw["source"]), **pairs)
+    except (KeyError, TypeError, ValueError) as err:
+        raise RuntimeError(f"{where} is incomplete ({err})") from None
+
+
 def _aging_sets(chem_id: str, table: dict) -> tuple[dict, str]:
     aging = table["aging"]
     sets = {}
@@ -230,6 +271,7 @@ def _aging_sets(chem_id: str, table: dict) -> tuple[dict, str]:
             calendar=MappingProxyType(parts["calendar"]),
             cycle=MappingProxyType(parts["cycle"]),
             sources=MappingProxyType(sources),
+            envelope=_envelope(chem_id, set_name, raw.get("envelope")),
         )
     default = str(aging["default"])
     if default not in sets:
@@ -247,6 +289,7 @@ def _build(chem_id: str, table: dict) -> Chemistry:
     ocv_s, ocv_v = _table(table, "open_circuit_voltage", "soc_frac", "voltage_v", chem_id, sources)
     sd = table["self_discharge"]
     sources["self_discharge"] = str(sd["source"])
+    service_life = float(_value(table, "service_life_years", chem_id, sources))
     sets, default = _aging_sets(chem_id, table)
     for set_name, params in sets.items():
         for key, text in params.sources.items():
@@ -268,6 +311,7 @@ def _build(chem_id: str, table: dict) -> Chemistry:
         aging_sets=MappingProxyType(sets),
         default_aging_set=default,
         sources=MappingProxyType(sources),
+        service_life_years=service_life,
         **scalars,
     )
 

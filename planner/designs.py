@@ -31,7 +31,12 @@ import numpy as np
 
 from planner.aging import age_lanes
 from planner.chemistry import Chemistry, get_chemistry
-from planner.energy.sizing import ReferenceSize, reference_capacity, temperature_factor_from_derating
+from planner.energy.sizing import (
+    ReferenceSize,
+    lead_acid_sizing_temperature_factor,
+    reference_capacity,
+    temperature_factor_from_derating,
+)
 from planner.energy.soc import iter_soc_chunks
 from planner.pack import PackStructure, life_distribution, pack_structure, stress_parameters
 from planner.scenario import Study
@@ -69,6 +74,7 @@ class Design:
     reference: ReferenceSize | None
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
+    service_life_years: float | None = None  # the study's cap; None: the library's
     thermal_measure: str = ""   # the thermal measure installed with it (planner.thermal_measures)
     install_years: tuple[int, int] | None = None  # its load step's install window (planner.load_growth)
 
@@ -143,10 +149,13 @@ def window_frac(chem: Chemistry, charge_voltage_v_per_cell: float) -> float:
 def _reference(study: Study, model: SiteModel, chem: Chemistry) -> ReferenceSize:
     cand = study.settings["candidates"]
     available = float(chem.available_capacity_fraction(model.design_temp_c))
+    factor = (lead_acid_sizing_temperature_factor(model.design_temp_c, available,
+                                                  cand.get("lead_acid_temperature_factor", "datasheet"))
+              if chem.id == "vrla" else temperature_factor_from_derating(available))
     return reference_capacity(
         daily_load_wh=max(model.daily_load_wh, 1e-6), system_voltage_v=model.site.system_voltage_v,
         autonomy_days=model.site.autonomy_days, max_dod_frac=chem.max_dod_frac,
-        temperature_factor=temperature_factor_from_derating(available),
+        temperature_factor=factor,
         aging_factor=cand["aging_factor"], design_margin=cand["design_margin"])
 
 
@@ -214,6 +223,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
     """Designs of one site: (designs, excluded chemistries with reasons, references)."""
     designs, excluded, references = [], {}, {}
     factors = study.settings["candidates"]["oversize_factors"]
+    caps = study.settings.get("service_life", {})
     for chem_id in study.settings["candidates"]["chemistries"]:
         chem = get_chemistry(chem_id)
         reason = _exclusion(model, chem)
@@ -237,7 +247,9 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                 if window_frac(chem, volts) <= 0:
                     continue
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
-                                      float(volts), pack, reference, thermal_measure=model.thermal_measure))
+                                      float(volts), pack, reference,
+                                      service_life_years=caps.get(chem_id),
+                                      thermal_measure=model.thermal_measure))
     site = model.site
     if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)
@@ -245,7 +257,8 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
         age = float(study.settings["study"]["start_year"] - site.existing_installed_year)
         designs.append(Design(index, chem.id, 1.0, chem.default_charge_voltage_v_per_cell, pack,
                               None, existing_age_years=age,
-                              measured_soh_frac=site.existing_soh_frac or None))
+                              measured_soh_frac=site.existing_soh_frac or None,
+                              service_life_years=caps.get(chem.id)))
     return designs, excluded, references
 
 
@@ -354,7 +367,7 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of):
             soh_col = fade.soh_monthly[:, col]
             if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
                 start = int(np.argmax(soh_col <= d.measured_soh_frac))
-            cap = max_service_years(chem_id)
+            cap = max_service_years(chem_id, d.service_life_years)
             cause = _cause(eol[j], available[j], fade, life_total[col], col, chem)
             if life_total[col] > cap and eol[j] < 1.0:
                 cause = "service-life limit"
@@ -536,25 +549,18 @@ def worn_out_soh_frac(chemistry: str) -> float:
     return WORN_OUT_SOH.get(chemistry, 0.8)
 
 
-# Longest service planned for a pack whatever the fade laws say: seals, electrolyte
-# dry-out, battery-management electronics and terminal corrosion are not in the laws.
-# VRLA: the Eurobat "10-12 years" design-life class (from memory); lithium-ion, LTO
-# included: the 15-20 year design life of stationary products (common practice); primary
-# cells: the 20-year shelf life quoted for bobbin Li-SOCl2 cells (vendor statements,
-# research notes §5).
-MAX_SERVICE_YEARS = {"vrla": 12.0, "lfp": 20.0, "nmc": 15.0, "lto": 20.0, "lisocl2": 20.0}
-
-
-def max_service_years(chemistry: str) -> float:
-    """Longest service planned for a pack of this chemistry."""
-    return MAX_SERVICE_YEARS.get(chemistry, 15.0)
+def max_service_years(chemistry: str, override: float | None = None) -> float:
+    """Longest service planned for a pack whatever the fade laws say (seals, dry-out,
+    electronics and corrosion are not in them): the study's ``override`` ([service_life])
+    or the chemistry library's ``service_life_years`` with its source."""
+    return float(override) if override is not None else get_chemistry(chemistry).service_life_years
 
 
 def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     """Pack Monte Carlo (cell spread, gradients, balancing): P10/P50/P90 and the
     probability of failing before each age, for the failure-risk cost."""
     laws = stress_parameters(chem.aging_sets[chem.default_aging_set])
-    cap = max_service_years(chem.id)
+    cap = max_service_years(chem.id, designs[0].service_life_years if designs else None)
     groups: dict[tuple[int, int], list[int]] = {}
     for j, d in enumerate(designs):
         if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated:

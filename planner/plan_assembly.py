@@ -13,6 +13,7 @@ import math
 import numpy as np
 
 from planner import __version__
+from planner.aging.envelope import extrapolation_notes
 from planner.chemistry import get_chemistry
 from planner.costing import pack_price
 from planner.designs import (
@@ -23,6 +24,7 @@ from planner.designs import (
     max_service_years,
     worn_out_soh_frac,
 )
+from planner.energy.balance import charging_shortfall
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
@@ -118,13 +120,23 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
                                                  [o.soh_p10_monthly for o in installed], existing_curve)
             entry["soh_p90_by_month"] = sawtooth(horizon, replacements,
                                                  [o.soh_p90_monthly for o in installed], existing_curve)
+        notes = _extrapolation(model, shown)
+        entry["life_extrapolated"] = bool(notes)
+        entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
+        if notes:
+            entry["warnings"].append("life leans on extrapolated aging laws: " + "; ".join(notes))
     entry["replacements"] = _replacements(designs, plan) if plan else []
     if existing is not None:
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
             "remaining_life_years": _finite(existing.life_years)}
+    shortfall = charging_shortfall(model.load_w, model.charge_w, charging=site.charging)
+    if shortfall is not None:
+        # The source, not the pack, limits this site: say it first, with the two numbers.
+        entry["warnings"].insert(0, shortfall.warning())
+        entry["limiting_cause"] = shortfall.cause()
     entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
                                           candidate.chemistry if candidate else None, existing)
     return entry
@@ -207,6 +219,14 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
     return out
 
 
+def _extrapolation(model: SiteModel, outcome: Outcome) -> list[str]:
+    """Where the predicted life leaves the envelope the default aging set was fitted on."""
+    chem = get_chemistry(outcome.design.chemistry)
+    return extrapolation_notes(chem.aging.envelope,
+                               mean_temp_c=float(model.temperatures.battery_mean_c),
+                               life_years=outcome.life_years, efc_per_year=outcome.efc_per_year)
+
+
 def _finite(value):
     return float(value) if value is not None and math.isfinite(value) else None
 
@@ -278,10 +298,11 @@ def _design_rule_rows(study: Study) -> list[dict]:
         rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
                      "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
                      "source": "catalogue ladders of cells and monoblocs (common practice)"})
+        override = study.settings.get("service_life", {}).get(chem_id)
         rows.append({"group": "design rules", "name": f"service-life limit {chem_id}",
-                     "value": max_service_years(chem_id), "unit": "years",
-                     "source": "design life of stationary products (common practice; VRLA: Eurobat "
-                               "10-12 year class, from memory)"})
+                     "value": max_service_years(chem_id, override), "unit": "years",
+                     "source": "study file [service_life]" if override is not None
+                     else get_chemistry(chem_id).sources["service_life_years"]})
     rows.append({"group": "design rules", "name": "primary cells up to", "value":
                  PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
                  "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 0.1 W"})
@@ -328,6 +349,8 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                    "objective": solution.objective, "best_bound": solution.best_bound,
                    "decomposition": solution.decomposition},
         "sites": sites,
+        "service_life_limited_sites": sum(
+            1 for site in sites if site.get("limiting_cause") == "service-life limit"),
         "trips": [{"region": t.region, "year": t.year, "month": t.month,
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
                    "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}

@@ -7,7 +7,9 @@ column, what was found and what was expected.
 
 from __future__ import annotations
 
+import io
 import math
+import os
 import re
 import tomllib
 from dataclasses import dataclass
@@ -15,9 +17,11 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Mapping
 
+import numpy as np
 import pandas as pd
 
 from planner.errors import InputError
+from planner.fileio import check_input_file, read_input_bytes
 from planner.schema import (
     NAMED_SECTIONS,
     SECTIONS,
@@ -89,10 +93,27 @@ class Study:
     def access_months(self, site: Site) -> tuple[int, ...]:
         return site.access_months or self.region(site.region)["access_months"]
 
+    def input_files(self) -> dict[Path, str]:
+        """Every file the study reads, with words saying what it is (for output checks)."""
+        base = self.path.parent
+        files = {self.path: "the study file", self.sites_path: "the study's sites table"}
+        for name, options in self.climates.items():
+            files.setdefault((base / str(options["file"])).resolve(), f"climate file of [climates.{name}]")
+        for site in self.sites:
+            if site.load_file:
+                files.setdefault((base / site.load_file).resolve(), f"load file of site {site.id}")
+            if site.climate not in self.climates and _exists(base / site.climate):
+                files.setdefault((base / site.climate).resolve(), f"climate file of site {site.id}")
+        return files
+
 
 # ---------------------------------------------------------------- value parsing
 
-_MONTH_RANGE = re.compile(r"^\s*(\d{1,2})\s*-\s*(\d{1,2})\s*$")
+_MONTH_RANGE = re.compile(r"^\s*([0-9]{1,2})\s*-\s*([0-9]{1,2})\s*$")
+_PLAIN_INTEGER = re.compile(r"^[0-9]{1,2}$")
+#: The one number syntax of a sites-table cell: optional sign, digits, optional decimals
+#: ("2", "-1.5", ".5", "60."). No exponent, digit separators, inf or nan.
+_PLAIN_DECIMAL = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)$")
 
 
 def parse_months(text) -> tuple[int, ...]:
@@ -113,6 +134,10 @@ def parse_months(text) -> tuple[int, ...]:
         items = [t for t in re.split(r"[;\s]+", text) if t]
     months = []
     for item in items:
+        if isinstance(item, str):
+            if not _PLAIN_INTEGER.match(item):  # "1e1" is not October
+                raise ValueError
+            item = int(item)
         if isinstance(item, bool) or float(item) != int(float(item)):
             raise ValueError
         months.append(int(float(item)))
@@ -167,7 +192,10 @@ def _number(value, from_text: bool) -> float:
     if isinstance(value, bool):
         raise ValueError
     if from_text:
-        value = float(str(value).strip())
+        text = str(value).strip()
+        if not _PLAIN_DECIMAL.match(text):  # "1_0" is not 10, "1e1" not 10
+            raise ValueError
+        value = float(text)
     if not isinstance(value, (int, float)) or not math.isfinite(value):
         raise ValueError
     return float(value)
@@ -224,17 +252,20 @@ def load_study(path) -> Study:
     """Read, validate and return the study at ``path`` (TOML) with its sites table."""
     path = Path(path)
     source = str(path)
+    data = read_input_bytes(path, what="a study file (TOML)")
     try:
-        text = path.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found: expected a study file (TOML)", source=source) from None
-    except (OSError, UnicodeDecodeError) as err:
+        # A byte-order mark, as some Windows editors write, is not part of the TOML.
+        text = data.decode("utf-8").removeprefix("\ufeff")
+    except UnicodeDecodeError as err:
         raise InputError(f"cannot read the file ({err.__class__.__name__}): expected UTF-8 TOML",
                          source=source) from None
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"not valid TOML: {err}", source=source) from None
+    except RecursionError:
+        raise InputError("not valid TOML for a study: arrays or tables nested too deeply",
+                         source=source) from None
 
     known = set(SECTIONS) | set(NAMED_SECTIONS)
     for key, value in doc.items():
@@ -270,6 +301,7 @@ def load_study(path) -> Study:
     sites_path = (base / settings["study"]["sites_file"]).resolve()
     raw = read_sites_table(sites_path)
     sites = tuple(_validate_sites(raw, sites_path, settings, named))
+    _check_regions(sites, named["regions"], source)
     _check_climates(sites, named["climates"], base, sites_path, source)
     return Study(
         path=path.resolve(),
@@ -299,6 +331,26 @@ def _check_chemistries(chosen, prices, source):
                 f" expected one of {', '.join(CHEMISTRY_IDS)}", source=source)
 
 
+def _exists(path: Path) -> bool:
+    """Whether anything exists at ``path``; a name the OS cannot even look up is not there."""
+    try:
+        os.stat(path)
+    except (OSError, ValueError):
+        return False
+    return True
+
+
+def _check_regions(sites, regions, source: str):
+    """A [regions.<name>] table no site uses is a mistake (most often a misspelling): its
+    trip costs would silently not apply. Sites of a region without a table use [costs]."""
+    used = sorted({site.region for site in sites})
+    for name in regions:
+        if name not in used:
+            hint = closest(name, used) or f"; the sites' regions are {', '.join(used)}"
+            raise InputError(f"[regions.{name}] is used by no site{hint}; expected a region "
+                             "named in the sites table's region column", source=source)
+
+
 def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
     """Every site's climate must be bundled, a [climates.<name>] entry or an existing file."""
     from planner.climate import list_bundled
@@ -308,15 +360,22 @@ def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
         if "file" not in options:
             raise InputError(f"[climates.{name}] has no key 'file': expected the climate file's path",
                              source=source)
-        if not (base / str(options["file"])).is_file():
+        if _exists(base / str(options["file"])):
+            check_input_file(base / str(options["file"]), what="a climate file")
+        else:
             raise InputError(f"[climates.{name}].file = {_shown(options['file'])}: file not found; "
                              "expected an EPW, TMY3, TMY2 or CSV file beside the study", source=source)
     for site in sites:
-        if site.load_file and not (base / site.load_file).is_file():
+        if site.load_file and _exists(base / site.load_file):
+            check_input_file(base / site.load_file, what="an hourly load CSV")
+        elif site.load_file:
             raise InputError(f"row {site.row}, column load_file: {_shown(site.load_file)} not found; "
                              "expected an hourly load CSV beside the study", source=str(sites_path))
         name = site.climate
-        if name in bundled or name in climates or (base / name).is_file():
+        if name in bundled or name in climates:
+            continue
+        if _exists(base / name):
+            check_input_file(base / name, what="a climate file")
             continue
         raise InputError(
             f"row {site.row}, column climate: found {_shown(name)}{closest(name, bundled)}; expected a "
@@ -333,14 +392,13 @@ def read_sites_table(path: Path) -> pd.DataFrame:
     suffix = path.suffix.lower()
     if suffix not in (".csv", ".xlsx"):
         raise InputError(f"sites table must be .csv or .xlsx, found '{path.suffix}'", source=source)
-    if not path.is_file():
-        raise InputError("file not found: expected the sites table", source=source)
+    data = io.BytesIO(read_input_bytes(path, what="the sites table"))
     try:
         if suffix == ".csv":
-            frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True,
+            frame = pd.read_csv(data, dtype=str, keep_default_na=False, skipinitialspace=True,
                                 comment=None, encoding="utf-8-sig")
         else:
-            frame = pd.read_excel(path, dtype=str, keep_default_na=False, engine="openpyxl")
+            frame = _read_first_sheet(data, source)
     except pd.errors.EmptyDataError:
         raise InputError("the sites table is empty: expected a header row and one row per site",
                          source=source) from None
@@ -351,12 +409,44 @@ def read_sites_table(path: Path) -> pd.DataFrame:
     return frame
 
 
+def _read_first_sheet(data, source: str) -> pd.DataFrame:
+    """The first sheet as text; numbers written in plain decimals (never ``1e-05``)."""
+    book = pd.ExcelFile(data, engine="openpyxl")
+    frame = pd.read_excel(book, sheet_name=book.sheet_names[0], dtype=object,
+                          keep_default_na=False)
+    if frame.columns.empty and len(book.sheet_names) > 1:
+        raise InputError(f"the first sheet ('{book.sheet_names[0]}') is empty; expected the "
+                         "sites table on the first sheet", source=source)
+    frame.attrs["sheets"] = list(book.sheet_names)
+    return frame.apply(lambda column: column.map(_cell_text))
+
+
+def _cell_text(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float):
+        return np.format_float_positional(value, trim="-") if math.isfinite(value) else str(value)
+    return str(value)
+
+
+def _table_hint(frame: pd.DataFrame, column: str) -> str:
+    """Why a header may look unknown: a ';'-separated CSV, or the table on another sheet."""
+    if len(frame.columns) == 1 and (";" in column or "\t" in column):
+        return "; the header looks separated by ';' or tabs: expected a comma-separated CSV"
+    sheets = frame.attrs.get("sheets") or []
+    if len(sheets) > 1:
+        return (f"; the table is read from the first sheet ('{sheets[0]}') of "
+                f"{', '.join(repr(s) for s in sheets)}")
+    return ""
+
+
 def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Site]:
     source = str(path)
     by_name = {s.name: s for s in SITE_COLUMNS}
     for column in frame.columns:
         if column not in by_name:
-            raise InputError(f"unknown column '{column}'{closest(column, by_name)}", source=source)
+            hint = closest(column, by_name) + _table_hint(frame, column)
+            raise InputError(f"unknown column '{_shown(column)[1:-1]}'{hint}", source=source)
     for spec in SITE_COLUMNS:
         if spec.required and spec.name not in frame.columns:
             raise InputError(f"missing column '{spec.name}': expected {spec.expectation()}",

@@ -61,6 +61,14 @@ def closest(name: str, valid) -> str:
 
 F = Field
 
+#: Largest amount any single money field may hold, in any currency. Far above any real
+#: trip, pack or daily penalty (even in currencies of small unit), yet small enough that
+#: sums over a fleet and a 60-year horizon stay finite and the optimizer's coefficients
+#: stay within the range a MILP solver handles (HiGHS treats 1e20 as infinite).
+MAX_MONEY = 1e12
+#: Largest annual budget (a fleet-wide sum of many amounts).
+MAX_BUDGET = 1e15
+
 STUDY = (
     F("name", "str", "", doc="Title shown in the plan; defaults to the file name."),
     F("sites_file", "str", doc="Sites table (CSV or XLSX), relative to the study file."),
@@ -89,6 +97,10 @@ CANDIDATES = (
       doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
     F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
       doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("lead_acid_temperature_factor", "str", "datasheet", choices=("datasheet", "ieee485"),
+      doc="VRLA cold correction in the 1x size: the chemistry's low-rate datasheet curve "
+          "(about 1.18 at 0 °C; telemetry packs discharge over days) or IEEE 485 Table 1 "
+          "(about 1.40 at 0 °C, written for 1-8 h rates; more conservative)."),
     F("load_growth_step_years", "int", 5, "years", 1, 30,
       doc="With a site's load growth: the load is re-simulated in steps of this many years; a "
           "pack installed in a step is designed for the load at the step's end."),
@@ -98,27 +110,27 @@ CANDIDATES = (
 )
 
 COSTS = (
-    F("trip_cost", "float", 2500.0, "currency/trip", 0.0,
+    F("trip_cost", "float", 2500.0, "currency/trip", 0.0, MAX_MONEY,
       doc="Mobilisation cost of one planned trip to a region (vehicle, helicopter, travel)."),
-    F("site_visit_cost", "float", 150.0, "currency/site", 0.0,
+    F("site_visit_cost", "float", 150.0, "currency/site", 0.0, MAX_MONEY,
       doc="Extra cost of each site visited on a trip."),
     F("labour_hours_per_replacement", "float", 3.0, "h", 0.0, 200.0,
       doc="Crew hours to swap one pack."),
-    F("labour_rate_per_h", "float", 85.0, "currency/h", 0.0),
-    F("disposal_per_kg", "float", 1.5, "currency/kg", 0.0,
+    F("labour_rate_per_h", "float", 85.0, "currency/h", 0.0, MAX_MONEY),
+    F("disposal_per_kg", "float", 1.5, "currency/kg", 0.0, MAX_MONEY,
       doc="Disposal or recycling of a removed pack."),
-    F("unplanned_trip_cost", "float", None, "currency/trip", 0.0,
+    F("unplanned_trip_cost", "float", None, "currency/trip", 0.0, MAX_MONEY,
       doc="Cost of an emergency trip after a failure; default 1.5 x the region's trip cost."),
-    F("downtime_cost_per_day", "float", 200.0, "currency/day", 0.0,
+    F("downtime_cost_per_day", "float", 200.0, "currency/day", 0.0, MAX_MONEY,
       doc="Penalty for each day a site is off air."),
     F("illustrative", "bool", True,
       doc="Mark the costs as illustrative in the workbook (set false for quoted prices)."),
 )
 
 PRICE = (
-    F("price_per_kwh", "float", None, "currency/kWh", 0.0,
+    F("price_per_kwh", "float", None, "currency/kWh", 0.0, MAX_MONEY,
       doc="Pack price per nominal kWh; default the chemistry library's illustrative price."),
-    F("fixed_price", "float", 0.0, "currency/pack", 0.0,
+    F("fixed_price", "float", 0.0, "currency/pack", 0.0, MAX_MONEY,
       doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
     F("price_trend_frac_per_year", "float", 0.0, "1/year", -0.5, 0.5,
       doc="Real yearly change of the pack price (-0.03: 3 % cheaper each year); a pack bought "
@@ -126,16 +138,16 @@ PRICE = (
 )
 
 REGION = (
-    F("trip_cost", "float", None, "currency/trip", 0.0, doc="Default [costs].trip_cost."),
-    F("site_visit_cost", "float", None, "currency/site", 0.0, doc="Default [costs].site_visit_cost."),
+    F("trip_cost", "float", None, "currency/trip", 0.0, MAX_MONEY, doc="Default [costs].trip_cost."),
+    F("site_visit_cost", "float", None, "currency/site", 0.0, MAX_MONEY, doc="Default [costs].site_visit_cost."),
     F("access_months", "months", tuple(range(1, 13)), "month numbers",
       doc="Months when crews can reach the region's sites."),
 )
 
 LIMITS = (
-    F("crew_site_visits_per_year", "int", 0, "sites/year", 0, doc="0 means no limit."),
-    F("annual_budget", "float", 0.0, "currency/year", 0.0, doc="0 means no limit."),
-    F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, doc="0 means no limit."),
+    F("crew_site_visits_per_year", "int", 0, "sites/year", 0, 1_000_000, doc="0 means no limit."),
+    F("annual_budget", "float", 0.0, "currency/year", 0.0, MAX_BUDGET, doc="0 means no limit."),
+    F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, 1e6, doc="0 means no limit."),
 )
 
 THERMAL = (
@@ -152,15 +164,15 @@ THERMAL = (
       doc="charging: an added heater runs on the charging source's surplus over the load (up to its "
           "power) while the battery is below the setpoint, warming the pack to accept charge; "
           "thermostat: it holds the setpoint day and night from the battery."),
-    F("heater_price", "float", 120.0, "currency", 0.0, doc="Heater pad with thermostat."),
+    F("heater_price", "float", 120.0, "currency", 0.0, MAX_MONEY, doc="Heater pad with thermostat."),
     F("heater_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit a heater."),
     F("box_ua_w_k", "float", 1.0, "W/K", 0.05, 100.0,
       doc="Conductance of the insulated battery box (in series with the enclosure's)."),
-    F("box_price", "float", 150.0, "currency", 0.0, doc="Insulated battery box."),
+    F("box_price", "float", 150.0, "currency", 0.0, MAX_MONEY, doc="Insulated battery box."),
     F("box_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit the box."),
-    F("shield_price", "float", 250.0, "currency", 0.0, doc="Sun shield or canopy over a cabinet."),
+    F("shield_price", "float", 250.0, "currency", 0.0, MAX_MONEY, doc="Sun shield or canopy over a cabinet."),
     F("shield_labour_h", "float", 2.0, "h", 0.0, 200.0, doc="Crew hours to fit a sun shield."),
-    F("vault_price", "float", 2500.0, "currency", 0.0, doc="Buried vault for the battery, dug in."),
+    F("vault_price", "float", 2500.0, "currency", 0.0, MAX_MONEY, doc="Buried vault for the battery, dug in."),
     F("vault_labour_h", "float", 16.0, "h", 0.0, 500.0, doc="Crew hours to dig in and move to a vault."),
 )
 
@@ -179,10 +191,19 @@ OUTPUT = (
     F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
 )
 
+# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
+# electronics, so a cap applies (chemistries.toml holds the default with its source).
+SERVICE_LIFE = tuple(
+    F(chem_id, "float", None, "years", 1.0, 60.0,
+      doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
+          "blank = the chemistry library's value (`planner life --list`).")
+    for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
+
 SECTIONS = {
     "study": STUDY,
     "candidates": CANDIDATES,
     "costs": COSTS,
+    "service_life": SERVICE_LIFE,
     "limits": LIMITS,
     "thermal": THERMAL,
     "solver": SOLVER,
@@ -257,7 +278,20 @@ def reference_markdown() -> str:
         "Generated from `planner/schema.py` (a test keeps the two equal). A study is a TOML file",
         "with the sections below, plus a sites table (CSV or XLSX) named by `[study].sites_file`.",
         "Unknown keys, sections and columns are errors (the closest valid name is suggested).",
-        "Money is in `[study].currency`, in constant (real) terms.",
+        "Money is in `[study].currency`, in constant (real) terms. Every money field is at most",
+        f"{MAX_MONEY:g} and `[limits].annual_budget` at most {MAX_BUDGET:g}, in any currency: far above",
+        "any real amount, and small enough that fleet sums stay finite for the optimizer.",
+        "",
+        "A `[regions.<region>]` table that no site uses is an error (the closest region of the",
+        "sites is suggested); sites in a region without a table use the `[costs]` defaults.",
+        "",
+        "Numbers in the sites table are plain decimals: an optional sign, digits and an optional",
+        "decimal point (`2`, `-1.5`, `0.25`). Exponents (`1e1`), digit separators (`1_0`, `1,000`),",
+        "`inf` and `nan` are errors; months are whole numbers 1-12.",
+        "",
+        "Input files (the study, its sites table, climate and load files) must be regular files of",
+        f"at most {_input_limit_mib()} MiB each; a folder, device, named pipe or socket is refused before",
+        "anything is read. A study saved with a UTF-8 byte-order mark is read as without it.",
         "",
     ]
     for section, specs in SECTIONS.items():
@@ -277,6 +311,12 @@ def reference_markdown() -> str:
     lines += ["## Complete example", "", "`scenarios/corvale.toml` with `scenarios/corvale_sites.csv`;",
               "`planner new DIR` writes a commented starter with every key.", ""]
     return "\n".join(lines)
+
+
+def _input_limit_mib() -> int:
+    from planner.fileio import MAX_INPUT_BYTES
+
+    return MAX_INPUT_BYTES // 2**20
 
 
 def _shown_default(value) -> str:

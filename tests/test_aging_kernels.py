@@ -123,7 +123,8 @@ def _outputs(n_lanes, capacity):
     return dict(cal=np.zeros((n_lanes, 12)), efc=np.zeros(n_lanes),
                 on=np.zeros(n_lanes, np.int64), dis=np.zeros((n_lanes, 12)),
                 rev_v=np.zeros((n_lanes, capacity)), rev_i=np.zeros((n_lanes, capacity), np.int64),
-                n_rev=np.zeros(n_lanes, np.int64))
+                n_rev=np.zeros(n_lanes, np.int64), chg=np.zeros(n_lanes),
+                chg_on=np.zeros(n_lanes, np.int64))
 
 
 @pytest.mark.parametrize("layout", ["hours", "lanes"])
@@ -143,17 +144,20 @@ def test_sweeps_match_numpy_sums_and_package_reversals(layout, capacity):
         if layout == "hours":
             py(kernels.hour_sweep)(s, c, lo, hi, 2, True, True, True, lane_row, rate, *lookup,
                                    month_of_hour, o["cal"], o["efc"], o["on"], o["dis"],
-                                   o["rev_v"], o["rev_i"], o["n_rev"])
+                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"])
         else:
             py(kernels.lane_sweep)(np.ascontiguousarray(s.T), np.ascontiguousarray(c.T), lo, hi,
                                    True, True, True, lane_row, np.ascontiguousarray(rate.T),
                                    *lookup, month_start, o["cal"], o["efc"], o["on"], o["dis"],
-                                   o["rev_v"], o["rev_i"], o["n_rev"])
+                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"])
         # Same bins (same arithmetic), sums in another order: rounding only.
         np.testing.assert_allclose(o["cal"], cal_ref[:, lo:hi].T, rtol=1e-12)
         np.testing.assert_allclose(o["dis"], dis_ref[:, lo:hi].T, rtol=1e-12)
         np.testing.assert_allclose(o["efc"], dis_ref[:, lo:hi].sum(axis=0), rtol=1e-12)
         assert o["on"].tolist() == on_ref[lo:hi].tolist()
+        charge = np.maximum(-c.astype(float), 0.0)
+        np.testing.assert_allclose(o["chg"], charge[:, lo:hi].sum(axis=0), rtol=1e-12)
+        assert o["chg_on"].tolist() == (charge[:, lo:hi] > 0).sum(axis=0).tolist()
         for r, lane in enumerate(range(lo, hi)):
             # Reference library: rainflow.reversals on the lane's (widened) series.
             expected = list(rainflow.reversals(s[:, lane].astype(float).tolist()))

@@ -99,3 +99,21 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
     result = runner.invoke(cli, ["--quiet", "plan", str(tmp_path / "s.toml"), "--out", str(out)])
     assert result.exit_code == 3, result.output
     assert out.is_file()
+
+
+def test_endless_study_files_are_refused_by_type(runner, tmp_path):
+    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO read until memory ran out. Nodes
+    # made here stand in for them (never real /dev paths); 1:5 is the Linux "zero" device
+    # (Linux kernel documentation, admin-guide/devices.txt).
+    import os
+    import stat
+
+    nodes = [tmp_path / "fifo.toml"]
+    os.mkfifo(nodes[0])
+    if os.geteuid() == 0:
+        nodes.append(tmp_path / "zero.toml")
+        os.mknod(nodes[1], stat.S_IFCHR | 0o666, os.makedev(1, 5))
+    for node in nodes:
+        result = runner.invoke(cli, ["plan", str(node)])
+        assert result.exit_code == 2, result.output
+        assert "not a regular file: expected a study file (TOML)" in result.output

@@ -1,6 +1,7 @@
 """``planner climate`` through click's CliRunner."""
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -125,6 +126,48 @@ def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
 
     monkeypatch.setattr(pd.DataFrame, "to_csv", broken)
     result = CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(target)])
-    assert result.exit_code == 2 and "cannot write the hourly CSV" in result.output
+    # Issue 15: "could not write the output" has its own exit code, 4 (README).
+    assert result.exit_code == 4 and "could not write the hourly CSV" in result.output
     assert target.read_text() == "an earlier export\n"
     assert list(tmp_path.iterdir()) == [target]      # the temporary file was removed
+
+
+def test_climate_warning_is_one_line_without_python_source(tmp_path):
+    # Issue 15 (smaller points): a repaired gap is reported as "warning: ..." on one line;
+    # Python's default warning format adds "file:line: ClimateWarning" and the source line
+    # that issued it. A fresh process: pytest records warnings itself.
+    import os
+    import subprocess
+    import sys
+
+
+    from test_climate_readers import write_epw
+
+    path = write_epw(tmp_path / "m.epw", np.full(8760, 10.0), missing_at={101, 102})
+    repo = Path(__file__).resolve().parents[1]
+    done = subprocess.run([sys.executable, "-c", "import sys; from planner.cli import main; sys.exit(main())",
+                           "climate", str(path)], capture_output=True, text=True, timeout=120,
+                          env={**os.environ, "PYTHONPATH": str(repo)})
+    assert done.returncode == 0, done.stderr
+    lines = [line for line in done.stderr.splitlines() if line.strip()]
+    assert len(lines) == 1 and lines[0].startswith("warning: ") and "interpolated 1 short gap" in lines[0]
+    assert "ClimateWarning" not in done.stderr and ".py:" not in done.stderr
+
+
+def test_overlong_source_name_is_a_one_line_error():
+    # Issue 15: a name past NAME_MAX (255 bytes, POSIX limits.h) raised OSError ENAMETOOLONG.
+    for name in ("x" * 5000, "x" * 5000 + ".epw"):
+        result = CliRunner().invoke(cli, ["climate", name])
+        assert result.exit_code == 2 and "Traceback" not in result.output
+        assert len([line for line in result.output.splitlines() if line.strip()]) == 1
+
+
+def test_csv_output_onto_the_weather_file_is_refused(tmp_path):
+    # Issue 15: an output never destroys an input.
+    from test_climate_readers import write_epw
+
+    path = write_epw(tmp_path / "site.epw", np.full(8760, 10.0))
+    before = path.read_bytes()
+    result = CliRunner().invoke(cli, ["climate", str(path), "--csv", str(path)])
+    assert result.exit_code == 2 and "is the weather file read" in result.output
+    assert path.read_bytes() == before

@@ -7,9 +7,9 @@ import pytest
 
 from planner.chemistry import get_chemistry
 from planner.designs import (
-    MAX_SERVICE_YEARS,
     enumerate_site_designs,
     evaluate_fleet,
+    max_service_years,
     requirement_wh,
     window_frac,
     worn_out_soh_frac,
@@ -74,7 +74,7 @@ def test_lives_respect_the_service_limit(quick):
     _, _, results = quick
     for result in results:
         for o in result.outcomes:
-            assert o.life_years <= MAX_SERVICE_YEARS[o.design.chemistry] + 1e-9
+            assert o.life_years <= max_service_years(o.design.chemistry) + 1e-9
             assert np.all(np.diff(o.soh_monthly) <= 1e-12)  # SOH never increases
 
 

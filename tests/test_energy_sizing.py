@@ -86,3 +86,12 @@ def test_bad_sizing_input(kwargs, key):
     args.update(kwargs)
     with pytest.raises(InputError, match=key):
         sizing.reference_capacity(**args)
+
+
+def test_lead_acid_methods_at_0c():
+    # IEEE 485 Table 1 (from memory): about 1.40 at 0 degC (interpolated 1.398 above);
+    # datasheet-style VRLA curve (from memory): 0.85 available at 0 degC -> 1/0.85 = 1.176.
+    assert sizing.lead_acid_sizing_temperature_factor(0.0, 0.85, "ieee485") == pytest.approx(1.398, abs=1e-9)
+    assert sizing.lead_acid_sizing_temperature_factor(0.0, 0.85) == pytest.approx(1 / 0.85)
+    with pytest.raises(InputError):
+        sizing.lead_acid_sizing_temperature_factor(0.0, 0.85, "other")

@@ -57,3 +57,35 @@ def test_column_generation_keeps_stdout_clean(capfd):
     solve_fleet(replace(orp(sites, 0.03), method="columns"))
     out, _ = capfd.readouterr()
     assert out == ""
+
+
+def test_costs_at_the_money_bound_solve_to_the_scaled_optimum():
+    # Issue 15 item 8: amounts near the schema bound (1e12) must solve like small ones.
+    # Check value: research note §5.3 two-site vector (lives 4 and 6, packs 1000 and 1500,
+    # shared trip 3000, no discount: 15,000), with every amount times 1e8; a linear
+    # objective's optimum scales with its costs.
+    from test_optimize_fleet import cand
+    from planner.optimize import ExistingPack, FleetProblem, SiteOptions
+
+    k = 1e8
+    months = tuple(range(1, 13))
+    sites = [SiteOptions(f"s{i}", "A", months, [cand(f"d{i}", life, pack * k)], existing=ExistingPack(life))
+             for i, life, pack in ((1, 4, 1000.0), (2, 6, 1500.0))]
+    sol = solve_fleet(FleetProblem(sites, 13, 0.0, {"A": 3000.0 * k}, residual_value=False,
+                                   gap_rel_frac=1e-9, solver="highs"))
+    assert sol.status == "optimal"
+    assert sol.objective == pytest.approx(15000.0 * k, rel=1e-9)
+
+
+def test_non_finite_money_is_refused_before_solving():
+    # Issue 15 item 8: an overflowed amount (1e308 x 1.5 = inf) never reaches the solver.
+    from planner.errors import InputError
+    from planner.optimize import FleetProblem
+    from planner.optimize.solver import objective_scale
+
+    with pytest.raises(InputError, match="trip cost of region 'A' is inf"):
+        solve_fleet(FleetProblem([orp_site(1, 4, 1000)], 13, 0.0, {"A": float("inf")}))
+    with pytest.raises(InputError, match="too large to be a finite number"):
+        objective_scale(np.array([1.0, np.inf]))
+    assert objective_scale(np.array([2e12, 5.0])) == pytest.approx(2e6)
+    assert objective_scale(np.array([250.0])) == 1.0

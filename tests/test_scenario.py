@@ -4,6 +4,7 @@ Each class of bad input must give the project's InputError with one line naming 
 the key path or row/column, what was found and what was expected.
 """
 
+import os
 from pathlib import Path
 
 import pytest
@@ -250,3 +251,100 @@ def test_missing_load_file_names_row(tmp_path):
     sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,r,alpine,1,pv,50,5,x.csv\n"
     message = error_of(write_study(tmp_path, BASE, sites=sites))
     assert "row 2, column load_file" in message and "not found" in message
+
+
+# ---------------------------------------------------------------- issue 15 hardening
+
+
+def test_unused_region_table_is_an_error_with_a_hint(tmp_path):
+    # item 3: [regions.hill] while the sites say "hills" must not fall back silently
+    message = error_of(write_study(tmp_path, BASE + "[regions.hill]\ntrip_cost = 5000.0\n"))
+    assert "[regions.hill] is used by no site; did you mean 'hills'?" in message
+
+
+def test_unused_region_table_without_a_close_name_lists_the_regions(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + "[regions.coast]\ntrip_cost = 5000.0\n"))
+    assert "[regions.coast] is used by no site; the sites' regions are hills" in message
+
+
+def test_region_without_a_table_keeps_the_cost_defaults(tmp_path):
+    study = load_study(write_study(tmp_path, BASE + "[costs]\ntrip_cost = 1234.0\n"))
+    assert study.region("hills")["trip_cost"] == 1234.0
+
+
+@pytest.mark.parametrize("column, cell", [
+    ("load_w", "1_0"), ("load_w", "1e1"), ("load_w", "inf"), ("load_w", "nan"),
+    ("load_w", "0x10"), ("load_w", "١٢"), ("access_months", "1e1"), ("access_months", "6.0"),
+    ("pv_wp", "6 0"),
+])
+def test_sites_numbers_follow_one_plain_decimal_syntax(tmp_path, column, cell):
+    # item 6: "1_0" is not 10 and "1e1" is not October
+    header = "id,region,climate,load_w,charging,pv_wp,autonomy_days,access_months\n"
+    values = {"load_w": "2", "pv_wp": "60", "access_months": "6-9", column: cell}
+    row = f"A,hills,alpine,{values['load_w']},pv,{values['pv_wp']},5,{values['access_months']}\n"
+    message = error_of(write_study(tmp_path, BASE, sites=header + row))
+    assert f"row 2, column {column}: found '{cell}'" in message
+
+
+@pytest.mark.parametrize("cell, value", [("2", 2.0), ("-0", 0.0), ("+2.5", 2.5), (".5", 0.5), ("2.", 2.0)])
+def test_plain_decimals_are_accepted(tmp_path, cell, value):
+    header = "id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
+    study = load_study(write_study(tmp_path, BASE, sites=header + f"A,hills,alpine,{cell},pv,60,5\n"))
+    assert study.sites[0].load_w == value
+
+
+def test_xlsx_numbers_are_read_as_plain_decimals(tmp_path):
+    import pandas as pd
+
+    frame = pd.DataFrame({"id": ["A"], "region": ["hills"], "climate": ["alpine"], "load_w": [0.00001],
+                          "charging": ["pv"], "pv_wp": [60], "autonomy_days": [5]})
+    frame.to_excel(tmp_path / "sites.xlsx", index=False)
+    study = load_study(write_study(tmp_path, BASE.replace("sites.csv", "sites.xlsx"),
+                                   sites_name="ignored.csv"))
+    assert study.sites[0].load_w == pytest.approx(1e-5)
+
+
+def test_deeply_nested_toml_is_bad_input(tmp_path):
+    # item 10: 5,000 nested arrays gave a RecursionError traceback
+    message = error_of(write_study(tmp_path, BASE + "x = " + "[" * 5000 + "]" * 5000 + "\n"))
+    assert "nested too deeply" in message
+
+
+def test_byte_order_mark_is_accepted(tmp_path):
+    # item 14: Windows editors save UTF-8 with a BOM (Unicode Standard §23.8, U+FEFF)
+    study = tmp_path / "study.toml"
+    write_study(tmp_path, BASE)
+    study.write_bytes(b"\xef\xbb\xbf" + BASE.encode("utf-8"))
+    assert load_study(study).sites[0].id == "A-1"
+
+
+@pytest.mark.parametrize("key", ["downtime_cost_per_day", "trip_cost", "labour_rate_per_h",
+                                 "site_visit_cost", "disposal_per_kg", "unplanned_trip_cost"])
+def test_money_fields_are_bounded(tmp_path, key):
+    # item 8: 1e308 in a money field made HiGHS spin for minutes or gave a false "no plan"
+    message = error_of(write_study(tmp_path, BASE + f"[costs]\n{key} = 1e308\n"))
+    assert f"[costs].{key} = 1e+308: expected a number >= 0 and <= 1e+12" in message
+
+
+def test_semicolon_separated_table_gets_a_hint(tmp_path):
+    sites = SITES_HEADER.replace(",", ";") + GOOD_ROW.replace(",", ";")
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "separated by ';'" in message
+
+
+def test_table_on_another_sheet_gets_a_hint(tmp_path):
+    import pandas as pd
+
+    with pd.ExcelWriter(tmp_path / "sites.xlsx") as writer:
+        pd.DataFrame({"Notes": ["the sites are on the next sheet"]}).to_excel(writer, sheet_name="Read me", index=False)
+        pd.DataFrame({"id": ["A"]}).to_excel(writer, sheet_name="Sites", index=False)
+    message = error_of(write_study(tmp_path, BASE.replace("sites.csv", "sites.xlsx"), sites_name="x.csv"))
+    assert "read from the first sheet ('Read me')" in message
+
+
+def test_fifo_climate_or_load_file_is_refused_by_type(tmp_path):
+    # item 9: a FIFO named as a load file is refused before anything reads it
+    os.mkfifo(tmp_path / "load.csv")
+    sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,hills,alpine,1,pv,50,5,load.csv\n"
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "load.csv: is a named pipe (FIFO), not a regular file" in message

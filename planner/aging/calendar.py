@@ -51,13 +51,33 @@ def arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c=25.0):
                   * (1.0 / temp_k - 1.0 / (temp_ref_c + KELVIN_OFFSET)))
 
 
+def arrhenius_factor_below(temp_c, activation_energy_j_mol, temp_ref_c, *, below_c=None,
+                           low_activation_energy_j_mol=None):
+    """Arrhenius factor with its own activation energy below the lowest fitted temperature.
+
+    ``AF(T)`` as :func:`arrhenius_factor` from ``below_c`` up; below it the curve goes on
+    from ``AF(below_c)`` with ``low_activation_energy_j_mol``. A fit on warm points only
+    (e.g. 25 and 45 °C) says nothing about the slope in the cold: a storage study that
+    covers the cold supplies it (docs/aging.md, "Cold storage"). Without ``below_c`` the
+    plain factor is returned.
+    """
+    af = arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c)
+    if below_c is None or low_activation_energy_j_mol is None:
+        return af
+    temp = np.asarray(temp_c, dtype=float)
+    cold = (arrhenius_factor(below_c, activation_energy_j_mol, temp_ref_c)
+            * arrhenius_factor(temp, low_activation_energy_j_mol, below_c))
+    return np.where(temp < below_c, cold, af)
+
+
 def naumann2018_soc_factor(soc_frac, soc_c, soc_d):
     """SOC term of Naumann et al. 2018: ``c * (SOC - 0.5)**3 + d`` (dimensionless)."""
     return soc_c * (np.asarray(soc_frac, dtype=float) - 0.5) ** 3 + soc_d
 
 
 def naumann2018_calendar_loss(temp_c, soc_frac, duration_s, *, k_ref_per_sqrt_s,
-                              activation_energy_j_mol, temp_ref_c, soc_c, soc_d):
+                              activation_energy_j_mol, temp_ref_c, soc_c, soc_d,
+                              low_temp_below_c=None, low_temp_activation_energy_j_mol=None):
     """Calendar capacity loss of an LFP/graphite cell at constant conditions (fraction).
 
     ``Q_loss = k_ref * exp(-Ea/R (1/T - 1/T_ref)) * (c (SOC - 0.5)^3 + d) * sqrt(t)``,
@@ -71,13 +91,18 @@ def naumann2018_calendar_loss(temp_c, soc_frac, duration_s, *, k_ref_per_sqrt_s,
         Temperature (°C), state of charge (fraction), storage duration (s).
     k_ref_per_sqrt_s, activation_energy_j_mol, temp_ref_c, soc_c, soc_d : float
         Model parameters (see ``chemistries.toml``).
+    low_temp_below_c, low_temp_activation_energy_j_mol : float, optional
+        Below this temperature the activation energy of a cold storage study applies
+        (:func:`arrhenius_factor_below`).
 
     Returns
     -------
     ndarray
         Capacity loss as a fraction of rated capacity.
     """
-    k = (k_ref_per_sqrt_s * arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c)
+    k = (k_ref_per_sqrt_s * arrhenius_factor_below(temp_c, activation_energy_j_mol, temp_ref_c,
+                                                   below_c=low_temp_below_c,
+                                                   low_activation_energy_j_mol=low_temp_activation_energy_j_mol)
          * naumann2018_soc_factor(soc_frac, soc_c, soc_d))
     return k * np.sqrt(np.asarray(duration_s, dtype=float))
 
@@ -192,9 +217,13 @@ def calendar_rate_parts(model: str, params, chemistry):
     p = dict(params)
     if model == "naumann2018":
         k_ref, ea, t_ref = p["k_ref_per_sqrt_s"], p["activation_energy_j_mol"], p["temp_ref_c"]
+        below = p.get("low_temp_below_c")
+        ea_low = p.get("low_temp_activation_energy_j_mol")
 
         def temp_part(temp_c):
-            return (k_ref * arrhenius_factor(temp_c, ea, t_ref)) ** 2 * SECONDS_PER_HOUR
+            af = arrhenius_factor_below(temp_c, ea, t_ref, below_c=below,
+                                        low_activation_energy_j_mol=ea_low)
+            return (k_ref * af) ** 2 * SECONDS_PER_HOUR
 
         def soc_part(soc_frac):
             return naumann2018_soc_factor(soc_frac, p["soc_c"], p["soc_d"]) ** 2

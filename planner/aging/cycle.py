@@ -46,6 +46,69 @@ def wang2011_cycle_loss_pct(c_rate, temp_c, throughput_ah, *, b=None,
                       / (R_GAS_J_MOL_K * temp_k)) * np.asarray(throughput_ah, dtype=float) ** exponent
 
 
+def plating_factor(temp_c, charge_c_rate, *, plating_below_c, plating_share_ref,
+                   plating_activation_energy_j_mol, plating_c_rate_beta,
+                   plating_sei_activation_energy_j_mol, **_):
+    """Low-temperature factor of a sqrt-law cycle coefficient: lithium plating on graphite.
+
+    Below the crossover temperature ``T_x`` (about 25 °C: Waldmann et al. 2014, J. Power
+    Sources 262, 129-135; Feinauer et al. 2024, J. Power Sources 594, 233948) cycle fade
+    of a graphite anode speeds up as the *charge* temperature falls and the charge
+    current rises. Schimpe et al. 2018 (J. Electrochem. Soc. 165 (2), A181-A193, Eqs. 15
+    and 18, Table IV) split the cycle coefficient into an SEI term
+    ``k_hi exp(-Ea_hi/R (1/T - 1/T_ref))`` and a plating term
+    ``k_lo exp(+Ea_lo/R (1/T - 1/T_ref)) exp(beta (I_ch - I_ref)/C0)``. Relative to its
+    value at ``T_x`` and the same charge rate, their sum is
+
+        F = ((1 - s) AF_sei(T) + w AF_pl(T)) / ((1 - s) + w),   w = s exp(beta (C_ch - 1)),
+
+    with ``s`` the plating share at ``T_x`` and 1 C. ``F = 1`` at and above ``T_x`` (the
+    set's own temperature law applies there). The sqrt-law LFP set multiplies its
+    coefficient by F, as Schimpe fit it; the NMC set, whose activation energies come from
+    Waldmann's Arrhenius plot of the ageing *rate*, multiplies its rate by F.
+
+    Parameters
+    ----------
+    temp_c : array_like
+        Charge temperature, °C (the engine uses the temperature of the cycle).
+    charge_c_rate : array_like
+        Mean charge current as a C-rate.
+    """
+    temp = np.asarray(temp_c, dtype=float)
+    share = plating_share_ref
+    w = share * np.exp(plating_c_rate_beta * (np.asarray(charge_c_rate, dtype=float) - 1.0))
+    # Both Arrhenius terms relative to T_x share x = 1/T - 1/T_x.
+    x = 1.0 / (temp + KELVIN_OFFSET) - 1.0 / (plating_below_c + KELVIN_OFFSET)
+    sei = np.exp(-plating_sei_activation_energy_j_mol / R_GAS_J_MOL_K * x)
+    plating = np.exp(plating_activation_energy_j_mol / R_GAS_J_MOL_K * x)
+    factor = ((1.0 - share) * sei + w * plating) / ((1.0 - share) + w)
+    return np.where(temp < plating_below_c, factor, 1.0)
+
+
+def temperature_factor_with_plating(temp_c, charge_c_rate, params):
+    """The set's Arrhenius factor, times :func:`plating_factor` below the crossover.
+
+    Above ``plating_below_c`` (or for a set without plating parameters) the set's own
+    ``activation_energy_j_mol`` / ``temp_ref_c`` law; below it that law is held at the
+    crossover and the plating factor takes over. Runs once per counted cycle of every
+    lane, so each branch is evaluated on its own cycles only.
+    """
+    temp = np.asarray(temp_c, dtype=float)
+    ea, ref = params["activation_energy_j_mol"], params["temp_ref_c"]
+    if "plating_below_c" not in params:
+        return arrhenius_factor(temp, ea, ref)
+    below = params["plating_below_c"]
+    if temp.ndim == 0:
+        return (arrhenius_factor(max(float(temp), below), ea, ref)
+                * plating_factor(temp, charge_c_rate, **params))
+    cold = temp < below
+    factor = np.empty_like(temp)
+    factor[~cold] = arrhenius_factor(temp[~cold], ea, ref)
+    rate = np.broadcast_to(np.asarray(charge_c_rate, dtype=float), temp.shape)[cold]
+    factor[cold] = float(arrhenius_factor(below, ea, ref)) * plating_factor(temp[cold], rate, **params)
+    return factor
+
+
 def naumann2020_coefficient(c_rate, doc_frac, *, a, b, doc_c, doc_d, **_):
     """Coefficient of Naumann et al. 2020, fraction per sqrt(FEC).
 
@@ -142,7 +205,7 @@ def cycle_exponent(model: str) -> float:
 
 
 def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_frac, count,
-                          temp_c, c_rate, charge_voltage_v_per_cell):
+                          temp_c, c_rate, charge_voltage_v_per_cell, charge_c_rate=None):
     """State increments of counted cycles for the named cycle law, and the law's exponent.
 
     Parameters
@@ -157,6 +220,8 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
         count (0.5 or 1) per cycle.
     temp_c, c_rate, charge_voltage_v_per_cell : ndarray
         Battery temperature (°C), discharge C-rate and charge voltage per cell for each cycle.
+    charge_c_rate : ndarray, optional
+        Charge C-rate for each cycle (the lithium-plating term; default ``c_rate``).
 
     Returns
     -------
@@ -167,17 +232,21 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
     p = dict(params)
     depth = np.asarray(depth_frac, dtype=float)
     n = np.asarray(count, dtype=float)
+    charge_rate = c_rate if charge_c_rate is None else charge_c_rate
     if model == "naumann2020":
-        # Coefficient convention, as Wang et al. 2011 apply their Arrhenius term.
-        k = naumann2020_coefficient(c_rate, depth, **p) * arrhenius_factor(
-            temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
+        # Coefficient convention, as Wang et al. 2011 and Schimpe et al. 2018 apply their
+        # Arrhenius terms (Schimpe's plating factor scales the coefficient).
+        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
+        k = naumann2020_coefficient(c_rate, depth, **p) * heat
         return k * k * n * depth, 0.5
     if model == "schmalstieg2014_cycle":
         volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
-        # Depth and throughput relative to the capacity usable at the charge voltage: the
-        # charge-voltage rule below is stated for *full* cycles at each voltage, so the
-        # shallower full cycle of a lower voltage must not be credited twice.
-        depth = depth / np.asarray(chemistry.usable_fraction(charge_voltage_v_per_cell), dtype=float)
+        if p.get("depth_per_usable", 0.0) >= 0.5:
+            # Depth and throughput relative to the capacity usable at the charge voltage:
+            # the charge-voltage rule below is stated for *full* cycles at each voltage,
+            # so the shallower full cycle of a lower voltage must not be credited twice.
+            # The published model counts depth on rated capacity (the flag is 0 there).
+            depth = depth / np.asarray(chemistry.usable_fraction(charge_voltage_v_per_cell), dtype=float)
         beta = schmalstieg2014_beta_cap(volts, depth, **p)
         temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
         # C-rate term borrowed from Wang et al. 2011 (coefficient convention, squared for z=0.5).
@@ -186,7 +255,8 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
         # The temperature and charge-voltage rules of practice scale cycle *life*: clock convention.
         life = charge_voltage_life_factor(charge_voltage_v_per_cell, p["voltage_ref_v_per_cell"],
                                           p["voltage_doubling_step_v"])
-        heat = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
+        # Waldmann et al. 2014 plot the ageing *rate*: here the factor scales the rate.
+        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
         directions = 2.0 if p["throughput_both_directions"] >= 0.5 else 1.0
         throughput_ah = n * depth * p["cell_capacity_ah"] * directions
         return (beta * c_term) ** 2 * throughput_ah * heat / life, 0.5

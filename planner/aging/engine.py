@@ -289,6 +289,8 @@ class _Sweep:
     cal_monthly: np.ndarray
     efc: np.ndarray
     hours_on: np.ndarray
+    charged: np.ndarray
+    hours_charging: np.ndarray
     discharge_monthly: np.ndarray
     cycles: Cycles | None
     cycle_temp_c: np.ndarray | None
@@ -311,6 +313,7 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
     capacity = kernels.REVERSAL_CAPACITY if do_cycles else 0
     cal, dis = np.zeros((n_chunk, 12)), np.zeros((n_chunk, 12))
     efc, hours_on = np.zeros(n_chunk), np.zeros(n_chunk, np.int64)
+    charged, hours_charging = np.zeros(n_chunk), np.zeros(n_chunk, np.int64)
     rev_v, rev_i = np.empty((n_chunk, capacity)), np.empty((n_chunk, capacity), np.int64)
     n_rev = np.zeros(n_chunk, np.int64)
     rate_hourly = np.ascontiguousarray(temp_rate_site.T)
@@ -321,14 +324,15 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
             soc.T, cur_t, ch.start, ch.stop, has_current, soc_table is not None, do_cycles,
             rate_row, temp_rate_site, table, lo, hi, offset, inv,
             np.append(MONTH_START_H, HOURS_PER_YEAR).astype(np.int64), cal, efc,
-            hours_on, dis, rev_v, rev_i, n_rev)
+            hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging)
     else:
         # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
         n_groups = min(kernels.thread_count(), n_chunk) if compiled else 1
         fn(kernels.hour_sweep)(
             np.ascontiguousarray(soc), np.ascontiguousarray(cur), ch.start, ch.stop, n_groups,
             has_current, soc_table is not None, do_cycles, rate_row, rate_hourly, table, lo, hi,
-            offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev)
+            offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev, charged,
+            hours_charging)
     if do_cycles:
         # Room for n_rev + 1 cycles per lane (a periodic count emits at most that many).
         stored = np.where(n_rev <= capacity, n_rev + 1, 0)
@@ -354,8 +358,9 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
             parts.append((np.full(one[0].size, r),) + tuple(one)
                          + (0.5 * (temp[one[3], site] + temp[one[4], site]), MONTH_OF_HOUR[one[4]]))
         joined = [np.concatenate([p[k] for p in parts]) for k in range(8)]
-        return _Sweep(cal, efc, hours_on, dis, Cycles(*joined[:6]), joined[6], joined[7])
-    return _Sweep(cal, efc, hours_on, dis, None, None, None)
+        return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, Cycles(*joined[:6]),
+                      joined[6], joined[7])
+    return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, None, None, None)
 
 
 def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
@@ -374,7 +379,7 @@ def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
 
 def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltage_v_per_cell,
               horizon_years, *, initial_state: AgingState | None = None, peak_c_rate=None,
-              lane_site=None, aging_set: str | None = None, overrides=None,
+              charge_c_rate=None, lane_site=None, aging_set: str | None = None, overrides=None,
               rate_bin_k: float | None = 0.01, soc_bin_frac: float | None = 0.0001,
               chunk_lanes: int = 1024, engine: str = "auto") -> FadeResult:
     """Calendar and cycle fade of each lane over ``horizon_years`` repetitions of a typical year.
@@ -398,6 +403,9 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     peak_c_rate : array_like, shape (n_lanes,), optional
         Burst C-rate; the cycle C-rate is ``max(mean discharge C-rate, peak_c_rate)``
         (conservative: bursts are charged to the whole cycle).
+    charge_c_rate : array_like, shape (n_lanes,), optional
+        Charge C-rate of the cycles for the lithium-plating term (default: the mean
+        charge current over the hours that charge, from ``current_c_rate``).
     lane_site : array_like of int, shape (n_lanes,), optional
         Column of ``temp_battery_c`` for each lane (lanes of one site share a column).
     aging_set : str, optional
@@ -438,6 +446,8 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     charge_v = np.broadcast_to(np.asarray(charge_voltage_v_per_cell, dtype=float), (n_lanes,))
     peak = None if peak_c_rate is None else np.broadcast_to(
         np.asarray(peak_c_rate, dtype=float), (n_lanes,))
+    given_charge_rate = None if charge_c_rate is None else np.broadcast_to(
+        np.asarray(charge_c_rate, dtype=float), (n_lanes,))
 
     temp_part, soc_part, cal_exp = calendar_rate_parts(params.calendar_model, params.calendar, chem)
     # Temperature part once per site that has lanes here (lanes of a site share it), as
@@ -472,6 +482,7 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
                                 soc_bin_frac, rate_row[ch], temp_rate_site)
             efc[ch] = sweep.efc
             hours_on = sweep.hours_on
+            charged, hours_charging = sweep.charged, sweep.hours_charging
             discharge_monthly = sweep.discharge_monthly
             cycles, cycle_temp, cycle_month = sweep.cycles, sweep.cycle_temp_c, sweep.cycle_month
         else:
@@ -487,6 +498,11 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
                 discharge = np.maximum(cur, 0.0)
                 efc[ch] = discharge.sum(axis=0)
                 hours_on = np.count_nonzero(discharge, axis=0)
+                if not primary:
+                    charge = np.maximum(-cur, 0.0)
+                    charged = charge.sum(axis=0)
+                    hours_charging = np.count_nonzero(charge, axis=0)
+                    del charge
                 if primary:
                     discharge_monthly = (_MONTH_MATRIX.T @ discharge).T
             cycles = None if primary else extract_cycles_lanes(soc_by_lane, periodic=True,
@@ -499,10 +515,14 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
             continue
         if current is not None:
             c_rate = efc[ch] / np.maximum(hours_on, 1)
+            charge_rate = charged / np.maximum(hours_charging, 1)
         else:
             c_rate = np.zeros(n_chunk)
+            charge_rate = np.zeros(n_chunk)
         if peak is not None:
             c_rate = np.maximum(c_rate, peak[ch])
+        if given_charge_rate is not None:
+            charge_rate = given_charge_rate[ch]
         if cycles.lane.size == 0:
             continue
         if not use_kernel:
@@ -511,7 +531,8 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
             cycle_month = MONTH_OF_HOUR[cycles.i_end]
         inc, _ = cycle_state_increment(
             params.cycle_model, params.cycle, chem, cycles.range_, cycles.mean, cycles.count,
-            cycle_temp, c_rate[cycles.lane], charge_v[ch][cycles.lane])
+            cycle_temp, c_rate[cycles.lane], charge_v[ch][cycles.lane],
+            charge_c_rate=charge_rate[cycles.lane])
         key = cycles.lane * 12 + cycle_month
         cyc_monthly[:, ch] = np.bincount(key, weights=inc, minlength=12 * n_chunk).reshape(n_chunk, 12).T
 

@@ -225,7 +225,7 @@ def _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r):
 def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calendar, do_cycles,
                lane_rate_row, temp_rate_hourly, soc_table, soc_lo, soc_hi, soc_offset,
                soc_inv_step, month_of_hour, cal_monthly, efc, hours_on, discharge_monthly,
-               rev_v, rev_i, n_rev):
+               rev_v, rev_i, n_rev, charged, hours_charging):
     """One pass over the hours of lanes ``lane_lo:lane_hi`` (output row r = lane lane_lo + r).
 
     Hour by hour, lane by lane within the hour: each hour's row of the (hours x lanes)
@@ -257,6 +257,9 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
         Out: each lane's reversals (``rainflow.reversals`` rules), the first ``capacity``.
     n_rev : ndarray of int, shape (n_chunk,)
         Out: each lane's number of reversals (above ``capacity``: row incomplete).
+    charged, hours_charging : ndarray, shape (n_chunk,), zeros
+        Out: charge taken per year (C-rate x h) and hours with charge (the charge C-rate
+        of the lithium-plating term).
     """
     n_hours = soc.shape[0]
     n_chunk = lane_hi - lane_lo
@@ -271,6 +274,8 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
         cal = np.zeros((12, w))
         dis = np.zeros((12, w))
         on = np.zeros(w, dtype=np.int64)
+        chg = np.zeros(w)
+        chg_on = np.zeros(w, dtype=np.int64)
         rows = lane_rate_row[first:first + w]
         # rainflow.reversals for all lanes of the group, hour by hour. The package's "last
         # distinct point" always equals the previous hour's value (a zero step leaves it
@@ -307,12 +312,16 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                     for q in range(w):
                         acc[q] += d if d > 0.0 else 0.0
                         on[q] += 1 if d > 0.0 else 0
+                        chg[q] += -d if d < 0.0 else 0.0
+                        chg_on[q] += 1 if d < 0.0 else 0
                 else:
                     c_row = current[h, first:first + w]
                     for q in range(w):
                         d = float(c_row[q])
                         acc[q] += d if d > 0.0 else 0.0
                         on[q] += 1 if d > 0.0 else 0
+                        chg[q] += -d if d < 0.0 else 0.0
+                        chg_on[q] += 1 if d < 0.0 else 0
             if do_cycles and h >= 2:
                 p_row = soc[h - 1, first:first + w]
                 turns = 0
@@ -358,12 +367,14 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                 total += dis[month, q]
             efc[r0 + q] = total
             hours_on[r0 + q] = on[q]
+            charged[r0 + q] = chg[q]
+            hours_charging[r0 + q] = chg_on[q]
 
 
 def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_calendar,
                do_cycles, lane_rate_row, temp_rate_site, soc_table, soc_lo, soc_hi, soc_offset,
                soc_inv_step, month_start_h, cal_monthly, efc, hours_on, discharge_monthly,
-               rev_v, rev_i, n_rev):
+               rev_v, rev_i, n_rev, charged, hours_charging):
     """:func:`hour_sweep` for inputs stored lane by lane (lanes x hours, each lane contiguous).
 
     Same outputs from the same arithmetic; used when the caller's hourly arrays are
@@ -389,16 +400,22 @@ def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_c
             c = current_by_lane[0] if shared_current else current_by_lane[lane]
             on = 0
             total = 0.0
+            chg = 0.0
+            chg_on = 0
             for month in range(12):
                 acc = 0.0
                 for h in range(month_start_h[month], month_start_h[month + 1]):
                     d = float(c[h])
                     acc += d if d > 0.0 else 0.0
                     on += 1 if d > 0.0 else 0
+                    chg += -d if d < 0.0 else 0.0
+                    chg_on += 1 if d < 0.0 else 0
                 discharge_monthly[r, month] = acc
                 total += acc
             efc[r] = total
             hours_on[r] = on
+            charged[r] = chg
+            hours_charging[r] = chg_on
         if do_cycles:
             n_rev[r] = reversals_into(x, n_hours, rev_v[r], rev_i[r])
 

@@ -3,7 +3,9 @@
 Each command lives in its own module of this package and is imported only when
 used, so ``planner --help`` stays fast. Errors the user can fix are
 :class:`planner.errors.InputError`: one line on stderr, exit code 2, and a
-traceback only with ``--debug``.
+traceback only with ``--debug``. An output that cannot be written is
+:class:`planner.errors.OutputError` (exit code 4); Ctrl-C exits 130, SIGTERM 143 and
+SIGHUP 129, each after removing the temporary files of an unfinished write.
 """
 
 from __future__ import annotations
@@ -15,11 +17,14 @@ import traceback
 import click
 
 from planner import __version__
-from planner.errors import InputError
+from planner.cli.terminal import Stopped, console_warnings, printable, stop_on_signals
+from planner.errors import InputError, OutputError
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 EXIT_INFEASIBLE = 3
+EXIT_WRITE_FAILED = 4
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C (common practice)
 
 _COMMANDS = {
     "plan": ("planner.cli.plan", "plan_command"),
@@ -42,11 +47,17 @@ class _LazyGroup(click.Group):
     def invoke(self, ctx):
         try:
             return super().invoke(ctx)
-        except InputError as err:
+        except (InputError, OutputError) as err:
             if ctx.obj and ctx.obj.get("debug"):
                 traceback.print_exc()
-            click.echo(f"error: {err}", err=True)
-            ctx.exit(EXIT_BAD_INPUT)
+            click.echo(f"error: {printable(err)}", err=True)
+            ctx.exit(EXIT_BAD_INPUT if isinstance(err, InputError) else EXIT_WRITE_FAILED)
+        except KeyboardInterrupt:
+            click.echo("interrupted; unfinished outputs were removed", err=True)
+            ctx.exit(EXIT_INTERRUPTED)
+        except Stopped as err:
+            click.echo(f"{err}; unfinished outputs were removed", err=True)
+            ctx.exit(err.exit_code)
 
 
 @click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
@@ -69,7 +80,8 @@ def cli(ctx, quiet, debug):
 
 def main(argv=None):
     """Console entry point."""
-    return cli.main(args=argv, prog_name="planner")
+    with stop_on_signals(), console_warnings():
+        return cli.main(args=argv, prog_name="planner")
 
 
 def options(ctx: click.Context) -> dict:

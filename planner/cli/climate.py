@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import json
+import os
 from pathlib import Path
 
 import click
 
-from planner.errors import InputError
+from planner.errors import InputError, OutputError
 
 
 def _enclosure_choices():
@@ -57,7 +58,12 @@ def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, a
         raise InputError("missing SOURCE; expected a bundled climate name (see "
                          "'planner climate --list') or a weather file", source="climate")
     from planner.climate.summary import summarize_temperatures
+    from planner.fileio import same_file
     from planner.thermal import battery_temperature
+
+    if csv_path and os.path.isfile(source) and same_file(csv_path, source):
+        raise InputError(f"--csv {csv_path} is the weather file read; expected another file "
+                         "for the hourly series", source="climate")
 
     year = load_climate(source, warming_k=warming_k, options=_parse_options(option_pairs))
     thermal = battery_temperature(year, enclosure, heater_setpoint_c=heater_setpoint_c)
@@ -137,6 +143,8 @@ def _write_csv(path: Path, year, thermal) -> None:
     try:
         with atomic_path(path) as tmp:
             frame.to_csv(tmp, index=False, float_format="%.3f")
+    except OutputError:
+        raise
     except OSError as err:
-        raise InputError(f"cannot write the hourly CSV ({err.strerror}); expected a writable "
-                         "folder", source=str(path)) from None
+        raise OutputError(f"could not write the hourly CSV ({err.strerror}); expected a "
+                          "writable folder", source=str(path)) from None

@@ -65,9 +65,16 @@ def _print_list():
         click.echo(f"{chem.id:8s} {chem.name}")
         click.echo(f"         charge voltages [V/cell]: {settings} "
                    f"(default {chem.default_charge_voltage_v_per_cell:.2f})")
+        click.echo(f"         service-life limit in plans: {chem.service_life_years:g} years")
         for name, params in chem.aging_sets.items():
             mark = "default" if name == chem.default_aging_set else "alternative"
             click.echo(f"         aging set {name} ({mark}): {params.description}")
+            env = params.envelope
+            if env is not None:
+                click.echo(f"           fitted on: calendar {env.calendar_temp_c[0]:g} to "
+                           f"{env.calendar_temp_c[1]:g} °C, cycling {env.cycle_temp_c[0]:g} to "
+                           f"{env.cycle_temp_c[1]:g} °C at {env.c_rate[0]:g}-{env.c_rate[1]:g} C, "
+                           f"tests up to {env.test_years:g} years ({env.source})")
         for key, text in chem.sources.items():
             if not key.startswith("aging."):
                 click.echo(f"           {key}: {text}")
@@ -116,11 +123,13 @@ def _print_list():
 @click.option("--across-models", "across_models", is_flag=True,
               help="Spread the draws over every published aging parameter set of the "
                    "chemistry, so model disagreement widens the P10-P90 band.")
+@click.option("--aging-set", "aging_set", default=None, metavar="ID",
+              help="Aging parameter set of the chemistry (default: its default set; see --list).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
 @click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
 def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
                  cycles_per_day, c_rate, eol_soh, years, series_cells, cell_spread_frac,
-                 balancing, draws, across_models, as_json, list_only):
+                 balancing, draws, across_models, aging_set, as_json, list_only):
     """Predict the life of a battery stored or cycled at a temperature or in a climate.
 
     Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
@@ -130,6 +139,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     Examples:
       planner life --list
       planner life --chemistry lfp --temp-c 25
+      planner life --chemistry lfp --temp-c 5 --aging-set naumann
       planner life --chemistry nmc --temp-c 25 --charge-voltage-v 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
       planner life --chemistry vrla --climate hot-desert --enclosure cabinet-sun
       planner life --chemistry lfp --temp-c 35 --series-cells 16 --balancing passive --json
@@ -138,12 +148,14 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         _print_list()
         return
     from planner.aging import age_lanes
+    from planner.aging.envelope import extrapolation_notes
     from planner.chemistry import get_chemistry
 
     if chem_id is None:
         raise InputError("missing --chemistry; expected one of vrla, lfp, nmc, lto, lisocl2",
                          source="life")
     chem = get_chemistry(chem_id)
+    params = chem.aging_set(aging_set)
     if (temp_c is None) == (climate is None):
         raise InputError("give exactly one of --temp-c T or --climate SOURCE", source="life")
     if temp_c is not None and not -60.0 <= temp_c <= 90.0:
@@ -179,7 +191,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
             raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
                              f"at most {max_per_day:g} at this depth and C-rate", source="life")
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
-        peak = c_rate
+        peak = charge_rate = c_rate
     else:
         stored = top if soc_frac is None else soc_frac
         if not 0.0 <= stored <= top + 1e-9:
@@ -189,10 +201,10 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         # A primary cell feeds its load (--c-rate given explicitly); a stored pack carries none.
         load = c_rate if not chem.rechargeable and _given("c_rate") else 0.0
         current = np.full(HOURS_PER_YEAR, load)
-        peak = None
+        peak = charge_rate = None
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
-                       peak_c_rate=peak)
+                       peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=params.name)
     eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
     reached = math.isfinite(eol_years)
     out = {
@@ -209,12 +221,19 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         "equivalent_full_cycles_per_year": float(result.efc_per_year[0]),
         "soh_by_year": [float(v) for v in result.soh_monthly[::12, 0]],
     }
+    notes = extrapolation_notes(
+        params.envelope, mean_temp_c=float(temp.mean()),
+        life_years=eol_years if reached else math.inf,
+        efc_per_year=float(result.efc_per_year[0]), c_rate=c_rate if cycling else None,
+        soc_frac=None if cycling else float(soc[0]))
+    out["life_extrapolated"] = bool(notes)
+    out["extrapolation_notes"] = notes
     pack_options = (series_cells, cell_spread_frac, balancing, draws)
     if any(option is not None for option in pack_options) or across_models:
         model_sets = None
         if across_models:
             model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
-                                    years, peak_c_rate=peak, aging_set=name)
+                                    years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
                           for name in chem.aging_sets]
         out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
@@ -237,6 +256,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     else:
         click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
     click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+    for note in notes:
+        click.echo(f"extrapolated: {note}")
     if "years_to_eol_p50" in out:
         def shown(value):
             return f"{value:.1f}" if value is not None else f">{years}"

@@ -8,8 +8,8 @@ from pathlib import Path
 
 import click
 
-from planner.errors import InputError
-from planner.fileio import write_text_atomic
+from planner.errors import InputError, OutputError
+from planner.fileio import OutputBatch
 from planner.schema import NAMED_SECTIONS, SECTIONS, SITE_COLUMNS, Field
 
 # Two invented example sites: a river gauge in the mountains and a desert pipeline monitor.
@@ -40,14 +40,21 @@ def new_command(directory, force):
     Example:
       planner new my-network && planner plan my-network/study.toml
     """
-    directory.mkdir(parents=True, exist_ok=True)
     study_path, sites_path = directory / "study.toml", directory / "sites.csv"
     for path in (study_path, sites_path):
         if path.exists() and not force:
             raise InputError("already exists; expected a new folder (or use --force)",
                              source=str(path))
-    write_text_atomic(sites_path, starter_sites_csv())
-    write_text_atomic(study_path, starter_study_toml())
+    try:
+        directory.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise OutputError(f"could not create the folder: {err.strerror}; expected a folder "
+                          "you may write in", source=str(directory)) from None
+    with OutputBatch() as batch:  # both files or neither
+        for path, text in ((sites_path, starter_sites_csv()), (study_path, starter_study_toml())):
+            batch.add(path, lambda tmp, text=text: Path(tmp).write_text(text, encoding="utf-8"),
+                      what="starter study")
+        batch.commit()
     click.echo(f"wrote {study_path} and {sites_path}", err=True)
 
 

@@ -2,18 +2,25 @@
 
 from __future__ import annotations
 
+import math
+import os
 import sys
 from pathlib import Path
 
 import click
 
 from planner.cli import EXIT_INFEASIBLE, options, progress_enabled
+from planner.cli.terminal import printable
+from planner.energy.balance import SHORTFALL_CAUSE
+from planner.errors import InputError, OutputError
+from planner.fileio import OutputBatch, is_char_device, prepare_target, same_file
 
 
 @click.command("plan")
 @click.argument("study", type=click.Path(dir_okay=False, path_type=Path))
-@click.option("--out", "out_path", type=click.Path(dir_okay=False, path_type=Path),
-              help="Workbook to write (default output/<study name>.xlsx).")
+@click.option("--out", "out_path", type=str, default=None,
+              help="Workbook (.xlsx) to write, or a folder ending in '/' "
+                   "(default output/<study name>.xlsx).")
 @click.option("--json", "json_path", type=str, default=None,
               help="Also write the plan as JSON to this path ('-' for standard output).")
 @click.pass_context
@@ -22,30 +29,24 @@ def plan_command(ctx, study, out_path, json_path):
     replacements and trips, and write the plan workbook (and JSON).
 
     Exit codes: 0 a plan was written; 2 bad input or usage; 3 no feasible plan
-    (the workbook explaining why is still written).
+    (the workbook explaining why is still written); 4 an output could not be written.
 
     \b
     Example:
       planner plan scenarios/corvale.toml --json output/corvale.json
     """
     from planner.pipeline import PROGRESS_STAGES, run_study
-    from planner.report import plan_to_json_text, write_json, write_workbook
     from planner.scenario import load_study
 
     opts = options(ctx)
     study_obj = load_study(study)
-    out = out_path or _default_workbook(study_obj)
-    quiet = opts.get("quiet") or json_path == "-"
+    out, json_target = output_paths(study_obj, out_path, json_path)
+    quiet = opts.get("quiet") or json_target == "-"
 
     with _progress(ctx, len(study_obj.sites) + PROGRESS_STAGES) as advance:
         plan = run_study(study_obj, progress=advance)
 
-    write_workbook(plan, out)
-    json_target = json_path or study_obj.settings["output"]["json"] or None
-    if json_target == "-":
-        sys.stdout.write(plan_to_json_text(plan))
-    elif json_target:
-        write_json(plan, Path(json_target))
+    write_outputs(plan, out, json_target)
 
     if not quiet:
         click.echo(_summary(plan, out), err=True)
@@ -53,11 +54,87 @@ def plan_command(ctx, study, out_path, json_path):
         ctx.exit(EXIT_INFEASIBLE)
 
 
-def _default_workbook(study) -> Path:
-    configured = study.settings["output"]["workbook"]
-    if configured:
-        return (study.path.parent / configured).resolve()
-    return Path("output") / f"{study.stem}.xlsx"
+def output_paths(study, out_option: str | None, json_option: str | None):
+    """The workbook path and the JSON target (a path, "-" or None), checked before planning.
+
+    Command-line paths are taken from the current folder, ``[output]`` paths from the
+    study's folder. A path ending in a separator (or naming a folder) means a folder: the
+    workbook is ``<study name>.xlsx`` in it. Refused (exit 2): a workbook not named
+    ``.xlsx``; an output that is one of the study's inputs or the other output; a folder
+    or special file other than a character device (written straight through).
+    """
+    configured = study.settings["output"]
+    base = study.path.parent
+    if out_option:
+        workbook, source = _as_file(Path(out_option), out_option, study), "--out"
+    elif configured["workbook"]:
+        workbook = _as_file(base / configured["workbook"], configured["workbook"], study)
+        source = "[output].workbook"
+    else:
+        workbook, source = Path("output") / f"{study.stem}.xlsx", "default workbook"
+    if workbook.suffix.lower() != ".xlsx" and not is_char_device(workbook):
+        raise InputError(f"{source} {printable(workbook)} does not end in .xlsx; expected a "
+                         "workbook name like plan.xlsx (or a folder ending in '/')", source="plan")
+    json_target = json_option or None
+    json_source = "--json"
+    if json_target is None and configured["json"]:
+        json_target, json_source = str(base / configured["json"]), "[output].json"
+    outputs = [(workbook, source, "plan workbook")]
+    if json_target and json_target != "-":
+        if json_target.endswith(("/", os.sep)) or os.path.isdir(json_target):
+            raise InputError(f"{json_source} {printable(json_target)} is a folder; expected a "
+                             "file name such as plan.json", source="plan")
+        json_target = Path(json_target)
+        outputs.append((json_target, json_source, "plan JSON"))
+    inputs = study.input_files()
+    for index, (path, where, what) in enumerate(outputs):
+        if "\x00" in str(path):
+            raise InputError(f"{where} {printable(path)} holds a NUL character in the path; "
+                             "expected a file name", source="plan")
+        for known, words in inputs.items():
+            if same_file(path, known):
+                raise InputError(f"{where} {printable(path)} is {words}; expected an output path "
+                                 "that is none of the study's inputs", source="plan")
+        for other, other_where, _ in outputs[:index]:
+            if same_file(path, other) and not is_char_device(path):
+                raise InputError(f"{where} and {other_where} are the same file "
+                                 f"{printable(path)}; expected two different outputs", source="plan")
+    for path, _, what in outputs:
+        prepare_target(path, what=what)
+    return workbook, json_target
+
+
+def _as_file(path: Path, text: str, study) -> Path:
+    """A folder (trailing separator or existing folder) becomes <folder>/<study>.xlsx."""
+    if text.endswith(("/", os.sep)) or os.path.isdir(path):
+        return path / f"{study.stem}.xlsx"
+    return path
+
+
+def write_outputs(plan, workbook: Path, json_target) -> None:
+    """Write the workbook and the JSON together: both are renamed into place only when
+    both were written (standard output, for ``-``, is written before the renames)."""
+    from planner.report import build_workbook, plan_to_json_text
+
+    with OutputBatch() as batch:
+        batch.add(workbook, build_workbook(plan).save, what="plan workbook")
+        if json_target is not None:
+            text = plan_to_json_text(plan)
+            if json_target == "-":
+                _write_stdout(text)
+            else:
+                batch.add(json_target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
+                          what="plan JSON")
+        batch.commit()
+
+
+def _write_stdout(text: str) -> None:
+    try:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    except OSError as err:
+        raise OutputError(f"could not write the plan JSON: {err.strerror or err}",
+                          source="standard output") from None
 
 
 class _progress:
@@ -76,7 +153,7 @@ class _progress:
         def advance(step=1, label=None):
             if self.bar is not None:
                 if label:
-                    self.bar.label = label
+                    self.bar.label = printable(label)  # a site id may hold control characters
                 self.bar.update(step)
         return advance
 
@@ -87,13 +164,16 @@ class _progress:
 
 
 def _summary(plan, out) -> str:
-    currency = plan["study"]["currency"]
+    currency = printable(plan["study"]["currency"])
     solver = plan["solver"]
+    total, gap = plan["total_present_cost"], solver["gap_frac"]
+    total_text = (f"{total:,.0f} {currency}" if total is not None and math.isfinite(total)
+                  else "none (no feasible plan)")
+    gap_text = f", gap {gap:.2%}" if gap is not None and math.isfinite(gap) else ""
     lines = [
-        f"Plan for {plan['study']['name']}: {len(plan['sites'])} sites, "
+        f"Plan for {printable(plan['study']['name'])}: {len(plan['sites'])} sites, "
         f"{plan['study']['horizon_years']} years",
-        f"  total present cost: {plan['total_present_cost']:,.0f} {currency} "
-        f"(solver {solver['name']}, {solver['status']}, gap {solver['gap_frac']:.2%})",
+        f"  total present cost: {total_text} (solver {solver['name']}, {solver['status']}{gap_text})",
     ]
     n_sites = len(plan["sites"])
     lines.append("  fleet cost with each chemistry wherever it can serve:")
@@ -107,7 +187,11 @@ def _summary(plan, out) -> str:
             text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
                      f"{len(unserved)} {verb} another chemistry)")
         lines.append(f"    {row['chemistry']}: {text}")
+    for site in plan["sites"]:
+        for warning in site.get("warnings") or []:
+            if str(warning).startswith(SHORTFALL_CAUSE):
+                lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
     for item in plan.get("unserved_sites", []):
-        lines.append(f"  NOT SERVED {item['id']}: {item['reason']}")
-    lines.append(f"  workbook: {out}")
+        lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
+    lines.append(f"  workbook: {printable(out)}")
     return "\n".join(lines)

@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import functools
+import os
 from pathlib import Path
 
 import numpy as np
@@ -162,7 +163,7 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
         path = Path(name)
         if not path.is_absolute():
             path = Path(base_dir or ".") / path
-        if not path.suffix and not path.exists():
+        if not path.suffix and not os.path.exists(path):
             import difflib
             known = [n for n, _ in list_bundled()]
             close = difflib.get_close_matches(name, known, n=1)
@@ -183,13 +184,12 @@ def _read_file_cached(path: Path, options: dict | None) -> TypicalYear:
     import hashlib
 
     from planner.climate import readers
+    from planner.fileio import read_input_bytes
 
-    try:
-        digest = hashlib.blake2b(path.read_bytes(), digest_size=16).hexdigest()
-        key = (str(path.resolve()), digest,
-               tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
-    except OSError:
-        return readers.read_climate_file(path, options=options)
+    data = read_input_bytes(path, what="an EPW, TMY3, TMY2 or CSV climate file")
+    digest = hashlib.blake2b(data, digest_size=16).hexdigest()
+    key = (str(path.resolve()), digest,
+           tuple(sorted((str(k), repr(v)) for k, v in (options or {}).items())))
     cached = _FILE_CACHE.get(key)
     if cached is None:
         cached = readers.read_climate_file(path, options=options)

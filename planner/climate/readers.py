@@ -28,6 +28,7 @@ import pandas as pd
 from planner.climate import (HOURS_PER_YEAR, REFERENCE_YEAR, ClimateWarning, TypicalYear,
                              hour_starts)
 from planner.errors import InputError
+from planner.fileio import check_input_file
 
 #: Bundled real typical years shipped inside pvlib's data folder: name -> (file, format).
 PVLIB_FILES = {
@@ -150,9 +151,8 @@ def read_climate_file(path: Path, *, options: dict | None = None) -> TypicalYear
     """
     path = Path(path)
     where = str(path)
-    if not path.is_file():
-        raise InputError("climate file not found or not a file; expected an EPW, TMY3, "
-                         "TMY2 or CSV file", source=where)
+    # By type and size before any reader opens it: a FIFO or device would never end.
+    check_input_file(path, what="an EPW, TMY3, TMY2 or CSV climate file")
     options = dict(options or {})
     suffix = path.suffix.lower()
     kind = {".epw": "epw", ".tm2": "tmy2"}.get(suffix)

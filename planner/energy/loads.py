@@ -13,12 +13,14 @@ non-leap typical year (8,760 hours).
 from __future__ import annotations
 
 import csv
+import io
 import math
 import os
 
 import numpy as np
 
 from planner.errors import InputError
+from planner.fileio import read_input_bytes
 
 HOURS_PER_YEAR = 8760
 
@@ -215,12 +217,11 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
         its line), or a row count other than 8,760/8,784.
     """
     src = os.fspath(path)
+    data = read_input_bytes(src, what="a CSV of hourly load")
     try:
-        with open(src, newline="", encoding="utf-8-sig") as fh:
-            rows = [r for r in csv.reader(fh) if any(cell.strip() for cell in r)]
-    except FileNotFoundError:
-        raise InputError("file not found, expected a CSV of hourly load", source=src) from None
-    except (OSError, UnicodeDecodeError, csv.Error) as exc:
+        text = data.decode("utf-8-sig")
+        rows = [r for r in csv.reader(io.StringIO(text, newline="")) if any(c.strip() for c in r)]
+    except (UnicodeDecodeError, csv.Error) as exc:
         raise InputError(f"cannot read ({type(exc).__name__}), expected a UTF-8 CSV",
                          source=src) from None
     if not rows:
@@ -246,7 +247,7 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
     bad = ~np.isfinite(values) | (values < 0) | (values > MAX_LOAD_W)
     if np.any(bad):
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"line {i + 2}, column '{column}': found {values[i]!r} W, expected "
+        raise InputError(f"line {i + 2}, column '{column}': found {values[i]:g} W, expected "
                          f"0 to {MAX_LOAD_W:g} W", source=src)
     if values.size == HOURS_PER_YEAR + 24:
         values = np.delete(values, np.s_[_LEAP_DAY_START_H:_LEAP_DAY_START_H + 24])

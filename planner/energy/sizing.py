@@ -120,6 +120,38 @@ def temperature_factor_from_derating(available_fraction, *,
     return float(k) if k.ndim == 0 else k
 
 
+LEAD_ACID_TEMPERATURE_METHODS = ("datasheet", "ieee485")
+"""How the lead-acid temperature factor is found: the chemistry's datasheet-style
+available-capacity curve (default) or the IEEE 485 Table 1 correction."""
+
+
+def lead_acid_sizing_temperature_factor(temp_c, available_fraction, method: str = "datasheet"):
+    """K_T of a lead-acid pack at its lowest battery temperature, by the chosen method.
+
+    ``"datasheet"`` (default): ``1 / f`` with ``f`` the chemistry's available capacity at
+    ``temp_c`` (VRLA datasheets at C/10-C/20: about 0.85 at 0 °C, K_T about 1.18; from
+    memory). A telemetry pack is discharged over days of autonomy, at C/100 or slower,
+    where the low-rate datasheet curve applies. ``"ieee485"``: IEEE 485 Table 1
+    (:func:`lead_acid_temperature_factor`, about 1.40 at 0 °C, from memory), written for
+    vented cells at the 1-8 h rates of stationary duty: colder-sensitive and more
+    conservative. Choose it where a utility or client requires IEEE 485 sizing.
+
+    Parameters
+    ----------
+    temp_c : float
+        Lowest expected battery temperature, °C.
+    available_fraction : float
+        The chemistry's available-capacity fraction at ``temp_c``.
+    method : {"datasheet", "ieee485"}
+    """
+    if method == "datasheet":
+        return temperature_factor_from_derating(available_fraction)
+    if method == "ieee485":
+        return lead_acid_temperature_factor(max(float(temp_c), -40.0))
+    raise InputError(f"lead-acid temperature method: found {method!r}, expected one of "
+                     f"{', '.join(LEAD_ACID_TEMPERATURE_METHODS)}")
+
+
 @dataclass(frozen=True)
 class ReferenceSize:
     """The 1x reference size with every factor of the chain, to follow it by hand.

@@ -66,10 +66,31 @@ def _validate(problem: FleetProblem) -> None:
         bad = [m for m in s.access_months if not 1 <= int(m) <= 12]
         if bad:
             raise InputError(f"site {s.site_id}: access month {bad[0]} is outside 1-12", source=src)
+    _check_finite_money(problem, src)
     ids = [s.site_id for s in problem.sites]
     if len(set(ids)) != len(ids):
         dup = sorted({i for i in ids if ids.count(i) > 1})[0]
         raise InputError(f"site id {dup!r} appears more than once", source=src)
+
+
+def _check_finite_money(problem: FleetProblem, src: str) -> None:
+    """Every amount must be a finite number before any model is built (an overflowed
+    amount makes the solver search without end)."""
+    amounts = [(f"trip cost of region {r!r}", v) for r, v in problem.trip_cost_by_region.items()]
+    amounts.append(("annual_budget", problem.annual_budget or 0.0))
+    for s in problem.sites:
+        amounts += [(f"site {s.site_id}: site_visit_cost", s.site_visit_cost),
+                    (f"site {s.site_id}: downtime_cost_per_day", s.downtime_cost_per_day),
+                    (f"site {s.site_id}: unplanned_trip_cost", s.unplanned_trip_cost)]
+        if s.existing is not None:
+            amounts.append((f"site {s.site_id}: disposal of the existing pack", s.existing.disposal_cost))
+        for c in s.candidates:
+            amounts += [(f"site {s.site_id}, design {c.design_id}: {name}", getattr(c, name))
+                        for name in ("pack_cost", "install_cost", "disposal_cost")]
+    for what, value in amounts:
+        if not math.isfinite(float(value)):
+            raise InputError(f"{what} is {value}; expected a finite amount (money fields are "
+                             "bounded, docs/study-file.md)", source=src)
 
 
 def _keeps_to_horizon(site: SiteOptions, h: int) -> bool:

@@ -9,7 +9,10 @@ ecosystem.md §1) and handled here:
 * after a time-limited solve ``LpStatus`` still says "Optimal": the status is read from
   ``prob.sol_status`` and the solver's own model status / gap;
 * after an infeasible CBC solve the objective still has a value: the status is checked
-  before any value is read.
+  before any value is read;
+* a non-finite cost (an overflowed money amount) makes HiGHS spin past its time limit:
+  the objective is checked finite before solving, and scaled so its largest coefficient
+  is at most :data:`MAX_SCALED_COST` (HiGHS treats costs from 1e20 as infinite).
 """
 
 from __future__ import annotations
@@ -83,6 +86,27 @@ def quiet_stdout():
         os.close(devnull)
 
 
+#: Largest objective coefficient handed to the solver; larger objectives are divided down.
+MAX_SCALED_COST = 1e6
+
+
+def objective_scale(c: np.ndarray, offset: float = 0.0) -> float:
+    """The divisor that brings the largest |cost| to at most MAX_SCALED_COST (>= 1).
+
+    Raises :class:`planner.errors.InputError` when a cost or the offset is not finite:
+    the solver would otherwise search without end (money fields are bounded in
+    ``planner.schema``; this guards every other way in).
+    """
+    from planner.errors import InputError
+
+    if not (np.all(np.isfinite(c)) and math.isfinite(offset)):
+        raise InputError("the cost model holds an amount too large to be a finite number; "
+                         "expected money fields within their documented bounds "
+                         "(docs/study-file.md)", source="optimizer")
+    largest = float(np.max(np.abs(c))) if c.size else 0.0
+    return max(1.0, largest / MAX_SCALED_COST)
+
+
 def gap(objective: float, bound: float) -> float:
     """Relative gap ``(objective - bound) / max(|objective|, 1e-9)``, never negative."""
     if not (math.isfinite(objective) and math.isfinite(bound)):
@@ -129,8 +153,9 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
     name = pick_solver(solver)
     t0 = time.perf_counter()
     c = np.asarray(c, dtype=float)
+    scale = objective_scale(c, offset)
     has_int = bool(np.any(integer))
-    prob, xs = _build_pulp(c, np.asarray(rows), np.asarray(cols), np.asarray(vals, dtype=float),
+    prob, xs = _build_pulp(c / scale, np.asarray(rows), np.asarray(cols), np.asarray(vals, dtype=float),
                            np.asarray(row_lo, dtype=float), np.asarray(row_hi, dtype=float),
                            np.asarray(col_ub, dtype=float), np.asarray(integer, dtype=bool))
     build_seconds = time.perf_counter() - t0
@@ -143,7 +168,7 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
             h = prob.solverModel
             info = h.getInfo()
             if has_int:
-                bound = float(info.mip_dual_bound)
+                bound = float(info.mip_dual_bound) * scale
         else:
             with tempfile.TemporaryDirectory() as tmp:
                 log = os.path.join(tmp, "cbc.log")
@@ -156,7 +181,7 @@ def solve_milp(c, rows, cols, vals, row_lo, row_hi, col_ub, integer, *, solver: 
                 text = open(log, encoding="utf-8", errors="replace").read() if os.path.exists(log) else ""
             found = _CBC_BOUND.findall(text)
             if found:
-                bound = float(found[-1])
+                bound = float(found[-1]) * scale
     seconds = time.perf_counter() - t0
     sol = prob.sol_status
     if sol in (pulp.LpSolutionInfeasible, pulp.LpSolutionUnbounded) or prob.status == pulp.LpStatusInfeasible:

@@ -1,15 +1,20 @@
 """Writing values into worksheet cells safely.
 
-Every string that reaches a cell passes through :func:`neutralise_text`, so a site name,
-region or note can never become a live formula, and through :func:`put` /
-:func:`write_rows`, which force the cell's data type to text. Numbers stay numeric.
+Every string that reaches a cell passes through :func:`put` / :func:`write_rows`, which
+force the cell's data type to text (a shared string, never a formula), so a site name,
+region or note can never become a live formula. A string that starts like a formula is
+also given the text number format (``@``) and the quote-prefix flag, so a spreadsheet
+program shows it exactly as typed and keeps it text even when the cell is edited.
+Numbers stay numeric.
 
 Reference: OWASP Foundation, "CSV Injection" (community page, owasp.org/www-community/
 attacks/CSV_Injection): a field beginning with ``=``, ``+``, ``-``, ``@``, tab or carriage
-return may be executed by a spreadsheet program; prefix it with a single quote and keep
-the cell typed as text. openpyxl 3.1 turns any assigned str that starts with ``=`` into a
-formula and one like ``#N/A`` into an error literal, so the data type is forced after
-assignment as well (measured, ../shared/notes/ecosystem.md §4).
+return may be executed by a spreadsheet program. openpyxl 3.1 turns any assigned str that
+starts with ``=`` into a formula and one like ``#N/A`` into an error literal, so the data
+type is forced after assignment; a cell typed as a string stays literal in LibreOffice,
+whereas a leading apostrophe in the value would show (measured,
+../shared/notes/ecosystem.md §4). :func:`neutralise_text` (apostrophe prefix) remains for
+text outside cells, such as chart titles.
 """
 
 from __future__ import annotations
@@ -34,8 +39,26 @@ MAX_CELL_CHARS = 32767
 
 _ILLEGAL_XML = ILLEGAL_CHARACTERS_RE
 
-#: Prefix OWASP recommends to neutralise a triggering string.
+#: Prefix OWASP recommends to neutralise a triggering string outside a typed cell.
 NEUTRALISING_PREFIX = "'"
+#: Number format that makes a cell text (ECMA-376 Part 1, §18.8.31, built-in format 49).
+TEXT_FORMAT = "@"
+
+
+def clean_text(text) -> str:
+    """``text`` as a str a cell may hold: XML-illegal control characters removed
+    (W3C XML 1.0 §2.2) and cut to the cell limit. Nothing is added."""
+    if type(text) is not str:
+        text = str(text)
+    if _ILLEGAL_XML.search(text):
+        # A pasted name may carry control characters; they would make the file unreadable.
+        text = _ILLEGAL_XML.sub("", text)
+    return text[:MAX_CELL_CHARS - 1]
+
+
+def looks_like_formula(text: str) -> bool:
+    """Whether ``text`` starts with a character a spreadsheet may read as a formula."""
+    return text.startswith(FORMULA_TRIGGERS)
 
 
 def neutralise_text(text) -> str:
@@ -53,14 +76,8 @@ def neutralise_text(text) -> str:
         ``@``, a tab or a carriage return (OWASP CSV Injection guidance). Other text is
         returned unchanged.
     """
-    if type(text) is not str:
-        text = str(text)
-    if _ILLEGAL_XML.search(text):
-        # Control characters are not allowed in XML 1.0 (W3C XML 1.0 §2.2) and would make
-        # the saved file unreadable; a pasted name may carry them.
-        text = _ILLEGAL_XML.sub("", text)
-    text = text[:MAX_CELL_CHARS - 1]
-    if text.startswith(FORMULA_TRIGGERS):
+    text = clean_text(text)
+    if looks_like_formula(text):
         return NEUTRALISING_PREFIX + text
     return text
 
@@ -70,7 +87,8 @@ def cell_value(value):
 
     Numbers (not bool) stay numeric; NaN and infinities become blank, because openpyxl
     would write them as text Excel cannot read. ``None`` stays blank. Booleans become
-    ``"yes"``/``"no"``. Everything else becomes neutralised text.
+    ``"yes"``/``"no"``. Everything else becomes clean text (:func:`clean_text`), which
+    :func:`put` and :func:`write_rows` then type as strings.
     """
     kind = type(value)
     # Fast paths for the plain types that make up almost every cell of a large fleet.
@@ -79,7 +97,7 @@ def cell_value(value):
     if kind is int or value is None:
         return value
     if kind is str:
-        return neutralise_text(value)
+        return clean_text(value)
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, Integral):
@@ -88,8 +106,8 @@ def cell_value(value):
         value = float(value)
         return value if math.isfinite(value) else None
     if isinstance(value, (list, tuple)):
-        return neutralise_text(", ".join(_list_item_text(v) for v in value))
-    return neutralise_text(value)
+        return clean_text(", ".join(_list_item_text(v) for v in value))
+    return clean_text(value)
 
 
 def _list_item_text(value) -> str:
@@ -103,13 +121,16 @@ def put(ws, row: int, col: int, value, number_format: str | None = None):
     """Write one value into ``ws`` at (row, col) safely and return the cell.
 
     Text cells are forced to data type ``'s'`` after assignment so openpyxl cannot turn
-    them into formulas or error literals.
+    them into formulas or error literals; formula-like text is also formatted as text.
     """
     value = cell_value(value)
     cell = ws.cell(row=row, column=col)
     cell.value = value
     if isinstance(value, str):
         cell.data_type = "s"
+        if looks_like_formula(value):
+            cell.number_format = TEXT_FORMAT
+            cell.quotePrefix = True
     elif value is not None and number_format:
         cell.number_format = number_format
     return cell
@@ -135,6 +156,10 @@ def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
             templates.append(probe._style)
         else:
             templates.append(None)
+    text_probe = Cell(ws, row=1, column=1)
+    text_probe.number_format = TEXT_FORMAT
+    text_probe.quotePrefix = True
+    text_style = text_probe._style
     cells = ws._cells
     row_idx = first_row
     for values in rows:
@@ -147,6 +172,8 @@ def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
             if isinstance(value, str):
                 cell._value = value
                 cell.data_type = "s"
+                if looks_like_formula(value):
+                    cell._style = copy(text_style)
             else:
                 cell._value = value
                 cell.data_type = "n"

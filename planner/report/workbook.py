@@ -180,6 +180,8 @@ def _summary_sheet(ws, plan, fmt) -> None:
         (f"Total present cost [{cur}]", plan.get("total_present_cost"), fmt["money"]),
         ("Sites planned", len(_sites(plan)), styles.INTEGER),
         ("Sites without a feasible design", len(unserved), styles.INTEGER),
+        ("Sites whose life the service-life limit decides", plan.get("service_life_limited_sites"),
+         styles.INTEGER),
         ("Horizon [years]", study.get("horizon_years"), styles.INTEGER),
         ("Real discount rate [%]", study.get("discount_rate_frac"), styles.PERCENT_FINE),
         ("Solver", solver.get("name"), None),
@@ -309,6 +311,7 @@ def _site_columns(fmt) -> list[Column]:
         Column("Life P50 [years]", _key("life_p50_years"), styles.ONE_DECIMAL, optional=True),
         Column("Life P90 [years]", _key("life_p90_years"), styles.ONE_DECIMAL, optional=True),
         Column("Limiting cause", _key("limiting_cause"), optional=True),
+        Column("Life extrapolated", _extrapolated_text, optional=True),
         Column("Unserved load [Wh/year]", _key("unserved_wh_per_year"), styles.ONE_DECIMAL),
         Column("Equivalent full cycles [1/year]", _key("equivalent_full_cycles_per_year"), styles.ONE_DECIMAL),
         Column(f"Present cost [{cur}]", _key("present_cost"), money),
@@ -319,6 +322,13 @@ def _site_columns(fmt) -> list[Column]:
         Column(f"Residual value [{cur}]", _key("cost_breakdown", "residual"), money, optional=True),
         Column(f"Failure risk [{cur}]", _key("cost_breakdown", "failure_risk"), money, optional=True),
     ]
+
+
+def _extrapolated_text(site):
+    """'yes: why' when the life leans on an aging law outside its fitted envelope."""
+    if "life_extrapolated" not in site:
+        return None
+    return f"yes: {site.get('life_extrapolation_note', '')}" if site["life_extrapolated"] else "no"
 
 
 def _sites_sheet(ws, plan, fmt) -> None:
@@ -389,7 +399,8 @@ def _fade_sheet(ws, plan) -> None:
             y_floor = min(y_floor, min(finite, default=1.0))
             col += 1
         anchor = f"{get_column_letter(1 + (index % 2) * CHART_COLS)}{3 + (index // 2) * CHART_ROWS}"
-        charts.soh_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}", x_values=x_ref,
+        mark = " (life extrapolated)" if site.get("life_extrapolated") else ""
+        charts.soh_chart(ws, title=f"{site.get('id', '')} {site.get('name', '')}{mark}", x_values=x_ref,
                          series=refs, anchor=anchor, horizon_years=(n_months - 1) / 12.0,
                          y_min=max(0.0, np.floor(y_floor * 10) / 10 - 0.1))
         y_floor = 1.0

@@ -1,0 +1,192 @@
+"""Fuzzing the study loader, its validation and the output-path checks (issue 15, Checks).
+
+Hypothesis mutates a valid quick-size study (study keys, sites-table cells, output paths)
+and runs it in-process. Every example must end either validated or with the project's own
+one-line error; no input file may change (SHA-256 before and after) and no temporary file
+may be left. A fair share of the examples must pass validation, so the fuzzing reaches
+past the first check. A handful of full plans run on examples that validate.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import os
+import tempfile
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from planner.errors import InputError, OutputError
+from planner.scenario import load_study
+
+SITES = [
+    {"id": "Q-1", "name": "Ridge gauge", "region": "hills", "climate": "alpine", "load_w": "2.0",
+     "charging": "pv", "pv_wp": "60", "autonomy_days": "7", "access_months": "6-9"},
+    {"id": "Q-2", "name": "Canal level", "region": "plain", "climate": "hot-desert", "load_w": "3.0",
+     "charging": "pv", "pv_wp": "60", "autonomy_days": "4", "access_months": ""},
+    {"id": "Q-3", "name": "Pump house", "region": "plain", "climate": "hot-desert", "load_w": "10",
+     "charging": "mains", "pv_wp": "", "autonomy_days": "2", "access_months": ""},
+]
+STUDY = {
+    "study": {"sites_file": '"sites.csv"', "horizon_years": "15"},
+    "candidates": {"chemistries": '["vrla", "lfp"]', "oversize_factors": "[1.0, 1.5]"},
+    "regions.hills": {"trip_cost": "5000.0", "access_months": "[6, 7, 8, 9]"},
+    "output": {"sensitivity": "false"},
+}
+
+# Junk a hostile user types into a study key ...
+TOML_JUNK = st.sampled_from([
+    "-1", "0", "1e308", "-1e308", "inf", "nan", '""', '"=1+1"', "[]", "[[1]]", "{a = 1}", "true",
+    '"\\u0000"', "1979-05-27", "[" * 40 + "]" * 40, '"' + "x" * 5000 + '"', '"x"', "[6, 7]",
+])
+# ... and values each key accepts, so that a fair share of cases validates.
+TOML_VALID = {
+    ("study", "horizon_years"): ["1", "10", "60"], ("study", "discount_rate_frac"): ["0.0", "0.5"],
+    ("study", "name"): ['"=1+1"', '"net\\u0007work"', '""'], ("study", "start_year"): ["1990", "2100"],
+    ("costs", "trip_cost"): ["0.0", "1e12"], ("costs", "downtime_cost_per_day"): ["1e12", "0.0"],
+    ("costs", "labour_rate_per_h"): ["1e12", "85.0"], ("limits", "annual_budget"): ["1e15", "0.0"],
+    ("candidates", "oversize_factors"): ["[1.0]", "[10.0, 1.0]"], ("regions.hills", "trip_cost"): ["0.0"],
+    ("regions.hill", "trip_cost"): ["1.0"], ("regions.plain", "access_months"): ["[1]", "[12, 1]"],
+    ("prices.lfp", "price_per_kwh"): ["1e12", "0.0"],
+    ("output", "workbook"): ['"w.xlsx"', '"a/b.xlsx"', '"' + "x" * 300 + '.xlsx"', '"a\\u0000b.xlsx"',
+                             '"sites.csv/"'],
+    ("output", "json"): ['"j.json"', '"study.toml"'], ("study", "horizon_year"): ["1"],
+}
+KEYS = st.sampled_from(sorted(TOML_VALID))
+CELL_JUNK = st.one_of(
+    st.sampled_from(["", "1e1", "1_0", "-3", "nan", "inf", "1e999", "=1+1", "+1+1", "١٢", "0x10",
+                     "hill", "a\x00b", "a\x07b", "x" * 300, "13", "6-13"]),
+    st.text(max_size=8),
+)
+CELL_VALID = {
+    "id": ["Q-9", "=1+1", "-x"], "name": ["+1+1", "@sum", "", "a\x07b"], "region": ["hills", "plain"],
+    "climate": ["alpine", "polar-coast"], "load_w": ["0", "5000", ".5", "2."], "charging": ["none", "pv"],
+    "pv_wp": ["20000", "1"], "autonomy_days": ["60", "0.5"], "access_months": ["11-3", "all", "5;6;7"],
+}
+COLUMNS = st.sampled_from(sorted(CELL_VALID))
+OUT_JUNK = ["plan.csv", "study.toml", "sites.csv", "fifo.xlsx", "-", "sites.csv/", "x.json"]
+OUTPUTS = st.sampled_from([None] * 6 + ["plan.xlsx", "out/plan.xlsx", "newdir/", "plan.xlsx/"] + OUT_JUNK)
+JSON_OUTPUTS = st.sampled_from([None] * 6 + ["p.json", "deep/er/p.json", "-"] + OUT_JUNK + ["plan.xlsx"])
+
+
+@st.composite
+def studies(draw):
+    """A study folder description: TOML tables, sites rows and the two output options."""
+    tables = {name: dict(keys) for name, keys in STUDY.items()}
+    for _ in range(draw(st.sampled_from([0, 0, 1, 2]))):
+        table, key = draw(KEYS)
+        junk = draw(st.booleans())
+        tables.setdefault(table, {})[key] = draw(TOML_JUNK if junk else st.sampled_from(TOML_VALID[table, key]))
+    rows = [dict(row) for row in SITES]
+    for _ in range(draw(st.sampled_from([0, 0, 1, 2]))):
+        column = draw(COLUMNS)
+        junk = draw(st.booleans())
+        rows[draw(st.integers(0, 2))][column] = draw(CELL_JUNK if junk else st.sampled_from(CELL_VALID[column]))
+    out, json_out = draw(OUTPUTS), draw(JSON_OUTPUTS)
+    bom = draw(st.booleans())
+    return tables, rows, out, json_out, bom
+
+
+def write_case(folder: Path, tables, rows, bom: bool) -> None:
+    lines = []
+    for name, keys in tables.items():
+        lines.append(f"[{name}]")
+        lines += [f"{key} = {value}" for key, value in keys.items()]
+    (folder / "study.toml").write_bytes((b"\xef\xbb\xbf" if bom else b"") + "\n".join(lines).encode())
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=list(SITES[0]), lineterminator="\n")
+    writer.writeheader()
+    writer.writerows(rows)
+    (folder / "sites.csv").write_text(buffer.getvalue(), encoding="utf-8")
+    os.mkfifo(folder / "fifo.xlsx")
+
+
+def digests(folder: Path) -> dict:
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in folder.iterdir() if p.is_file() and not p.is_fifo()}
+
+
+def leftovers(folder: Path) -> list[str]:
+    return [p.name for p in folder.rglob("*") if p.name.endswith(".tmp")]
+
+
+def check_case(folder: Path, case) -> object:
+    """Load, validate and check the outputs of one case; the study, or None on InputError."""
+    from planner.cli.plan import output_paths
+
+    tables, rows, out, json_out, bom = case
+    write_case(folder, tables, rows, bom)
+    before = digests(folder)
+    cwd = os.getcwd()
+    os.chdir(folder)
+    try:
+        study = load_study(folder / "study.toml")
+        workbook, json_target = output_paths(study, out, json_out)
+    except InputError as err:
+        assert "\n" not in str(err)
+        study = None
+    finally:
+        os.chdir(cwd)
+        assert digests(folder) == before
+        assert leftovers(folder) == []
+    return study and (study, workbook, json_target)
+
+
+def test_loader_validation_and_output_checks_only_raise_input_error():
+    counts = {"total": 0, "valid": 0}
+
+    @settings(max_examples=300, deadline=None, derandomize=True, database=None,
+              suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+    @given(case=studies())
+    def one(case):
+        with tempfile.TemporaryDirectory() as tmp:
+            counts["total"] += 1
+            counts["valid"] += check_case(Path(tmp), case) is not None
+
+    one()
+    # A fair share reaches past validation: the fuzzing tests more than the first check.
+    assert counts["valid"] >= 0.2 * counts["total"], counts
+
+
+def test_a_handful_of_full_plans_leave_inputs_untouched():
+    from planner.cli.plan import write_outputs
+    from planner.pipeline import run_study
+
+    plans = {"done": 0}
+
+    @settings(max_examples=4, deadline=None, derandomize=True, database=None,
+              suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+    @given(load=st.sampled_from(["2", "0.5", "40"]), pv=st.sampled_from(["60", "5", "400"]), trip=st.sampled_from(["5000.0", "1e12", "0.0"]),
+           out=st.sampled_from(["plan.xlsx", "newdir/"]), json_out=st.sampled_from([None, "p.json"]))
+    def one(load, pv, trip, out, json_out):
+        tables = {name: dict(keys) for name, keys in STUDY.items()}
+        tables["regions.hills"]["trip_cost"] = trip
+        rows = [dict(row) for row in SITES]
+        rows[0]["load_w"], rows[1]["pv_wp"] = load, pv
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp)
+            found = check_case(folder, (tables, rows, out, json_out, False))
+            if found is None:
+                return
+            study, workbook, json_target = found
+            before = digests(folder)
+            cwd = os.getcwd()
+            os.chdir(folder)
+            try:
+                write_outputs(run_study(study), workbook, json_target)
+            except (InputError, OutputError) as err:
+                assert "\n" not in str(err)
+            finally:
+                os.chdir(cwd)
+            after = digests(folder)
+            assert {k: v for k, v in after.items() if k in before} == before
+            assert leftovers(folder) == []
+            assert (folder / Path(workbook)).is_file()
+            plans["done"] += 1
+
+    one()
+    assert plans["done"] >= 3, plans
