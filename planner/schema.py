@@ -159,7 +159,7 @@ THERMAL = (
     F("heater_setpoint_c", "float", 5.0, "°C", -30.0, 30.0,
       doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
     F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,
-      doc="Electric power of an added heater pad, drawn from the battery hour by hour."),
+      doc="Electric power of an added heater pad; its energy is part of the load, hour by hour."),
     F("heater_control", "str", "charging", choices=("charging", "thermostat"),
       doc="charging: an added heater runs on the charging source's surplus over the load (up to its "
           "power) while the battery is below the setpoint, warming the pack to accept charge; "
