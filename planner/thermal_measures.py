@@ -85,25 +85,25 @@ def _allowed_ids(study: Study, site) -> tuple[str, ...]:
     text = str(site.thermal_measures or "").strip()
     if text:
         ids = tuple(x.strip() for x in text.replace(",", ";").split(";") if x.strip())
-        where = f"sites table row {site.row}, column thermal_measures"
+        where, source = f"row {site.row}, column thermal_measures", study.sites_path.name
     else:
         ids = tuple(study.settings["thermal"]["measures"])
-        where = "[thermal].measures"
+        where, source = "[thermal].measures", study.path.name
     if ids == ("none",):
         return ()
     for i in ids:
         if i not in known:
             raise InputError(f"{where}: unknown thermal measure {i!r}; expected 'none' or some of "
-                             f"{', '.join(known)}", source=study.path.name)
+                             f"{', '.join(known)}", source=source)
     return ids
 
 
 def cold_limit_c(study: Study) -> float:
-    """Highest charging limit among the study's rechargeable chemistries: below it some
-    chemistry cannot be charged without help."""
-    limits = [get_chemistry(c).charge_temp_min_c for c in study.settings["candidates"]["chemistries"]
-              if get_chemistry(c).rechargeable]
-    return max(limits) if limits else -np.inf
+    """Highest low-temperature limit among the study's chemistries (charging for the
+    rechargeable ones, discharging for primary cells): below it some chemistry cannot
+    work without help."""
+    chems = [get_chemistry(c) for c in study.settings["candidates"]["chemistries"]]
+    return max(c.charge_temp_min_c if c.rechargeable else c.discharge_temp_min_c for c in chems)
 
 
 def can_matter(measure: Measure, model: SiteModel, cold_c: float) -> bool:
