@@ -49,10 +49,15 @@ class SiteModel:
     pv_azimuth_deg: float | None
     warnings: list[str] = field(default_factory=list)
     thermal_measure: str = ""     # a thermal measure's variant of the site (planner.thermal_measures)
+    # False: the battery temperature already holds the heater's effect, so charging
+    # follows it alone (no lithium charged below its limit while a heater warms up)
+    heater_enables_charge: bool = True
 
     @property
     def heater_on(self) -> np.ndarray:
-        return self.heater_power_w > 0
+        """Hours the energy balance lets a heated pack charge whatever its temperature."""
+        on = self.heater_power_w > 0
+        return on if self.heater_enables_charge else np.zeros_like(on)
 
 
 def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) -> list[SiteModel]:

@@ -205,9 +205,11 @@ def variant_models(study: Study, models: list[SiteModel], pairs: list[tuple[int,
 def apply_thermal(model: SiteModel, measure_id: str, temp_battery_c, heater_power_w, enclosure) -> SiteModel:
     """``model`` with another battery temperature and heater power (same load otherwise).
 
-    The heater's electric power is drawn from the battery hour by hour: it replaces the
-    old heater's share of the load the battery carries. The peak load keeps the old
-    bursts and adds the new heater's full power (an upper bound).
+    The heater's electric power is drawn hour by hour: it replaces the old heater's share
+    of the load. The peak load keeps the old bursts and adds the new heater's full power
+    (an upper bound). Charging follows the heated battery temperature alone: a pack below
+    its charging limit is not charged while the heater warms it (lithium plating, common
+    practice).
     """
     temp = np.asarray(temp_battery_c, dtype=float)
     heater = np.asarray(heater_power_w, dtype=float)
@@ -221,7 +223,7 @@ def apply_thermal(model: SiteModel, measure_id: str, temp_battery_c, heater_powe
         temperatures=summarize_temperatures(model.year.temp_air_c, temp), load_w=load,
         peak_load_w=float(model.peak_load_w - np.max(model.heater_power_w) + np.max(heater)),
         daily_load_wh=float(load.sum() / 365.0), design_temp_c=float(np.min(temp)),
-        warnings=notes, thermal_measure=measure_id)
+        warnings=notes, thermal_measure=measure_id, heater_enables_charge=False)
 
 
 def measure_cost(study: Study, measure: Measure) -> tuple[float, float]:

@@ -55,6 +55,9 @@ def test_cold_site_served_only_with_a_heater(tmp_path):
     heated = designs[0].measure_models["heater-box"]
     heater_wh = heated.heater_power_w
     assert heater_wh.sum() > 0
+    # lithium-ion is not charged below 0 °C (common practice): with a measure's heater
+    # the heated battery temperature alone decides, never "the heater is on"
+    assert not heated.heater_on.any()
     # the heater's energy is part of the load the battery carries, hour by hour
     np.testing.assert_allclose(heated.load_w - models[0].load_w, heater_wh, rtol=0, atol=1e-9)
     # first law over the year with the heater in the load (energy in = out + losses +
