@@ -202,6 +202,7 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
     # thermal measures: none, or a priced one paid once with the first new pack
     measures = {"": (0.0, 0.0), "heater": (float(draw(st.integers(0, 800))), float(draw(st.integers(0, 200))))}
     n_regions = draw(st.integers(1, max_regions))
+    design_changes = draw(st.booleans()) if changes is None else changes
     sites = []
     for i in range(draw(st.integers(1, max_sites))):
         n_c = draw(st.integers(1, 3))
@@ -222,6 +223,11 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
                               disposal=float(draw(st.integers(0, 200))), probs=probs, trend=trend[chem],
                               measure=measure, measure_price=measures[measure][0],
                               measure_labour=measures[measure][1]))
+            if design_changes and k > 0 and draw(st.booleans()):
+                # an install window, as a load step gives (planner.load_growth)
+                first = draw(st.integers(0, h - 1))
+                last = draw(st.one_of(st.none(), st.integers(first, h - 1)))
+                cands[-1] = replace(cands[-1], first_install_year=first, last_install_year=last)
         existing = None
         if draw(st.booleans()):
             existing = ExistingPack(draw(st.floats(0.0, 7.0)), disposal_cost=float(draw(st.integers(0, 100))))
@@ -230,7 +236,6 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
                                  unplanned_trip_cost=float(draw(st.integers(0, 2000)))))
     trip = {f"R{r}": float(draw(st.integers(0, 5000))) for r in range(n_regions)}
     d = draw(st.sampled_from([0.0, 0.03, 0.1])) if rate is None else rate
-    design_changes = draw(st.booleans()) if changes is None else changes
     return FleetProblem(sites, h, d, trip, gap_rel_frac=1e-9, residual_value=draw(st.booleans()),
                         design_changes=design_changes)
 
