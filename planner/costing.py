@@ -1,7 +1,9 @@
 """The optimizer's view of a study: every offered design priced as a candidate.
 
 Prices a design's pack (study or library price per kWh plus a fixed part), its days off
-air (NIST Handbook 135 uniform present value), installation labour and disposal, and
+air (NIST Handbook 135 uniform present value, kept apart from the pack price so every
+cost part is reported on its own), installation labour, disposal and the probability of
+failing before each age, and
 collects sites, candidates, existing packs and limits into a
 :class:`planner.optimize.FleetProblem`.
 """
@@ -13,6 +15,7 @@ import math
 from planner.chemistry import get_chemistry
 from planner.designs import Outcome, SiteDesigns, requirement_wh
 from planner.economics import upv
+from planner.life_risk import chemistry_life_log_sigma, failure_prob_by_age
 from planner.optimize import Candidate, ExistingPack, FleetProblem, SiteOptions
 from planner.scenario import Study
 from planner.site_model import SiteModel
@@ -47,25 +50,40 @@ def downtime_present_cost(study: Study, model: SiteModel, outcome: Outcome) -> f
                  * upv(study.discount_rate_frac, years))
 
 
+def failure_probabilities(study: Study, outcome: Outcome) -> tuple[float, ...]:
+    """Cumulative probability that the pack of ``outcome`` fails before ages 1..H+1.
+
+    The pack Monte Carlo's answer where it ran; otherwise (the pack in service today,
+    primary cells) the log-normal life of :mod:`planner.life_risk` around the nominal
+    life, conditioned on the age of a pack already in service.
+    """
+    if outcome.failure_prob_by_age is not None:
+        return outcome.failure_prob_by_age
+    d = outcome.design
+    # The nominal life is not capped by the service-life limit (a planning rule, not a
+    # failure); an infinite one (never worn out in the simulated years) gives no risk.
+    return failure_prob_by_age(outcome.nominal_life_years, study.settings["study"]["horizon_years"] + 1,
+                               chemistry_life_log_sigma(d.chemistry),
+                               age_years=d.existing_age_years or 0.0)
+
+
 def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
     d = outcome.design
     costs = study.settings["costs"]
     life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
-    # Days off air are a cost of choosing this pack, carried with its purchase; they do
-    # not follow the market price trend.
-    downtime = downtime_present_cost(study, model, outcome)
-    price = pack_price(study, d.chemistry, d.pack.capacity_wh) + downtime
     measure_price = measure_labour = 0.0
     if d.thermal_measure:
         measure_price, measure_labour = measure_cost(study, catalogue(study)[d.thermal_measure])
     return Candidate(
         design_id=d.design_id, chemistry=d.chemistry, oversize_factor=round(d.oversize_factor, 4),
         charge_voltage_v_per_cell=d.charge_voltage_v_per_cell, capacity_wh=d.pack.capacity_wh,
-        mass_kg=d.pack.mass_kg, pack_cost=price,
+        mass_kg=d.pack.mass_kg, pack_cost=pack_price(study, d.chemistry, d.pack.capacity_wh),
+        # Days off air are a cost of choosing this pack, paid with each pack.
+        downtime_cost=downtime_present_cost(study, model, outcome),
         install_cost=costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"],
         disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"],
-        life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=outcome.failure_prob_by_age,
-        limiting_cause=outcome.limiting_cause, untrended_cost=downtime,
+        life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=failure_probabilities(study, outcome),
+        limiting_cause=outcome.limiting_cause,
         thermal_measure=d.thermal_measure or base_measure_id(model), measure_price=measure_price,
         measure_labour_cost=measure_labour,
         first_install_year=d.install_years[0] if d.install_years else 0,
@@ -112,7 +130,8 @@ def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesig
             existing = ExistingPack(
                 remaining_life_years=min(e.life_years, LIFE_CAP_YEARS), chemistry=e.design.chemistry,
                 capacity_wh=e.design.pack.capacity_wh, mass_kg=e.design.pack.mass_kg,
-                disposal_cost=e.design.pack.mass_kg * costs["disposal_per_kg"])
+                disposal_cost=e.design.pack.mass_kg * costs["disposal_per_kg"],
+                failure_prob_by_age=failure_probabilities(study, e))
         unplanned = costs["unplanned_trip_cost"]
         if unplanned is None:
             unplanned = 1.5 * region["trip_cost"]

@@ -136,6 +136,27 @@ def nominal_rate(real_rate_frac, inflation_rate):
     ) - 1.0
 
 
+def nominal_amount(constant, inflation_rate, years):
+    """Money of the year it is spent (current money) from constant money of year 0.
+
+    ``nominal = constant * (1 + I)**t``: NIST Handbook 135 (Fuller & Petersen 1996),
+    ch. 4 (constant versus current money). Discounted at the nominal rate
+    ``(1 + d)(1 + I) - 1`` (:func:`nominal_rate`) it has the same present value as the
+    constant amount at the real rate ``d``.
+
+    Parameters
+    ----------
+    constant : float or array
+        Amount in constant money of the study start.
+    inflation_rate : float or array
+        General inflation I per year, fraction.
+    years : float or array
+        Years from the study start to the cash flow.
+    """
+    return np.asarray(constant, dtype=float) * np.power(
+        1.0 + np.asarray(inflation_rate, dtype=float), np.asarray(years, dtype=float))
+
+
 def residual_fraction(service_years, life_years):
     """Fraction of a pack's price still owed to it when the study ends.
 
@@ -228,7 +249,12 @@ def failure_risk_cost(start_year, service_years, failure_prob_by_age, failure_co
 
 @dataclass(frozen=True)
 class CostBreakdown:
-    """Present cost of one site's plan, by kind. ``residual`` is a credit (<= 0)."""
+    """Present cost of one site's plan, by kind. ``residual`` is a credit (<= 0).
+
+    ``downtime`` is the expected cost of days off air (load not served) of the packs
+    chosen, net of the share that falls after the horizon (credited like the residual
+    value, so packs and downtime each carry their own part).
+    """
 
     packs: float = 0.0
     labour: float = 0.0
@@ -236,10 +262,12 @@ class CostBreakdown:
     disposal: float = 0.0
     residual: float = 0.0
     failure_risk: float = 0.0
+    downtime: float = 0.0
 
     @property
     def total(self) -> float:
-        return self.packs + self.labour + self.trips + self.disposal + self.residual + self.failure_risk
+        return (self.packs + self.labour + self.trips + self.disposal + self.residual
+                + self.failure_risk + self.downtime)
 
     def to_dict(self) -> dict:
         return {f.name: float(getattr(self, f.name)) for f in fields(self)}
@@ -265,6 +293,7 @@ def schedule_present_cost(
     failure_cost: float = 0.0,
     existing_failure_prob_by_age=None,
     residual_value: bool = True,
+    downtime_cost: float = 0.0,
 ) -> CostBreakdown:
     """Present cost of one site's replacement schedule with one design.
 
@@ -281,7 +310,10 @@ def schedule_present_cost(
       at ``SPV(d, H)``;
     * the failure risk of each pack over its planned service (see
       :func:`failure_risk_cost`); with an existing pack, its risk until the first
-      replacement uses ``existing_failure_prob_by_age``.
+      replacement uses ``existing_failure_prob_by_age``;
+    * ``downtime_cost`` (present value at installation of a pack's days off air over its
+      service) is paid with each pack, and the last pack's share beyond the horizon is
+      credited at ``SPV(d, H)`` with the same linear fraction as its residual value.
 
     Parameters
     ----------
@@ -320,9 +352,11 @@ def schedule_present_cost(
     )
     if existing_disposal_cost is not None:
         risk += failure_risk_cost(0, int(years[0]), existing_failure_prob_by_age, failure_cost, rate)
-    residual = 0.0
+    residual = downtime_credit = 0.0
     if residual_value:
-        residual = -pack_cost * float(residual_fraction(served[-1], life_years)) * float(spv(rate, h))
+        left = float(residual_fraction(served[-1], life_years)) * float(spv(rate, h))
+        residual = -pack_cost * left
+        downtime_credit = -downtime_cost * left
     return CostBreakdown(
         packs=float(pack_cost * factors.sum()),
         labour=float(install_cost * factors.sum()),
@@ -330,4 +364,5 @@ def schedule_present_cost(
         disposal=float(np.sum(removed * factors)),
         residual=residual,
         failure_risk=float(risk),
+        downtime=float(downtime_cost * factors.sum() + downtime_credit),
     )

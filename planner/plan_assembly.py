@@ -28,10 +28,13 @@ from planner.energy.balance import charging_shortfall
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
+from planner.plan_comparison import comparison_rows
 from planner.scenario import Study
 from planner.site_model import SiteModel
+from planner.spending import spending_by_year
 from planner.thermal import get_enclosure
 from planner.thermal_measures import base_measure_id
+from planner.visit_risk import risk_before_next_visit
 
 
 
@@ -57,7 +60,7 @@ def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=No
     return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
 
 
-def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison) -> dict:
+def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison, options) -> dict:
     site = model.site
     horizon = study.settings["study"]["horizon_years"]
     candidate = plan.candidate if plan is not None else None
@@ -84,6 +87,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison)
         "warnings": list(model.warnings),
         "thermal_measure": measure,
         "heater_energy_wh_per_year": float(np.sum(model.heater_power_w)),
+        **risk_before_next_visit(plan, options, horizon),
     }
     if shown is not None:
         d = shown.design
@@ -157,7 +161,7 @@ def _replacements(designs: SiteDesigns, plan) -> list[dict]:
             "thermal_measure": c.thermal_measure or "none",
             "thermal_measure_cost": (c.measure_price + c.measure_labour_cost) if year == plan.replacement_years[0]
             else 0.0,
-            "purchase_price": float(c.pack_cost_in(year)) - c.untrended_cost,
+            "purchase_price": float(c.pack_cost_in(year)),
         })
     return out
 
@@ -335,13 +339,16 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
     from planner.report.cautions import STANDARD_CAUTIONS
 
     plans = {p.site_id: p for p in solution.sites}
-    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison)
+    options = {o.site_id: o for o in problem.sites}
+    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison, options[m.site.id])
              for m, d in zip(models, designs)]
     s = study.settings["study"]
+    spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
     return {
         "schema_version": 1,
         "study": {"name": study.name, "currency": s["currency"], "horizon_years": s["horizon_years"],
                   "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
+                  "inflation_frac": s["inflation_frac"],
                   "sites_file": study.sites_path.name, "planner_version": __version__},
         "total_present_cost": solution.objective,
         "solver": {"name": solution.solver_name, "status": solution.status,
@@ -355,11 +362,11 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
                    "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
                   for t in solution.trips],
-        "chemistry_comparison": [
-            {"chemistry": r.chemistry, "total_present_cost": r.total_present_cost,
-             "total_with_others_present_cost": r.total_with_others_present_cost,
-             "status": r.status, "sites_served": r.sites_served,
-             "sites_unserved": [u.site_id for u in r.unserved]} for r in comparison],
+        "spending_by_year": spending_by_year(problem, solution, **spend),
+        "spending_by_region": [
+            {"region": region, "rows": spending_by_year(problem, solution, regions=[region], **spend)}
+            for region in sorted({o.region for o in problem.sites})],
+        "chemistry_comparison": comparison_rows(solution, comparison),
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
                          "change_frac": c.change_frac, "designs_changed": c.designs_changed,
                          "status": c.status} for c in cases],

@@ -76,7 +76,9 @@ STUDY = (
     F("discount_rate_frac", "float", 0.03, "1/year", 0.0, 0.5,
       doc="Real discount rate (NIST Handbook 135 convention: constant money, real rate)."),
     F("inflation_frac", "float", 0.0, "1/year", -0.1, 0.5,
-      doc="Used only with nominal_rate_frac: real = (1 + nominal)/(1 + inflation) - 1."),
+      doc="General inflation: the plan's spending by year is also shown in money of each "
+          "year (constant x (1 + inflation)^year); with nominal_rate_frac it also gives the "
+          "real rate = (1 + nominal)/(1 + inflation) - 1."),
     F("nominal_rate_frac", "float", None, "1/year", 0.0, 0.5,
       doc="Optional nominal discount rate; when given it replaces discount_rate_frac."),
     F("currency", "str", "EUR", doc="Currency label written beside every amount."),

@@ -28,6 +28,53 @@ def _soh_curve(horizon_years, life_years, replacement_years, rng):
     return np.clip(1.0 - rate * np.sqrt(age_years) - rng.uniform(0, 0.002), 0.0, 1.0)
 
 
+SPENDING_KEYS = ("packs", "labour", "trips", "disposal", "thermal", "downtime", "risk", "residual")
+
+
+def _spending(sites, horizon_years, *, rate, inflation, start_year):
+    """Invented spending by year that adds up to the sites' present costs: each part of a
+    site's cost breakdown spread evenly (in present value) over its replacement years; the
+    residual value in the end year."""
+    h = horizon_years
+    spv = (1.0 + rate) ** -np.arange(h + 1)
+    names = {"failure_risk": "risk"}
+    by_region = {}
+    for site in sites:
+        flows = by_region.setdefault(site["region"], {k: np.zeros(h + 1) for k in SPENDING_KEYS})
+        years = np.asarray(site["replacement_years"])
+        for part, pv in site["cost_breakdown"].items():
+            key = names.get(part, part)
+            if key == "residual":
+                flows[key][h] += pv / spv[h]
+            else:
+                flows[key][years] += pv / len(years) / spv[years]
+
+    def rows(flows):
+        total = sum(flows[k] for k in SPENDING_KEYS)
+        return [{"year": y, "calendar_year": start_year + y, **{k: float(flows[k][y]) for k in SPENDING_KEYS},
+                 "total": float(total[y]), "total_nominal": float(total[y] * (1 + inflation) ** y),
+                 "present_value": float(total[y] * spv[y])} for y in range(h + 1)]
+
+    fleet = {k: sum(f[k] for f in by_region.values()) for k in SPENDING_KEYS}
+    return rows(fleet), [{"region": r, "rows": rows(f)} for r, f in sorted(by_region.items())]
+
+
+def _comparison_row(chem, k, total, sites):
+    """An invented comparison row; lisocl2 serves no site, nmc all but the first site."""
+    fleet = total * (1.0 + 0.1 * k) if chem != "lisocl2" else total
+    unserved = ([s["id"] for s in sites] if chem == "lisocl2" else
+                [sites[0]["id"]] if chem == "nmc" and sites else [])
+    return {"chemistry": chem, "total_present_cost": fleet if chem != "lisocl2" else None,
+            "total_with_others_present_cost": fleet,
+            "status": "infeasible" if unserved else "optimal",
+            "sites_served": len(sites) - len(unserved), "sites_unserved": unserved,
+            "kept_by_other": {i: "lfp" for i in unserved},
+            "equipment": 0.4 * fleet, "trips_and_labour": 0.4 * fleet, "downtime": 0.15 * fleet,
+            "failure_risk": 0.05 * fleet,
+            "driving_sites": [{"id": sites[0]["id"], "chemistry": chem, "difference": 0.1 * k * total,
+                               "downtime_difference": 0.05 * k * total}] if k and sites else []}
+
+
 def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hostile_names: bool = False,
               with_optional: bool = True) -> dict:
     """Return an invented plan dict.
@@ -54,8 +101,9 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         packs, labour = float(rng.uniform(1000, 9000)), float(rng.uniform(200, 900))
         trips_share, disposal = float(rng.uniform(500, 4000)), float(rng.uniform(20, 200))
         residual, risk = -float(rng.uniform(0, 800)), float(rng.uniform(0, 300))
+        downtime = float(rng.uniform(0, 2000)) if i % 5 == 0 else 0.0
         breakdown = {"packs": packs, "labour": labour, "trips": trips_share, "disposal": disposal,
-                     "residual": residual, "failure_risk": risk}
+                     "residual": residual, "failure_risk": risk, "downtime": downtime}
         air = 10 + 12 * np.sin(np.linspace(0, 2 * np.pi, 12, endpoint=False) - 2) + rng.normal(0, 1, 12)
         batt = air + rng.uniform(2, 8)
         name = f"Demo gauge {i:04d}"
@@ -92,7 +140,11 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
             "climate_monthly": {"air_mean_c": air.tolist(), "battery_mean_c": batt.tolist()},
             "soh_by_month": _soh_curve(horizon_years, life, repl, rng).tolist(),
             "warnings": [f"demo warning for site {i}"] if i % 2 == 0 else [],
+            "next_visit_year": repl[1] if len(repl) > 1 else None,
+            "risk_before_next_visit_frac": float(rng.uniform(0, 0.3)),
         }
+        site["expected_failure_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 3000.0
+        site["expected_downtime_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 1200.0
         if with_optional:
             site["life_p10_years"] = life * 0.8
             site["life_p50_years"] = life
@@ -121,22 +173,20 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
                           "pack_mass_kg": float(sum(s["pack_mass_kg"] for s in members)),
                           "cost": 2500.0 + 150.0 * len(members)})
     total = float(sum(s["present_cost"] for s in sites))
+    spending, by_region = _spending(sites, horizon_years, rate=0.03, inflation=0.02, start_year=2030)
     plan = {
         "schema_version": 1,
         "study": {"name": "demo-network", "currency": "EUR", "horizon_years": horizon_years,
                   "discount_rate_frac": 0.03, "sites_file": "demo-sites.csv",
-                  "start_year": 2030},
+                  "start_year": 2030, "inflation_frac": 0.02},
         "total_present_cost": total,
         "solver": {"name": "HiGHS", "status": "optimal", "gap_frac": 0.0012, "seconds": 1.75,
                    "objective": total, "best_bound": total * (1 - 0.0012), "decomposition": "per region"},
         "sites": sites,
         "trips": trip_list,
-        "chemistry_comparison": [
-            {"chemistry": c, "total_present_cost": total * (1.0 + 0.1 * k) if c != "lisocl2" else None,
-             "total_with_others_present_cost": total * (1.0 + 0.1 * k) if c != "lisocl2" else total,
-             "sites_served": n_sites if c != "lisocl2" else 0,
-             "sites_unserved": 0 if c != "lisocl2" else n_sites}
-            for k, c in enumerate(CHEMISTRIES)],
+        "spending_by_year": spending,
+        "spending_by_region": by_region,
+        "chemistry_comparison": [_comparison_row(c, k, total, sites) for k, c in enumerate(CHEMISTRIES)],
         "assumptions": [
             {"group": "economics", "name": "real discount rate", "value": 0.03, "unit": "fraction",
              "source": "study file"},

@@ -101,6 +101,73 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
     assert out.is_file()
 
 
+def _help_examples(runner, command) -> list[list[str]]:
+    """Command lines under 'Example(s):' in a help text (continuation lines joined,
+    '&&' chains split), without the leading 'planner'."""
+    import shlex
+
+    text = runner.invoke(cli, [*command, "--help"], terminal_width=200).output
+    lines = text.split("Example", 1)[1].splitlines()[1:]
+    examples = []
+    for line in lines:
+        stripped = line.strip()
+        if not stripped:
+            break
+        if stripped.startswith("planner "):
+            examples.append(stripped)
+        elif examples:
+            examples[-1] += " " + stripped
+    return [shlex.split(part)[1:] for ex in examples for part in ex.split("&&")]
+
+
+@pytest.mark.parametrize("command", [[], ["plan"], ["new"], ["climate"], ["life"]])
+def test_every_help_example_runs(runner, command, tmp_path, monkeypatch):
+    # Help texts promise these lines work as typed (from a checkout: scenarios/ at hand).
+    import shutil
+
+    shutil.copytree(REPO / "scenarios", tmp_path / "scenarios")
+    monkeypatch.chdir(tmp_path)
+    examples = _help_examples(runner, command)
+    assert examples
+    for args in examples:
+        result = runner.invoke(cli, args)
+        assert result.exit_code == 0, (args, result.output)
+
+
+def test_quiet_and_debug_also_after_the_subcommand(runner, tmp_path, monkeypatch):
+    import shutil
+
+    shutil.copytree(REPO / "scenarios", tmp_path / "scenarios")
+    monkeypatch.chdir(tmp_path)
+    result = runner.invoke(cli, ["plan", "scenarios/quick.toml", "--quiet", "--out", "q.xlsx"])
+    assert result.exit_code == 0, result.output
+    assert "total present cost" not in result.output  # --quiet: no console summary
+    loud = runner.invoke(cli, ["plan", "scenarios/quick.toml", "--out", "q.xlsx"])
+    assert "total present cost" in loud.output
+    study = tmp_path / "s.toml"
+    study.write_text("[study\n")
+    result = runner.invoke(cli, ["plan", str(study), "--debug"])
+    assert result.exit_code == 2 and "Traceback" in result.output
+
+
+def test_console_summary_speaks_the_readers_words():
+    # The console summary describes partial coverage in words and shows what each
+    # chemistry's cost is made of; the solver's status word stays in the JSON.
+    import sys
+
+    sys.path.insert(0, str(REPO / "tests"))
+    from plan_fixture import make_plan
+
+    from planner.cli.plan import _summary
+
+    plan = make_plan(5)
+    text = _summary(plan, "plan.xlsx")
+    assert "nmc: " in text and "serves 4 of 5 sites; S0000 keeps lfp" in text
+    assert "serves none of the 5 sites" in text
+    assert "days off air" in text and "most of the difference to the plan: S0000" in text
+    assert "infeasible" not in text and "optimal" not in text
+
+
 def test_endless_study_files_are_refused_by_type(runner, tmp_path):
     # Issue 15 item 9: "planner plan /dev/zero" or a FIFO read until memory ran out. Nodes
     # made here stand in for them (never real /dev paths); 1:5 is the Linux "zero" device

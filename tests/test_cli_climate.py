@@ -32,7 +32,7 @@ def test_list_names_every_bundled_climate():
     assert result.exit_code == 0
     lines = result.output.strip().splitlines()
     assert len(lines) >= 11   # issue 3: three pvlib years + eight archetypes
-    assert any(line.startswith("pvlib-miami ") for line in lines)
+    assert any(line.startswith("tmy2-miami-fl ") for line in lines)
     assert any(line.startswith("polar-coast ") for line in lines)
 
 
@@ -59,7 +59,7 @@ def test_warming_shifts_air_mean():
 
 
 def test_text_summary():
-    result = run("climate", "pvlib-greensboro", "--enclosure", "vault")
+    result = run("climate", "tmy3-greensboro-nc", "--enclosure", "vault")
     assert result.exit_code == 0
     assert "Arrhenius-effective battery temperature" in result.output
     assert "Coldest month" in result.output
@@ -69,7 +69,7 @@ def test_csv_written_atomically(tmp_path):
     target = tmp_path / "out" / "hourly.csv"
     result = run("climate", "polar-coast", "--csv", str(target), "--heater-setpoint-c", "0")
     assert result.exit_code == 0
-    frame = pd.read_csv(target)
+    frame = pd.read_csv(target, comment="#")  # declarations sit above the header
     assert len(frame) == 8760
     assert frame["time_start_local"].iloc[0].startswith("2023-01-01T00:00")
     assert {"temp_air_c", "temp_battery_c", "heater_power_w", "hvac_power_w"} <= set(frame.columns)
@@ -130,6 +130,22 @@ def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
     assert result.exit_code == 4 and "could not write the hourly CSV" in result.output
     assert target.read_text() == "an earlier export\n"
     assert list(tmp_path.iterdir()) == [target]      # the temporary file was removed
+
+
+def test_hourly_csv_reads_back_with_no_option(tmp_path):
+    # The CSV written by --csv carries its declarations: reading it back gives the same
+    # hourly air temperature (written with 3 decimals, so within 0.0005 K) and position.
+    from planner.climate import load_climate
+
+    out = tmp_path / "alpine-hourly.csv"
+    assert CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(out)]).exit_code == 0
+    result = CliRunner().invoke(cli, ["climate", str(out), "--json"])
+    assert result.exit_code == 0, result.output
+    back, original = load_climate(str(out)), load_climate("alpine")
+    assert abs(back.temp_air_c - original.temp_air_c).max() <= 0.0005 + 1e-9
+    assert abs(back.ghi_w_m2 - original.ghi_w_m2).max() <= 0.0005 + 1e-9
+    assert (back.latitude_deg, back.longitude_deg, back.utc_offset_h) == (
+        original.latitude_deg, original.longitude_deg, original.utc_offset_h)
 
 
 def test_climate_warning_is_one_line_without_python_source(tmp_path):

@@ -20,7 +20,7 @@ BASE = {"temperature_unit": "C", "timestamp_marks": "start", "utc_offset_h": 0,
         "latitude_deg": 45.0, "longitude_deg": 0.0}
 
 
-def write_csv(path, times, temps, header=("time", "temp_air"), extra=None):
+def write_csv(path, times, temps, header=("time", "temp_air_c"), extra=None):
     frame = pd.DataFrame({header[0]: times, header[1]: temps})
     for name, values in (extra or {}).items():
         frame[name] = values
@@ -48,9 +48,9 @@ def ramp():
     # Sand Point AK ~4.2 degC (39.5 F); Greensboro NC ~14.8 degC (58.6 F);
     # Miami FL ~25.1 degC (77.2 F). Tolerance 1.5 K (from memory): a typical year
     # is assembled from different years than the normal and the normals are recalled.
-    ("pvlib-sand-point", 4.2),
-    ("pvlib-greensboro", 14.8),
-    ("pvlib-miami", 25.1),
+    ("tmy3-sand-point-ak", 4.2),
+    ("tmy3-greensboro-nc", 14.8),
+    ("tmy2-miami-fl", 25.1),
 ])
 def test_pvlib_files_annual_mean_matches_station_normal(name, normal_c):
     year = load_climate(name)
@@ -61,7 +61,7 @@ def test_tmy3_hour_ending_rows_become_hour_starts():
     # TMY3 user manual (Wilcox & Marion 2008, NREL/TP-581-43156, sec. 1.3): the time
     # field is the END of the hour, so the file's first row (01:00) is 00:00-01:00.
     raw = pd.read_csv(PVLIB_DATA / "723170TYA.CSV", skiprows=1)
-    year = load_climate("pvlib-greensboro")
+    year = load_climate("tmy3-greensboro-nc")
     assert raw["Time (HH:MM)"].iloc[0] == "01:00"
     assert year.temp_air_c[0] == raw["Dry-bulb (C)"].iloc[0]
     assert raw["Time (HH:MM)"].iloc[-1] == "24:00"
@@ -72,13 +72,13 @@ def test_tmy3_hour_ending_rows_become_hour_starts():
 def test_tmy2_tenths_are_converted():
     # pvlib read_tmy2 docstring: DryBulb in tenths of degC, Wspd in tenths of m/s.
     data, _ = pvlib.iotools.read_tmy2(str(PVLIB_DATA / "12839.tm2"))
-    year = load_climate("pvlib-miami")
+    year = load_climate("tmy2-miami-fl")
     np.testing.assert_allclose(year.temp_air_c, data["DryBulb"].to_numpy() / 10.0)
     np.testing.assert_allclose(year.wind_speed_m_s, data["Wspd"].to_numpy() / 10.0)
 
 
 def test_typical_year_shape_and_times():
-    year = load_climate("pvlib-sand-point")
+    year = load_climate("tmy3-sand-point-ak")
     times = year.times()
     assert len(times) == 8760 and times[0] == pd.Timestamp("2023-01-01 00:00", tz="Etc/GMT+9")
     assert times.freq == "h" or (times[1] - times[0]) == pd.Timedelta("1h")
@@ -91,14 +91,14 @@ def test_typical_year_shape_and_times():
 
 def test_bundled_list_and_cache():
     names = [n for n, _ in list_bundled()]
-    assert {"pvlib-sand-point", "pvlib-greensboro", "pvlib-miami"} <= set(names)
+    assert {"tmy3-sand-point-ak", "tmy3-greensboro-nc", "tmy2-miami-fl"} <= set(names)
     assert len(names) >= 11  # three real years + at least eight archetypes (issue 3)
-    assert load_climate("pvlib-miami") is load_climate("pvlib-miami")
+    assert load_climate("tmy2-miami-fl") is load_climate("tmy2-miami-fl")
 
 
 def test_warming_offset_adds_kelvin():
-    base = load_climate("pvlib-greensboro")
-    warm = load_climate("pvlib-greensboro", warming_k=2.0)
+    base = load_climate("tmy3-greensboro-nc")
+    warm = load_climate("tmy3-greensboro-nc", warming_k=2.0)
     np.testing.assert_allclose(warm.temp_air_c - base.temp_air_c, 2.0)
     np.testing.assert_array_equal(warm.ghi_w_m2, base.ghi_w_m2)
 
@@ -159,7 +159,7 @@ def test_epw_leap_year_drops_29_february(tmp_path):
 def test_user_tmy3_path_reads_like_the_bundled_year():
     # The same file through a user path gives the same hours as the bundled name.
     year = load_climate(str(PVLIB_DATA / "703165TY.csv"))
-    np.testing.assert_array_equal(year.temp_air_c, load_climate("pvlib-sand-point").temp_air_c)
+    np.testing.assert_array_equal(year.temp_air_c, load_climate("tmy3-sand-point-ak").temp_air_c)
     assert year.utc_offset_h == -9.0
 
 
@@ -304,7 +304,7 @@ def test_csv_non_numeric_cell_names_row(tmp_path):
     temps = ramp().astype(object)
     temps[41] = "n/a"
     path = write_csv(tmp_path / "nn.csv", stamps(hours()), temps)
-    with pytest.raises(InputError, match="row 43, column 'temp_air': 'n/a' is not a number"):
+    with pytest.raises(InputError, match="row 43, column 'temp_air_c': 'n/a' is not a number"):
         load_climate(str(path), options=BASE)
 
 
@@ -354,7 +354,7 @@ def test_csv_unit_never_guessed_and_option_typos(tmp_path):
 
 
 def test_csv_irradiance_column_and_clear_sky_estimate(tmp_path):
-    year_ref = load_climate("pvlib-greensboro")
+    year_ref = load_climate("tmy3-greensboro-nc")
     path = write_csv(tmp_path / "i.csv", stamps(hours()), year_ref.temp_air_c,
                      extra={"ghi": year_ref.ghi_w_m2})
     options = {**BASE, "utc_offset_h": -5, "latitude_deg": 36.1, "longitude_deg": -79.95,
@@ -443,6 +443,32 @@ def test_csv_damaged_year_raises_only_input_error(tmp_path, drop, dup, unit, mar
             pass
         else:
             assert np.isfinite(year.temp_air_c).all() and not math.isnan(year.temp_air_c.mean())
+
+
+def test_old_bundled_ids_still_load_with_a_deprecation_message():
+    # Ids of the previous release stay accepted for one release and say the new name.
+    with pytest.warns(ClimateWarning, match="'pvlib-miami' is now called 'tmy2-miami-fl'"):
+        old = load_climate("pvlib-miami")
+    assert old is load_climate("tmy2-miami-fl")
+    names = dict(list_bundled())
+    assert "pvlib-miami" not in names and "file shipped with pvlib" in names["tmy2-miami-fl"]
+
+
+def test_declarations_at_the_top_of_a_csv_replace_options(tmp_path):
+    # '# key = value' lines carry what --option would; given options take precedence.
+    path = tmp_path / "declared.csv"
+    frame = pd.DataFrame({"time": stamps(hours()), "temp_air_c": ramp()})
+    lines = "".join(f"# {k} = {v}\n" for k, v in BASE.items())
+    path.write_text("# a comment line without a declaration\n" + lines + frame.to_csv(index=False))
+    year = load_climate(str(path))
+    np.testing.assert_allclose(year.temp_air_c, ramp(), atol=1e-9)
+    assert year.latitude_deg == 45.0
+    moved = load_climate(str(path), options={"latitude_deg": 50.0})
+    assert moved.latitude_deg == 50.0
+    bad = tmp_path / "bad.csv"
+    bad.write_text("# temperature_units = C\n" + frame.to_csv(index=False))
+    with pytest.raises(InputError, match="unknown climate option 'temperature_units'; did you mean 'temperature_unit'"):
+        load_climate(str(bad))
 
 
 def test_fifo_climate_file_is_refused_before_reading(tmp_path):

@@ -136,3 +136,12 @@ def test_upv_is_sum_of_spv(rate, years):
     # definition in HB 135 App. D: UPV(d, n) = sum_{t=1..n} SPV(d, t)
     assert ec.upv(rate, years) == pytest.approx(float(np.sum(ec.spv(rate, np.arange(1, years + 1)))), rel=1e-9)
     assert ec.crf(rate, years) * ec.upv(rate, years) == pytest.approx(1.0)
+
+
+def test_nominal_amount_equivalence_vector():
+    # research note §3.3 (computed, NIST HB 135 ch. 4): 5,000 constant at year 10 with
+    # I = 2 % is 6,094.9721 nominal; its PV at D = 5.06 % equals 5000/1.03^10 = 3,720.4696
+    nominal = float(ec.nominal_amount(5000.0, 0.02, 10))
+    assert nominal == pytest.approx(6094.9721, abs=1e-4)
+    assert nominal * float(ec.spv(float(ec.nominal_rate(0.03, 0.02)), 10)) == pytest.approx(3720.4696, abs=1e-4)
+    assert float(ec.spv(0.03, 10)) * 5000.0 == pytest.approx(3720.4696, abs=1e-4)

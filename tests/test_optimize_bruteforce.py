@@ -37,12 +37,13 @@ def path_cost(years, packs, site, h, rate, residual=True):
             return None
         if not _segment_ok(t2 - t1, c.life_years, t2 == h):
             return None
-        price = (c.pack_cost - c.untrended_cost) * (1.0 + c.price_trend_frac_per_year) ** t1 + c.untrended_cost
-        total += (price + c.install_cost + site.site_visit_cost) * float(ec.spv(rate, t1))
+        price = c.pack_cost * (1.0 + c.price_trend_frac_per_year) ** t1
+        total += (price + c.downtime_cost + c.install_cost + site.site_visit_cost) * float(ec.spv(rate, t1))
         if t2 < h:
             total += c.disposal_cost * float(ec.spv(rate, t2))
         elif residual:
-            total -= price * float(ec.residual_fraction(t2 - t1, c.life_years)) * float(ec.spv(rate, h))
+            left = float(ec.residual_fraction(t2 - t1, c.life_years)) * float(ec.spv(rate, h))
+            total -= (price + c.downtime_cost) * left
         total += ec.failure_risk_cost(t1, t2 - t1, c.failure_prob_by_age, fail_cost, rate)
     if ex is not None:
         total += ex.disposal_cost * float(ec.spv(rate, years[0]))
@@ -59,7 +60,7 @@ def schedule_costs(site, h, rate, residual=True, design_changes=False):
     fail_cost = site.unplanned_trip_cost + site.downtime_cost_per_day * ec.expected_wait_days(site.access_months)
     n = len(site.candidates)
     trended = any(c.price_trend_frac_per_year or c.first_install_year or c.last_install_year is not None
-                  or c.measure_price or c.measure_labour_cost for c in site.candidates)
+                  or c.measure_price or c.measure_labour_cost or c.downtime_cost for c in site.candidates)
     out = {}
     for r in range(1, h + 1):
         for years in itertools.combinations(range(h), r):

@@ -147,3 +147,49 @@ def test_forcing_a_chemistry_never_lowers_the_fleet_cost(quick_run):
         # Serving only the sites a chemistry can serve never costs more than serving them
         # plus the others (every site's present cost is non-negative).
         assert row["total_present_cost"] <= row["total_with_others_present_cost"] * (1 + 1e-6)
+
+
+# Keys a plan has only when the study asks for them (sites with an existing pack,
+# sensitivity cases, unserved sites); the quick study has none of them.
+OPTIONAL_PLAN_KEYS = {"existing_pack", "age_years", "remaining_life_years", "case", "change_frac",
+                      "designs_changed", "reason", "limit"}
+
+
+def _plan_keys(obj, out=None):
+    out = set() if out is None else out
+    if isinstance(obj, dict):
+        for key, value in obj.items():
+            out.add(key)
+            if key != "kept_by_other":  # a map of site ids, not keys of the layout
+                _plan_keys(value, out)
+    elif isinstance(obj, list):
+        for value in obj:
+            _plan_keys(value, out)
+    return out
+
+
+def test_plan_json_and_its_reference_are_in_step(quick_run):
+    # docs/plan-json.md lists every key the plan writes, and only those.
+    import re
+
+    _, out = quick_run
+    plan = json.loads((out / "q.json").read_text(encoding="utf-8"))
+    block = (REPO / "docs" / "plan-json.md").read_text(encoding="utf-8").split("```")[1]
+    documented = set(re.findall(r'"([a-z_0-9]+)"', block))
+    written = _plan_keys(plan)
+    assert written - documented == set(), "written but not documented"
+    assert documented - written - OPTIONAL_PLAN_KEYS == set(), "documented but never written"
+
+
+def test_quick_plan_spending_adds_up_and_sites_carry_risk(quick_run):
+    # NIST HB 135: each year's amount x SPV(d, t) summed is the plan's total present cost;
+    # here through the whole pipeline and the JSON (6 significant digits per value).
+    _, out = quick_run
+    plan = json.loads((out / "q.json").read_text(encoding="utf-8"))
+    rows = plan["spending_by_year"]
+    assert len(rows) == plan["study"]["horizon_years"] + 1
+    tolerance = 0.01 + 5e-6 * sum(abs(r["present_value"]) for r in rows)
+    assert abs(sum(r["present_value"] for r in rows) - plan["total_present_cost"]) <= tolerance
+    for site in plan["sites"]:
+        assert 0.0 <= site["risk_before_next_visit_frac"] <= 1.0
+        assert sum(site["cost_breakdown"].values()) == pytest.approx(site["present_cost"], rel=1e-5)

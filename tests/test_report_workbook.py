@@ -85,32 +85,42 @@ def test_summary_numbers_equal_plan_and_json(written, book):
     assert facts["Optimality gap [%]"] == plan["solver"]["gap_frac"] == js["solver"]["gap_frac"]
     assert facts["Real discount rate [%]"] == plan["study"]["discount_rate_frac"]
     assert facts["Solve time [s]"] == plan["solver"]["seconds"]
-    assert facts["Solver status"] == plan["solver"]["status"]
+    assert facts["Plan status"] == f"all {N_SITES} sites served; cost within 0.12% of the lowest possible"
     assert facts["Sites planned"] == N_SITES
+    assert facts["Pack replacements over the horizon"] == sum(len(s["replacement_years"]) for s in plan["sites"])
 
+    # The ten most expensive sites, largest first, equal to the plan's values.
     _, rows = _table(ws, "Site id")
-    assert len(rows) == N_SITES
-    for row, site, site_js in zip(rows, plan["sites"], js["sites"]):
-        assert row["Site id"] == site["id"]
+    ranked = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:10]
+    assert [r["Site id"] for r in rows] == [s["id"] for s in ranked]
+    for row, site in zip(rows, ranked):
         assert row["Site name"] == site["name"]
-        assert row["Chemistry"] == site["chemistry"]
-        for header, key in (("Pack size [Wh]", "capacity_wh"), ("Capacity [Ah]", "capacity_ah"),
-                            ("Charge voltage [V]", "charge_voltage_v"), ("Life [years]", "life_years"),
-                            ("Life P10 [years]", "life_p10_years"), ("Present cost [EUR]", "present_cost")):
-            assert row[header] == pytest.approx(site[key], rel=XL), header
-            assert row[header] == pytest.approx(site_js[key], rel=5e-6), header
-        assert _years(row["Replacement years"]) == site["replacement_years"] == site_js["replacement_years"]
+        assert row["Present cost [EUR]"] == pytest.approx(site["present_cost"], rel=XL)
+        assert _years(row["Replacement years"]) == site["replacement_years"]
 
-    _, comp = _table_at(ws, "Chemistry")
+    _, comp = _table(ws, "Chemistry")
     for row, ref in zip(comp, plan["chemistry_comparison"]):
         assert row["Chemistry"] == ref["chemistry"]
-        served = "Present cost of the sites it serves [EUR]"
-        if ref["total_present_cost"] is None:  # no feasible plan with this chemistry: blank cell
-            assert row[served] is None
-        else:
-            assert row[served] == pytest.approx(ref["total_present_cost"], rel=XL)
         assert row["Fleet present cost, others keep their best [EUR]"] == pytest.approx(
             ref["total_with_others_present_cost"], rel=XL)
+        groups = ("Equipment [EUR]", "Trips and labour [EUR]", "Days off air [EUR]", "Failure risk [EUR]")
+        assert sum(row[g] for g in groups) == pytest.approx(row["Fleet present cost, others keep their best [EUR]"])
+        assert row["Days off air share [%]"] == pytest.approx(ref["downtime"] / ref["total_with_others_present_cost"])
+
+
+def test_summary_speaks_no_solver_words_for_partial_coverage(written, book):
+    # A chemistry that serves part of the fleet is described by its coverage, never by a
+    # solver status (the solver's word stays in the JSON under "status").
+    plan, _, js = written
+    text = " ".join(str(c.value) for row in book["Summary"].iter_rows() for c in row if c.value is not None)
+    for word in ("infeasible", "optimal", "feasible"):
+        assert not re.search(rf"\b{word}\b", text.lower()), word
+    _, comp = _table(book["Summary"], "Chemistry")
+    coverage = {r["Chemistry"]: r["Coverage"] for r in comp}
+    assert coverage["nmc"] == f"serves {N_SITES - 1} of {N_SITES} sites; S0000 keeps lfp"
+    assert coverage["lisocl2"] == f"serves none of the {N_SITES} sites"
+    assert coverage["vrla"] == f"serves all {N_SITES} sites"
+    assert [r["status"] for r in js["chemistry_comparison"]][2] == "infeasible"
 
 
 def _table_at(ws, header_text):
@@ -160,6 +170,8 @@ SITES_MAP = {
     "Labour [EUR]": ("cost_breakdown", "labour"), "Trips share [EUR]": ("cost_breakdown", "trips"),
     "Disposal [EUR]": ("cost_breakdown", "disposal"), "Residual value [EUR]": ("cost_breakdown", "residual"),
     "Failure risk [EUR]": ("cost_breakdown", "failure_risk"),
+    "Days off air [EUR]": ("cost_breakdown", "downtime"),
+    "Risk before the next visit [%]": ("risk_before_next_visit_frac",),
 }
 SITES_TEXT = {"Site id": "id", "Region": "region", "Climate": "climate", "Enclosure": "enclosure",
               "Charging source": "charging", "Chemistry": "chemistry", "Pack structure": "pack_structure",
@@ -261,8 +273,9 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
     wb = book
     with zipfile.ZipFile(xlsx) as zf:
         charts = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
-        # 1 bar chart + 20 fade charts (20 most expensive of 24) + climate charts (<= 4).
-        assert 1 + 20 + 1 <= len(charts) <= 1 + 20 + 4
+        # 3 bar charts (Summary: cost groups per chemistry, cost by chemistry; Spending by
+        # year) + 20 fade charts (20 most expensive of 22) + climate charts (<= 4).
+        assert 3 + 20 + 1 <= len(charts) <= 3 + 20 + 4
         kinds = {"barChart": 0, "scatterChart": 0, "lineChart": 0}
         for name in charts:
             xml = zf.read(name)
@@ -280,7 +293,7 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
                     values = [c for row in ws.iter_rows(min_row=min_row, max_row=max_row, min_col=min_col,
                                                         max_col=max_col, values_only=True) for c in row]
                     assert any(isinstance(v, (int, float)) for v in values), (name, ref)
-        assert kinds["barChart"] == 1 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
+        assert kinds["barChart"] == 3 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
 
 
 def test_fade_charts_are_the_most_expensive_sites(written):
@@ -494,3 +507,72 @@ def test_fast_block_writer_matches_public_cell_api(monkeypatch, tmp_path):
         for c in range(1, 8):
             a, b = fast_ws.cell(r, c), public_ws.cell(r, c)
             assert (a.value, a.data_type, a.number_format) == (b.value, b.data_type, b.number_format)
+
+
+def test_spending_sheet_matches_json_and_adds_up(written, book):
+    # Round trip: every row of Spending by year equals the plan JSON's spending_by_year, and
+    # the present values add up to the total present cost within 0.01 (NIST HB 135 identity).
+    plan, _, js = written
+    ws = book["Spending by year"]
+    headers, rows = _table(ws, "Year")
+    rows = [r for r in rows if isinstance(r["Year"], int)]
+    assert len(rows) == len(js["spending_by_year"]) == plan["study"]["horizon_years"] + 1
+    keys = {"Packs [EUR]": "packs", "Installation labour [EUR]": "labour", "Trips [EUR]": "trips",
+            "Disposal [EUR]": "disposal", "Thermal measures [EUR]": "thermal",
+            "Days off air (expected) [EUR]": "downtime", "Failure risk (expected) [EUR]": "risk",
+            "Residual value [EUR]": "residual", "Total [EUR]": "total",
+            "Total, money of the year [EUR]": "total_nominal", "Present value [EUR]": "present_value"}
+    for row, ref in zip(rows, js["spending_by_year"]):
+        assert row["Calendar year"] == ref["calendar_year"]
+        for header, key in keys.items():
+            assert (row[header] or 0.0) == pytest.approx(ref[key], rel=5e-6, abs=1e-9), header
+        # nominal = constant x (1 + inflation)^year (NIST HB 135 ch. 4)
+        assert row["Total, money of the year [EUR]"] == pytest.approx(
+            row["Total [EUR]"] * 1.02 ** row["Year"], rel=1e-12, abs=1e-9)
+    assert abs(sum(r["Present value [EUR]"] for r in rows) - plan["total_present_cost"]) <= 0.01
+    text = [c.value for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
+    assert "Check passed: the years add up to the plan's total present cost." in text
+
+
+def test_risk_sheet_sorted_highlighted_and_equal_to_json(written, book):
+    plan, _, js = written
+    ws = book["Sites at risk"]
+    _, rows = _table(ws, "Site id")
+    ref = {s["id"]: s for s in js["sites"]}
+    risks = [r["Risk before the next visit [%]"] for r in rows]
+    assert risks == sorted(risks, reverse=True) and len(rows) == N_SITES
+    top = next(r[0].row for r in ws.iter_rows(min_col=1, max_col=1) if r[0].value == "Site id")
+    for offset, row in enumerate(rows):
+        site = ref[row["Site id"]]
+        assert row["Risk before the next visit [%]"] == pytest.approx(site["risk_before_next_visit_frac"], rel=5e-6)
+        assert row["Next visit [year]"] == site["next_visit_year"]
+        highlighted = ws.cell(row=top + 1 + offset, column=1).fill.fgColor.rgb.endswith("F6DDCC")
+        assert highlighted == (site["risk_before_next_visit_frac"] > 0.10)
+
+
+def test_fleet_overview_at_1000_sites(tmp_path):
+    # A synthetic 1,000-site plan (no pipeline run): the Summary stays a short overview.
+    plan = make_plan(1000, seed=3)
+    plan["unserved_sites"] = [{"id": f"X{i:03d}", "reason": "demo reason", "limit": "candidates"}
+                              for i in range(250)]
+    for row in plan["chemistry_comparison"]:
+        if row["chemistry"] == "nmc":
+            row["sites_unserved"] = [s["id"] for s in plan["sites"][:400]]
+            row["sites_served"] = 600
+            row["kept_by_other"] = {s["id"]: ("lfp" if k < 300 else "vrla") for k, s in enumerate(plan["sites"][:400])}
+    book = openpyxl.load_workbook(write_workbook(plan, tmp_path / "fleet.xlsx"))
+    ws = book["Summary"]
+    assert ws.max_row < 80  # a few printed pages, not one row per site
+    _, top = _table(ws, "Site id")
+    assert len(top) == 10
+    _, by_region = _table(ws, "Region")
+    assert sum(r["Sites"] for r in by_region) == 1000
+    assert sum(r["Present cost [EUR]"] for r in by_region) == pytest.approx(plan["total_present_cost"], rel=1e-12)
+    assert sum(r["Replacements"] for r in by_region) == sum(len(s["replacement_years"]) for s in plan["sites"])
+    _, by_chem = _table(ws, "Chemistry")  # the comparison comes first, then the overview
+    coverage = {r["Chemistry"]: r["Coverage"] for r in by_chem if r.get("Coverage")}
+    assert coverage["nmc"] == "serves 600 of 1,000 sites; the other 400 keep another chemistry (lfp 300, vrla 100)"
+    longest = max(len(str(c.value)) for row in ws.iter_rows() for c in row if c.value is not None)
+    assert longest < 300  # no cell lists hundreds of ids
+    text = [c.value for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
+    assert any("250 sites cannot be served by any design" in t and "Cautions" in t for t in text)

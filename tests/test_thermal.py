@@ -133,7 +133,7 @@ def test_sun_warms_a_cabinet_and_shade_helps():
 
 
 def test_fleet_equals_single_sites():
-    years = [load_climate("alpine"), load_climate("pvlib-greensboro"), load_climate("alpine")]
+    years = [load_climate("alpine"), load_climate("tmy3-greensboro-nc"), load_climate("alpine")]
     kinds = ["vault", "cabinet-sun", "shelter"]
     fleet = thermal.battery_temperature_fleet(years, kinds, internal_heat_w=np.array([0, 10, 50]),
                                               heater_setpoint_c=np.array([np.nan, 0.0, np.nan]))

@@ -34,6 +34,30 @@ _COMMANDS = {
 }
 
 
+def _set_root_flag(ctx, param, value):
+    """Record --quiet / --debug given after a sub-command on the root context."""
+    if value:
+        root = ctx.find_root()
+        root.ensure_object(dict)
+        root.obj[param.name] = True
+    return value
+
+
+#: Options accepted both before and after the sub-command (``planner --quiet plan X`` and
+#: ``planner plan X --quiet``): name -> help text.
+SHARED_FLAGS = {"quiet": "No progress bar and no summary on the console.",
+                "debug": "Show a traceback for errors."}
+
+
+def _with_shared_flags(command: click.Command) -> click.Command:
+    have = {p.name for p in command.params}
+    for name, text in SHARED_FLAGS.items():
+        if name not in have:
+            command.params.append(click.Option([f"--{name}"], is_flag=True, expose_value=False,
+                                               callback=_set_root_flag, help=text))
+    return command
+
+
 class _LazyGroup(click.Group):
     def list_commands(self, ctx):
         return sorted(_COMMANDS)
@@ -42,7 +66,7 @@ class _LazyGroup(click.Group):
         if name not in _COMMANDS:
             return None
         module_name, attr = _COMMANDS[name]
-        return getattr(importlib.import_module(module_name), attr)
+        return _with_shared_flags(getattr(importlib.import_module(module_name), attr))
 
     def invoke(self, ctx):
         try:
@@ -62,8 +86,8 @@ class _LazyGroup(click.Group):
 
 @click.group(cls=_LazyGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, "--version", prog_name="planner")
-@click.option("--quiet", is_flag=True, help="No progress bar and no summary on the console.")
-@click.option("--debug", is_flag=True, help="Show a traceback for errors.")
+@click.option("--quiet", is_flag=True, help=SHARED_FLAGS["quiet"])
+@click.option("--debug", is_flag=True, help=SHARED_FLAGS["debug"])
 @click.pass_context
 def cli(ctx, quiet, debug):
     """Plan batteries for remote, unattended sites: chemistry, oversizing, charge
@@ -71,7 +95,7 @@ def cli(ctx, quiet, debug):
 
     \b
     Example:
-      planner plan scenarios/highmoor.toml
+      planner plan scenarios/quick.toml --quiet
     """
     ctx.ensure_object(dict)
     ctx.obj["quiet"] = quiet

@@ -36,17 +36,18 @@ def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, a
     """Show the typical year at SOURCE and the battery temperature in an enclosure.
 
     SOURCE is a bundled climate name (see --list) or an EPW, TMY3, TMY2 or CSV
-    file. A plain CSV file needs its declarations (see docs/climate.md) as
-    repeated --option KEY=VALUE.
+    file. A plain CSV file needs its declarations (see docs/climate.md): as
+    '# key = value' lines at its top (the CSV written by --csv carries them) or as
+    repeated --option KEY=VALUE, which take precedence.
 
     \b
     Examples:
       planner climate --list
       planner climate hot-desert --enclosure cabinet-sun
       planner climate alpine --enclosure vault --warming-k 2 --json
-      planner climate site.epw --csv output/site-hourly.csv
-      planner climate logger.csv --option temperature_unit=F --option timestamp_marks=end
-        --option utc_offset_h=-7 --option latitude_deg=35.1 --option longitude_deg=-111.7
+      planner climate alpine --csv output/alpine-hourly.csv
+      planner climate output/alpine-hourly.csv --enclosure vault
+      planner climate output/alpine-hourly.csv --option name=alpine-copy --option altitude_m=2100
     """
     from planner.climate import list_bundled, load_climate
 
@@ -130,6 +131,23 @@ def _print_summary(year, enclosure, warming_k, thermal, s):
     click.echo("\n".join(lines))
 
 
+def csv_declarations(year) -> str:
+    """The ``# key = value`` lines that let the plain-CSV reader read the hourly CSV back
+    with no option (docs/climate.md): unit, timestamp convention, UTC offset, position
+    and the columns written below."""
+    declared = {
+        "name": year.name, "temperature_unit": "C", "timestamp_marks": "start",
+        "utc_offset_h": f"{year.utc_offset_h:g}", "latitude_deg": f"{year.latitude_deg:.6g}",
+        "longitude_deg": f"{year.longitude_deg:.6g}", "altitude_m": f"{year.altitude_m:g}",
+        "time_column": "time_start_local", "temperature_column": "temp_air_c",
+        "ghi_column": "ghi_w_m2", "dni_column": "dni_w_m2", "dhi_column": "dhi_w_m2",
+        "wind_column": "wind_speed_m_s"}
+    # one line each; a name cannot break the line it sits on
+    lines = [f"# {k} = {' '.join(str(v).split())}" for k, v in declared.items()]
+    return "# planner climate hourly series (declarations for 'planner climate FILE')\n" + \
+        "\n".join(lines) + "\n"
+
+
 def _write_csv(path: Path, year, thermal) -> None:
     import pandas as pd
     from planner.fileio import atomic_path
@@ -142,7 +160,8 @@ def _write_csv(path: Path, year, thermal) -> None:
         "hvac_power_w": thermal.hvac_power_w})
     try:
         with atomic_path(path) as tmp:
-            frame.to_csv(tmp, index=False, float_format="%.3f")
+            Path(tmp).write_text(csv_declarations(year), encoding="utf-8")
+            frame.to_csv(tmp, mode="a", index=False, float_format="%.3f")
     except OutputError:
         raise
     except OSError as err:

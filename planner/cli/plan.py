@@ -33,7 +33,7 @@ def plan_command(ctx, study, out_path, json_path):
 
     \b
     Example:
-      planner plan scenarios/corvale.toml --json output/corvale.json
+      planner plan scenarios/quick.toml --json output/quick.json
     """
     from planner.pipeline import PROGRESS_STAGES, run_study
     from planner.scenario import load_study
@@ -163,35 +163,45 @@ class _progress:
         return False
 
 
+#: Sites not served listed one per line on the console; beyond it, a count.
+MAX_UNSERVED_LINES = 10
+
+
 def _summary(plan, out) -> str:
+    from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
+
     currency = printable(plan["study"]["currency"])
-    solver = plan["solver"]
-    total, gap = plan["total_present_cost"], solver["gap_frac"]
+    total = plan["total_present_cost"]
     total_text = (f"{total:,.0f} {currency}" if total is not None and math.isfinite(total)
                   else "none (no feasible plan)")
-    gap_text = f", gap {gap:.2%}" if gap is not None and math.isfinite(gap) else ""
-    lines = [
-        f"Plan for {printable(plan['study']['name'])}: {len(plan['sites'])} sites, "
-        f"{plan['study']['horizon_years']} years",
-        f"  total present cost: {total_text} (solver {solver['name']}, {solver['status']}{gap_text})",
-    ]
     n_sites = len(plan["sites"])
-    lines.append("  fleet cost with each chemistry wherever it can serve:")
+    lines = [
+        f"Plan for {printable(plan['study']['name'])}: {n_sites} sites, "
+        f"{plan['study']['horizon_years']} years",
+        f"  total present cost: {total_text} ({plan_status_text(plan)})",
+        "  fleet cost with each chemistry wherever it can serve (other sites keep their best design):",
+    ]
     for row in plan.get("chemistry_comparison", []):
-        text = f"{row['total_with_others_present_cost']:,.0f} {currency}"
-        unserved = row.get("sites_unserved") or []
-        if len(unserved) == n_sites:
-            text = "cannot serve any site"
-        elif unserved:
-            verb = "keeps" if len(unserved) == 1 else "keep"
-            text += (f" ({n_sites - len(unserved)} of {n_sites} sites; "
-                     f"{len(unserved)} {verb} another chemistry)")
-        lines.append(f"    {row['chemistry']}: {text}")
+        served = row.get("sites_served") or 0
+        cost = (f"{row['total_with_others_present_cost']:,.0f} {currency}, " if served else "")
+        lines.append(f"    {row['chemistry']}: {cost}{printable(coverage_text(row, n_sites))}")
+        share = downtime_share(row)
+        if served and share is not None:
+            lines.append(f"      equipment {row['equipment']:,.0f}, trips and labour "
+                         f"{row['trips_and_labour']:,.0f}, days off air {row['downtime']:,.0f} "
+                         f"({share:.0%}), failure risk {row['failure_risk']:,.0f}")
+        drivers = drivers_text(row, currency)
+        if served and drivers:
+            lines.append(f"      most of the difference to the plan: {printable(drivers)}")
     for site in plan["sites"]:
         for warning in site.get("warnings") or []:
             if str(warning).startswith(SHORTFALL_CAUSE):
                 lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
-    for item in plan.get("unserved_sites", []):
+    unserved = plan.get("unserved_sites", [])
+    for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
+    if len(unserved) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites not served "
+                     "(all listed on the workbook's Cautions sheet)")
     lines.append(f"  workbook: {printable(out)}")
     return "\n".join(lines)

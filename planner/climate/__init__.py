@@ -150,6 +150,12 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
         raise InputError(f"warming_k is {warming_k!r}; expected a number of kelvin between -20 and 20",
                          source="climate")
     name = source.strip()
+    if name in readers.DEPRECATED_IDS:
+        import warnings
+        new = readers.DEPRECATED_IDS[name]
+        warnings.warn(f"climate '{name}' is now called '{new}'; the old name is accepted in this "
+                      "release only, please use the new one", ClimateWarning, stacklevel=2)
+        name = new
     bundled = name in readers.PVLIB_FILES or name in archetypes.names()
     if bundled and options:
         raise InputError(f"options {sorted(options)} were given for the bundled climate "

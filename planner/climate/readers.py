@@ -30,20 +30,24 @@ from planner.climate import (HOURS_PER_YEAR, REFERENCE_YEAR, ClimateWarning, Typ
 from planner.errors import InputError
 from planner.fileio import check_input_file
 
-#: Bundled real typical years shipped inside pvlib's data folder: name -> (file, format).
+#: Bundled real typical years (data file type and place) found in pvlib's data folder:
+#: name -> (file, format). The credit for the files stays in the descriptions.
 PVLIB_FILES = {
-    "pvlib-sand-point": ("703165TY.csv", "tmy3"),
-    "pvlib-greensboro": ("723170TYA.CSV", "tmy3"),
-    "pvlib-miami": ("12839.tm2", "tmy2"),
+    "tmy3-sand-point-ak": ("703165TY.csv", "tmy3"),
+    "tmy3-greensboro-nc": ("723170TYA.CSV", "tmy3"),
+    "tmy2-miami-fl": ("12839.tm2", "tmy2"),
 }
 PVLIB_FILES_DESCRIPTIONS = {
-    "pvlib-sand-point": "real TMY3 year, subarctic maritime island station, Alaska (55.3 N), "
-                        "file shipped with pvlib",
-    "pvlib-greensboro": "real TMY3 year, humid subtropical inland airport, North Carolina "
-                        "(36.1 N, 273 m), file shipped with pvlib",
-    "pvlib-miami": "real TMY2 year, tropical coastal station, Florida (25.8 N), file shipped "
-                   "with pvlib",
+    "tmy3-sand-point-ak": "real TMY3 year, subarctic maritime island station, Sand Point, "
+                          "Alaska (55.3 N); NREL data, file shipped with pvlib",
+    "tmy3-greensboro-nc": "real TMY3 year, humid subtropical inland airport, Greensboro, North "
+                          "Carolina (36.1 N, 273 m); NREL data, file shipped with pvlib",
+    "tmy2-miami-fl": "real TMY2 year, tropical coastal station, Miami, Florida (25.8 N); NREL "
+                     "data, file shipped with pvlib",
 }
+#: Ids of earlier releases, accepted for one more release with a deprecation message.
+DEPRECATED_IDS = {"pvlib-sand-point": "tmy3-sand-point-ak", "pvlib-greensboro": "tmy3-greensboro-nc",
+                  "pvlib-miami": "tmy2-miami-fl"}
 
 #: Plausible hourly air temperature, degC (beyond the recorded world extremes of about
 #: -89 and +57 degC, common practice).
@@ -74,7 +78,8 @@ CSV_OPTIONS = {
                  "hours like 2 or -5, or a zone name like 'America/Denver'",
     "time_column": "timestamp column (default 'time')",
     "time_format": "strftime format of the timestamps (default: ISO 8601)",
-    "temperature_column": "air temperature column (default 'temp_air')",
+    "temperature_column": "air temperature column (default 'temp_air_c', the column "
+                          "'planner climate --csv' writes)",
     "ghi_column": "global horizontal irradiance column, W/m2 (optional)",
     "dni_column": "direct normal irradiance column, W/m2 (optional, with ghi_column)",
     "dhi_column": "diffuse horizontal irradiance column, W/m2 (optional, with ghi_column)",
@@ -86,6 +91,9 @@ CSV_OPTIONS = {
     "delimiter": "field separator (default ',')",
     "name": "climate name shown in reports (default: file stem)",
 }
+#: The air-temperature column a plain CSV has unless declared otherwise: the one
+#: ``planner climate --csv`` writes.
+DEFAULT_TEMPERATURE_COLUMN = "temp_air_c"
 #: Options accepted by EPW/TMY3/TMY2 files (their headers carry the rest).
 FILE_OPTIONS = ("name",)
 
@@ -162,8 +170,10 @@ def read_climate_file(path: Path, *, options: dict | None = None) -> TypicalYear
         raise InputError(f"file extension '{path.suffix}' is not a climate format; expected "
                          ".epw, .csv (TMY3 or plain CSV) or .tm2", source=where)
     if kind == "csv":
+        declared, n_lines = file_declarations(path)
+        check_option_keys(declared, CSV_OPTIONS, where)
         check_option_keys(options, CSV_OPTIONS, where)
-        raw = _read_plain_csv(path, options)
+        raw = _read_plain_csv(path, {**declared, **options}, skip_lines=n_lines)
     else:
         check_option_keys(options, {k: CSV_OPTIONS[k] for k in FILE_OPTIONS}, where,
                           note=f" (a {kind.upper()} file carries its own location and units)")
@@ -192,6 +202,41 @@ def check_option_keys(options: dict, allowed: dict, where: str, note: str = "") 
             else:
                 hint = f"; expected one of {', '.join(sorted(allowed))}"
             raise InputError(f"unknown climate option '{key}'{hint}", source=where)
+
+
+#: A declaration line at the top of a plain CSV file: ``# key = value``.
+_DECLARATION_RE = re.compile(r"^#\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*(.*?)\s*$")
+
+
+def file_declarations(path: Path) -> tuple[dict, int]:
+    """Declarations (``# key = value`` lines) at the top of a plain CSV file.
+
+    Returns the options they declare (numbers as int or float) and the number of leading
+    ``#`` lines to skip before the header. ``planner climate --csv`` writes them, so its
+    output reads back with no option; options given by the user take precedence.
+    """
+    declared, n_lines = {}, 0
+    try:
+        with open(path, encoding="utf-8", errors="replace") as fh:
+            for line in fh:
+                if not line.startswith("#"):
+                    break
+                n_lines += 1
+                match = _DECLARATION_RE.match(line.rstrip("\r\n"))
+                if match:
+                    declared[match.group(1)] = _declared_value(match.group(2))
+    except OSError as err:
+        raise InputError(f"cannot be read ({err.strerror})", source=str(path)) from None
+    return declared, n_lines
+
+
+def _declared_value(text: str):
+    for convert in (int, float):
+        try:
+            return convert(text)
+        except ValueError:
+            continue
+    return text
 
 
 def _first_line(err: BaseException) -> str:
@@ -301,7 +346,7 @@ def _number_option(options: dict, key: str, where: str, lo: float, hi: float, de
     return number
 
 
-def _read_plain_csv(path: Path, options: dict) -> RawSeries:
+def _read_plain_csv(path: Path, options: dict, skip_lines: int = 0) -> RawSeries:
     where = str(path)
     unit = str(_required(options, "temperature_unit", where)).strip().upper().replace("°", "")
     unit = {"DEGC": "C", "DEGF": "F"}.get(unit, unit)
@@ -329,7 +374,7 @@ def _read_plain_csv(path: Path, options: dict) -> RawSeries:
                          source=where)
     try:
         frame = pd.read_csv(path, sep=delimiter, dtype=str, keep_default_na=False,
-                            skipinitialspace=True)
+                            skipinitialspace=True, skiprows=skip_lines)
     except OSError as err:
         raise InputError(f"cannot be read ({err.strerror})", source=where) from None
     except Exception as err:  # pandas raises several parser/decoding error types
@@ -350,10 +395,10 @@ def _read_plain_csv(path: Path, options: dict) -> RawSeries:
                              f"{', '.join(repr(c) for c in frame.columns)}", source=where)
         return frame[name]
 
-    rows = np.arange(len(frame)) + 2  # line 1 is the header
+    rows = np.arange(len(frame)) + 2 + skip_lines  # the header follows the declarations
     times = _parse_times(column("time_column", "time"), options.get("time_format"), rows, where)
-    temp = _parse_numbers(column("temperature_column", "temp_air"), rows, where,
-                          options.get("temperature_column", "temp_air"))
+    temp = _parse_numbers(column("temperature_column", DEFAULT_TEMPERATURE_COLUMN), rows, where,
+                          options.get("temperature_column", DEFAULT_TEMPERATURE_COLUMN))
     extra = {}
     for key, field in (("ghi_column", "ghi"), ("dni_column", "dni"), ("dhi_column", "dhi"),
                        ("wind_column", "wind")):

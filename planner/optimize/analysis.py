@@ -24,6 +24,8 @@ class ChemistryResult:
     # The fleet total when the sites this chemistry cannot serve keep their best design
     # of another chemistry (equal to total_present_cost when it serves every site).
     total_with_others_present_cost: float = float("nan")
+    # The plan behind total_with_others_present_cost (``solution`` when it serves every site).
+    with_others: FleetSolution | None = None
 
 
 @dataclass
@@ -65,14 +67,14 @@ def compare_chemistries(problem: FleetProblem, chemistries=None, *,
     out = []
     for chem in (chemistries or found):
         sol = solve_fleet(restrict_chemistry(problem, chem))
-        with_others = sol.objective
+        others = sol
         if sol.unserved:
-            with_others = solve_fleet(restrict_chemistry(problem, chem, others_keep_all=True)).objective
+            others = solve_fleet(restrict_chemistry(problem, chem, others_keep_all=True))
         out.append(ChemistryResult(
             chemistry=chem, total_present_cost=sol.objective, status=sol.status,
             sites_served=len(sol.sites), unserved=list(sol.unserved),
             site_costs={p.site_id: p.present_cost for p in sol.sites}, solution=sol,
-            total_with_others_present_cost=with_others))
+            total_with_others_present_cost=others.objective, with_others=others))
     return out
 
 

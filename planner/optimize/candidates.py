@@ -45,9 +45,12 @@ def prune_dominated(cands: list[Candidate] | tuple[Candidate, ...]) -> list[Cand
     if len(cands) < 2:
         return cands
     n_ages = 1 + max((len(c.failure_prob_by_age or ()) for c in cands), default=0)
-    # the trended and untrended parts of the price apart: with one price trend, no dearer
-    # on both is no dearer in every year
-    cost = np.array([[c.pack_cost - c.untrended_cost, c.untrended_cost, c.install_cost, c.disposal_cost,
+    # pack price and days off air travel together (both are paid per pack and credited
+    # by the same residual fraction), so their sum is one count; under a price trend the
+    # price and the days off air also count apart (no dearer on both is no dearer in any
+    # year of a trend shared by the candidates compared)
+    cost = np.array([[c.pack_cost + c.downtime_cost, c.pack_cost if c.price_trend_frac_per_year else 0.0,
+                      c.downtime_cost if c.price_trend_frac_per_year else 0.0, c.install_cost, c.disposal_cost,
                       c.mass_kg, -c.life_years] for c in cands], dtype=float)
     feats = np.hstack([cost, _risk_matrix(cands, n_ages)])
     # only candidates of one price trend, one install window and one thermal measure

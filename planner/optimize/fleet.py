@@ -349,7 +349,7 @@ def _annual_spend(problem, plans, trips) -> np.ndarray:
     for p in plans:
         s = sites[p.site_id]
         for j, (t, c) in enumerate(zip(p.replacement_years, p.installations)):
-            spend[t] += float(c.pack_cost_in(t)) + c.install_cost + s.site_visit_cost
+            spend[t] += float(c.pack_cost_in(t)) + c.downtime_cost + c.install_cost + s.site_visit_cost
             if j > 0:
                 spend[t] += p.installations[j - 1].disposal_cost
             else:

@@ -22,14 +22,17 @@ class Candidate:
 
     ``pack_cost`` is the purchase price including the fixed part, ``install_cost`` the
     installation labour and ``disposal_cost`` the cost of taking the pack out (per pack).
+    ``downtime_cost`` is the present value, at installation, of the pack's expected days
+    off air over its service; it is paid with the pack and its share beyond the horizon
+    is credited like the residual value.
     ``life_years`` is how long the pack can carry the site; a replacement is planned at
     or before it. ``failure_prob_by_age[i]`` is the probability that the pack can no
     longer carry the site before age ``i + 1`` years (cumulative), or None when life is
     treated as certain.
 
     ``price_trend_frac_per_year`` is the real yearly change of the purchase price (for
-    example -0.03); it applies to ``pack_cost`` less ``untrended_cost`` (the part that does
-    not follow the market, such as priced days off air). A candidate may go in only in
+    example -0.03): a pack bought in year t costs ``pack_cost * (1 + trend)^t`` (days off
+    air do not follow the market). A candidate may go in only in
     years ``first_install_year`` .. ``last_install_year`` (None: to the end of the study),
     so a design sized for a grown load can be offered from the year it applies.
     ``thermal_measure`` names the heat or cold measure the pack is installed with ("" or
@@ -49,8 +52,8 @@ class Candidate:
     life_years: float
     failure_prob_by_age: tuple[float, ...] | None = None
     limiting_cause: str = ""
+    downtime_cost: float = 0.0
     price_trend_frac_per_year: float = 0.0
-    untrended_cost: float = 0.0
     first_install_year: int = 0
     last_install_year: int | None = None
     thermal_measure: str = ""
@@ -59,9 +62,7 @@ class Candidate:
 
     def pack_cost_in(self, years):
         """Purchase cost of this pack bought in year(s) ``years`` (0 = start), real money."""
-        trended = self.pack_cost - self.untrended_cost
-        return trended * (1.0 + self.price_trend_frac_per_year) ** np.asarray(years, dtype=float) \
-            + self.untrended_cost
+        return self.pack_cost * (1.0 + self.price_trend_frac_per_year) ** np.asarray(years, dtype=float)
 
 
 @dataclass(frozen=True)

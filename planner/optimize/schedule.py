@@ -29,7 +29,7 @@ from planner import economics as ec
 from planner.optimize.candidates import whole_years
 from planner.optimize.problem import Candidate, SiteOptions
 
-COST_PARTS = ("packs", "labour", "trips", "disposal", "residual", "failure_risk")
+COST_PARTS = ("packs", "labour", "trips", "disposal", "residual", "failure_risk", "downtime")
 _EPS = 1e-9
 
 
@@ -135,9 +135,8 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
 
     life = col("life_years")
     life_whole = np.array([whole_years(x) for x in life], dtype=np.int64)
-    labour, disposal, mass = col("install_cost"), col("disposal_cost"), col("mass_kg")
-    trend, fixed = col("price_trend_frac_per_year"), col("untrended_cost")
-    trended = col("pack_cost") - fixed
+    pack_price, labour, disposal, mass = col("pack_cost"), col("install_cost"), col("disposal_cost"), col("mass_kg")
+    downtime, trend = col("downtime_cost"), col("price_trend_frac_per_year")
     first_t = np.array([c.first_install_year for c in pair_cand], dtype=np.int64)
     last_t = np.array([h - 1 if c.last_install_year is None else c.last_install_year for c in pair_cand],
                       dtype=np.int64)
@@ -162,18 +161,21 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
     a_t2 = a_t1 + a_span
     is_term = a_t2 == h
     f1 = ec.spv(rate, a_t1)
-    pack = trended[p_idx] * (1.0 + trend[p_idx]) ** a_t1 + fixed[p_idx]  # bought in year t1
+    pack = pack_price[p_idx] * (1.0 + trend[p_idx]) ** a_t1  # bought in year t1
     starts = (a_t1 == 0) & ~has_ex[pair_site[p_idx]] if n_pairs else np.zeros(0, dtype=bool)
     once_price = np.where(starts, m_price[p_idx], 0.0)
     once_labour = np.where(starts, m_labour[p_idx], 0.0)
+    # share of the last pack's price (and of its days off air) left at the horizon
+    left = (ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
+            if residual_value else np.zeros(p_idx.size))
     parts = {
         "packs": (pack + once_price) * f1,
         "labour": (labour[p_idx] + once_labour) * f1,
         "trips": visit[p_idx] * f1,
         "disposal": np.where(is_term, 0.0, disposal[p_idx] * ec.spv(rate, a_t2)),
-        "residual": (-pack * ec.residual_fraction(a_span, life[p_idx]) * ec.spv(rate, h) * is_term
-                     if residual_value else np.zeros(p_idx.size)),
+        "residual": -pack * left,
         "failure_risk": c_fail[pair_site[p_idx]] * f1 * risk_cum[p_idx, a_span],
+        "downtime": downtime[p_idx] * (f1 - left),
     }
 
     # existing packs: taken out in year t (0..min(floor R, H-1)), then design k goes in
@@ -203,7 +205,7 @@ def build_graphs(sites: list[SiteOptions], cands: list[list[Candidate]], *, hori
         pair_site=pair_site, pair_cand=pair_cand, pair_node=pair_node,
         arc_pair=p_idx.astype(np.int64), arc_t1=a_t1.astype(np.int64), arc_t2=a_t2.astype(np.int64),
         arc_parts=parts, arc_cost=sum(parts.values()), arc_mass_kg=mass[p_idx],
-        arc_spend_t1=pack + (labour + visit)[p_idx] + once_price + once_labour,
+        arc_spend_t1=pack + (downtime + labour + visit)[p_idx] + once_price + once_labour,
         arc_spend_t2=np.where(is_term, 0.0, disposal[p_idx]),
         ex_site=ex[:, 0].astype(np.int64), ex_pair=ex[:, 1].astype(np.int64), ex_t=ex_t,
         ex_parts=ex_parts, ex_cost=sum(ex_parts.values()) if len(ex) else np.zeros(0),

@@ -40,6 +40,7 @@ def bar_chart(ws, *, title: str, categories: Reference, values: Reference, y_tit
     chart.y_axis.title = y_title
     chart.y_axis.numFmt = y_format
     chart.y_axis.majorGridlines = None
+    chart.y_axis.scaling.min = 0  # bars from zero: an axis starting higher exaggerates differences
     chart.series[0].graphicalProperties.solidFill = SERIES_COLOURS[0]
     chart.series[0].graphicalProperties.line.solidFill = SERIES_COLOURS[0]
     chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM
@@ -99,6 +100,35 @@ def monthly_temperature_chart(ws, *, title: str, categories: Reference,
     chart.y_axis.numFmt = "0"
     chart.legend.position = "b"
     chart.width, chart.height = CHART_WIDTH_CM, CHART_HEIGHT_CM
+    _show_axes(chart)
+    ws.add_chart(chart, anchor)
+    return chart
+
+
+def stacked_bar_chart(ws, *, title: str, categories: Reference, series: list[Reference], y_title: str,
+                      y_format: str, anchor: str, x_title: str | None = None,
+                      width_cm: float = CHART_WIDTH_CM) -> BarChart:
+    """Stacked columns, one series per cost part (the header cell above each column is its
+    name); negative parts (residual value) stack below zero."""
+    chart = BarChart()
+    chart.type = "col"
+    chart.grouping = "stacked"
+    chart.overlap = 100
+    chart.title = neutralise_text(title)
+    for index, ref in enumerate(series):
+        chart.add_data(ref, titles_from_data=True)
+        s = chart.series[-1]
+        s.graphicalProperties.solidFill = SERIES_COLOURS[index % len(SERIES_COLOURS)]
+        s.graphicalProperties.line.solidFill = SERIES_COLOURS[index % len(SERIES_COLOURS)]
+    chart.set_categories(categories)
+    chart.y_axis.title = y_title
+    chart.y_axis.numFmt = y_format
+    chart.y_axis.majorGridlines = None
+    if x_title:
+        chart.x_axis.title = x_title
+    chart.x_axis.tickLblPos = "low"  # labels below the plot when a part is negative
+    chart.legend.position = "b"
+    chart.width, chart.height = width_cm, CHART_HEIGHT_CM
     _show_axes(chart)
     ws.add_chart(chart, anchor)
     return chart

@@ -22,10 +22,12 @@ NOTE_FONT = Font(name=FONT_NAME, italic=True, color="4A5866")
 HEADER_ALIGN_INDENT = Alignment(horizontal="left", wrap_text=True, vertical="center", indent=1)
 INDENT = Alignment(horizontal="left", indent=1)
 WRAP_TOP = Alignment(wrap_text=True, vertical="top")
+TOP = Alignment(vertical="top")
+WRAP_TOP_INDENT = Alignment(horizontal="left", wrap_text=True, vertical="top", indent=1)
 YEAR_BORDER = Border(top=Side(style="thin", color="7A8B9C"))
 
 #: Chart series colours: muted, distinguishable, of our own choosing.
-SERIES_COLOURS = ("2F5D8A", "B5651D", "5E8C31", "7B4F9D", "8C8C8C", "A23B3B")
+SERIES_COLOURS = ("2F5D8A", "B5651D", "5E8C31", "7B4F9D", "8C8C8C", "A23B3B", "C9A227", "3A8C8C")
 
 INTEGER = "#,##0"
 ONE_DECIMAL = "0.0"
@@ -44,6 +46,13 @@ def money_format(currency: str) -> str:
     """
     label = "".join(ch for ch in str(currency) if ch not in '"\\').strip()
     return f'#,##0 "{label}"' if label else "#,##0"
+
+
+def money_format_dash_zero(currency: str) -> str:
+    """:func:`money_format` with a dash for zero, so tables of mostly empty years stay
+    readable (positive;negative;zero sections, ECMA-376 Part 1, §18.8.31 numFmts)."""
+    base = money_format(currency)
+    return f'{base};-{base};"-"'
 
 
 def currency_label(currency) -> str:
