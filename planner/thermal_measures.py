@@ -252,7 +252,7 @@ def evaluate_with_measures(study: Study, models: list[SiteModel], evaluate, serv
     variants = variant_models(study, models, offered_measures(study, models))
     by_chems: dict[tuple, list] = {}
     for i, m, v in variants:
-        chems = helped_chemistries(study, base[i], m, models[i])
+        chems = helped_chemistries(study, base[i], m, models[i], v)
         if chems:
             by_chems.setdefault(chems, []).append((i, m, v))
     found = {k: [] for k in range(len(models))}
@@ -277,25 +277,41 @@ def evaluate_with_measures(study: Study, models: list[SiteModel], evaluate, serv
     return designs, hints
 
 
-def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel) -> tuple[str, ...]:
+def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
+                       variant: SiteModel | None = None) -> tuple[str, ...]:
     """Chemistries of the study whose decision a measure can change at a site, judged from
-    the site's designs without it (``base``, a SiteDesigns): those left out for a
-    temperature limit, those whose charging the cold blocks (cold measures at a cold
-    site), and those whose life ends by aging rather than at the service-life limit
-    (temperature sets the aging rate). A smaller pack from less cold derating alone is
-    not counted: it saves a part of one pack's price, less than a measure costs."""
+    the site's designs without it (``base``, a SiteDesigns) and the battery temperature
+    with it (``variant``): those left out for a temperature limit; those whose charging
+    the cold blocks (cold measures at a cold site); and those whose life ends by aging
+    rather than at the service-life limit, when the measure slows that aging: a cooler
+    aging-effective temperature (Arrhenius), or a warmer coldest hour for a chemistry
+    whose cycling ages faster in the cold (lithium plating below its crossover). A smaller
+    pack from less cold derating alone is not counted: it saves a part of one pack's
+    price, less than a measure costs."""
     cold = measure.helps in ("cold", "both") and model.design_temp_c < cold_limit_c(study)
+    cooler = warmer = True
+    if variant is not None:
+        cooler = variant.temperatures.effective_temp_c < model.temperatures.effective_temp_c - 0.5
+        warmer = variant.design_temp_c > model.design_temp_c + 0.5
     out = []
     for chem in study.settings["candidates"]["chemistries"]:
         why = base.excluded.get(chem, "")
         mine = [o for o in base.outcomes if o.design.chemistry == chem]
+        aging = bool(mine) and not any(o.limiting_cause == "service-life limit" for o in mine)
         if "°C" in why:
             out.append(chem)
         elif mine and cold and any(o.charge_blocked_hours > 0 for o in mine):
             out.append(chem)
-        elif mine and not any(o.limiting_cause == "service-life limit" for o in mine):
+        elif aging and (cooler or (warmer and _ages_faster_cold(chem))):
             out.append(chem)
     return tuple(out)
+
+
+def _ages_faster_cold(chemistry: str) -> bool:
+    """The chemistry's cycle-aging law has a low-temperature (plating) branch."""
+    chem = get_chemistry(chemistry)
+    params = chem.aging_sets.get(chem.default_aging_set)
+    return params is not None and "plating_below_c" in params.cycle
 
 
 def with_chemistries(study: Study, chemistries: tuple[str, ...]) -> Study:
