@@ -139,3 +139,27 @@ def test_measure_evaluated_only_for_chemistries_it_can_help(tmp_path):
     cold_out = NS(excluded={"lto": "battery reaches -31.0 °C, below the -30 °C discharge limit"},
                   outcomes=[outcome("lfp", 0.0, "calendar")])
     assert helped_chemistries(study, cold_out, box, model) == ("lfp", "lto")
+
+
+def test_warming_helps_aging_only_where_cold_speeds_it(tmp_path):
+    # Warming a battery speeds calendar aging (Arrhenius, common practice) but slows the
+    # lithium plating that graphite-anode cells suffer when cycled cold (Waldmann et al.
+    # 2014; Schimpe et al. 2018): a heater can only help the aging of a chemistry whose
+    # cycle law has that cold branch (lfp here), never of lead-acid.
+    from types import SimpleNamespace as NS
+
+    from planner.thermal_measures import helped_chemistries, with_chemistries
+
+    study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,\n",
+                           '[thermal]\nmeasures = ["heater-box"]\n')
+    study = with_chemistries(study, ("vrla", "lfp"))
+    model = models[0]
+    aging = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0, limiting_cause="calendar")
+                                      for c in ("vrla", "lfp")])
+    warmer = NS(design_temp_c=model.design_temp_c + 10.0,
+                temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 2.0))
+    cooler = NS(design_temp_c=model.design_temp_c,
+                temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c - 3.0))
+    box = catalogue(study)["heater-box"]
+    assert helped_chemistries(study, aging, box, model, warmer) == ("lfp",)
+    assert helped_chemistries(study, aging, box, model, cooler) == ("vrla", "lfp")
