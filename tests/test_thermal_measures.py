@@ -1,6 +1,7 @@
 """Thermal measures as a design dimension: checks against physics and the trade's limits
 (sources beside each check)."""
 
+import dataclasses
 from pathlib import Path
 
 import numpy as np
@@ -156,10 +157,17 @@ def test_warming_helps_aging_only_where_cold_speeds_it(tmp_path):
     model = models[0]
     aging = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0, limiting_cause="calendar")
                                       for c in ("vrla", "lfp")])
-    warmer = NS(design_temp_c=model.design_temp_c + 10.0,
+    warmer = NS(design_temp_c=model.design_temp_c + 10.0, heater_power_w=np.ones(10),
                 temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 2.0))
-    cooler = NS(design_temp_c=model.design_temp_c,
+    cooler = NS(design_temp_c=model.design_temp_c, heater_power_w=np.zeros(10),
                 temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c - 3.0))
     box = catalogue(study)["heater-box"]
     assert helped_chemistries(study, aging, box, model, warmer) == ("lfp",)
     assert helped_chemistries(study, aging, box, model, cooler) == ("vrla", "lfp")
+    # a box around today's heater cuts its energy: every chemistry's energy balance gains
+    heated = dataclasses.replace(model, heater_power_w=np.full(8760, 5.0))
+    boxed = NS(design_temp_c=model.design_temp_c, heater_power_w=np.full(8760, 2.0),
+               temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 1.0))
+    capped = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0,
+                                          limiting_cause="service-life limit") for c in ("vrla", "lfp")])
+    assert helped_chemistries(study, capped, catalogue(study)["insulated-box"], heated, boxed) == ("vrla", "lfp")
