@@ -21,6 +21,7 @@ from planner.life_risk import chemistry_life_log_sigma, failure_prob_by_age
 from planner.optimize import Candidate, ExistingPack, FleetProblem, SiteOptions
 from planner.scenario import Study
 from planner.site_model import SiteModel
+from planner.thermal_measures import base_measure_id, catalogue, measure_cost
 
 # Lives beyond this are "longer than any plan needs" for the optimizer.
 LIFE_CAP_YEARS = 100.0
@@ -72,6 +73,9 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
     d = outcome.design
     costs = study.settings["costs"]
     life = outcome.life_years if math.isfinite(outcome.life_years) else LIFE_CAP_YEARS
+    measure_price = measure_labour = 0.0
+    if d.thermal_measure:
+        measure_price, measure_labour = measure_cost(study, catalogue(study)[d.thermal_measure])
     return Candidate(
         design_id=d.design_id, chemistry=d.chemistry, oversize_factor=round(d.oversize_factor, 4),
         charge_voltage_v_per_cell=d.charge_voltage_v_per_cell, capacity_wh=d.pack.capacity_wh,
@@ -81,7 +85,12 @@ def _candidate(study: Study, model: SiteModel, outcome: Outcome) -> Candidate:
         install_cost=costs["labour_hours_per_replacement"] * costs["labour_rate_per_h"],
         disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"],
         life_years=min(life, LIFE_CAP_YEARS), failure_prob_by_age=failure_probabilities(study, outcome),
-        limiting_cause=outcome.limiting_cause)
+        limiting_cause=outcome.limiting_cause,
+        thermal_measure=d.thermal_measure or base_measure_id(model), measure_price=measure_price,
+        measure_labour_cost=measure_labour,
+        first_install_year=d.install_years[0] if d.install_years else 0,
+        last_install_year=d.install_years[1] if d.install_years else None,
+        price_trend_frac_per_year=study.prices.get(d.chemistry, {}).get("price_trend_frac_per_year", 0.0))
 
 
 def offered_outcomes(designs: SiteDesigns) -> list[Outcome]:
@@ -116,21 +125,28 @@ def standalone_cost_bounds(study: Study, model: SiteModel, outcome: Outcome) -> 
     return each * factor, (each + region["trip_cost"]) * factor
 
 
-def _unserved_reason(model: SiteModel, designs: SiteDesigns) -> str:
+def _unserved_reason(model: SiteModel, designs: SiteDesigns, hint: str = "") -> str:
     reasons = [f"{chem}: {why}" for chem, why in sorted(designs.excluded.items())]
     tried = sorted({o.design.chemistry for o in designs.outcomes})
     if tried:
         reasons.append(f"{', '.join(tried)}: no pack size on the grid carries "
                        f"{requirement_wh(model):.0f} Wh through the coldest hour "
                        f"({model.design_temp_c:.1f} °C) for at least a year")
-    return f"no candidate serves site {model.site.id} ({'; '.join(reasons)})"
+    if designs.measure_models:
+        reasons.append(f"also tried with {', '.join(sorted(designs.measure_models))}")
+    return f"no candidate serves site {model.site.id} ({'; '.join(reasons)})" + (f"; {hint}" if hint else "")
 
 
-def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesigns]) -> FleetProblem:
-    """The optimizer's view of the study: sites, candidates with costs, limits."""
+def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesigns],
+                  hints: dict[int, str] | None = None) -> FleetProblem:
+    """The optimizer's view of the study: sites, candidates with costs, limits.
+
+    ``hints[i]`` adds a line to site i's reason when no candidate serves it (what
+    thermal measure would, :func:`planner.thermal_measures.evaluate_with_measures`).
+    """
     costs = study.settings["costs"]
     sites = []
-    for model, site_designs in zip(models, designs):
+    for i, (model, site_designs) in enumerate(zip(models, designs)):
         site = model.site
         region = study.region(site.region)
         offered = [_candidate(study, model, o) for o in offered_outcomes(site_designs)]
@@ -149,7 +165,7 @@ def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesig
             site_id=site.id, region=site.region, access_months=model.access_months,
             candidates=offered, existing=existing, site_visit_cost=region["site_visit_cost"],
             downtime_cost_per_day=costs["downtime_cost_per_day"], unplanned_trip_cost=unplanned,
-            unserved_reason="" if offered else _unserved_reason(model, site_designs)))
+            unserved_reason="" if offered else _unserved_reason(model, site_designs, (hints or {}).get(i, ""))))
     limits = study.settings["limits"]
     solver = study.settings["solver"]
     return FleetProblem(
@@ -160,4 +176,4 @@ def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesig
         annual_budget=limits["annual_budget"] or None,
         payload_kg_per_trip=limits["payload_kg_per_trip"] or None,
         time_limit_s=solver["time_limit_s"], gap_rel_frac=solver["gap_rel_frac"],
-        solver=solver["name"])
+        solver=solver["name"], design_changes=study.settings["candidates"]["design_changes"])

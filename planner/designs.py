@@ -26,7 +26,7 @@ bounded by ``(8760, chunk)`` arrays whatever the fleet size.
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -76,6 +76,8 @@ class Design:
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
     service_life_years: float | None = None  # the study's cap; None: the library's
+    thermal_measure: str = ""   # the thermal measure installed with it (planner.thermal_measures)
+    install_years: tuple[int, int] | None = None  # its load step's install window (planner.load_growth)
 
     @property
     def is_existing(self) -> bool:
@@ -85,7 +87,9 @@ class Design:
     def design_id(self) -> str:
         if self.is_existing:
             return f"existing-{self.chemistry}"
-        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v")
+        measure = f"+{self.thermal_measure}" if self.thermal_measure else ""
+        step = f"@y{self.install_years[0]}" if self.install_years and self.install_years[0] > 0 else ""
+        return (f"{self.chemistry}-{self.pack.label}-{self.charge_voltage_v_per_cell:.3f}v{measure}{step}")
 
 
 # Skip the pack Monte Carlo when the nominal life is this many times the service limit.
@@ -127,6 +131,8 @@ class SiteDesigns:
     existing: Outcome | None
     excluded: dict[str, str]
     references: dict[str, ReferenceSize]
+    # thermal measure id -> the site's model with it, for designs evaluated with a measure
+    measure_models: dict = field(default_factory=dict)
 
 
 # ---------------------------------------------------------------- enumeration
@@ -250,9 +256,10 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                     continue
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
                                       float(volts), pack, reference,
-                                      service_life_years=caps.get(chem_id)))
+                                      service_life_years=caps.get(chem_id),
+                                      thermal_measure=model.thermal_measure))
     site = model.site
-    if site.has_existing_pack:
+    if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)
         pack = _pack(model, chem, site.existing_capacity_wh)
         age = float(study.settings["study"]["start_year"] - site.existing_installed_year)

@@ -21,6 +21,7 @@ import numpy as np
 
 from planner.costing import build_problem, offered_outcomes, pack_price, standalone_cost_bounds
 from planner.designs import evaluate_fleet
+from planner.load_growth import evaluate_with_growth
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (
     compare_chemistry, compare_solutions, restrict_chemistry, same_method, sensitivity_problems,
@@ -29,6 +30,7 @@ from planner.parallel import StageLog, Workers
 from planner.plan_assembly import assemble_plan
 from planner.scenario import Study
 from planner.site_model import model_sites
+from planner.thermal_measures import evaluate_with_measures
 
 WARMING_SENSITIVITY_K = 2.0
 
@@ -57,13 +59,38 @@ def plan_sites(study: Study, extra_warming_k: float = 0.0):
 
     A pure function of the study's settings and its site rows: map it over studies
     holding a chunk of the sites each (:func:`site_chunks`) and join the lists.
+    Returns per site its summary, its designs (thermal-measure variants and load-growth
+    steps included; variants' models as summaries) and the hint of what thermal measure
+    would serve it when nothing does ("" otherwise).
     """
     models = model_sites(study, extra_warming_k=extra_warming_k)
-    designs = evaluate_fleet(
+    designs, hints = _evaluate_with_measures(study, models)
+    _drop_unused_curves(designs)
+    designs = [_variants_summarised(d) for d in designs]
+    return ([m.summary() for m in models], designs,
+            [hints.get(i, "") for i in range(len(models))])
+
+
+def _evaluate(study: Study, models):
+    return evaluate_fleet(
         study, models, price_of=lambda chem, wh: pack_price(study, chem, wh),
         cost_bounds_of=lambda model, outcome: standalone_cost_bounds(study, model, outcome))
-    _drop_unused_curves(designs)
-    return [m.summary() for m in models], designs
+
+
+def _evaluate_with_measures(study: Study, models):
+    """Designs of every site, its thermal-measure variants and load-growth steps included
+    (and what measure would serve a site nothing serves)."""
+    return evaluate_with_measures(study, models,
+                                  lambda st, ms: evaluate_with_growth(st, ms, _evaluate),
+                                  lambda d: bool(offered_outcomes(d)))
+
+
+def _variants_summarised(site_designs):
+    """The measure variants' site models as summaries: no hourly arrays leave a piece."""
+    if not site_designs.measure_models:
+        return site_designs
+    return replace(site_designs, measure_models={
+        k: v.summary() for k, v in site_designs.measure_models.items()})
 
 
 def _drop_unused_curves(designs) -> None:
@@ -121,7 +148,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
     with Workers(min(workers, len(site_chunks(study))), log) as pool:
         advance(0, "Sites and candidate packs")
         with log.stage("sites and designs"):
-            summaries, designs = _join(pool.map(
+            summaries, designs, hints = _join(pool.map(
                 _plan_sites_piece, site_chunks(study),
                 progress=lambda piece: advance(len(piece[0]), "Sites and candidate packs")))
         # The warming case's sites start in the background while the fleet is solved.
@@ -129,7 +156,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
             if sensitivity_on and pool.workers > 1 else None
         advance(0, "Optimising the fleet")
         with log.stage("optimizer"):
-            problem = build_problem(study, summaries, designs)
+            problem = build_problem(study, summaries, designs, dict(enumerate(hints)))
             solution = solve_fleet(problem)
         advance(1, "Comparing chemistries and sensitivity cases")
         # Every comparison and sensitivity case is a full solve: each gets half the main limit.
@@ -152,7 +179,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                 if warm_handle is None:
                     warm_handle = pool.submit(_plan_sites_piece,
                                               site_chunks(study, WARMING_SENSITIVITY_K))
-                warm_summaries, warm_designs = _join(pool.gather(warm_handle, progress=step))
+                warm_summaries, warm_designs, _ = _join(pool.gather(warm_handle, progress=step))
                 warm = solve_fleet(build_problem(study, warm_summaries, warm_designs))
         with log.stage("comparison and sensitivity solves"):
             comparison = pool.gather(compare_handle)
@@ -180,8 +207,9 @@ def _solve(named_problem):
 
 
 def _join(pieces):
-    summaries, designs = [], []
-    for piece_summaries, piece_designs in pieces:
+    summaries, designs, hints = [], [], []
+    for piece_summaries, piece_designs, piece_hints in pieces:
         summaries += piece_summaries
         designs += piece_designs
-    return summaries, designs
+        hints += piece_hints
+    return summaries, designs, hints

@@ -32,6 +32,7 @@ from planner.scenario import Study
 from planner.site_model import SiteModel
 from planner.spending import spending_by_year
 from planner.thermal import get_enclosure
+from planner.thermal_measures import base_measure_id
 from planner.visit_risk import risk_before_next_visit
 
 
@@ -42,16 +43,19 @@ def _find(designs: SiteDesigns, design_id: str | None) -> Outcome | None:
 
 def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=None) -> list[float]:
     """Monthly SOH of a site over the horizon: the pack in service, renewed at each
-    replacement (new packs follow ``new_curve`` from month 0)."""
+    replacement (new packs follow ``new_curve`` from month 0; a list gives one curve per
+    replacement year, in order, when the design changes)."""
     months = 12 * horizon_years + 1
     out = np.full(months, np.nan)
     if existing_curve is not None:
         n = min(months, len(existing_curve))
         out[:n] = existing_curve[:n]
-    for year in sorted(replacement_years):
+    years = sorted(replacement_years)
+    curves = new_curve if isinstance(new_curve, list) else [new_curve] * len(years)
+    for year, curve in zip(years, curves):
         start = 12 * int(year)
-        n = min(months - start, len(new_curve))
-        out[start:start + n] = new_curve[:n]
+        n = min(months - start, len(curve))
+        out[start:start + n] = curve[:n]
     return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
 
 
@@ -62,6 +66,9 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison,
     chosen = _find(designs, candidate.design_id) if candidate else None
     existing = designs.existing
     shown = chosen or existing
+    measure = candidate.thermal_measure if candidate else base_measure_id(model)
+    # what the first new pack sees: the site with its thermal measure
+    model = designs.measure_models.get(measure, model)
     temps = model.temperatures.to_dict()
     entry = {
         "id": site.id, "name": site.name, "region": site.region, "climate": site.climate,
@@ -77,6 +84,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison,
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
         "warnings": list(model.warnings),
+        "thermal_measure": measure,
+        "heater_energy_wh_per_year": model.heater_energy_wh_per_year,
         **risk_before_next_visit(plan, options, horizon),
     }
     if shown is not None:
@@ -104,20 +113,23 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison,
             "chemistry_name": chem.name,
         })
         existing_curve = existing.soh_monthly if existing is not None else None
-        new_curve = chosen.soh_monthly if chosen is not None else np.array([])
         replacements = plan.replacement_years if plan else ()
-        entry["soh_by_month"] = sawtooth(horizon, replacements, new_curve, existing_curve)
-        if chosen is not None and chosen.soh_p10_monthly is not None:
-            entry["soh_p10_by_month"] = sawtooth(horizon, replacements, chosen.soh_p10_monthly,
-                                                 existing_curve)
-            entry["soh_p90_by_month"] = sawtooth(horizon, replacements, chosen.soh_p90_monthly,
-                                                 existing_curve)
+        installed = [_find(designs, c.design_id) for c in plan.installations] if plan else []
+        entry["soh_by_month"] = sawtooth(horizon, replacements,
+                                         [o.soh_monthly if o else np.array([]) for o in installed],
+                                         existing_curve)
+        if installed and all(o is not None and o.soh_p10_monthly is not None for o in installed):
+            entry["soh_p10_by_month"] = sawtooth(horizon, replacements,
+                                                 [o.soh_p10_monthly for o in installed], existing_curve)
+            entry["soh_p90_by_month"] = sawtooth(horizon, replacements,
+                                                 [o.soh_p90_monthly for o in installed], existing_curve)
         notes = _extrapolation(model, shown)
         entry["life_extrapolated"] = bool(notes)
         entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
         if notes:
             entry["warnings"].append("life leans on extrapolated aging laws: " + "; ".join(notes))
+    entry["replacements"] = _replacements(designs, plan) if plan else []
     if existing is not None:
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
@@ -131,6 +143,26 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison,
     entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
                                           candidate.chemistry if candidate else None, existing)
     return entry
+
+
+def _replacements(designs: SiteDesigns, plan) -> list[dict]:
+    """One object per new pack of the plan: when it goes in and what it is."""
+    out = []
+    for year, month, c in zip(plan.replacement_years, plan.replacement_months, plan.installations):
+        outcome = _find(designs, c.design_id)
+        cells = outcome.design.pack.series_cells if outcome else None
+        out.append({
+            "year": int(year), "month": int(month), "design_id": c.design_id, "chemistry": c.chemistry,
+            "oversize_factor": c.oversize_factor, "capacity_wh": c.capacity_wh,
+            "charge_voltage_v_per_cell": c.charge_voltage_v_per_cell,
+            "charge_voltage_v": round(c.charge_voltage_v_per_cell * cells, 4) if cells else None,
+            "pack_mass_kg": c.mass_kg, "life_years": _finite(c.life_years),
+            "thermal_measure": c.thermal_measure or "none",
+            "thermal_measure_cost": (c.measure_price + c.measure_labour_cost) if year == plan.replacement_years[0]
+            else 0.0,
+            "purchase_price": float(c.pack_cost_in(year)),
+        })
+    return out
 
 
 def _alternatives(study, site_id, designs, comparison, chosen_chemistry, existing) -> list[dict]:

@@ -103,6 +103,12 @@ CANDIDATES = (
       doc="VRLA cold correction in the 1x size: the chemistry's low-rate datasheet curve "
           "(about 1.18 at 0 °C; telemetry packs discharge over days) or IEEE 485 Table 1 "
           "(about 1.40 at 0 °C, written for 1-8 h rates; more conservative)."),
+    F("load_growth_step_years", "int", 5, "years", 1, 30,
+      doc="With a site's load growth: the load is re-simulated in steps of this many years; a "
+          "pack installed in a step is designed for the load at the step's end."),
+    F("design_changes", "bool", True,
+      doc="A replacement may install any candidate design of the site (false: a site keeps "
+          "the design of its first new pack)."),
 )
 
 COSTS = (
@@ -128,6 +134,9 @@ PRICE = (
       doc="Pack price per nominal kWh; default the chemistry library's illustrative price."),
     F("fixed_price", "float", 0.0, "currency/pack", 0.0, MAX_MONEY,
       doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
+    F("price_trend_frac_per_year", "float", 0.0, "1/year", -0.5, 0.5,
+      doc="Real yearly change of the pack price (-0.03: 3 % cheaper each year); a pack bought "
+          "in year t costs price x (1 + change)^t."),
 )
 
 REGION = (
@@ -141,6 +150,32 @@ LIMITS = (
     F("crew_site_visits_per_year", "int", 0, "sites/year", 0, 1_000_000, doc="0 means no limit."),
     F("annual_budget", "float", 0.0, "currency/year", 0.0, MAX_BUDGET, doc="0 means no limit."),
     F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, 1e6, doc="0 means no limit."),
+)
+
+THERMAL = (
+    F("measures", "strs", ("insulated-box", "heater-box", "sun-shield", "vault"),
+      doc="Thermal measures a new installation may add where they can matter (heaters and the "
+          "box where the battery gets too cold to charge, shade, a vault and the box where it gets "
+          "hot); [\"none\"] switches them off. Ids: insulated-box, heater (a pad alone), heater-box, "
+          "sun-shield, vault."),
+    F("heater_setpoint_c", "float", 5.0, "°C", -30.0, 30.0,
+      doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
+    F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,
+      doc="Electric power of an added heater pad; its energy is part of the load, hour by hour."),
+    F("heater_control", "str", "charging", choices=("charging", "thermostat"),
+      doc="charging: an added heater runs on the charging source's surplus over the load (up to its "
+          "power) while the battery is below the setpoint, warming the pack to accept charge; "
+          "thermostat: it holds the setpoint day and night from the battery."),
+    F("heater_price", "float", 120.0, "currency", 0.0, MAX_MONEY, doc="Heater pad with thermostat."),
+    F("heater_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit a heater."),
+    F("box_ua_w_k", "float", 1.0, "W/K", 0.05, 100.0,
+      doc="Conductance of the insulated battery box (in series with the enclosure's)."),
+    F("box_price", "float", 150.0, "currency", 0.0, MAX_MONEY, doc="Insulated battery box."),
+    F("box_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit the box."),
+    F("shield_price", "float", 250.0, "currency", 0.0, MAX_MONEY, doc="Sun shield or canopy over a cabinet."),
+    F("shield_labour_h", "float", 2.0, "h", 0.0, 200.0, doc="Crew hours to fit a sun shield."),
+    F("vault_price", "float", 2500.0, "currency", 0.0, MAX_MONEY, doc="Buried vault for the battery, dug in."),
+    F("vault_labour_h", "float", 16.0, "h", 0.0, 500.0, doc="Crew hours to dig in and move to a vault."),
 )
 
 SOLVER = (
@@ -172,6 +207,7 @@ SECTIONS = {
     "costs": COSTS,
     "service_life": SERVICE_LIFE,
     "limits": LIMITS,
+    "thermal": THERMAL,
     "solver": SOLVER,
     "output": OUTPUT,
 }
@@ -205,12 +241,16 @@ SITE_COLUMNS = (
       doc="Months the array is taken as snow-covered (no PV); blank = none."),
     F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
     F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
+    F("load_growth_frac_per_year", "float", 0.0, "1/year", -0.2, 0.5,
+      doc="Yearly growth of the site's own load (0.05: 5 % a year); later packs are designed for it."),
     F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,
       doc="Days the pack must carry the load with no charging."),
     F("system_voltage_v", "float", 12.0, "V", 1.0, 60.0, doc="Nominal DC bus voltage."),
     F("access_months", "months", (), "month numbers", doc="Months the site can be reached; blank = its region's."),
     F("heater_setpoint_c", "float", None, "°C", -40.0, 40.0,
       doc="Battery heater thermostat; blank = no heater."),
+    F("thermal_measures", "str", "",
+      doc="Thermal measures this site may use, separated by ';' ('none': none); blank = [thermal].measures."),
     F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
       doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
     F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),

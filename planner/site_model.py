@@ -49,15 +49,26 @@ class SiteModel:
     pv_tilt_deg: float | None
     pv_azimuth_deg: float | None
     warnings: list[str] = field(default_factory=list)
+    thermal_measure: str = ""     # a thermal measure's variant of the site (planner.thermal_measures)
+    # False: the battery temperature already holds the heater's effect, so charging
+    # follows it alone (no lithium charged below its limit while a heater warms up)
+    heater_enables_charge: bool = True
 
     @property
     def heater_on(self) -> np.ndarray:
-        return self.heater_power_w > 0
+        """Hours the energy balance lets a heated pack charge whatever its temperature."""
+        on = self.heater_power_w > 0
+        return on if self.heater_enables_charge else np.zeros_like(on)
 
     @property
     def charging_shortfall(self) -> ChargingShortfall | None:
         """The period in which the charging source yields less than the load, or None."""
         return charging_shortfall(self.load_w, self.charge_w, charging=self.site.charging)
+
+    @property
+    def heater_energy_wh_per_year(self) -> float:
+        """Energy the battery heater draws over the typical year (1-hour steps)."""
+        return float(np.sum(self.heater_power_w))
 
     def summary(self) -> SiteSummary:
         """What the later stages read of this site, without its hourly arrays."""
@@ -66,7 +77,8 @@ class SiteModel:
                            peak_load_w=self.peak_load_w, daily_load_wh=self.daily_load_wh,
                            design_temp_c=self.design_temp_c, access_months=self.access_months,
                            pv_tilt_deg=self.pv_tilt_deg, pv_azimuth_deg=self.pv_azimuth_deg,
-                           warnings=list(self.warnings))
+                           heater_energy_wh_per_year=self.heater_energy_wh_per_year,
+                           thermal_measure=self.thermal_measure, warnings=list(self.warnings))
 
 
 @dataclass(frozen=True)
@@ -83,6 +95,8 @@ class SiteSummary:
     access_months: tuple[int, ...]
     pv_tilt_deg: float | None
     pv_azimuth_deg: float | None
+    heater_energy_wh_per_year: float = 0.0
+    thermal_measure: str = ""
     warnings: list[str] = field(default_factory=list)
 
 

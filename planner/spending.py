@@ -15,8 +15,10 @@ money, real rate, end-of-year convention):
 * failure risk: ``(F(a) - F(a-1)) x`` the cost of one failure in year ``start + a`` of
   each pack's service;
 * residual value: a credit (negative) in the end year ``H`` for the packs still in service;
-* thermal measures: no such measure is priced yet, so the column is 0 (the hook for them
-  is :func:`thermal_cash_flows`).
+* thermal measures: a measure's price and fitting labour, the year the site's first new
+  pack goes in (:func:`thermal_cash_flows`);
+* each pack at the price of the year it is bought (its chemistry's price trend), and each
+  replacement's own pack when the design changes at a replacement.
 
 Nominal money multiplies a year's constant amount by ``(1 + inflation)^year`` (NIST HB 135
 ch. 4, constant versus current money).
@@ -47,9 +49,13 @@ def _risk_by_year(flows: np.ndarray, start: int, n_years: int, probs, cost: floa
 
 
 def thermal_cash_flows(plan: SitePlan, horizon_years: int) -> np.ndarray:
-    """Money spent on thermal measures (heater, shade, insulation) by year: none are
-    priced yet, so zeros; a thermal stage adds its purchases and running cost here."""
-    return np.zeros(horizon_years + 1)
+    """Money spent on thermal measures (heater, box, shade, vault) by year: the measure
+    of the first new pack, paid once the year it goes in (its energy is in the load)."""
+    out = np.zeros(horizon_years + 1)
+    if plan.installations and plan.replacement_years:
+        first = plan.installations[0]
+        out[int(plan.replacement_years[0])] += first.measure_price + first.measure_labour_cost
+    return out
 
 
 def site_cash_flows(plan: SitePlan, site: SiteOptions, *, horizon_years: int,
@@ -74,8 +80,9 @@ def site_cash_flows(plan: SitePlan, site: SiteOptions, *, horizon_years: int,
     if c is None or not years:
         return out
     ends = years[1:] + [h]
-    for t1, t2 in zip(years, ends):
-        out["packs"][t1] += c.pack_cost
+    packs = plan.installations or (c,) * len(years)
+    for t1, t2, c in zip(years, ends, packs):
+        out["packs"][t1] += float(c.pack_cost_in(t1))
         out["labour"][t1] += c.install_cost
         out["trips"][t1] += site.site_visit_cost
         out["downtime"][t1] += c.downtime_cost
@@ -83,9 +90,10 @@ def site_cash_flows(plan: SitePlan, site: SiteOptions, *, horizon_years: int,
             out["disposal"][t2] += c.disposal_cost
         _risk_by_year(out["risk"], t1, t2 - t1, c.failure_prob_by_age, fail)
     if residual_value:
-        left = float(ec.residual_fraction(h - years[-1], c.life_years))
-        out["residual"][h] -= c.pack_cost * left
-        out["downtime"][h] -= c.downtime_cost * left
+        last = packs[-1]
+        left = float(ec.residual_fraction(h - years[-1], last.life_years))
+        out["residual"][h] -= float(last.pack_cost_in(years[-1])) * left
+        out["downtime"][h] -= last.downtime_cost * left
     return out
 
 

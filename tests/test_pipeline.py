@@ -45,6 +45,23 @@ def test_quick_study_writes_workbook_and_json(quick_run):
         assert {"region", "year", "month", "site_ids"} <= set(trip)
 
 
+def test_replacements_list_each_new_pack(quick_run):
+    # docs/plan-json.md: one replacements entry per replacement year, in order; the
+    # site-level design keys describe the first new pack; every site names its measure
+    _, out = quick_run
+    plan = json.loads((out / "q.json").read_text())
+    for site in plan["sites"]:
+        reps = site["replacements"]
+        assert [r["year"] for r in reps] == site["replacement_years"]
+        assert [r["month"] for r in reps] == site["replacement_months"]
+        assert isinstance(site["thermal_measure"], str) and site["thermal_measure"]
+        if reps:
+            first = reps[0]
+            assert (first["chemistry"], first["capacity_wh"], first["charge_voltage_v"]) == (
+                site["chemistry"], site["capacity_wh"], site["charge_voltage_v"])
+            assert first["thermal_measure"] == site["thermal_measure"]
+
+
 def test_plan_total_is_the_sum_of_site_costs(quick_run):
     # The fleet objective is the sum of every site's present cost (trip costs shared out).
     _, out = quick_run

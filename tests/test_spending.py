@@ -118,3 +118,25 @@ def test_existing_pack_disposal_and_risk_fall_in_their_years():
         expected = (probs[year - 1] - (probs[year - 2] if year > 1 else 0.0)) * 1500.0
         assert rows[year]["risk"] == pytest.approx(expected, rel=1e-12)
     assert abs(sum(r["present_value"] for r in rows) - solution.objective) <= 0.01
+
+
+def test_design_change_price_trend_and_measure_add_up_year_by_year():
+    # the hand-worked design-change example of tests/test_optimize_fleet.py (A at year 0,
+    # C at half price in year 1, trip 100 a year visited, 10 %), with a 250 thermal
+    # measure plus 85 of labour paid once with the first pack: the cash of each year is
+    # what that pack costs then, and the present values add up to the total (NIST HB 135)
+    a = Candidate("A", "vrla", 1.0, 2.3, 1000.0, 10.0, 300.0, 0.0, 0.0, 1.0, None, "calendar",
+                  thermal_measure="insulated-box", measure_price=250.0, measure_labour_cost=85.0)
+    c = Candidate("C", "lfp", 1.0, 3.4, 1000.0, 10.0, 400.0, 0.0, 0.0, 1.0, None, "calendar",
+                  price_trend_frac_per_year=-0.5, thermal_measure="insulated-box", measure_price=250.0,
+                  measure_labour_cost=85.0)
+    problem = FleetProblem([SiteOptions("S1", "A", ALL_MONTHS, [a, c])], 2, 0.10, {"A": 100.0},
+                           residual_value=False, gap_rel_frac=0.0)
+    solution = solve_fleet(problem)
+    assert [x.design_id for x in solution.sites[0].installations] == ["A", "C"]
+    rows = {r["year"]: r for r in spending_by_year(problem, solution, start_year=2030)}
+    assert rows[0]["packs"] == pytest.approx(300.0) and rows[1]["packs"] == pytest.approx(200.0)
+    assert rows[0]["thermal"] == pytest.approx(335.0) and rows[1]["thermal"] == 0.0
+    # 300 + 335 + 100 + (200 + 100) / 1.1 (arithmetic)
+    assert solution.objective == pytest.approx(735.0 + 300.0 / 1.1, rel=1e-12)
+    assert sum(r["present_value"] for r in rows.values()) == pytest.approx(solution.objective, rel=1e-12)

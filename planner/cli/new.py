@@ -102,6 +102,7 @@ def starter_study_toml() -> str:
     out.append("[prices.lfp]")
     out.append("price_per_kwh = 450.0" + _comment(NAMED_SECTIONS["prices"][0]))
     out.append("fixed_price = 60.0" + _comment(NAMED_SECTIONS["prices"][1]))
+    out.append("price_trend_frac_per_year = 0.0" + _comment(NAMED_SECTIONS["prices"][2]))
     out.append("")
     out.append("# Per-region trip costs and access months (optional): [regions.<region>]")
     for region, values in EXAMPLE_REGIONS.items():

@@ -2,7 +2,9 @@
 
 A candidate is dominated when another one at the same site costs no more on every count
 (pack, labour, disposal), lives at least as long, weighs no more and is never more
-likely to fail at any age. Dropping it cannot raise the optimum: in any plan the
+likely to fail at any age, under the same price trend, install window and thermal
+measure. Dropping it
+cannot raise the optimum: in any plan the
 dominating design can take its place at no extra cost (a longer life also keeps at least
 the same residual value share of a no-dearer pack; NIST HB 135 linear residual).
 """
@@ -44,12 +46,20 @@ def prune_dominated(cands: list[Candidate] | tuple[Candidate, ...]) -> list[Cand
         return cands
     n_ages = 1 + max((len(c.failure_prob_by_age or ()) for c in cands), default=0)
     # pack price and days off air travel together (both are paid per pack and credited
-    # by the same residual fraction), so their sum is one count
-    cost = np.array([[c.pack_cost + c.downtime_cost, c.install_cost, c.disposal_cost, c.mass_kg, -c.life_years]
-                     for c in cands], dtype=float)
+    # by the same residual fraction), so their sum is one count; under a price trend the
+    # price and the days off air also count apart (no dearer on both is no dearer in any
+    # year of a trend shared by the candidates compared)
+    cost = np.array([[c.pack_cost + c.downtime_cost, c.pack_cost if c.price_trend_frac_per_year else 0.0,
+                      c.downtime_cost if c.price_trend_frac_per_year else 0.0, c.install_cost, c.disposal_cost,
+                      c.mass_kg, -c.life_years] for c in cands], dtype=float)
     feats = np.hstack([cost, _risk_matrix(cands, n_ages)])
+    # only candidates of one price trend, one install window and one thermal measure
+    # compare (a path keeps its measure: a design of another measure cannot stand in)
+    key = [(c.price_trend_frac_per_year, c.first_install_year, c.last_install_year, c.thermal_measure,
+            c.measure_price, c.measure_labour_cost) for c in cands]
+    same = np.array([[a == b for b in key] for a in key], dtype=bool)
     # le[i, j]: i is no worse than j on every count; lt: strictly better on one
-    le = np.all(feats[:, None, :] <= feats[None, :, :] + _EPS, axis=2)
+    le = same & np.all(feats[:, None, :] <= feats[None, :, :] + _EPS, axis=2)
     lt = np.any(feats[:, None, :] < feats[None, :, :] - _EPS, axis=2)
     idx = np.arange(len(cands))
     tie_first = le & le.T & (idx[:, None] < idx[None, :])

@@ -45,7 +45,7 @@ class Column:
 class Pricer:
     """Shortest paths with dual prices for every site of a :class:`SiteGraphs`."""
 
-    def __init__(self, g: SiteGraphs):
+    def __init__(self, g: SiteGraphs, single_design: bool = False):
         self.g = g
         h = g.horizon_years
         self.h = h
@@ -62,31 +62,76 @@ class Pricer:
         ex_new = g.ex_pair >= 0
         self.ex_new = np.nonzero(ex_new)[0]
         self.ex_keep = np.nonzero(~ex_new)[0]
-        self.new_pairs = np.nonzero(~self.has_ex[g.pair_site])[0]
+        self.node = g.pair_node
+        # node families shared by several designs (a site that may change design): the
+        # best arc into a node is then the cheapest over its designs
+        self.shared = bool(n_pairs) and np.unique(self.node).size < n_pairs
+        # existing-pack arcs that start each family's paths: (row of best, existing arc)
+        self.ex_rows, self.ex_arcs = g.ex_pair[self.ex_new], self.ex_new
+        self.single = None
+        if single_design:
+            # every design its own family (paths that keep one design: still paths of
+            # the shared graph); an existing arc into a family starts each of its designs
+            self.node = np.arange(n_pairs)
+            self.shared = False
+            order = np.argsort(g.ex_pair[self.ex_new], kind="stable")
+            fam = g.ex_pair[self.ex_new][order]
+            lo = np.searchsorted(fam, g.pair_node, side="left")
+            hi = np.searchsorted(fam, g.pair_node, side="right")
+            counts = hi - lo
+            self.ex_rows = np.repeat(np.arange(n_pairs), counts)
+            self.ex_arcs = self.ex_new[order][np.concatenate(
+                [np.arange(a, b) for a, b in zip(lo, hi)]) if counts.sum() else np.zeros(0, dtype=np.int64)]
+        elif self.shared:
+            # one-design paths as extra columns: pricing one path per site and round
+            # converges slowly; the best path of each design adds variety cheaply
+            self.single = Pricer(g, single_design=True)
+            # families laid out contiguously, so a family's cheapest design is a segment
+            # minimum (np.minimum.reduceat) instead of a sort per year
+            self.perm = np.argsort(self.node, kind="stable")
+            fam_sorted = self.node[self.perm]
+            self.seg_start = np.flatnonzero(np.r_[True, fam_sorted[1:] != fam_sorted[:-1]])
+            self.seg_fam = fam_sorted[self.seg_start]
+            self.seg_len = np.diff(np.r_[self.seg_start, n_pairs])
+        self.new_nodes = np.unique(self.node[~self.has_ex[g.pair_site]])
 
     def values(self, arc_extra: np.ndarray, ex_extra: np.ndarray):
-        """Shortest-path value per design (and per site's keep arc) with ``arc_extra`` /
-        ``ex_extra`` added to the arc costs; remembers predecessors for :meth:`column`."""
+        """Shortest-path value per node family (and per site's keep arc) with ``arc_extra``
+        / ``ex_extra`` added to the arc costs; remembers predecessors for :meth:`column`.
+
+        The returned per-pair array holds each node family's value on its first pair and
+        +inf on the other pairs of a shared family."""
         g, h, n = self.g, self.h, self.n_pairs
         cost = np.full(n * h * h, np.inf)
         cost[self.dense] = g.arc_cost + arc_extra
         cost = cost.reshape(n, h, h)
         best = np.full((n, h + 1), np.inf)
         pred = np.full((n, h + 1), -1, dtype=np.int64)
-        best[self.new_pairs, 0] = 0.0
-        if self.ex_new.size:
-            e = self.ex_new
-            best[g.ex_pair[e], g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
-            pred[g.ex_pair[e], g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
+        best[self.new_nodes, 0] = 0.0
+        if self.ex_arcs.size:
+            e, r = self.ex_arcs, self.ex_rows
+            best[r, g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
+            pred[r, g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
         rows = np.arange(n)
+        node = self.node
         for t2 in range(1, h + 1):  # years of the horizon (about 20), each step over all designs
             t1 = np.arange(t2)
-            cand = best[:, :t2] + cost[:, t1, t2 - t1 - 1]
+            cand = best[node, :t2] + cost[:, t1, t2 - t1 - 1]
             j = np.argmin(cand, axis=1)
             v = cand[rows, j]
-            better = v < best[:, t2]
-            best[better, t2] = v[better]
-            pred[better, t2] = self.arc_id[rows[better], j[better], t2 - j[better] - 1]
+            arc = self.arc_id[rows, j, t2 - j - 1]
+            if self.shared:
+                # cheapest design per node family (first pair in family order on ties)
+                vp = v[self.perm]
+                low = np.minimum.reduceat(vp, self.seg_start)
+                at = np.where(vp <= np.repeat(low, self.seg_len), np.arange(n), n)
+                win = self.perm[np.minimum.reduceat(at, self.seg_start)]
+                fam, v, arc = self.seg_fam, low, arc[win]
+            else:
+                fam = rows
+            better = v < best[fam, t2]
+            best[fam[better], t2] = v[better]
+            pred[fam[better], t2] = arc[better]
         n_sites = len(g.sites)
         keep_val = np.full(n_sites, np.inf)
         keep_arc = np.full(n_sites, -1, dtype=np.int64)
@@ -98,7 +143,8 @@ class Pricer:
         return best[:, h], keep_val, keep_arc
 
     def column(self, pair: int, site: int, keep_arc: int = -1) -> Column:
-        """Backtrack the cheapest path of design ``pair`` (or the keep arc) found by :meth:`values`."""
+        """Backtrack the cheapest path of node family ``pair`` (or the keep arc) found by
+        :meth:`values`; the column's ``pair`` is the design of its first new pack."""
         g = self.g
         if pair < 0:
             return Column(site, -1, (), keep_arc, (), float(g.ex_cost[keep_arc]))
@@ -115,7 +161,8 @@ class Pricer:
                 break
         arcs.reverse()
         real = float(g.arc_cost[arcs].sum() + (g.ex_cost[ex] if ex is not None else 0.0))
-        return Column(site, pair, tuple(arcs), ex, tuple(int(g.arc_t1[a]) for a in arcs), real)
+        return Column(site, int(g.arc_pair[arcs[0]]), tuple(arcs), ex, tuple(int(g.arc_t1[a]) for a in arcs),
+                      real)
 
     def price(self, arc_extra, ex_extra, sigma=None, per_site: int = 1, tol: float = 0.0):
         """Up to ``per_site`` columns per site (distinct designs), cheapest first, whose
@@ -147,6 +194,9 @@ class Pricer:
                 continue
             taken[s_] += 1
             cols.append(self.column(int(p), s_))
+        if self.single is not None and per_site > 1:
+            _, more = self.single.price(arc_extra, ex_extra, sigma, per_site=per_site, tol=tol)
+            cols += [c for c in more if c.pair >= 0]
         return site_val, cols
 
 
@@ -331,7 +381,6 @@ def column_coefficients(g: SiteGraphs, col: Column, *, convex_row, visit_row, pa
     """
     h = g.horizon_years
     rows, vals = [convex_row], [1.0]
-    mass = g.pair_cand[col.pair].mass_kg if col.pair >= 0 else 0.0
     spend = np.zeros(h)
     for a in col.arcs:
         t1, t2 = int(g.arc_t1[a]), int(g.arc_t2[a])
@@ -339,7 +388,7 @@ def column_coefficients(g: SiteGraphs, col: Column, *, convex_row, visit_row, pa
         vals.append(1.0)
         if pay_row is not None:
             rows.append(pay_row(t1))
-            vals.append(mass)
+            vals.append(float(g.arc_mass_kg[a]))
         if crew_row is not None:
             rows.append(crew_row(t1))
             vals.append(1.0)

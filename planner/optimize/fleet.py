@@ -148,12 +148,13 @@ def _group_matrix(g: _Group, rate: float, payload: float | None, integer_flows: 
     hi += [1.0] * n_sites
     n_row += n_sites
 
-    # flow conservation at (design, year) nodes
+    # flow conservation at (design, year) nodes, or (site, year) when designs may change
     into = gr.arc_t2 < h
     out_ok = ~first
     ex_into = gr.ex_pair >= 0
-    keys = np.concatenate([gr.arc_pair[into] * h + gr.arc_t2[into],
-                           gr.arc_pair[out_ok] * h + gr.arc_t1[out_ok],
+    node = gr.pair_node[gr.arc_pair]
+    keys = np.concatenate([node[into] * h + gr.arc_t2[into],
+                           node[out_ok] * h + gr.arc_t1[out_ok],
                            gr.ex_pair[ex_into] * h + gr.ex_t[ex_into]])
     uniq, inv = np.unique(keys, return_inverse=True)
     ccols = np.concatenate([np.nonzero(into)[0], np.nonzero(out_ok)[0], n_arc + np.nonzero(ex_into)[0]])
@@ -255,9 +256,10 @@ def _plans_and_trips(gr: SiteGraphs, site_idx, paths, y, region, month, trip_cos
         for t in years:
             visitors.setdefault(t, []).append(i)
     share = {}
+    mass_at = [dict(zip(years, gr.arc_mass_kg[list(arcs)])) for _, years, arcs, _ in paths]
     for t, members in sorted(visitors.items()):
         count = max(1, int(round(y[t])))
-        mass = float(sum(gr.pair_cand[paths[i][0]].mass_kg for i in members))
+        mass = float(sum(mass_at[i][t] for i in members))
         cost = trip_cost * count
         trips.append(Trip(region=region, year=int(t), month=int(month),
                           site_ids=tuple(gr.sites[site_idx[i]].site_id for i in members), pack_count=len(members),
@@ -275,7 +277,8 @@ def _plans_and_trips(gr: SiteGraphs, site_idx, paths, y, region, month, trip_cos
                               candidate=gr.pair_cand[pair] if pair >= 0 else None,
                               replacement_years=tuple(years),
                               replacement_months=tuple(int(month) for _ in years),
-                              cost=ec.CostBreakdown(**parts)))
+                              cost=ec.CostBreakdown(**parts),
+                              installations=tuple(gr.pair_cand[gr.arc_pair[a]] for a in arcs)))
     return plans, trips
 
 
@@ -344,13 +347,14 @@ def _annual_spend(problem, plans, trips) -> np.ndarray:
     spend = np.zeros(h)
     sites = {s.site_id: s for s in problem.sites}
     for p in plans:
-        c = p.candidate
         s = sites[p.site_id]
-        for j, t in enumerate(p.replacement_years):
-            spend[t] += c.pack_cost + c.downtime_cost + c.install_cost + s.site_visit_cost
+        for j, (t, c) in enumerate(zip(p.replacement_years, p.installations)):
+            spend[t] += float(c.pack_cost_in(t)) + c.downtime_cost + c.install_cost + s.site_visit_cost
             if j > 0:
-                spend[t] += c.disposal_cost
-            elif s.existing is not None:
+                spend[t] += p.installations[j - 1].disposal_cost
+            else:
+                spend[t] += c.measure_price + c.measure_labour_cost  # thermal measure, once
+            if j == 0 and s.existing is not None:
                 spend[t] += s.existing.disposal_cost
     for tr in trips:
         spend[tr.year] += tr.cost
@@ -390,7 +394,7 @@ def _solve_columns(problem, served, cands, deadline):
         sites = [served[i] for k in block for i in tg[k][2]]
         site_group = np.concatenate([np.full(len(tg[k][2]), j) for j, k in enumerate(block)]).astype(np.int64)
         gr = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
-                          residual_value=problem.residual_value)
+                          residual_value=problem.residual_value, design_changes=problem.design_changes)
         trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in block])
         is_open = np.array([tg[k][1] != 0 for k in block], dtype=bool)
         build_seconds += time.perf_counter() - t_build
@@ -479,7 +483,7 @@ def _solve_columns(problem, served, cands, deadline):
         sites = [served[i] for k in ks for i in tg[k][2]]
         site_group = np.concatenate([np.full(len(tg[k][2]), j) for j, k in enumerate(ks)]).astype(np.int64)
         gr = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
-                          residual_value=problem.residual_value)
+                          residual_value=problem.residual_value, design_changes=problem.design_changes)
         trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in ks])
         y = polish_trip_years(gr, site_group, np.array([yk for _, yk, _ in weak]), trip_cost, rate,
                               deadline=deadline)
@@ -609,7 +613,7 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
     for region, month, members in _trip_groups(served):
         sites = [served[i] for i in members]
         graphs = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
-                              residual_value=problem.residual_value)
+                              residual_value=problem.residual_value, design_changes=problem.design_changes)
         groups.append(_Group(region, month, float(problem.trip_cost_by_region[region]), graphs))
 
     build_seconds = time.perf_counter() - t_build

@@ -11,6 +11,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from planner.economics import CostBreakdown
 
 
@@ -27,6 +29,15 @@ class Candidate:
     or before it. ``failure_prob_by_age[i]`` is the probability that the pack can no
     longer carry the site before age ``i + 1`` years (cumulative), or None when life is
     treated as certain.
+
+    ``price_trend_frac_per_year`` is the real yearly change of the purchase price (for
+    example -0.03): a pack bought in year t costs ``pack_cost * (1 + trend)^t`` (days off
+    air do not follow the market). A candidate may go in only in
+    years ``first_install_year`` .. ``last_install_year`` (None: to the end of the study),
+    so a design sized for a grown load can be offered from the year it applies.
+    ``thermal_measure`` names the heat or cold measure the pack is installed with ("" or
+    "none": none); its ``measure_price`` and ``measure_labour_cost`` are paid once, with
+    the site's first new pack, and a site keeps its measure to the end of the study.
     """
 
     design_id: str
@@ -42,6 +53,16 @@ class Candidate:
     failure_prob_by_age: tuple[float, ...] | None = None
     limiting_cause: str = ""
     downtime_cost: float = 0.0
+    price_trend_frac_per_year: float = 0.0
+    first_install_year: int = 0
+    last_install_year: int | None = None
+    thermal_measure: str = ""
+    measure_price: float = 0.0
+    measure_labour_cost: float = 0.0
+
+    def pack_cost_in(self, years):
+        """Purchase cost of this pack bought in year(s) ``years`` (0 = start), real money."""
+        return self.pack_cost * (1.0 + self.price_trend_frac_per_year) ** np.asarray(years, dtype=float)
 
 
 @dataclass(frozen=True)
@@ -96,6 +117,8 @@ class FleetProblem:
     ``method``: "path" (the full path model per trip group; exact), "columns" (column
     generation then an integer problem over the generated schedules; for large fleets,
     needs highspy) or "auto" (path while the model is small, columns above).
+    ``design_changes``: each replacement may install any candidate of the site (True), or
+    a site keeps one design across its replacements (False).
     """
 
     sites: tuple[SiteOptions, ...] | list[SiteOptions]
@@ -110,12 +133,14 @@ class FleetProblem:
     gap_rel_frac: float = 0.005
     solver: str = "auto"
     method: str = "auto"
+    design_changes: bool = True
 
 
 @dataclass(frozen=True)
 class SitePlan:
-    """The chosen plan for one site. ``candidate`` is None when the existing pack
-    carries the site to the horizon and nothing is bought."""
+    """The chosen plan for one site. ``candidate`` is the first pack bought (None when
+    the existing pack carries the site to the horizon and nothing is bought);
+    ``installations[i]`` is the pack that goes in at ``replacement_years[i]``."""
 
     site_id: str
     region: str
@@ -123,6 +148,7 @@ class SitePlan:
     replacement_years: tuple[int, ...]
     replacement_months: tuple[int, ...]
     cost: CostBreakdown
+    installations: tuple[Candidate, ...] = ()
 
     @property
     def present_cost(self) -> float:

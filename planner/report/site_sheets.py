@@ -13,7 +13,7 @@ from planner.report import charts, styles
 from planner.report.cells import cell_value, put, write_rows
 from planner.report.tables import (
     CHART_COLS, CHART_ROWS, MONTH_ABBR, Column, as_float_array, chart_page_breaks, dig,
-    field_of, month_text, plan_sites, seq, title, write_table)
+    field_of, install_text, month_text, plan_sites, seq, title, write_table)
 
 #: How many sites get a capacity-fade chart (the most expensive ones).
 FADE_CHART_SITES = 20
@@ -60,7 +60,12 @@ def _site_columns(fmt) -> list[Column]:
         Column("Capacity [Ah]", field_of("capacity_ah"), styles.ONE_DECIMAL, optional=True),
         Column("Pack structure", field_of("pack_structure"), optional=True),
         Column("Pack mass [kg]", field_of("pack_mass_kg"), styles.ONE_DECIMAL, optional=True),
+        Column("Thermal measure", field_of("thermal_measure"), optional=True),
+        Column("Heater energy [Wh/year]", field_of("heater_energy_wh_per_year"), styles.INTEGER, optional=True),
         Column("Replacement years", field_of("replacement_years")),
+        Column("Later packs", lambda s: "; ".join(f"{r.get('year')}: {install_text(r)}"
+                                                  for r in seq(s.get("replacements"))[1:]
+                                                  if isinstance(r, Mapping)) or None, optional=True),
         Column("Replacement months", lambda s: [month_text(m) or m for m in seq(s.get("replacement_months"))]
                or None, optional=True),
         Column("Life [years]", field_of("life_years"), styles.ONE_DECIMAL),

@@ -193,3 +193,17 @@ def plan_horizon_years(plan) -> int:
     lengths = [len(s.get("soh_by_month") or []) for s in plan_sites(plan)]
     years = [y for s in plan_sites(plan) for y in seq(s.get("replacement_years")) if isinstance(y, int | float)]
     return max([(max(lengths, default=1) - 1) // 12, int(max(years, default=0)) + 1, 1])
+
+
+def install_text(rep) -> str:
+    """What a visit installs, short: 'LFP 1.2 kWh + heater-box'."""
+    if not rep:
+        return ""
+    kwh = cell_value(rep.get("capacity_wh"))
+    text = str(rep.get("chemistry") or "").upper()
+    if isinstance(kwh, (int, float)):
+        text += f" {kwh / 1000.0:.2g} kWh"
+    measure = rep.get("thermal_measure")
+    if measure and measure != "none":
+        text += f" + {measure}"
+    return text
