@@ -443,6 +443,11 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         raise ValueError("lane_site must hold one valid temperature column per lane")
     current = None if current_c_rate is None else _as_lanes(
         "current_c_rate", current_c_rate, HOURS_PER_YEAR, n_lanes, keep_float32=use_kernel)
+    if use_kernel and not (soc.flags.f_contiguous and not soc.flags.c_contiguous):
+        # The hour sweep reads contiguous hour rows: copy a column selection once here,
+        # not once per chunk of lanes.
+        soc = np.ascontiguousarray(soc)
+        current = None if current is None else np.ascontiguousarray(current)
     charge_v = np.broadcast_to(np.asarray(charge_voltage_v_per_cell, dtype=float), (n_lanes,))
     peak = None if peak_c_rate is None else np.broadcast_to(
         np.asarray(peak_c_rate, dtype=float), (n_lanes,))
