@@ -39,6 +39,7 @@ from typing import Sequence
 
 import numpy as np
 
+from planner import _thermal_kernels as _tk
 from planner import ground
 from planner.climate import HOURS_PER_YEAR, TypicalYear
 from planner.errors import InputError
@@ -362,6 +363,17 @@ def _linear_lanes(temp_eq, tau_h, initial, dt_h):
     decay = np.exp(-dt_h / tau_h)
     one_minus = 1.0 - decay
     mean_weight = tau_h / dt_h * one_minus
+    if _tk.LINEAR is not None:
+        # the same operations compiled (same numbers): no per-hour array overhead
+        if initial is None:
+            x = np.zeros(n)
+            _tk.LINEAR(temp_eq, decay, one_minus, mean_weight, x, _NO_OUT, _NO_OUT, False)
+            initial = x / (1.0 - decay ** hours)
+        x = np.array(initial, dtype=float)
+        out_mean = np.empty((hours, n))
+        out_end = np.empty((hours, n))
+        _tk.LINEAR(temp_eq, decay, one_minus, mean_weight, x, out_mean, out_end, True)
+        return out_mean, out_end
     if initial is None:
         x = np.zeros(n)
         for k in range(hours):
@@ -411,6 +423,8 @@ def _thermostat_lanes(temp_eq, tau, ua, thermostats, initial, dt_h):
         mean = eq + work * mean_weight
         return eq + work * decay, mean
 
+    if _tk.THERMOSTAT is not None:
+        return _thermostat_compiled(temp_eq, decay, mean_weight, prepared, initial, tau, dt_h)
     scratch = [np.empty(n) for _ in prepared]
     if initial is None:
         warm = int(min(hours, np.ceil(WARM_UP_TAUS * tau.max() / dt_h)))
@@ -426,6 +440,33 @@ def _thermostat_lanes(temp_eq, tau, ua, thermostats, initial, dt_h):
         state, out_mean[k] = step(state, temp_eq[k], [store[k] for store in out_p])
         out_end[k] = state
     return out_mean, out_end, {p[0]: store for p, store in zip(prepared, out_p)}
+
+
+def _thermostat_compiled(temp_eq, decay, mean_weight, prepared, initial, tau, dt_h):
+    """:func:`_thermostat_lanes` with its hour loop compiled (the same operations)."""
+    hours, n = temp_eq.shape
+    # (thermostats, lanes) arrays of the prepared terms a, b, cap, ua_sign, sign_per_ua
+    a, b, cap, ua_sign, sign_per_ua = (
+        np.stack([np.broadcast_to(np.asarray(p[i], dtype=float), (n,)) for p in prepared])
+        for i in range(1, 6))
+    temp_eq = np.ascontiguousarray(temp_eq)
+    if initial is None:
+        warm = int(min(hours, np.ceil(WARM_UP_TAUS * tau.max() / dt_h)))
+        state = temp_eq[hours - warm].copy()
+        _tk.THERMOSTAT(temp_eq, hours - warm, hours, decay, mean_weight, a, b, cap, ua_sign,
+                       sign_per_ua, state, _NO_OUT, _NO_OUT, _NO_OUT3, False)
+    else:
+        state = np.array(initial, dtype=float)
+    out_mean = np.empty((hours, n))
+    out_end = np.empty((hours, n))
+    out_p = np.empty((len(prepared), hours, n))
+    _tk.THERMOSTAT(temp_eq, 0, hours, decay, mean_weight, a, b, cap, ua_sign, sign_per_ua,
+                   state, out_mean, out_end, out_p, True)
+    return out_mean, out_end, {p[0]: out_p[t] for t, p in enumerate(prepared)}
+
+
+_NO_OUT = np.zeros((0, 0))
+_NO_OUT3 = np.zeros((0, 0, 0))
 
 
 # --------------------------------------------------------------------------- drives

@@ -1,5 +1,6 @@
 """Lumped enclosure thermal model: analytic checks and behaviour."""
 
+import dataclasses
 import math
 
 import numpy as np
@@ -188,3 +189,30 @@ def test_enclosure_kinds_and_errors():
                                           heater_setpoint_c=np.array([90.0]))
     with pytest.raises(InputError, match="expected 1 or 8760"):
         thermal.battery_temperature(flat_year(), internal_heat_w=np.zeros(10))
+
+
+def test_compiled_hour_loops_give_the_numpy_loops_bits(monkeypatch):
+    # The exact lumped step (Incropera & DeWitt, lumped capacitance, eq. 5.6) run by the
+    # compiled loops of planner._thermal_kernels must be the numpy loops' numbers bit for
+    # bit: plans must not change with numba installed or not.
+    from planner import _thermal_kernels as tk
+    if tk.LINEAR is None:
+        pytest.skip("numba not installed")
+    rng = np.random.default_rng(3)
+    temp_eq = 10.0 + 15.0 * rng.standard_normal((24 * 40, 5))
+    kwargs = dict(ua_w_k=np.array([1.5, 2.0, 0.7, 3.0, 1.1]),
+                  heater_setpoint_c=np.array([5.0, np.nan, 8.0, 5.0, np.nan]),
+                  heater_max_w=np.array([20.0, 0.0, 5.0, 40.0, 0.0]),
+                  cool_setpoint_c=np.array([np.nan, np.nan, 30.0, 28.0, np.nan]),
+                  cool_max_w=50.0)
+    tau = np.array([8.0, 20.0, 3.0, 12.0, 30.0])
+    compiled = [thermal.simulate_lumped(temp_eq, tau, **kwargs),
+                thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
+    monkeypatch.setattr(tk, "LINEAR", None)
+    monkeypatch.setattr(tk, "THERMOSTAT", None)
+    numpy_loops = [thermal.simulate_lumped(temp_eq, tau, **kwargs),
+                   thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
+    for got, want in zip(compiled, numpy_loops):
+        for a, b in zip(dataclasses.astuple(got), dataclasses.astuple(want)):
+            np.testing.assert_array_equal(a, b)
+    assert np.any(compiled[0].heater_w > 0) and np.any(compiled[0].cool_w > 0)
