@@ -328,9 +328,11 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
     else:
         # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
         n_groups = min(kernels.thread_count(), n_chunk) if compiled else 1
+        soc_rows, cur_rows, shift, rows_of_lane = _block_in_parent(soc, cur, rate_row) or (
+            np.ascontiguousarray(soc), np.ascontiguousarray(cur), 0, rate_row)
         fn(kernels.hour_sweep)(
-            np.ascontiguousarray(soc), np.ascontiguousarray(cur), ch.start, ch.stop, n_groups,
-            has_current, soc_table is not None, do_cycles, rate_row, rate_hourly, table, lo, hi,
+            soc_rows, cur_rows, ch.start + shift, ch.stop + shift, n_groups,
+            has_current, soc_table is not None, do_cycles, rows_of_lane, rate_hourly, table, lo, hi,
             offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev, charged,
             hours_charging)
     if do_cycles:
@@ -361,6 +363,42 @@ def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin
         return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, Cycles(*joined[:6]),
                       joined[6], joined[7])
     return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, None, None, None)
+
+
+def _column_offset(arr):
+    """``(parent, k)`` when ``arr`` is the block of columns ``k:k + n`` of a C-contiguous
+    2-D ``parent`` (so ``arr[h, j] is parent[h, k + j]``), else ``None``."""
+    parent = arr.base
+    if (not isinstance(parent, np.ndarray) or parent.ndim != 2 or arr.ndim != 2
+            or not parent.flags.c_contiguous or parent.dtype != arr.dtype
+            or parent.shape[0] != arr.shape[0] or arr.strides != parent.strides):
+        return None
+    skip = arr.ctypes.data - parent.ctypes.data
+    k = skip // arr.itemsize
+    if skip % arr.itemsize or k < 0 or k + arr.shape[1] > parent.shape[1]:
+        return None
+    return parent, k
+
+
+def _block_in_parent(soc, cur, rate_row):
+    """Inputs of the hour sweep, which reads contiguous hour rows, for ``soc`` (and
+    ``cur``) a block of columns of a larger array (one chemistry's lanes of a SOC run):
+    ``(parent soc, parent current, k, rate rows)`` with lane ``j`` read in place at column
+    ``j + k``, or ``None`` when they are not such a block."""
+    soc_block = None if soc.flags.c_contiguous else _column_offset(soc)
+    if soc_block is None:
+        return None
+    parent, k = soc_block
+    if cur.shape[1] == 1 and cur.flags.c_contiguous:
+        cur_parent = cur                      # one current column shared by every lane
+    else:
+        cur_block = _column_offset(cur)
+        if cur_block is None or cur_block[1] != k:
+            return None
+        cur_parent = cur_block[0]
+    rows = np.zeros(k + rate_row.size, dtype=rate_row.dtype)
+    rows[k:] = rate_row
+    return parent, cur_parent, k, rows
 
 
 def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
@@ -443,9 +481,11 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         raise ValueError("lane_site must hold one valid temperature column per lane")
     current = None if current_c_rate is None else _as_lanes(
         "current_c_rate", current_c_rate, HOURS_PER_YEAR, n_lanes, keep_float32=use_kernel)
-    if use_kernel and not (soc.flags.f_contiguous and not soc.flags.c_contiguous):
-        # The hour sweep reads contiguous hour rows: copy a column selection once here,
-        # not once per chunk of lanes.
+    if use_kernel and not (soc.flags.f_contiguous and not soc.flags.c_contiguous) and \
+            _block_in_parent(soc, np.zeros((1, 1)) if current is None else current,
+                             np.zeros(0, np.intp)) is None:
+        # The hour sweep reads contiguous hour rows (a block of columns in place from its
+        # parent, see _block_in_parent): copy anything else once here, not once per chunk.
         soc = np.ascontiguousarray(soc)
         current = None if current is None else np.ascontiguousarray(current)
     charge_v = np.broadcast_to(np.asarray(charge_voltage_v_per_cell, dtype=float), (n_lanes,))
