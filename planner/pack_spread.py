@@ -52,6 +52,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import ndtri
 
+from planner import _spread_kernels as _sk
 from planner.errors import InputError
 from planner.pack import (
     BALANCING_KINDS,
@@ -616,6 +617,10 @@ def _age_cells(cal_k, cyc_k, set_of_draw, cells, stress, marks, units, p):
 
     def read(tab, tau):
         # Linear interpolation in the nominal curve at equivalent time tau [months].
+        if _sk.READ is not None:
+            out = np.empty(tau.shape, f32)
+            _sk.READ(tab[0], tab[1], tau, base, n_sites, m_last, out)
+            return out
         whole = np.floor(tau)
         np.minimum(whole, m_last, out=whole)
         f = tau - whole

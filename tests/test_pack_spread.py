@@ -91,3 +91,21 @@ def test_per_site_string_counts_equal_separate_runs():
         alone = life_distribution(draws=100, **args)
         np.testing.assert_allclose(both.p50_years[k], alone.p50_years[0], rtol=1e-6)
         np.testing.assert_allclose(both.prob_fail_before_year[:, k], alone.prob_fail_before_year[:, 0])
+
+
+@pytest.mark.parametrize("i", [0, 10])
+def test_compiled_curve_lookup_gives_the_numpy_bits(i, monkeypatch):
+    # The compiled interpolation in the nominal curves (planner._spread_kernels) must give
+    # the numpy expression's results to the bit on the reference designs of
+    # tests/data/pack_spread_designs.npz: plans must not change with numba or without.
+    from planner import _spread_kernels as sk
+    if sk.READ is None:
+        pytest.skip("numba not installed")
+    args = _design(np.load(DATA), i)
+    compiled = life_distribution(draws=100, **args)
+    monkeypatch.setattr(sk, "READ", None)
+    numpy_expr = life_distribution(draws=100, **args)
+    for name in ("p10_years", "p50_years", "p90_years", "prob_fail_before_year",
+                 "soh_p10_by_month", "soh_p90_by_month"):
+        np.testing.assert_array_equal(getattr(compiled, name), getattr(numpy_expr, name))
+    assert np.isfinite(compiled.p50_years[0])
