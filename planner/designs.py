@@ -288,9 +288,12 @@ def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
     per_site = [enumerate_site_designs(study, i, m) for i, m in enumerate(models)]
     designs = [d for site_designs, _, _ in per_site for d in site_designs]
     outcomes = _evaluate(study, models, designs, progress, price_of, cost_bounds_of)
+    by_site: dict[int, list[Outcome]] = {i: [] for i in range(len(per_site))}
+    for o in outcomes:  # in design order, as a filter per site would list them
+        by_site.setdefault(o.design.site_index, []).append(o)
     results = []
     for i, (_, excluded, references) in enumerate(per_site):
-        mine = [o for o in outcomes if o.design.site_index == i]
+        mine = by_site[i]
         existing = next((o for o in mine if o.design.is_existing), None)
         results.append(SiteDesigns([o for o in mine if not o.design.is_existing], existing,
                                    excluded, references))
