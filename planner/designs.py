@@ -25,6 +25,7 @@ bounded by ``(8760, chunk)`` arrays whatever the fleet size.
 
 from __future__ import annotations
 
+import copy
 import functools
 from dataclasses import dataclass, field
 
@@ -195,14 +196,25 @@ CELL_LADDER_AH = {
 def _pack(model: SiteModel, chem: Chemistry, capacity_wh: float) -> PackStructure:
     """The whole-cell pack closest above ``capacity_wh`` over the chemistry's cell ladder
     (ties go to fewer parallel strings)."""
+    # a copy: every design keeps a pack object of its own, as without the cache
+    return copy.copy(_ladder_pack(
+        model.site.system_voltage_v, chem.id, chem.cell_capacity_ah, chem.cell_voltage_v,
+        max(chem.charge_voltages_v_per_cell), chem.mass_kg_per_kwh, chem.volume_l_per_kwh,
+        capacity_wh))
+
+
+@functools.lru_cache(maxsize=1 << 16)
+def _ladder_pack(system_voltage_v, chem_id, cell_capacity_ah, cell_voltage_v,
+                 charge_voltage_v_per_cell, mass_kg_per_kwh, volume_l_per_kwh, capacity_wh):
+    """:func:`_pack` for hashable inputs (sites of a fleet repeat the same sizes)."""
     best = None
-    for cell_ah in CELL_LADDER_AH.get(chem.id, (chem.cell_capacity_ah,)):
-        pack = pack_structure(system_voltage_v=model.site.system_voltage_v,
-                              required_capacity_wh=capacity_wh, cell_voltage_v=chem.cell_voltage_v,
+    for cell_ah in CELL_LADDER_AH.get(chem_id, (cell_capacity_ah,)):
+        pack = pack_structure(system_voltage_v=system_voltage_v,
+                              required_capacity_wh=capacity_wh, cell_voltage_v=cell_voltage_v,
                               cell_capacity_ah=cell_ah,
-                              charge_voltage_v_per_cell=max(chem.charge_voltages_v_per_cell),
-                              mass_kg_per_kwh=chem.mass_kg_per_kwh,
-                              volume_l_per_kwh=chem.volume_l_per_kwh)
+                              charge_voltage_v_per_cell=charge_voltage_v_per_cell,
+                              mass_kg_per_kwh=mass_kg_per_kwh,
+                              volume_l_per_kwh=volume_l_per_kwh)
         key = (round(pack.capacity_wh, 6), pack.parallel_strings)
         if best is None or key < best[0]:
             best = (key, pack)
