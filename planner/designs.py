@@ -40,7 +40,8 @@ from planner.energy.sizing import (
     temperature_factor_from_derating,
 )
 from planner.energy.soc import iter_soc_chunks
-from planner.pack import PackStructure, life_distribution, pack_structure, stress_parameters
+from planner.pack import PackStructure, pack_structure, stress_parameters
+from planner.pack_spread import life_distribution
 from planner.scenario import Study
 from planner.site_model import SiteModel
 

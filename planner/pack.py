@@ -6,9 +6,7 @@ structure and the physical building blocks of a string (temperature profile alon
 a cell row, current shares of parallel strings, usable capacity of a string under
 each balancing scheme, nominal curves read at equivalent time) and the stress laws
 of an aging parameter set. The distribution of pack life built from them, a seeded
-Monte Carlo, lives in :mod:`planner.pack_spread`; its public names
-(``life_distribution``, ``life_summary``, ``life_fields``, ``LifeDistribution``,
-``DEFAULT_DRAWS``) are also reachable from here.
+Monte Carlo, lives in :mod:`planner.pack_spread`.
 """
 
 from __future__ import annotations
@@ -24,7 +22,6 @@ __all__ = [
     "GAS_CONSTANT_J_MOL_K",
     "SPREAD_PRESETS",
     "PARAMETER_SOURCES",
-    "DEFAULT_DRAWS",
     "SpreadPreset",
     "PackStructure",
     "pack_structure",
@@ -35,11 +32,7 @@ __all__ = [
     "scaled_loss_curve",
     "years_to_threshold",
     "row_years",
-    "life_distribution",
-    "life_fields",
-    "life_summary",
     "stress_parameters",
-    "LifeDistribution",
 ]
 
 #: Molar gas constant [J mol-1 K-1] (CODATA 2018, exact since the 2019 SI redefinition).
@@ -551,17 +544,3 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
         "calendar_time_exponent": z_cal,
         "cycle_time_exponent": z_cyc,
     }
-
-
-# The life spread is its own module; its public names stay reachable from here
-# (resolved on first use, so neither module imports the other at load time).
-_SPREAD_NAMES = ("LifeDistribution", "life_distribution", "life_fields", "life_summary",
-                 "DEFAULT_DRAWS")
-
-
-def __getattr__(name):
-    if name in _SPREAD_NAMES:
-        from planner import pack_spread
-
-        return getattr(pack_spread, name)
-    raise AttributeError(f"module 'planner.pack' has no attribute {name!r}")

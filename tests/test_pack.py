@@ -16,13 +16,9 @@ from scipy.stats import norm
 from planner.errors import InputError
 from planner.pack import (
     BALANCING_KINDS,
-    DEFAULT_DRAWS,
     SPREAD_PRESETS,
     arrhenius_factor,
     inner_temperature_offsets_k,
-    life_distribution,
-    life_fields,
-    life_summary,
     pack_structure,
     row_years,
     scaled_loss_curve,
@@ -31,6 +27,7 @@ from planner.pack import (
     usable_string_capacity_frac,
     years_to_threshold,
 )
+from planner.pack_spread import DEFAULT_DRAWS, life_distribution, life_fields, life_summary
 
 R = 8.314462618  # J/mol/K, CODATA 2018 (exact)
 

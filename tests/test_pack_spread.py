@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from planner.pack import life_distribution
+from planner.pack_spread import life_distribution
 from planner.pack_spread import EXACT_REST_STRINGS
 
 DATA = Path(__file__).parent / "data" / "pack_spread_designs.npz"

@@ -269,7 +269,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
 def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,
                       balancing, draws, *, model_sets=None) -> dict:
     """P10/P50/P90 years to end of life of a series string (pack Monte Carlo)."""
-    from planner.pack import DEFAULT_DRAWS, life_summary, stress_parameters
+    from planner.pack import stress_parameters
+    from planner.pack_spread import DEFAULT_DRAWS, life_summary
 
     series_cells = 1 if series_cells is None else series_cells
     if not 1 <= series_cells <= 1000:
