@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from planner.chemistry import get_chemistry
+from planner.design_evaluation import evaluate_fleet
 from planner.designs import (
     enumerate_site_designs,
-    evaluate_fleet,
     max_service_years,
     requirement_wh,
     window_frac,
@@ -109,7 +109,7 @@ def test_far_from_best_keeps_what_can_win_within_each_chemistry():
     # trip exceeds the best full-trip cost of its chemistry at the site by over 10 %.
     from types import SimpleNamespace
 
-    from planner.designs import RELEVANCE_FRAC, mark_far_from_best
+    from planner.design_screening import RELEVANCE_FRAC, mark_far_from_best
 
     def outcome(chem, low, high):
         design = SimpleNamespace(site_index=0, chemistry=chem, is_existing=False)
