@@ -58,7 +58,10 @@ def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,
 
     ``price_of(chemistry, capacity_wh)`` prices a pack; with it, designs that another
     design of the same site beats on price, mass, life and unserved load are marked
-    ``dominated`` and skip the pack Monte Carlo (the optimizer would never pick them).
+    ``dominated`` and skip the pack Monte Carlo (the optimizer would never pick them),
+    and a dearer, heavier pack of a chemistry whose smaller pack already lasts to the
+    service limit with no load unserved is left out without being simulated (it would be
+    dominated whatever its simulation gave).
     ``cost_bounds_of(model, outcome) -> (low, high)`` bounds a design's present cost at
     its site; with it, designs far dearer than the site's best are marked
     ``far_from_best`` (:func:`mark_far_from_best`) and skip the Monte Carlo too.
@@ -92,7 +95,8 @@ def _evaluate(study, models, designs, progress, price_of, cost_bounds_of) -> lis
             outcomes[k] = outcome
         if progress:
             progress(0, label="Aging candidate packs")
-    return outcomes
+    # designs shown dominated without a simulation have no outcome (_not_beaten_by_capped)
+    return [o for o in outcomes if o is not None]
 
 
 def _site_chunks(designs, max_lanes):
@@ -130,27 +134,104 @@ class _SiteHourly:
 
 def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_bounds_of):
     chunk = [designs[k] for k in lanes]
-    chems = {c: get_chemistry(c) for c in sorted({d.chemistry for d in chunk})}
-    n = len(chunk)
-    site_idx = np.array([d.site_index for d in chunk], dtype=np.intp)
-    capacity = np.array([d.pack.capacity_wh for d in chunk])
-    volts = np.array([d.charge_voltage_v_per_cell for d in chunk])
-    ages = np.array([d.existing_age_years or 0.0 for d in chunk])
-    years = horizon + EXTRA_AGING_YEARS + int(np.ceil(ages.max()))
-    peak_c = np.array([models[d.site_index].peak_load_w for d in chunk]) / capacity
-    required = np.array([requirement_wh(models[d.site_index]) for d in chunk])
-    cold = {}  # available capacity at the coldest hour, once per (site, chemistry)
-    for d in chunk:
-        if (d.site_index, d.chemistry) not in cold:
-            cold[d.site_index, d.chemistry] = float(chems[d.chemistry].available_capacity_fraction(
-                models[d.site_index].design_temp_c))
-    available = np.array([cold[d.site_index, d.chemistry] for d in chunk])
-    window = np.array([window_frac(chems[d.chemistry], d.charge_voltage_v_per_cell) for d in chunk])
-    eol = np.maximum(required / (capacity * window * available),
-                     np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
+    lanes_of = _ChunkLanes(models, chunk, horizon)
+    # With prices known, the smallest pack of every (site, chemistry) goes first: where one
+    # of them already lasts to the service limit with no load unserved, every dearer and
+    # heavier pack of that chemistry is dominated (mark_dominated) and is not simulated.
+    first = _smallest_packs(chunk) if price_of is not None else np.ones(len(chunk), bool)
+    results, deferred = _simulate(lanes_of, hourly, np.flatnonzero(first))
+    rest = np.flatnonzero(~first)
+    if rest.size:
+        rest = _not_beaten_by_capped(chunk, rest, [o for _, o in results], price_of)
+        more, more_deferred = _simulate(lanes_of, hourly, rest)
+        results, deferred = results + more, deferred + more_deferred
+    results.sort(key=lambda jo: jo[0])  # design order, as the per-site marks expect
+    if price_of is not None:
+        mark_dominated([o for _, o in results], price_of)
+    if cost_bounds_of is not None:
+        mark_far_from_best([o for _, o in results],
+                           lambda o: cost_bounds_of(models[o.design.site_index], o))
+    for chem, members, members_outcomes, fade in deferred:
+        _add_life_spread(models, chem, [chunk[j] for j in members], members_outcomes, fade,
+                         lanes_of.eol[members], horizon)
+    return [(lanes[j], o) for j, o in results]
 
-    recharge = np.array([chems[d.chemistry].rechargeable for d in chunk])
-    duty = _Duty.empty(n)
+
+class _ChunkLanes:
+    """Per-lane figures of a chunk that need no simulation: pack, load requirement, cold
+    capacity and end-of-life threshold (computed once for every pass over the chunk)."""
+
+    def __init__(self, models, chunk, horizon):
+        self.models, self.chunk, self.horizon = models, chunk, horizon
+        self.chems = {c: get_chemistry(c) for c in sorted({d.chemistry for d in chunk})}
+        self.site_idx = np.array([d.site_index for d in chunk], dtype=np.intp)
+        self.capacity = np.array([d.pack.capacity_wh for d in chunk])
+        self.volts = np.array([d.charge_voltage_v_per_cell for d in chunk])
+        self.ages = np.array([d.existing_age_years or 0.0 for d in chunk])
+        # one aging length for the whole chunk, whichever lanes a pass simulates
+        self.years = horizon + EXTRA_AGING_YEARS + int(np.ceil(self.ages.max()))
+        self.peak_c = np.array([models[d.site_index].peak_load_w for d in chunk]) / self.capacity
+        required = np.array([requirement_wh(models[d.site_index]) for d in chunk])
+        cold = {}  # available capacity at the coldest hour, once per (site, chemistry)
+        for d in chunk:
+            if (d.site_index, d.chemistry) not in cold:
+                cold[d.site_index, d.chemistry] = float(
+                    self.chems[d.chemistry].available_capacity_fraction(models[d.site_index].design_temp_c))
+        self.available = np.array([cold[d.site_index, d.chemistry] for d in chunk])
+        window = np.array([window_frac(self.chems[d.chemistry], d.charge_voltage_v_per_cell)
+                           for d in chunk])
+        self.eol = np.maximum(required / (self.capacity * window * self.available),
+                              np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
+
+
+def _smallest_packs(chunk) -> np.ndarray:
+    """Lanes holding the smallest pack of their (site, chemistry), every charge voltage,
+    and every pack in service today."""
+    smallest: dict[tuple[int, str], float] = {}
+    for d in chunk:
+        key = (d.site_index, d.chemistry)
+        smallest[key] = min(smallest.get(key, np.inf), d.pack.capacity_wh)
+    return np.array([d.is_existing or d.pack.capacity_wh == smallest[d.site_index, d.chemistry]
+                     for d in chunk])
+
+
+def _not_beaten_by_capped(chunk, lanes, simulated: list[Outcome], price_of) -> np.ndarray:
+    """``lanes`` less those a simulated design of the same site and chemistry dominates
+    whatever their own simulation would give: a new pack lasting to its service limit
+    (the longest life any pack of the chemistry can be given) with no load unserved,
+    no dearer and no heavier, and cheaper or lighter. :func:`mark_dominated` would flag
+    such a lane; it would not be offered, and nothing else reads it."""
+    capped: dict[tuple[int, str], list[tuple[float, float]]] = {}
+    for o in simulated:
+        d = o.design
+        if (not d.is_existing and o.eol_soh_frac < 1.0 and o.unserved_wh_per_year <= 0.0
+                and o.limiting_cause == "service-life limit"
+                and o.life_years >= max_service_years(d.chemistry, d.service_life_years)):
+            capped.setdefault((d.site_index, d.chemistry), []).append(
+                (price_of(d.chemistry, d.pack.capacity_wh), d.pack.mass_kg))
+    keep = []
+    for j in lanes:
+        d = chunk[j]
+        price, mass = price_of(d.chemistry, d.pack.capacity_wh), d.pack.mass_kg
+        beaten = any(p <= price + 1e-9 and m <= mass + 1e-9 and (p < price - 1e-9 or m < mass - 1e-9)
+                     for p, m in capped.get((d.site_index, d.chemistry), ()))
+        if d.is_existing or not beaten:
+            keep.append(j)
+    return np.array(keep, dtype=np.intp)
+
+
+def _simulate(lanes_of: _ChunkLanes, hourly, sel: np.ndarray):
+    """Energy balance and aging of the chunk's lanes ``sel``: ``([(lane, Outcome)],
+    [(chemistry, lanes, outcomes, fade)])``, the second for the pack Monte Carlo."""
+    if sel.size == 0:
+        return [], []
+    chunk, models, chems = lanes_of.chunk, lanes_of.models, lanes_of.chems
+    capacity, volts, peak_c, eol = lanes_of.capacity, lanes_of.volts, lanes_of.peak_c, lanes_of.eol
+    recharge = np.zeros(len(chunk), dtype=bool)
+    recharge[sel] = [chems[chunk[j].chemistry].rechargeable for j in sel]
+    primary = np.zeros(len(chunk), dtype=bool)
+    primary[sel] = ~recharge[sel]
+    duty = _Duty.empty(len(chunk))
     fades = {}
     if recharge.any():
         # Lanes of one chemistry side by side: each aging call then reads a block of
@@ -164,57 +245,54 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_boun
         # re-run at the capacity the pack has half-way to its end of life.
         mid_soh = np.clip(0.5 * (1.0 + np.minimum(eol[idx], 1.0)), 0.5, 1.0)
         mid_life = _duty(inputs, capacity[idx], mid_soh)
-        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, mid_life, volts, peak_c, years))
-    if (~recharge).any():
-        idx = np.flatnonzero(~recharge)
+        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, mid_life, volts, peak_c,
+                                       lanes_of.years))
+    if primary.any():
+        idx = np.flatnonzero(primary)
         # A primary pack is never recharged: the load draws its C-rate hour by hour.
-        current = hourly.load_w[:, site_idx[idx]] / capacity[idx]
-        primary = _Duty(np.ones_like(current), current, np.zeros(idx.size), np.zeros(idx.size),
-                        np.ones(idx.size), np.zeros(idx.size))
-        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, primary, volts, peak_c, years))
-
-    results = []
-    months = 12 * horizon + 1
-    deferred = []
+        current = hourly.load_w[:, lanes_of.site_idx[idx]] / capacity[idx]
+        drain = _Duty(np.ones_like(current), current, np.zeros(idx.size), np.zeros(idx.size),
+                      np.ones(idx.size), np.zeros(idx.size))
+        fades.update(_age_by_chemistry(chems, chunk, idx, hourly, drain, volts, peak_c,
+                                       lanes_of.years))
+    results, deferred = [], []
     for chem_id, (members, fade) in fades.items():
-        chem = chems[chem_id]
-        life_total = _years_to(fade.soh_monthly, eol[members])
-        members_outcomes = []
-        for col, j in enumerate(members):
-            d = chunk[j]
-            start = int(round(float(ages[j]) * 12))  # a Python float: numpy's round is slow
-            soh_col = fade.soh_monthly[:, col]
-            if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
-                start = int(np.argmax(soh_col <= d.measured_soh_frac))
-            cap = max_service_years(chem_id, d.service_life_years)
-            cause = _cause(eol[j], available[j], fade, life_total[col], col, chem)
-            if life_total[col] > cap and eol[j] < 1.0:
-                cause = "service-life limit"
-            age = start / 12.0 if not d.measured_soh_frac else float(d.existing_age_years or 0.0)
-            life = min(life_total[col] - start / 12.0, cap - age)
-            outcome = Outcome(
-                design=d, eol_soh_frac=float(eol[j]), life_years=float(max(life, 0.0)),
-                limiting_cause=cause,
-                soh_monthly=soh_col[start:start + months],
-                calendar_loss_frac=fade.calendar_loss_frac[start:start + months, col],
-                cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
-                efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
-                nominal_life_years=float(life_total[col] - start / 12.0),
-                unserved_wh_per_year=float(duty.unserved_wh[j]),
-                charge_blocked_hours=float(duty.blocked_hours[j]),
-                mean_soc_frac=float(duty.mean_soc[j]))
-            members_outcomes.append(outcome)
-        deferred.append((chem, members, members_outcomes, fade))
-        results += [(lanes[j], o) for j, o in zip(members, members_outcomes)]
-    if price_of is not None:
-        mark_dominated([o for _, o in results], price_of)
-    if cost_bounds_of is not None:
-        mark_far_from_best([o for _, o in results],
-                           lambda o: cost_bounds_of(models[o.design.site_index], o))
-    for chem, members, members_outcomes, fade in deferred:
-        _add_life_spread(models, chem, [chunk[j] for j in members], members_outcomes, fade,
-                         eol[members], horizon)
-    return results
+        outcomes = _outcomes(lanes_of, chems[chem_id], members, fade, duty)
+        deferred.append((chems[chem_id], members, outcomes, fade))
+        results += list(zip(members.tolist(), outcomes))
+    return results, deferred
+
+
+def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]:
+    """One Outcome per lane of ``members`` (one chemistry) from its fade and duty."""
+    chunk, eol, ages = lanes_of.chunk, lanes_of.eol, lanes_of.ages
+    months = 12 * lanes_of.horizon + 1
+    life_total = _years_to(fade.soh_monthly, eol[members])
+    out = []
+    for col, j in enumerate(members):
+        d = chunk[j]
+        start = int(round(float(ages[j]) * 12))  # a Python float: numpy's round is slow
+        soh_col = fade.soh_monthly[:, col]
+        if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
+            start = int(np.argmax(soh_col <= d.measured_soh_frac))
+        cap = max_service_years(chem.id, d.service_life_years)
+        cause = _cause(eol[j], lanes_of.available[j], fade, life_total[col], col, chem)
+        if life_total[col] > cap and eol[j] < 1.0:
+            cause = "service-life limit"
+        age = start / 12.0 if not d.measured_soh_frac else float(d.existing_age_years or 0.0)
+        life = min(life_total[col] - start / 12.0, cap - age)
+        out.append(Outcome(
+            design=d, eol_soh_frac=float(eol[j]), life_years=float(max(life, 0.0)),
+            limiting_cause=cause,
+            soh_monthly=soh_col[start:start + months],
+            calendar_loss_frac=fade.calendar_loss_frac[start:start + months, col],
+            cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
+            efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
+            nominal_life_years=float(life_total[col] - start / 12.0),
+            unserved_wh_per_year=float(duty.unserved_wh[j]),
+            charge_blocked_hours=float(duty.blocked_hours[j]),
+            mean_soc_frac=float(duty.mean_soc[j])))
+    return out
 
 
 @dataclass
