@@ -16,7 +16,9 @@ import time
 import numpy as np
 
 from planner.climate import list_bundled, load_climate
-from planner.thermal import ENCLOSURE_KINDS, battery_temperature_fleet, simulate_lumped
+from planner.enclosures import ENCLOSURE_KINDS
+from planner.lumped_thermal import simulate_lumped
+from planner.thermal import battery_temperature_fleet
 
 
 def main(n_sites: int = 1000) -> None:

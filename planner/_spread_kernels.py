@@ -1,4 +1,4 @@
-"""Compiled lookup of the pack Monte Carlo (:mod:`planner.pack_spread`).
+"""Compiled lookup of the pack Monte Carlo (:mod:`planner.pack_spread_cells`).
 
 :func:`read_curve` is the linear interpolation of ``_age_cells``' ``read`` in one pass,
 float32 operation for float32 operation (no fast-math, so the same bits as the numpy

@@ -1,7 +1,7 @@
-"""Compiled hour loops of the lumped enclosure model (:mod:`planner.thermal`).
+"""Compiled hour loops of the lumped enclosure model (:mod:`planner.lumped_thermal`).
 
-The same arithmetic as the numpy loops of :func:`planner.thermal._linear_lanes` and
-:func:`planner.thermal._thermostat_lanes`, operation for operation (no fast-math, so
+The same arithmetic as the numpy loops of :func:`planner.lumped_thermal._linear_lanes` and
+:func:`planner.lumped_thermal._thermostat_lanes`, operation for operation (no fast-math, so
 every sum and product rounds as numpy's does and the results are the same bits), one
 value at a time instead of one hour row at a time: the numpy loops spend most of
 their time in the overhead of a dozen small array operations per hour.

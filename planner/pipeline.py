@@ -20,7 +20,7 @@ from functools import partial
 import numpy as np
 
 from planner.costing import build_problem, offered_outcomes, pack_price, standalone_cost_bounds
-from planner.designs import evaluate_fleet
+from planner.design_evaluation import evaluate_fleet
 from planner.load_growth import evaluate_with_growth
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (

@@ -24,6 +24,7 @@ from planner.designs import (
     max_service_years,
     worn_out_soh_frac,
 )
+from planner.enclosures import get_enclosure
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
@@ -31,7 +32,6 @@ from planner.plan_comparison import comparison_rows
 from planner.scenario import Study
 from planner.site_model import SiteModel
 from planner.spending import spending_by_year
-from planner.thermal import get_enclosure
 from planner.thermal_measures import base_measure_id
 from planner.visit_risk import risk_before_next_visit
 

@@ -22,7 +22,8 @@ from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_c
 from planner.energy.mains import float_charge_power_w, mains_available
 from planner.energy.pv import pv_dc_power_w
 from planner.scenario import Site, Study
-from planner.thermal import Enclosure, battery_temperature_fleet
+from planner.enclosures import Enclosure
+from planner.thermal import battery_temperature_fleet
 
 # A float charger is sized well above the load; the pack's own acceptance limit
 # (max charge C-rate) is what caps charging in the SOC recursion (common practice).

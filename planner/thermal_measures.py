@@ -29,7 +29,8 @@ from planner.climate.summary import summarize_temperatures
 from planner.errors import InputError
 from planner.scenario import Study
 from planner.site_model import SiteModel
-from planner.thermal import battery_temperature_fleet, get_enclosure
+from planner.enclosures import get_enclosure
+from planner.thermal import battery_temperature_fleet
 
 #: A site counts as hot when its aging-effective battery temperature passes this: lead-acid
 #: life halves for every 8-10 K above 25 °C (IEEE 1188 / vendor practice, from memory) and

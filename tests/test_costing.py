@@ -5,7 +5,7 @@ from pathlib import Path
 import pytest
 
 from planner.costing import pack_price, standalone_cost_bounds
-from planner.designs import evaluate_fleet
+from planner.design_evaluation import evaluate_fleet
 from planner.scenario import load_study
 from planner.site_model import model_sites
 

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from planner.chemistry import get_chemistry
+from planner.design_evaluation import evaluate_fleet
 from planner.designs import (
     enumerate_site_designs,
-    evaluate_fleet,
     max_service_years,
     requirement_wh,
     window_frac,
@@ -109,7 +109,7 @@ def test_far_from_best_keeps_what_can_win_within_each_chemistry():
     # trip exceeds the best full-trip cost of its chemistry at the site by over 10 %.
     from types import SimpleNamespace
 
-    from planner.designs import RELEVANCE_FRAC, mark_far_from_best
+    from planner.design_screening import RELEVANCE_FRAC, mark_far_from_best
 
     def outcome(chem, low, high):
         design = SimpleNamespace(site_index=0, chemistry=chem, is_existing=False)
@@ -131,7 +131,7 @@ def test_packs_left_unsimulated_are_the_ones_the_full_run_marks_dominated(monkey
     # service limit with no load unserved is not simulated. Against the run that
     # simulates every pack: the same designs are offered with the same figures, and every
     # pack left out is one that run marks dominated (or too small to be offered).
-    from planner import designs as designs_module
+    from planner import design_evaluation
     from planner.costing import offered_outcomes, pack_price, standalone_cost_bounds
 
     study = load_study(Path(__file__).resolve().parents[1] / "scenarios" / "corvale.toml")
@@ -143,7 +143,7 @@ def test_packs_left_unsimulated_are_the_ones_the_full_run_marks_dominated(monkey
             cost_bounds_of=lambda m, o: standalone_cost_bounds(study, m, o))
 
     pruned = run()
-    monkeypatch.setattr(designs_module, "_smallest_packs", lambda chunk: np.ones(len(chunk), bool))
+    monkeypatch.setattr(design_evaluation, "_smallest_packs", lambda chunk: np.ones(len(chunk), bool))
     full = run()
 
     def figures(o):

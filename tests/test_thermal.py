@@ -9,7 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from planner import thermal
+from planner import enclosures, lumped_thermal, thermal
 from planner.climate import TypicalYear, load_climate
 from planner.errors import InputError
 
@@ -30,7 +30,7 @@ def test_step_response_is_the_analytic_exponential():
     # (Incropera & DeWitt, lumped capacitance, eq. 5.6). Hour means are the integral
     # of that curve over each hour: 1 - tau (e^(-k/tau) - e^(-(k+1)/tau)).
     tau = 5.0
-    result = thermal.simulate_lumped(np.ones(48), tau, initial_c=0.0)
+    result = lumped_thermal.simulate_lumped(np.ones(48), tau, initial_c=0.0)
     k = np.arange(48)
     np.testing.assert_allclose(result.temp_end_c, 1 - np.exp(-(k + 1) / tau), rtol=1e-12)
     np.testing.assert_allclose(result.temp_mean_c,
@@ -39,7 +39,7 @@ def test_step_response_is_the_analytic_exponential():
 
 def test_step_response_vectorised_across_sites():
     taus = np.array([0.5, 2.0, 30.0])
-    result = thermal.simulate_lumped(np.ones((24, 3)), taus, initial_c=0.0)
+    result = lumped_thermal.simulate_lumped(np.ones((24, 3)), taus, initial_c=0.0)
     t = np.arange(1, 25)[:, None]
     np.testing.assert_allclose(result.temp_end_c, 1 - np.exp(-t / taus[None, :]), rtol=1e-12)
 
@@ -48,7 +48,7 @@ def test_steady_state_is_air_plus_gain_over_ua():
     # Energy balance at steady state: UA (T - T_air) = Q  ->  T = T_air + Q / UA.
     year = flat_year(20.0)
     result = thermal.battery_temperature(year, "cabinet-sun", internal_heat_w=30.0)
-    ua = thermal.ENCLOSURE_KINDS["cabinet-sun"].ua_w_k
+    ua = enclosures.ENCLOSURE_KINDS["cabinet-sun"].ua_w_k
     np.testing.assert_allclose(result.temp_battery_c, 20.0 + 30.0 / ua, rtol=1e-9)
     assert np.all(result.heater_power_w == 0) and np.all(result.hvac_power_w == 0)
 
@@ -60,7 +60,7 @@ def test_solar_gain_is_the_sol_air_heat_flow():
     ghi = np.clip(rng.normal(300, 200, N), 0, 1000)
     year = flat_year(10.0, ghi=ghi, dni=0.0, dhi=ghi)
     overrides = {"area_wall_m2": 0.0, "area_top_m2": 1.0, "ua_w_k": 6.0, "finish": "dark"}
-    encl = thermal.get_enclosure("cabinet-sun", overrides)
+    encl = enclosures.get_enclosure("cabinet-sun", overrides)
     gain = thermal.solar_gain_w(year, encl)
     np.testing.assert_allclose(gain, 6.0 * 0.90 * ghi / 17.0, rtol=1e-9)
 
@@ -70,7 +70,7 @@ def test_heater_holds_setpoint_and_reports_energy():
     year = flat_year(-20.0)
     result = thermal.battery_temperature(year, "cabinet-shade", heater_setpoint_c=5.0,
                                          heater_power_w=1000.0)
-    ua = thermal.ENCLOSURE_KINDS["cabinet-shade"].ua_w_k
+    ua = enclosures.ENCLOSURE_KINDS["cabinet-shade"].ua_w_k
     np.testing.assert_allclose(result.temp_battery_c, 5.0, atol=1e-9)
     np.testing.assert_allclose(result.heater_power_w, ua * 25.0, rtol=1e-9)
 
@@ -79,7 +79,7 @@ def test_undersized_heater_runs_flat_out():
     # A 50 W heater lifts the steady temperature by 50 / UA only (energy balance).
     year = flat_year(-20.0)
     result = thermal.battery_temperature(year, "cabinet-shade", heater_setpoint_c=5.0)
-    ua = thermal.ENCLOSURE_KINDS["cabinet-shade"].ua_w_k
+    ua = enclosures.ENCLOSURE_KINDS["cabinet-shade"].ua_w_k
     np.testing.assert_allclose(result.heater_power_w, thermal.DEFAULT_HEATER_POWER_W)
     np.testing.assert_allclose(result.temp_battery_c, -20.0 + 50.0 / ua, rtol=1e-9)
 
@@ -89,7 +89,7 @@ def test_shelter_cooling_energy():
     # electric power is that divided by the COP (definition of the coefficient of
     # performance).
     year = flat_year(40.0)
-    shelter = thermal.ENCLOSURE_KINDS["shelter"]
+    shelter = enclosures.ENCLOSURE_KINDS["shelter"]
     result = thermal.battery_temperature(year, "shelter")
     np.testing.assert_allclose(result.temp_battery_c, shelter.hvac_cool_setpoint_c, atol=1e-9)
     expected = shelter.ua_w_k * (40.0 - shelter.hvac_cool_setpoint_c) / shelter.hvac_cool_cop
@@ -98,7 +98,7 @@ def test_shelter_cooling_energy():
 
 def test_shelter_heating_energy():
     year = flat_year(-15.0)
-    shelter = thermal.ENCLOSURE_KINDS["shelter"]
+    shelter = enclosures.ENCLOSURE_KINDS["shelter"]
     result = thermal.battery_temperature(year, "shelter", internal_heat_w=100.0)
     np.testing.assert_allclose(result.temp_battery_c, shelter.hvac_heat_setpoint_c, atol=1e-9)
     # Heat balance: heater + internal gains = UA (T_set - T_air); COP 1 (resistance).
@@ -113,7 +113,7 @@ def test_vault_follows_the_ground_at_depth():
     air = 5.0 - 15.0 * np.cos(2 * np.pi * (days - 20.0) / 365.0)
     year = flat_year(air)
     result = thermal.battery_temperature(year, "vault", overrides={"ua_w_k": 0.0, "depth_m": 2.0})
-    alpha = thermal.ENCLOSURE_KINDS["vault"].soil_diffusivity_m2_day
+    alpha = enclosures.ENCLOSURE_KINDS["vault"].soil_diffusivity_m2_day
     damping = math.exp(-2.0 * math.sqrt(math.pi / (alpha * 365.0)))
     assert result.temp_battery_c.mean() == pytest.approx(5.0, abs=0.05)
     half_range = (result.temp_battery_c.max() - result.temp_battery_c.min()) / 2
@@ -150,10 +150,10 @@ def test_periodic_start():
     # The year starts in its periodic state: restarting from the year-end state
     # reproduces the same year (to well below 1 mK).
     year = load_climate("mediterranean")
-    encl = thermal.get_enclosure("vault")
+    encl = enclosures.get_enclosure("vault")
     eq = thermal.equilibrium_temp_c(year, encl)
-    first = thermal.simulate_lumped(eq, encl.tau_h)
-    again = thermal.simulate_lumped(eq, encl.tau_h, initial_c=first.temp_end_c[-1])
+    first = lumped_thermal.simulate_lumped(eq, encl.tau_h)
+    again = lumped_thermal.simulate_lumped(eq, encl.tau_h, initial_c=first.temp_end_c[-1])
     np.testing.assert_allclose(again.temp_mean_c, first.temp_mean_c, atol=1e-3)
 
 
@@ -164,7 +164,7 @@ def test_periodic_start():
 def test_mean_of_a_periodic_linear_response_equals_mean_drive(drive, tau):
     # For a stable linear first-order system in periodic steady state, the time
     # average of dT/dt is zero, so mean(T) = mean(T_eq) (integrate the ODE over a period).
-    result = thermal.simulate_lumped(drive, tau)
+    result = lumped_thermal.simulate_lumped(drive, tau)
     assert result.temp_mean_c.mean() == pytest.approx(drive.mean(), abs=1e-3 * (1 + np.ptp(drive)))
     # And the response never leaves the range of its drive (maximum principle).
     assert result.temp_mean_c.max() <= drive.max() + 1e-9
@@ -172,16 +172,16 @@ def test_mean_of_a_periodic_linear_response_equals_mean_drive(drive, tau):
 
 
 def test_enclosure_kinds_and_errors():
-    assert list(thermal.ENCLOSURE_KINDS) == ["cabinet-sun", "cabinet-shade", "vault", "shelter"]
-    for kind in thermal.ENCLOSURE_KINDS.values():
+    assert list(enclosures.ENCLOSURE_KINDS) == ["cabinet-sun", "cabinet-shade", "vault", "shelter"]
+    for kind in enclosures.ENCLOSURE_KINDS.values():
         assert dict(kind.sources), kind.kind   # every kind documents its sources
         assert kind.tau_h > 0
     with pytest.raises(InputError, match="did you mean 'cabinet-sun'"):
-        thermal.get_enclosure("cabinet_sun")
+        enclosures.get_enclosure("cabinet_sun")
     with pytest.raises(InputError, match="did you mean 'thermal_mass_j_k'"):
-        thermal.get_enclosure("vault", {"thermal_mass_jk": 1e5})
+        enclosures.get_enclosure("vault", {"thermal_mass_jk": 1e5})
     with pytest.raises(InputError, match="expected a number from 0 to 1"):
-        thermal.get_enclosure("vault", {"absorptance_frac": 2})
+        enclosures.get_enclosure("vault", {"absorptance_frac": 2})
     with pytest.raises(InputError, match="internal_heat_w"):
         thermal.battery_temperature_fleet([flat_year()], ["vault"], internal_heat_w=np.array([-5.0]))
     with pytest.raises(InputError, match="heater_setpoint_c"):
@@ -206,12 +206,12 @@ def test_compiled_hour_loops_give_the_numpy_loops_bits(monkeypatch):
                   cool_setpoint_c=np.array([np.nan, np.nan, 30.0, 28.0, np.nan]),
                   cool_max_w=50.0)
     tau = np.array([8.0, 20.0, 3.0, 12.0, 30.0])
-    compiled = [thermal.simulate_lumped(temp_eq, tau, **kwargs),
-                thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
+    compiled = [lumped_thermal.simulate_lumped(temp_eq, tau, **kwargs),
+                lumped_thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
     monkeypatch.setattr(tk, "LINEAR", None)
     monkeypatch.setattr(tk, "THERMOSTAT", None)
-    numpy_loops = [thermal.simulate_lumped(temp_eq, tau, **kwargs),
-                   thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
+    numpy_loops = [lumped_thermal.simulate_lumped(temp_eq, tau, **kwargs),
+                   lumped_thermal.simulate_lumped(temp_eq, tau, ua_w_k=2.0)]
     for got, want in zip(compiled, numpy_loops):
         for a, b in zip(dataclasses.astuple(got), dataclasses.astuple(want)):
             np.testing.assert_array_equal(a, b)

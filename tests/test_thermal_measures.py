@@ -14,7 +14,7 @@ from planner.errors import InputError
 from planner.optimize import solve_fleet
 from planner.scenario import load_study
 from planner.site_model import model_sites
-from planner.thermal import get_enclosure
+from planner.enclosures import get_enclosure
 from planner.thermal_measures import catalogue, offered_measures, variant_models
 
 HEADER = "id,region,climate,enclosure,load_w,charging,pv_wp,autonomy_days,heater_setpoint_c,thermal_measures\n"
