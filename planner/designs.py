@@ -113,6 +113,15 @@ class SiteDesigns:
     references: dict[str, ReferenceSize]
     # thermal measure id -> the site's model with it, for designs evaluated with a measure
     measure_models: dict = field(default_factory=dict)
+    # chemistries whose packs were evaluated here; None: those of ``outcomes`` (set when
+    # the outcomes are cut to the designs worth offering, planner.pipeline)
+    tried: tuple[str, ...] | None = None
+
+    def tried_chemistries(self) -> list[str]:
+        """Chemistries with at least one evaluated pack at the site, sorted."""
+        if self.tried is not None:
+            return list(self.tried)
+        return sorted({o.design.chemistry for o in self.outcomes})
 
 
 # ---------------------------------------------------------------- enumeration
