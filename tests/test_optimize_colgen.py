@@ -7,10 +7,14 @@ and on random small fleets the sandwich bound <= brute-force optimum <= plan cos
 
 from dataclasses import replace
 
+import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from planner.optimize import ExistingPack, FleetProblem, SiteOptions, solve_fleet
+from planner.optimize.colgen import Pricer
+from planner.optimize.schedule import build_graphs
 
 from test_optimize_bruteforce import fleet_best
 from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
@@ -74,3 +78,25 @@ def test_columns_payload_two_trips():
     sol = solve_fleet(FleetProblem(sites, 5, 0.0, {"A": 300.0}, payload_kg_per_trip=100.0, method="columns"))
     assert sol.objective == pytest.approx(2600.0)
     assert sol.trips[0].count == 2
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(small_fleets(max_sites=4, h_max=8), st.integers(0, 2 ** 32 - 1))
+def test_compiled_year_sweep_equals_the_numpy_sweep(prob, seed):
+    # Internal equivalence: the compiled shortest paths of the pricer give the numpy
+    # sweep's values and predecessors exactly (same additions, first minimum kept), with
+    # and without shared node families (design changes at a replacement), under random
+    # dual prices that may make arcs dearer or cheaper.
+    pytest.importorskip("numba")
+    g = build_graphs(prob.sites, [list(s.candidates) for s in prob.sites],
+                     horizon_years=prob.horizon_years, rate=prob.discount_rate_frac,
+                     residual_value=prob.residual_value, design_changes=prob.design_changes)
+    rng = np.random.default_rng(seed)
+    arc_extra = np.round(rng.normal(0.0, 500.0, g.arc_cost.size), 1)
+    ex_extra = np.round(rng.normal(0.0, 500.0, g.ex_cost.size), 1)
+    compiled, plain = Pricer(g), Pricer(g, engine="numpy")
+    got = compiled.values(arc_extra, ex_extra)
+    want = plain.values(arc_extra, ex_extra)
+    for a, b in zip(got, want):
+        np.testing.assert_array_equal(a, b)
+    np.testing.assert_array_equal(compiled._last[0], plain._last[0])

@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner import economics as ec
+from planner.optimize import _path_kernels as _paths
 from planner.optimize.schedule import SiteGraphs
 from planner.optimize.solver import quiet_stdout
 
@@ -43,10 +44,14 @@ class Column:
 
 
 class Pricer:
-    """Shortest paths with dual prices for every site of a :class:`SiteGraphs`."""
+    """Shortest paths with dual prices for every site of a :class:`SiteGraphs`.
 
-    def __init__(self, g: SiteGraphs, single_design: bool = False):
+    ``engine``: "auto" runs the year sweep compiled with numba when it is installed;
+    "numpy" forces the numpy sweep (both give the same values and paths)."""
+
+    def __init__(self, g: SiteGraphs, single_design: bool = False, engine: str = "auto"):
         self.g = g
+        self.engine = engine
         h = g.horizon_years
         self.h = h
         n_pairs = len(g.pair_cand)
@@ -85,7 +90,7 @@ class Pricer:
         elif self.shared:
             # one-design paths as extra columns: pricing one path per site and round
             # converges slowly; the best path of each design adds variety cheaply
-            self.single = Pricer(g, single_design=True)
+            self.single = Pricer(g, single_design=True, engine=engine)
             # families laid out contiguously, so a family's cheapest design is a segment
             # minimum (np.minimum.reduceat) instead of a sort per year
             self.perm = np.argsort(self.node, kind="stable")
@@ -112,6 +117,25 @@ class Pricer:
             e, r = self.ex_arcs, self.ex_rows
             best[r, g.ex_t[e]] = g.ex_cost[e] + ex_extra[e]
             pred[r, g.ex_t[e]] = -2 - e  # existing arc e encoded as -2 - e
+        if _paths.SWEEP is not None and self.engine != "numpy":
+            _paths.SWEEP(cost, self.arc_id, self.node, self.shared, best, pred, np.empty(n),
+                         np.empty(n, dtype=np.int64))
+        else:
+            self._numpy_sweep(cost, best, pred)
+        n_sites = len(g.sites)
+        keep_val = np.full(n_sites, np.inf)
+        keep_arc = np.full(n_sites, -1, dtype=np.int64)
+        if self.ex_keep.size:
+            e = self.ex_keep
+            keep_val[g.ex_site[e]] = g.ex_cost[e] + ex_extra[e]
+            keep_arc[g.ex_site[e]] = e
+        self._last = (pred, pred[:, h])
+        return best[:, h], keep_val, keep_arc
+
+    def _numpy_sweep(self, cost, best, pred):
+        """The year-by-year sweep of :meth:`values` in numpy (the compiled
+        :func:`planner.optimize._path_kernels.year_sweep` does the same operations)."""
+        n, h = self.n_pairs, self.h
         rows = np.arange(n)
         node = self.node
         for t2 in range(1, h + 1):  # years of the horizon (about 20), each step over all designs
@@ -132,15 +156,6 @@ class Pricer:
             better = v < best[fam, t2]
             best[fam[better], t2] = v[better]
             pred[fam[better], t2] = arc[better]
-        n_sites = len(g.sites)
-        keep_val = np.full(n_sites, np.inf)
-        keep_arc = np.full(n_sites, -1, dtype=np.int64)
-        if self.ex_keep.size:
-            e = self.ex_keep
-            keep_val[g.ex_site[e]] = g.ex_cost[e] + ex_extra[e]
-            keep_arc[g.ex_site[e]] = e
-        self._last = (pred, pred[:, h])
-        return best[:, h], keep_val, keep_arc
 
     def column(self, pair: int, site: int, keep_arc: int = -1) -> Column:
         """Backtrack the cheapest path of node family ``pair`` (or the keep arc) found by
