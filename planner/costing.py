@@ -127,7 +127,7 @@ def standalone_cost_bounds(study: Study, model: SiteModel, outcome: Outcome) -> 
 
 def _unserved_reason(model: SiteModel, designs: SiteDesigns, hint: str = "") -> str:
     reasons = [f"{chem}: {why}" for chem, why in sorted(designs.excluded.items())]
-    tried = sorted({o.design.chemistry for o in designs.outcomes})
+    tried = designs.tried_chemistries()
     if tried:
         reasons.append(f"{', '.join(tried)}: no pack size on the grid carries "
                        f"{requirement_wh(model):.0f} Wh through the coldest hour "

@@ -31,7 +31,7 @@ from planner.energy.sizing import (
     reference_capacity,
     temperature_factor_from_derating,
 )
-from planner.pack import PackStructure, pack_structure
+from planner.pack import PackStructure, pack_structure, series_count, whole_strings
 from planner.scenario import Study
 from planner.site_model import SiteModel
 
@@ -113,6 +113,15 @@ class SiteDesigns:
     references: dict[str, ReferenceSize]
     # thermal measure id -> the site's model with it, for designs evaluated with a measure
     measure_models: dict = field(default_factory=dict)
+    # chemistries whose packs were evaluated here; None: those of ``outcomes`` (set when
+    # the outcomes are cut to the designs worth offering, planner.pipeline)
+    tried: tuple[str, ...] | None = None
+
+    def tried_chemistries(self) -> list[str]:
+        """Chemistries with at least one evaluated pack at the site, sorted."""
+        if self.tried is not None:
+            return list(self.tried)
+        return sorted({o.design.chemistry for o in self.outcomes})
 
 
 # ---------------------------------------------------------------- enumeration
@@ -186,19 +195,21 @@ def _pack(model: SiteModel, chem: Chemistry, capacity_wh: float) -> PackStructur
 @functools.lru_cache(maxsize=1 << 16)
 def _ladder_pack(system_voltage_v, chem_id, cell_capacity_ah, cell_voltage_v,
                  charge_voltage_v_per_cell, mass_kg_per_kwh, volume_l_per_kwh, capacity_wh):
-    """:func:`_pack` for hashable inputs (sites of a fleet repeat the same sizes)."""
+    """:func:`_pack` for hashable inputs (sites of a fleet repeat the same sizes).
+
+    Each rung of the ladder is scored by its whole-string count and capacity (the
+    arithmetic of :func:`planner.pack.pack_structure`); only the winner is built."""
     best = None
+    n_s = series_count(system_voltage_v, cell_voltage_v, charge_voltage_v_per_cell)
     for cell_ah in CELL_LADDER_AH.get(chem_id, (cell_capacity_ah,)):
-        pack = pack_structure(system_voltage_v=system_voltage_v,
-                              required_capacity_wh=capacity_wh, cell_voltage_v=cell_voltage_v,
-                              cell_capacity_ah=cell_ah,
-                              charge_voltage_v_per_cell=charge_voltage_v_per_cell,
-                              mass_kg_per_kwh=mass_kg_per_kwh,
-                              volume_l_per_kwh=volume_l_per_kwh)
-        key = (round(pack.capacity_wh, 6), pack.parallel_strings)
+        n_p, pack_wh = whole_strings(capacity_wh, n_s, cell_voltage_v, cell_ah)
+        key = (round(pack_wh, 6), n_p)
         if best is None or key < best[0]:
-            best = (key, pack)
-    return best[1]
+            best = (key, cell_ah)
+    return pack_structure(system_voltage_v=system_voltage_v, required_capacity_wh=capacity_wh,
+                          cell_voltage_v=cell_voltage_v, cell_capacity_ah=best[1],
+                          charge_voltage_v_per_cell=charge_voltage_v_per_cell,
+                          mass_kg_per_kwh=mass_kg_per_kwh, volume_l_per_kwh=volume_l_per_kwh)
 
 
 def _exclusion(model: SiteModel, chem: Chemistry) -> str:

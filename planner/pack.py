@@ -224,6 +224,24 @@ def _positive(name, value, source="pack"):
     return x
 
 
+def series_count(system_voltage_v: float, cell_voltage_v: float,
+                 charge_voltage_v_per_cell: float | None = None) -> int:
+    """Cells in series for a system voltage (the rule of :func:`pack_structure`)."""
+    if charge_voltage_v_per_cell is not None:
+        return max(1, int(math.floor(1.2 * system_voltage_v / charge_voltage_v_per_cell + 0.5)))
+    return max(1, int(math.floor(system_voltage_v / cell_voltage_v + 0.5)))
+
+
+def whole_strings(required_capacity_wh: float, series_cells: int, cell_voltage_v: float,
+                  cell_capacity_ah: float) -> tuple[int, float]:
+    """``(parallel strings, pack capacity in Wh)`` of the smallest whole-string pack
+    holding ``required_capacity_wh`` (the rule of :func:`pack_structure`)."""
+    string_wh = series_cells * cell_voltage_v * cell_capacity_ah
+    # The tolerance keeps float noise (e.g. 2 * 1280.0000000001) from adding a string.
+    n_p = max(1, int(math.ceil(required_capacity_wh / string_wh - 1e-9)))
+    return n_p, (series_cells * cell_voltage_v) * (n_p * cell_capacity_ah)
+
+
 def pack_structure(
     *,
     system_voltage_v,
@@ -271,19 +289,15 @@ def pack_structure(
     e_req = _positive("required_capacity_wh", required_capacity_wh)
     v_cell = _positive("cell_voltage_v", cell_voltage_v)
     c_cell = _positive("cell_capacity_ah", cell_capacity_ah)
-    if series_cells is None and charge_voltage_v_per_cell is not None:
-        v_ch = _positive("charge_voltage_v_per_cell", charge_voltage_v_per_cell)
-        n_s = max(1, int(math.floor(1.2 * v_sys / v_ch + 0.5)))
-    elif series_cells is None:
-        n_s = max(1, int(math.floor(v_sys / v_cell + 0.5)))
+    if series_cells is None:
+        v_ch = None if charge_voltage_v_per_cell is None else \
+            _positive("charge_voltage_v_per_cell", charge_voltage_v_per_cell)
+        n_s = series_count(v_sys, v_cell, v_ch)
     else:
         n_s = _whole("series_cells", series_cells)
-    string_wh = n_s * v_cell * c_cell
-    # The tolerance keeps float noise (e.g. 2 * 1280.0000000001) from adding a string.
-    n_p = max(1, int(math.ceil(e_req / string_wh - 1e-9)))
+    n_p, cap_wh = whole_strings(e_req, n_s, v_cell, c_cell)
     cap_ah = n_p * c_cell
     v_nom = n_s * v_cell
-    cap_wh = v_nom * cap_ah
     mass = float("nan") if mass_kg_per_kwh is None else \
         cap_wh / 1000.0 * _positive("mass_kg_per_kwh", mass_kg_per_kwh)
     vol = float("nan") if volume_l_per_kwh is None else \

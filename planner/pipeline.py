@@ -65,8 +65,7 @@ def plan_sites(study: Study, extra_warming_k: float = 0.0):
     """
     models = model_sites(study, extra_warming_k=extra_warming_k)
     designs, hints = _evaluate_with_measures(study, models)
-    _drop_unused_curves(designs)
-    designs = [_variants_summarised(d) for d in designs]
+    designs = [_variants_summarised(_offered_only(d)) for d in designs]
     return ([m.summary() for m in models], designs,
             [hints.get(i, "") for i in range(len(models))])
 
@@ -93,17 +92,19 @@ def _variants_summarised(site_designs):
         k: v.summary() for k, v in site_designs.measure_models.items()})
 
 
-def _drop_unused_curves(designs) -> None:
-    """Keep monthly curves only where the plan can show them (designs offered to the
-    optimizer, packs installed today): a fleet's outcomes then stay small in memory."""
-    empty = np.empty(0)
-    for site_designs in designs:
-        offered = {id(o) for o in offered_outcomes(site_designs)}
-        for o in site_designs.outcomes:
-            o.calendar_loss_frac = o.cycle_loss_frac = empty
-            if id(o) not in offered:
-                o.soh_monthly = empty
-                o.soh_p10_monthly = o.soh_p90_monthly = None
+def _offered_only(site_designs):
+    """The site's designs cut to those the plan can use (offered to the optimizer, the
+    pack installed today), without the aging curves the plan does not show: a fleet's
+    designs then stay small in memory and cheap to send back from a worker. The
+    chemistries tried are kept for the reason a site goes unserved."""
+    for o in (*offered_outcomes(site_designs), site_designs.existing):
+        if o is not None:
+            o.calendar_loss_frac = o.cycle_loss_frac = _EMPTY
+    return replace(site_designs, outcomes=offered_outcomes(site_designs),
+                   tried=tuple(site_designs.tried_chemistries()))
+
+
+_EMPTY = np.empty(0)
 
 
 def _plan_sites_piece(args):
