@@ -20,7 +20,7 @@ import time
 
 import numpy as np
 
-from planner.energy import _soc_kernels, soc
+from planner.energy import _soc_kernels, soc, soc_fused
 
 H = 8760
 
@@ -98,8 +98,8 @@ def main(argv):
     n = n_sites * designs
     print(f"lanes {n:,} ({n_sites} sites x {designs} designs), chunk {chunk}, "
           f"{-(-n // chunk)} chunks, SOC and C-rate series streamed")
-    paths = (["compiled"] if soc._FUSED is not None else []) + ["numpy"]
-    if soc._FUSED is None:
+    paths = (["compiled"] if soc_fused._FUSED is not None else []) + ["numpy"]
+    if soc_fused._FUSED is None:
         print("numba not installed: only the numpy loop runs")
     for path in paths:
         subprocess.run([sys.executable, __file__, "--child", path, str(n_sites),

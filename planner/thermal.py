@@ -63,7 +63,7 @@ def surface_irradiance_w_m2(year: TypicalYear, tilt_deg: float, azimuth_deg: flo
     ``sky_view_frac``.
     """
     import pvlib
-    from planner.climate.readers import solar_geometry
+    from planner.climate.solar import solar_geometry
 
     sun = solar_geometry(year.latitude_deg, year.longitude_deg, year.altitude_m,
                          year.utc_offset_h)

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from planner.climate import archetypes, load_climate
-from planner.climate.readers import clear_sky_ghi, solar_geometry
+from planner.climate.solar import clear_sky_ghi, solar_geometry
 from planner.errors import InputError
 
 NAMES = archetypes.names()

@@ -12,7 +12,7 @@ from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from planner.climate import ClimateWarning, TypicalYear, list_bundled, load_climate
-from planner.climate import readers
+from planner.climate import solar
 from planner.errors import InputError
 
 PVLIB_DATA = Path(pvlib.__file__).parent / "data"
@@ -362,7 +362,7 @@ def test_csv_irradiance_column_and_clear_sky_estimate(tmp_path):
     with_ghi = load_climate(str(path), options={**options, "ghi_column": "ghi"})
     np.testing.assert_allclose(with_ghi.ghi_w_m2, year_ref.ghi_w_m2)
     # Erbs decomposition closes the balance GHI = DNI cos(z) + DHI (definition).
-    sun = readers.solar_geometry(36.1, -79.95, 273.0, -5.0)
+    sun = solar.solar_geometry(36.1, -79.95, 273.0, -5.0)
     closure = with_ghi.dni_w_m2 * np.cos(np.radians(sun["zenith"].to_numpy())) + with_ghi.dhi_w_m2
     day = sun["zenith"].to_numpy() < 80
     np.testing.assert_allclose(closure[day], with_ghi.ghi_w_m2[day], rtol=1e-6, atol=1e-6)

@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner.energy import mains, pv, soc
+from planner.energy import mains, pv, soc, soc_fused, soc_numpy, soc_results
 from planner.errors import InputError
 
 H = 8760
@@ -355,10 +355,10 @@ def test_compiled_kernel_logic_equals_numpy_loop():
                          c["sd"][:, :cols], c["c_max"], c["t_min"], c["heater"][:, :cols],
                          c["soc_min"], c["avail"][:, :cols] if with_avail else None,
                          c["soc0"], 0.5, site)
-        fused = soc._run_chunk_fused(p, 0, n, slice(None), soc._fused_hours)
+        fused = soc_fused.run_chunk(p, 0, n, slice(None), soc_fused._fused_hours)
         p["engine"] = "numpy"
         ref = soc._run_chunk(p, 0, n, slice(None))
-        for name in soc._SUMMARY_FIELDS:
+        for name in soc_results.SUMMARY_FIELDS:
             # mean/min SOC and max C-rate: the numpy path takes them from float32 series
             single = name in ("mean_soc_frac", "min_soc_frac", "max_c_rate")
             np.testing.assert_allclose(getattr(fused.summary, name),
@@ -377,7 +377,7 @@ from planner.energy import _soc_kernels  # noqa: E402
 
 def _kernel_py():
     """The kernel's Python function (``py_func`` of the numba dispatcher when installed)."""
-    return soc._FUSED.py_func if soc._FUSED is not None else soc._fused_hours
+    return soc_fused._FUSED.py_func if soc_fused._FUSED is not None else soc_fused._fused_hours
 
 
 def _mixed_case(rng, n_hours, n_lanes, n_cols):
@@ -401,7 +401,7 @@ def _prepare_mixed(c, with_avail=True, with_sd=True):
 
 
 def _assert_same(fused, ref):
-    for name in soc._SUMMARY_FIELDS:
+    for name in soc_results.SUMMARY_FIELDS:
         # mean/min SOC and max C-rate: the numpy loop takes them from float32 series
         single = name in ("mean_soc_frac", "min_soc_frac", "max_c_rate")
         np.testing.assert_allclose(getattr(fused.summary, name), getattr(ref.summary, name),
@@ -427,7 +427,7 @@ def test_kernel_python_function_equals_numpy_loop(n_hours, n_lanes, with_avail, 
     rng = np.random.default_rng(n_hours + n_lanes)
     c = _mixed_case(rng, n_hours, n_lanes, 3)
     p = _prepare_mixed(c, with_avail, with_sd)
-    fused = soc._run_chunk_fused(p, 0, n_lanes, keep, _kernel_py())
+    fused = soc_fused.run_chunk(p, 0, n_lanes, keep, _kernel_py())
     p["engine"] = "numpy"
     _assert_same(fused, soc._run_chunk(p, 0, n_lanes, keep))
 
@@ -521,10 +521,10 @@ def test_kernel_result_does_not_depend_on_block_size():
         orig = _soc_kernels.block_lanes
         _soc_kernels.block_lanes = lambda k, n_threads=2, b=block: b
         try:
-            runs.append(soc._run_chunk_fused(p, 0, 10, slice(None), kernel))
+            runs.append(soc_fused.run_chunk(p, 0, 10, slice(None), kernel))
         finally:
             _soc_kernels.block_lanes = orig
-    for name in soc._SUMMARY_FIELDS:
+    for name in soc_results.SUMMARY_FIELDS:
         np.testing.assert_array_equal(getattr(runs[0].summary, name),
                                       getattr(runs[1].summary, name), err_msg=name)
     np.testing.assert_array_equal(runs[0].soc_frac, runs[1].soc_frac)
@@ -535,12 +535,12 @@ def test_kernel_result_does_not_depend_on_block_size():
 def test_kernel_in_pieces_of_groups_equals_numpy_loop(monkeypatch):
     # a chunk whose lanes form more groups than one kernel call takes is run in pieces of
     # lanes; the pieces must give the numpy loop's numbers (reference: the numpy recursion)
-    monkeypatch.setattr(soc, "_KERNEL_GROUPS", 2)
+    monkeypatch.setattr(soc_fused, "_KERNEL_GROUPS", 2)
     rng = np.random.default_rng(8)
     c = _mixed_case(rng, 24 * 35, 11, 4)
     p = _prepare_mixed(c)
     keep = np.array([1, 2, 3, 9])
-    fused = soc._run_chunk_fused(p, 0, 11, keep, _kernel_py())
+    fused = soc_fused.run_chunk(p, 0, 11, keep, _kernel_py())
     p["engine"] = "numpy"
     _assert_same(fused, soc._run_chunk(p, 0, 11, keep))
 
@@ -555,13 +555,13 @@ def test_numpy_loop_hourly_gather_equals_block_gather(monkeypatch, with_avail):
     p = _prepare_mixed(c, with_avail=with_avail)
     p["engine"] = "numpy"
     block = soc._run_chunk(p, 0, 10, slice(None))
-    monkeypatch.setattr(soc, "_PER_HOUR_GATHER_LANES", 1)
+    monkeypatch.setattr(soc_numpy, "_PER_HOUR_GATHER_LANES", 1)
     hourly = soc._run_chunk(p, 0, 10, slice(None))
-    for name in soc._SUMMARY_FIELDS:
+    for name in soc_results.SUMMARY_FIELDS:
         np.testing.assert_array_equal(getattr(hourly.summary, name),
                                       getattr(block.summary, name), err_msg=name)
     np.testing.assert_array_equal(hourly.soc_frac, block.soc_frac)
-    _assert_same(soc._run_chunk_fused(p, 0, 10, slice(None), _kernel_py()), hourly)
+    _assert_same(soc_fused.run_chunk(p, 0, 10, slice(None), _kernel_py()), hourly)
 
 
 def test_failed_compilation_falls_back_to_numpy_loop(monkeypatch):
@@ -580,7 +580,7 @@ def test_failed_compilation_falls_back_to_numpy_loop(monkeypatch):
     with pytest.warns(RuntimeWarning, match="numpy hour loop"):
         auto = _run(c)
     ref = _run(c, engine="numpy")
-    for name in soc._SUMMARY_FIELDS:
+    for name in soc_results.SUMMARY_FIELDS:
         np.testing.assert_array_equal(getattr(auto, name), getattr(ref, name), err_msg=name)
 
 

@@ -3,7 +3,8 @@
 A :class:`TypicalYear` holds 8,760 hour averages of air temperature, irradiance and
 wind for a fixed non-leap year, labelled at the *start* of each hour in local
 standard time (index 0 = 1 January 00:00-01:00). Every reader in
-:mod:`planner.climate.readers` and the archetype generator in
+:mod:`planner.climate.readers` and :mod:`planner.climate.csv_reader` (normalised by
+:mod:`planner.climate.normalise`) and the archetype generator in
 :mod:`planner.climate.archetypes` produce this one shape, so later stages never see
 file formats, hour-ending labels, tenths of a degree or degrees Fahrenheit.
 

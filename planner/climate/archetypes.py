@@ -256,7 +256,7 @@ def generate_year(*, name: str, source: str, latitude_deg: float, longitude_deg:
     seed : int
         Seed of the day-to-day weather: the same inputs always give the same year.
     """
-    from planner.climate.readers import clear_sky_ghi, split_ghi
+    from planner.climate.solar import clear_sky_ghi, split_ghi
 
     tmax_c = np.asarray(tmax_c, float)
     tmin_c = np.asarray(tmin_c, float)

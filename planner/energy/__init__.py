@@ -7,6 +7,9 @@ Modules (one physical concept each):
 - :mod:`planner.energy.pv`: PV array power delivered to the battery bus (pvlib PVWatts chain).
 - :mod:`planner.energy.mains`: mains/generator availability with seeded outages.
 - :mod:`planner.energy.soc`: hourly state-of-charge recursion, streamed in chunks of lanes.
+  Its result types and summaries are in :mod:`planner.energy.soc_results`, the numpy hour
+  loop in :mod:`planner.energy.soc_numpy`, the compiled (fused) path in
+  :mod:`planner.energy.soc_fused` with the kernels of :mod:`planner.energy._soc_kernels`.
 - :mod:`planner.energy.sizing`: stand-alone reference capacity (IEEE 1013 / IEEE 1562 chain).
 - :mod:`planner.energy.freezing`: lead-acid electrolyte freezing point versus SOC.
 

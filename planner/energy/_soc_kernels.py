@@ -1,13 +1,13 @@
 """Compiled hour loop of the SOC recursion: lane blocks on all cores, four lanes at once.
 
-The arithmetic is the one of :func:`planner.energy.soc._run_chunk` (the numpy loop), in
-the same order, so the energy sums agree to rounding. What differs is the order of work,
+The arithmetic is the one of :func:`planner.energy.soc_numpy.run_chunk` (the numpy loop),
+in the same order, so the energy sums agree to rounding. What differs is the order of work,
 chosen from measurements on the project machine (see ``docs/energy.md``, "Speed"):
 
 * What depends only on the site column and the chemistry (net power, the cold block, the
   offer to the store, the surplus and deficit sums) is computed beforehand with numpy,
   once per *group* of lanes sharing a column, efficiencies and charge-temperature limit
-  (:func:`planner.energy.soc._group_offers`); the kernel reads the group's offer.
+  (:func:`planner.energy.soc_numpy.group_offers`); the kernel reads the group's offer.
 * One lane's year is a serial chain (each hour needs the previous hour's charge). Four
   lanes are stepped together, their state held in local tuples (registers), so the
   processor can overlap four independent chains (measured about 10 % faster than one
