@@ -411,8 +411,8 @@ def test_design_changes_keep_crew_and_budget_limits(method):
         for t in p.replacement_years:
             visits[t] = visits.get(t, 0) + 1
     assert max(visits.values()) <= 1
-    from planner.optimize.fleet import _annual_spend
-    assert (_annual_spend(prob, sol.sites, sol.trips) <= 1500.0 + 1e-6).all()
+    from planner.optimize.trip_plans import annual_spend
+    assert (annual_spend(prob, sol.sites, sol.trips) <= 1500.0 + 1e-6).all()
     free = solve_fleet(replace(prob, crew_site_visits_per_year=None, annual_budget=None))
     assert free.objective < sol.objective - 1.0  # the limits bind: without them, one shared trip
     assert max(len(t.site_ids) for t in free.trips) > 1
