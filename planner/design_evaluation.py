@@ -9,8 +9,11 @@ simulated at the rated capacity (what the plan reports for the first year) and a
 the capacity the pack has half-way to its end of life; that second duty drives the
 aging. For damage proportional to cycle depth and capacity falling linearly, the mean
 of 1/capacity over the life exceeds 1/capacity half-way by ln(1/0.7)/0.3 x 0.85 - 1 =
-1.1 % for fade to 70 % (computed): the mid-life year is a close, slightly mild middle. Lanes are processed per chemistry in chunks, so memory stays
-bounded by ``(8760, chunk)`` arrays whatever the fleet size.
+1.1 % for fade to 70 % (computed): the mid-life year is a close, slightly mild middle.
+Lanes are processed per chemistry in chunks, so memory stays bounded by
+``(8760, chunk)`` arrays whatever the fleet size. With prices known, each site's
+smallest pack of a chemistry is simulated first, and larger packs it already dominates
+(it lasts to the service limit with no load unserved) are not simulated at all.
 """
 
 from __future__ import annotations
@@ -49,7 +52,6 @@ PLAN_DRAWS = 100
 PLAN_STEP_MONTHS = 12
 # Skip the pack Monte Carlo when the nominal life is this many times the service limit.
 SPREAD_SKIP_FACTOR = 1.5
-
 
 
 def evaluate_fleet(study: Study, models: list[SiteModel], progress=None,

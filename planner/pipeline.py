@@ -54,18 +54,19 @@ def progress_steps(study: Study) -> int:
     return passes * len(study.sites) + PROGRESS_STAGES
 
 
-def plan_sites(study: Study, extra_warming_k: float = 0.0):
+def plan_sites(study: Study, extra_warming_k: float = 0.0, curves: bool = True):
     """Site summaries and designs (pack spread included) of every site of ``study``.
 
     A pure function of the study's settings and its site rows: map it over studies
     holding a chunk of the sites each (:func:`site_chunks`) and join the lists.
     Returns per site its summary, its designs (thermal-measure variants and load-growth
     steps included; variants' models as summaries) and the hint of what thermal measure
-    would serve it when nothing does ("" otherwise).
+    would serve it when nothing does ("" otherwise). ``curves=False`` drops the monthly
+    state-of-health curves too (a sensitivity case: its plan is costed, never drawn).
     """
     models = model_sites(study, extra_warming_k=extra_warming_k)
     designs, hints = _evaluate_with_measures(study, models)
-    designs = [_variants_summarised(_offered_only(d)) for d in designs]
+    designs = [_variants_summarised(_offered_only(d, curves)) for d in designs]
     return ([m.summary() for m in models], designs,
             [hints.get(i, "") for i in range(len(models))])
 
@@ -92,14 +93,18 @@ def _variants_summarised(site_designs):
         k: v.summary() for k, v in site_designs.measure_models.items()})
 
 
-def _offered_only(site_designs):
+def _offered_only(site_designs, curves: bool = True):
     """The site's designs cut to those the plan can use (offered to the optimizer, the
-    pack installed today), without the aging curves the plan does not show: a fleet's
-    designs then stay small in memory and cheap to send back from a worker. The
-    chemistries tried are kept for the reason a site goes unserved."""
+    pack installed today), without the aging curves the plan does not show (without
+    any curve when ``curves`` is False): a fleet's designs then stay small in memory and
+    cheap to send back from a worker. The chemistries tried are kept for the reason a
+    site goes unserved."""
     for o in (*offered_outcomes(site_designs), site_designs.existing):
         if o is not None:
             o.calendar_loss_frac = o.cycle_loss_frac = _EMPTY
+            if not curves:
+                o.soh_monthly = _EMPTY
+                o.soh_p10_monthly = o.soh_p90_monthly = None
     return replace(site_designs, outcomes=offered_outcomes(site_designs),
                    tried=tuple(site_designs.tried_chemistries()))
 
@@ -109,7 +114,8 @@ _EMPTY = np.empty(0)
 
 def _plan_sites_piece(args):
     study, extra_warming_k = args
-    return plan_sites(study, extra_warming_k)
+    # the warming case is costed, not drawn: its pieces bring back no curves
+    return plan_sites(study, extra_warming_k, curves=extra_warming_k == 0.0)
 
 
 def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
