@@ -31,7 +31,7 @@ from planner.pack import PARAMETER_SOURCES as PACK_SOURCES
 from planner.plan_comparison import comparison_rows
 from planner.scenario import Study
 from planner.site_model import SiteModel
-from planner.spending import spending_by_year
+from planner.spending import spending_by_region, spending_by_year
 from planner.thermal_measures import base_measure_id
 from planner.visit_risk import risk_before_next_visit
 
@@ -59,7 +59,7 @@ def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=No
     return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
 
 
-def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison, options) -> dict:
+def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistry, options) -> dict:
     site = model.site
     horizon = study.settings["study"]["horizon_years"]
     candidate = plan.candidate if plan is not None else None
@@ -140,7 +140,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, comparison,
         # The source, not the pack, limits this site: say it first, with the two numbers.
         entry["warnings"].insert(0, shortfall.warning())
         entry["limiting_cause"] = shortfall.cause()
-    entry["alternatives"] = _alternatives(study, site.id, designs, comparison,
+    entry["alternatives"] = _alternatives(study, site.id, designs, by_chemistry,
                                           candidate.chemistry if candidate else None, existing)
     return entry
 
@@ -165,13 +165,13 @@ def _replacements(designs: SiteDesigns, plan) -> list[dict]:
     return out
 
 
-def _alternatives(study, site_id, designs, comparison, chosen_chemistry, existing) -> list[dict]:
+def _alternatives(study, site_id, designs, by_chemistry, chosen_chemistry, existing) -> list[dict]:
     horizon = study.settings["study"]["horizon_years"]
     out = []
-    for result in comparison:
+    for result, plans in by_chemistry:
         if result.chemistry == chosen_chemistry:
             continue
-        plan = next((p for p in result.solution.sites if p.site_id == site_id), None)
+        plan = plans.get(site_id)
         if plan is None or plan.candidate is None:
             continue
         outcome = _find(designs, plan.candidate.design_id)
@@ -339,7 +339,9 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
 
     plans = {p.site_id: p for p in solution.sites}
     options = {o.site_id: o for o in problem.sites}
-    sites = [_site_entry(study, m, d, plans.get(m.site.id), comparison, options[m.site.id])
+    # each chemistry's plan per site, looked up by id (a scan per site grew as n^2)
+    by_chemistry = [(r, {p.site_id: p for p in r.solution.sites}) for r in comparison]
+    sites = [_site_entry(study, m, d, plans.get(m.site.id), by_chemistry, options[m.site.id])
              for m, d in zip(models, designs)]
     s = study.settings["study"]
     spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
@@ -362,9 +364,7 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                    "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
                   for t in solution.trips],
         "spending_by_year": spending_by_year(problem, solution, **spend),
-        "spending_by_region": [
-            {"region": region, "rows": spending_by_year(problem, solution, regions=[region], **spend)}
-            for region in sorted({o.region for o in problem.sites})],
+        "spending_by_region": spending_by_region(problem, solution, **spend),
         "chemistry_comparison": comparison_rows(solution, comparison),
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
                          "change_frac": c.change_frac, "designs_changed": c.designs_changed,

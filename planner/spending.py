@@ -122,6 +122,29 @@ def spending_by_year(problem: FleetProblem, solution: FleetSolution, *, start_ye
                          inflation_frac=inflation_frac)
 
 
+def spending_by_region(problem: FleetProblem, solution: FleetSolution, *, start_year: int,
+                       inflation_frac: float = 0.0) -> list[dict]:
+    """``[{region, rows}]`` for every region of the problem, sorted: the rows of
+    :func:`spending_by_year` restricted to each region, from one pass over the plan
+    (each site's cash flows computed once, not once per region)."""
+    h = int(problem.horizon_years)
+    sites = {s.site_id: s for s in problem.sites}
+    regions = sorted({s.region for s in problem.sites})
+    totals = {r: {k: np.zeros(h + 1) for k in SPENDING_PARTS} for r in regions}
+    for plan in solution.sites:
+        flows = site_cash_flows(plan, sites[plan.site_id], horizon_years=h,
+                                residual_value=problem.residual_value)
+        mine = totals[plan.region]
+        for k in SPENDING_PARTS:
+            mine[k] += flows[k]
+    for trip in solution.trips:
+        if trip.region in totals:
+            totals[trip.region]["trips"][trip.year] += trip.cost
+    return [{"region": r, "rows": spending_rows(totals[r], rate=problem.discount_rate_frac,
+                                                start_year=start_year, inflation_frac=inflation_frac)}
+            for r in regions]
+
+
 def spending_rows(parts: dict[str, np.ndarray], *, rate: float, start_year: int,
                   inflation_frac: float) -> list[dict]:
     """Rows of :func:`spending_by_year` from yearly arrays of each part (constant money)."""
