@@ -56,7 +56,9 @@ def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=No
         start = 12 * int(year)
         n = min(months - start, len(curve))
         out[start:start + n] = curve[:n]
-    return [None if not np.isfinite(v) else round(float(v), 5) for v in out]
+    # Python floats (tolist) and math.isfinite: a numpy scalar per month cost seconds
+    # over a fleet's curves
+    return [round(v, 5) if math.isfinite(v) else None for v in out.tolist()]
 
 
 def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistry, options) -> dict:
