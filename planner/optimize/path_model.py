@@ -298,13 +298,19 @@ def _limits_broken(problem, plans, trips) -> list[str]:
     return broken
 
 
+def fleet_limit_texts(problem: FleetProblem) -> list[tuple[str, str]]:
+    """``(field name, wording)`` of each fleet-wide limit the problem sets, as both
+    methods name them in ``binding_limits``."""
+    limits = [("crew_site_visits_per_year", f"crew limit of {problem.crew_site_visits_per_year} site visits per year"),
+              ("annual_budget", f"annual budget of {problem.annual_budget}")]
+    return [(k, text) for k, text in limits if getattr(problem, k) is not None]
+
+
 def _diagnose(problem: FleetProblem, groups) -> list[str]:
     """Which fleet-wide limit makes the study infeasible: drop each in turn and re-solve."""
     from dataclasses import replace
     out = []
-    limits = [("crew_site_visits_per_year", f"crew limit of {problem.crew_site_visits_per_year} site visits per year"),
-              ("annual_budget", f"annual budget of {problem.annual_budget}")]
-    active = [(k, text) for k, text in limits if getattr(problem, k) is not None]
+    active = fleet_limit_texts(problem)
     for key, text in active:
         relaxed = replace(problem, **{key: None}, time_limit_s=min(10.0, problem.time_limit_s))
         rep, _ = _solve_stack(groups, relaxed, True, relaxed.time_limit_s, True)
