@@ -15,6 +15,17 @@ every solve); the final integer problem over the generated columns goes through 
 (:func:`planner.optimize.solver.solve_milp`). Lower bound: the Lagrangian bound
 ``z_LP + sum_s min(0, reduced cost_s)`` (Desrosiers & Lübbecke 2005, §2.1), valid at
 every iteration, so the reported gap is honest even when pricing stops early.
+
+Fleet-wide crew and budget rows may make the master infeasible. Column generation then
+runs in two phases, the textbook way to start a restricted master with artificial
+variables (Lübbecke & Desrosiers 2005, "Selected topics in column generation", Oper.
+Res. 53:6, 1007-1023, on initialising the master; from memory). Phase 1 minimises the
+slack on those rows with every schedule and trip at cost 0, priced with the same
+shortest paths less each arc's own cost. Its Lagrangian bound above zero proves that
+even the LP relaxation cannot meet the limits, so no plan can; once the slack is zero,
+phase 2 restores the costs and closes the slack. A big-M penalty on the slack instead
+(the former way) needs M above every dual price, and an M that large (1e11 on a
+40-site fleet) made the warm-started simplex stop with a solve error.
 """
 
 from __future__ import annotations
@@ -217,6 +228,12 @@ class Pricer:
 
 @dataclass
 class MasterResult:
+    """``stop`` says why pricing ended: "converged", "time_limit", "iterations" or
+    "master LP: <HiGHS status>". ``infeasible`` is True when phase 1 proved that the
+    fleet-wide rows cannot be met even in the LP relaxation; ``slack`` then holds each
+    limit's share of the phase-1 slack (units: site visits, money). ``lp_feasible`` is
+    True once the LP relaxation is known to meet every row (always, without fleet rows)."""
+
     columns: list[Column]
     lower_bound: float
     lp_objective: float
@@ -224,19 +241,24 @@ class MasterResult:
     converged: bool
     slack: dict[str, float]
     y_lp: np.ndarray | None = None
+    infeasible: bool = False
+    stop: str = "converged"
+    lp_feasible: bool = True
 
 
 def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.ndarray,
                      group_open: np.ndarray, *, rate: float, payload_kg: float | None,
                      crew: float | None, budget: float | None, time_limit_s: float,
                      max_iterations: int = 500, per_site: int = 3,
-                     bound_gap_frac: float = 0.0) -> MasterResult:
+                     bound_gap_frac: float = 0.0, feasibility_only: bool = False) -> MasterResult:
     """Solve the LP master by column generation; return all columns and a lower bound.
 
     ``site_group[s]`` is the trip group of site s; ``group_trip_cost[k]`` its trip cost;
     ``group_open[k]`` False for groups that never travel (sites needing no visit).
     Pricing stops early once the Lagrangian bound is within ``bound_gap_frac`` of the
     master LP value (the tailing-off of column generation buys little bound).
+    With crew or budget rows, phase 1 first decides whether the LP relaxation can meet
+    them (``infeasible`` when it cannot); ``feasibility_only`` stops after phase 1.
     """
     import highspy
 
@@ -245,7 +267,6 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     n_sites = len(g.sites)
     n_groups = len(group_trip_cost)
     inf = highspy.kHighsInf
-    big = 1e3 * (1.0 + float(np.abs(g.arc_cost).sum() + np.abs(group_trip_cost).sum() * h))
     pricer = Pricer(g)
 
     # row layout: convexity [0, n) | payload (k, t) | crew t | budget t | visit rows (s, t),
@@ -287,13 +308,16 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
             idx.append(r_bud + t)
             val.append(float(group_trip_cost[k]))
         entries.append((idx, val))
-    _add_cols(hs, y_cost, np.zeros(len(y_cost)), y_ub, entries)
+    # phase 1 (only with fleet rows): every schedule and trip costs 0, the slack on the
+    # fleet rows costs 1; phase 2 puts the real costs back and closes the slack
+    phase1 = n_crew + n_bud > 0
+    real_cost = list(y_cost)
+    _add_cols(hs, np.zeros(len(y_cost)) if phase1 else y_cost, np.zeros(len(y_cost)), y_ub, entries)
     n_fixed = len(y_cost)
-    # slack on fleet rows so the first masters are feasible; a slack left in the final
-    # LP means the fleet limits cannot be met
     slack_rows = list(range(r_crew, r_crew + n_crew)) + list(range(r_bud, r_bud + n_bud))
-    _add_cols(hs, np.full(len(slack_rows), big), np.zeros(len(slack_rows)), np.full(len(slack_rows), inf),
+    _add_cols(hs, np.ones(len(slack_rows)), np.zeros(len(slack_rows)), np.full(len(slack_rows), inf),
               [([r], [-1.0]) for r in slack_rows])
+    real_cost += [0.0] * len(slack_rows)
     n_fixed += len(slack_rows)
 
     columns: list[Column] = []
@@ -320,8 +344,10 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
                        np.arange(sv.size, dtype=np.int32), (site_group[sv] * h + tv).astype(np.int32),
                        -np.ones(sv.size))
         if cols:
-            _add_cols(hs, np.array([c.cost for c in cols]), np.zeros(len(cols)), np.full(len(cols), inf),
-                      [column_entries(c) for c in cols])
+            costs = np.array([c.cost for c in cols])
+            real_cost.extend(costs)
+            _add_cols(hs, np.zeros(len(cols)) if phase1 else costs, np.zeros(len(cols)),
+                      np.full(len(cols), inf), [column_entries(c) for c in cols])
             columns.extend(cols)
 
     # start: each site's best schedule if it paid for its own trips
@@ -336,14 +362,29 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     lower = -math.inf
     z = math.nan
     y_lp = None
-    fleet_slack = np.zeros(0)
+    fleet_slack = np.zeros(len(slack_rows))
     converged = False
+    stop = "iterations"
+    # phase 1 ends when its slack is zero (up to this many visits or money units)
+    feas_tol = 1e-7
     it = 0
+
+    def slack_by_limit():
+        out = {}
+        if n_crew:
+            out["crew_site_visits_per_year"] = float(fleet_slack[:n_crew].sum())
+        if n_bud:
+            out["annual_budget"] = float(fleet_slack[n_crew:].sum())
+        return out
+
     for it in range(1, max_iterations + 1):
         with quiet_stdout():
             hs.run()
-        if hs.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-            return MasterResult(columns, -math.inf, math.nan, it, False, {})
+        status = hs.getModelStatus()
+        if status != highspy.HighsModelStatus.kOptimal:
+            # not a time limit: the master LP itself failed; callers say so
+            return MasterResult(columns, -math.inf, math.nan, it, False, slack_by_limit(),
+                                stop=f"master LP: {hs.modelStatusToString(status)}", lp_feasible=not phase1)
         z = float(hs.getInfo().objective_function_value)
         solution = hs.getSolution()
         y_lp = np.asarray(solution.col_value)[:n_groups * h].reshape(n_groups, h)
@@ -362,27 +403,47 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
             bud = np.concatenate([dual[r_bud:r_bud + h], [0.0]])
             extra -= bud[g.arc_t1] * g.arc_spend_t1 + bud[g.arc_t2] * g.arc_spend_t2
             ex_extra -= bud[np.minimum(g.ex_t, h)] * g.ex_spend
+        if phase1 and z <= feas_tol:
+            # the fleet rows are met: phase 2 with the real costs and the slack closed
+            phase1 = False
+            if feasibility_only:
+                return MasterResult(columns, -math.inf, math.nan, it, True, slack_by_limit())
+            n_col = hs.getNumCol()
+            hs.changeColsCost(n_col, np.arange(n_col, dtype=np.int32), np.asarray(real_cost, dtype=float))
+            idx = np.arange(n_groups * h, n_fixed, dtype=np.int32)
+            hs.changeColsBounds(idx.size, idx, np.zeros(idx.size), np.zeros(idx.size))
+            continue
         scale = max(1.0, abs(z))
-        values, new = pricer.price(extra, ex_extra, sigma, per_site=per_site, tol=_NEG * scale)
-        rc = values - sigma
-        lower = max(lower, z + float(np.minimum(rc, 0.0).sum()))
-        if not new:
-            converged = True
-            break
-        if z - lower <= bound_gap_frac * scale:
-            converged = True  # LP bound proved to within bound_gap_frac
-            break
+        if phase1:
+            # phase-1 reduced cost of a schedule: its duals alone (its own cost is 0)
+            values, new = pricer.price(extra - g.arc_cost, ex_extra - g.ex_cost, sigma, per_site=per_site,
+                                       tol=_NEG * scale)
+            # Lagrangian bound on the least slack: above zero, no LP solution (and so no
+            # plan) meets the fleet rows
+            if not new or z + float(np.minimum(values - sigma, 0.0).sum()) > feas_tol:
+                return MasterResult(columns, -math.inf, math.nan, it, True, slack_by_limit(), infeasible=True,
+                                    lp_feasible=False)
+        else:
+            values, new = pricer.price(extra, ex_extra, sigma, per_site=per_site, tol=_NEG * scale)
+            rc = values - sigma
+            lower = max(lower, z + float(np.minimum(rc, 0.0).sum()))
+            if not new:
+                converged, stop = True, "converged"
+                break
+            if z - lower <= bound_gap_frac * scale:
+                converged, stop = True, "converged"  # LP bound proved to within bound_gap_frac
+                break
         add(new)
         if time.perf_counter() - t_start > time_limit_s:
+            stop = "time_limit"
             break
+    if phase1:
+        # stopped before phase 1 decided: no plan proved, no bound
+        return MasterResult(columns, -math.inf, math.nan, it, False, slack_by_limit(), stop=stop,
+                            lp_feasible=False)
     if converged:
         lower = max(lower, z)
-    slack = {}
-    if n_crew:
-        slack["crew_site_visits_per_year"] = float(fleet_slack[:n_crew].sum())
-    if n_bud:
-        slack["annual_budget"] = float(fleet_slack[n_crew:].sum())
-    return MasterResult(columns, lower, z, it, converged, slack, y_lp)
+    return MasterResult(columns, lower, z, it, converged, slack_by_limit(), y_lp, stop=stop)
 
 
 def column_coefficients(g: SiteGraphs, col: Column, *, convex_row, visit_row, pay_row=None,

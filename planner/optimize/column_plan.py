@@ -17,6 +17,7 @@ from planner import economics as ec
 from planner.optimize.colgen import (
     Pricer, column_coefficients, generate_columns, group_costs, polish_trip_years,
 )
+from planner.optimize.path_model import fleet_limit_texts
 from planner.optimize.problem import Unserved
 from planner.optimize.schedule import build_graphs
 from planner.optimize.solver import gap, solve_milp
@@ -45,6 +46,7 @@ def solve_columns(problem, served, cands, deadline):
     build_seconds = 0.0
     rounds = n_cols = 0
     converged = True
+    stops = set()  # why pricing stopped early in some block
     weak = []
     lost = []
     rounded = 0
@@ -69,13 +71,15 @@ def solve_columns(problem, served, cands, deadline):
         rounds = max(rounds, mr.iterations)
         n_cols += len(mr.columns)
         converged &= mr.converged
-        stuck = [k for k, v in mr.slack.items() if v > 1e-6]
-        if stuck and mr.converged:
-            names = {"crew_site_visits_per_year": f"crew limit of {crew} site visits per year",
-                     "annual_budget": f"annual budget of {budget}"}
-            text = "column generation with one master over all trip groups and the fleet-wide rows"
-            return ("infeasible", float("nan"), [], [], text, [f"{names[k]} cannot be met" for k in stuck],
-                    build_seconds)
+        if not mr.converged:
+            stops.add(mr.stop)
+        if mr.infeasible:
+            # phase 1 proved that no LP solution, so no plan, meets the fleet-wide rows
+            text = (f"column generation with one master over all trip groups and the fleet-wide rows: "
+                    f"phase 1 proves after {mr.iterations} pricing round(s) that the fleet-wide limits "
+                    f"cannot be met, even in the LP relaxation")
+            return ("infeasible", float("nan"), [], [], text,
+                    _diagnose(problem, gr, site_group, trip_cost, is_open, deadline), build_seconds)
         bound += mr.lower_bound
         # integer step per block (measured: one block-diagonal model over 14 groups took
         # 24 s in HiGHS against 5 s for the 14 models one by one)
@@ -102,6 +106,16 @@ def solve_columns(problem, served, cands, deadline):
                          time_limit_s=max(1.0, (deadline - time.perf_counter()) / (len(blocks) - bi)),
                          gap_rel_frac=problem.gap_rel_frac)
         build_seconds += rep.build_seconds
+        if rep.values is None and rep.status == "infeasible" and fleet_rows and mr.lp_feasible:
+            # the LP relaxation meets the fleet-wide rows but no integer choice among the
+            # generated schedules does: not a proof (price-and-branch prices at the root only)
+            limits = " and the ".join(text for _, text in fleet_limit_texts(problem))
+            text = (f"column generation with one master over all trip groups and the fleet-wide rows: "
+                    f"{len(cols)} schedules, {mr.iterations} pricing round(s); the integer problem over "
+                    f"them is infeasible")
+            return ("infeasible", float("nan"), [], [], text,
+                    [f"no plan over the generated schedules meets the {limits} (the LP relaxation does; "
+                     f"method 'path' decides it exactly)"], build_seconds)
         if rep.values is None:
             # no integer plan in time for this block: its sites are reported, not dropped
             lost += [Unserved(s.site_id, f"site {s.site_id}: no plan found for trip group {tg[k][0]} "
@@ -157,11 +171,41 @@ def solve_columns(problem, served, cands, deadline):
     how = ("one master and one integer problem over all trip groups with the fleet-wide crew/budget rows"
            if fleet_rows else f"one master and integer step per trip group ({len(tg)} groups, region x access month)")
     text = (f"column generation (price-and-branch), {how}: up to {rounds} pricing rounds, {n_cols} schedules, "
-            f"{'converged' if converged else 'stopped at the time limit'}; {rounded} group(s) settled by the "
+            f"{'converged' if converged else _stopped(stops)}; {rounded} group(s) settled by the "
             f"rounded LP trip years, the rest by an integer problem; bound = sum of Lagrangian bounds")
     if status == "optimal" and gap(sum(p.present_cost for p in plans), bound) > problem.gap_rel_frac + 1e-12:
         status = "feasible"  # the integer step over generated columns is not proved within the gap
     return status, bound, plans, trips, text, lost, build_seconds
+
+
+def _stopped(stops) -> str:
+    """Why pricing stopped before convergence, in words."""
+    words = {"time_limit": "at the time limit", "iterations": "at the cap on pricing rounds"}
+    return "stopped " + " and ".join(words.get(s, f"by a failed {s}") for s in sorted(stops))
+
+
+def _diagnose(problem, gr, site_group, trip_cost, is_open, deadline) -> list[str]:
+    """Which fleet-wide limit makes the study infeasible, worded as the path model words
+    it (:func:`planner.optimize.path_model._diagnose`): drop each limit in turn. With no
+    fleet limit left every served site has a schedule (screened), so a plan exists; with
+    another limit left, phase 1 of column generation decides it for the LP relaxation."""
+    active = fleet_limit_texts(problem)
+    limits = {"crew_site_visits_per_year": problem.crew_site_visits_per_year, "annual_budget": problem.annual_budget}
+    out = []
+    for key, text in active:
+        if len(active) == 1:
+            out.append(f"{text} cannot be met; without it a plan exists")
+            continue
+        kept = {k: (None if k == key else v) for k, v in limits.items()}
+        mr = generate_columns(gr, site_group, trip_cost, is_open, rate=float(problem.discount_rate_frac),
+                              payload_kg=problem.payload_kg_per_trip, crew=kept["crew_site_visits_per_year"],
+                              budget=kept["annual_budget"], feasibility_only=True,
+                              time_limit_s=max(0.5, min(10.0, deadline - time.perf_counter())))
+        if mr.converged and not mr.infeasible:
+            out.append(f"{text} cannot be met; without it the other limit is met in the LP relaxation")
+    if not out:
+        out.append(" and ".join(text for _, text in active) + " together cannot be met")
+    return out
 
 
 def _column_matrix(gr, cols, bsites, site_group, block, trip_cost, is_open, problem):
