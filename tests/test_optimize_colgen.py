@@ -100,3 +100,49 @@ def test_compiled_year_sweep_equals_the_numpy_sweep(prob, seed):
     for a, b in zip(got, want):
         np.testing.assert_array_equal(a, b)
     np.testing.assert_array_equal(compiled._last[0], plain._last[0])
+
+
+def _due_by_year_one(n_sites=8):
+    # n sites whose packs in service must come out by year 1 (remaining life 1.0 year:
+    # replaced in year 0 or 1), four designs each (lives 2-5 years, packs of 100,000 to
+    # 400,000; the costly designs made the former big-M master LP fail), 12 years
+    designs = [cand(f"c{k}", 2 + k, 1e5 * (1 + k)) for k in range(4)]
+    return [SiteOptions(f"s{i}", "A", ALL_MONTHS, designs, existing=ExistingPack(1.0)) for i in range(n_sites)]
+
+
+@pytest.mark.parametrize("limit, impossible, possible", [
+    # 8 packs due by year 1 with a crew of c visits a year: 2 years x 2 = 4 < 8 visits,
+    # impossible; with 4 a year, 2 x 4 = 8 >= 8, possible
+    ("crew_site_visits_per_year", 2, 4),
+    # 8 packs due by year 1, the cheapest 100,000: a budget of 150,000 a year buys one
+    # pack a year (2 x 100,000 > 150,000), 2 years x 1 = 2 < 8 packs; 2 x 150,000 =
+    # 300,000 < 800,000 even spread fractionally (the LP relaxation); 1,000,000 a year
+    # buys all 8 cheapest packs and the trip (800,100) in any one year, possible
+    ("annual_budget", 150000.0, 1e6),
+])
+def test_columns_impossible_fleet_limit_is_reported_like_the_path_model(limit, impossible, possible):
+    prob = FleetProblem(_due_by_year_one(), 12, 0.03, {"A": 100.0}, gap_rel_frac=1e-9, **{limit: impossible})
+    cols = solve_fleet(replace(prob, method="columns"))
+    path = solve_fleet(replace(prob, method="path"))
+    # checked against the path model's diagnosis on the same instance (drop the limit and
+    # re-solve; tests/test_optimize_fleet.py) and against the arithmetic in the
+    # parameters above; column generation proves it by phase 1, its least slack on the
+    # fleet rows above zero (two-phase start of the master with artificial variables:
+    # Lübbecke & Desrosiers 2005, "Selected topics in column generation", Oper. Res.
+    # 53:6, 1007-1023)
+    assert path.status == cols.status == "infeasible"
+    assert cols.binding_limits == path.binding_limits
+    named = "crew limit of 2 site visits per year" if limit.startswith("crew") else "annual budget of 150000.0"
+    assert cols.binding_limits == [f"{named} cannot be met; without it a plan exists"]
+    # the sites are not blamed on a time limit (the former report of a failed master LP)
+    assert not any(u.limit == "time_limit" for u in cols.unserved)
+    assert "time limit" not in cols.decomposition
+    assert cols.sites == []
+    # with a limit that can be met, column generation leaves phase 1 and finds the path
+    # model's optimum (brute-force validated in tests/test_optimize_fleet.py); its status
+    # may stay "feasible", the LP bound of price-and-branch being below it
+    ok_cols = solve_fleet(replace(prob, method="columns", **{limit: possible}))
+    ok_path = solve_fleet(replace(prob, method="path", **{limit: possible}))
+    assert ok_path.status == "optimal" and ok_cols.status in ("optimal", "feasible")
+    assert ok_cols.objective == pytest.approx(ok_path.objective, rel=1e-6)
+    assert ok_cols.best_bound <= ok_path.objective * (1 + 1e-9)
