@@ -5,6 +5,7 @@ on 2 cores, chemistry comparison and sensitivity included; 10,000 sites <= 12 mi
 <= 8 GiB; 10x the sites <= 11x the time. Prints figures; asserts nothing.
 
 Usage: python benchmarks/bench_plan.py [--sites N] [--workers N] [--keep DIR]
+                                      [--without-design-space]
 
 The fleet comes from benchmarks/fleet_gen.py (seeded, invented). The study is loaded,
 planned, and written as workbook and JSON by the same functions `planner plan` calls.
@@ -37,12 +38,15 @@ def main() -> None:
     ap.add_argument("--sites", type=int, default=1000)
     ap.add_argument("--workers", type=int, default=default_workers())
     ap.add_argument("--keep", type=Path, default=None, help="write the study and outputs here")
+    ap.add_argument("--without-design-space", action="store_true",
+                    help="switch off thermal measures and design changes (what they cost)")
     args = ap.parse_args()
 
     folder = args.keep or Path(tempfile.mkdtemp(prefix="bench_plan_"))
-    study_path = write_fleet(folder, args.sites)
+    study_path = write_fleet(folder, args.sites, design_space=not args.without_design_space)
     load = os.getloadavg()[0]
     print(f"sites={args.sites} workers={args.workers} cores={os.cpu_count()} "
+          f"design_space={'off' if args.without_design_space else 'on'} "
           f"load_average_1min_at_start={load:.2f} (other jobs may share the machine)")
 
     log = StageLog()

@@ -80,7 +80,7 @@ start_year = 2027
 [candidates]
 chemistries = ["vrla", "lfp", "nmc", "lto", "lisocl2"]
 oversize_factors = [1.0, 1.25, 1.5, 2.0, 3.0]
-
+{design_space}
 [costs]
 trip_cost = 2000.0
 site_visit_cost = 150.0
@@ -99,8 +99,16 @@ sensitivity = {sensitivity}
 """
 
 
-def write_fleet(folder: Path, n_sites: int, *, seed: int = 11, sensitivity: bool = True) -> Path:
-    """Write ``study.toml`` and ``sites.csv`` of an invented fleet; returns the study path."""
+# What switches off the design space of issue 13 (thermal measures, design changes at a
+# replacement), to measure what it costs.
+WITHOUT_DESIGN_SPACE = 'design_changes = false\n\n[thermal]\nmeasures = ["none"]\n'
+
+
+def write_fleet(folder: Path, n_sites: int, *, seed: int = 11, sensitivity: bool = True,
+                design_space: bool = True) -> Path:
+    """Write ``study.toml`` and ``sites.csv`` of an invented fleet; returns the study path.
+
+    ``design_space=False`` switches off thermal measures and design changes."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     with open(folder / "sites.csv", "w", newline="", encoding="utf-8") as f:
@@ -109,6 +117,7 @@ def write_fleet(folder: Path, n_sites: int, *, seed: int = 11, sensitivity: bool
         writer.writerows(site_rows(n_sites, seed))
     study = folder / "study.toml"
     study.write_text(STUDY_TOML.format(n=n_sites, seed=seed,
-                                       sensitivity="true" if sensitivity else "false"),
+                                       sensitivity="true" if sensitivity else "false",
+                                       design_space="" if design_space else WITHOUT_DESIGN_SPACE),
                      encoding="utf-8")
     return study
