@@ -99,14 +99,14 @@ def _offered_only(site_designs, curves: bool = True):
     any curve when ``curves`` is False): a fleet's designs then stay small in memory and
     cheap to send back from a worker. The chemistries tried are kept for the reason a
     site goes unserved."""
-    for o in (*offered_outcomes(site_designs), site_designs.existing):
+    offered = offered_outcomes(site_designs)
+    for o in (*offered, site_designs.existing):
         if o is not None:
             o.calendar_loss_frac = o.cycle_loss_frac = _EMPTY
             if not curves:
                 o.soh_monthly = _EMPTY
                 o.soh_p10_monthly = o.soh_p90_monthly = None
-    return replace(site_designs, outcomes=offered_outcomes(site_designs),
-                   tried=tuple(site_designs.tried_chemistries()))
+    return replace(site_designs, outcomes=offered, tried=tuple(site_designs.tried_chemistries()))
 
 
 _EMPTY = np.empty(0)
