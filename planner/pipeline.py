@@ -30,7 +30,7 @@ from planner.parallel import StageLog, Workers
 from planner.plan_assembly import assemble_plan
 from planner.scenario import Study
 from planner.site_model import model_sites
-from planner.thermal_measures import evaluate_with_measures
+from planner.thermal_measures import check_site_measures, evaluate_with_measures
 
 WARMING_SENSITIVITY_K = 2.0
 
@@ -151,6 +151,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
             progress(step, label=label)
 
     sensitivity_on = study.settings["output"]["sensitivity"]
+    check_site_measures(study)  # a bad measure id fails now, not pieces into the run
     # A study of one piece gains nothing from starting processes (the plan is the same).
     with Workers(min(workers, len(site_chunks(study))), log) as pool:
         advance(0, "Sites and candidate packs")

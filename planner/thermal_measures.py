@@ -99,6 +99,13 @@ def _allowed_ids(study: Study, site) -> tuple[str, ...]:
     return ids
 
 
+def check_site_measures(study: Study) -> None:
+    """Raise the one-line :class:`InputError` of the first site (or of ``[thermal].measures``)
+    naming a thermal measure the catalogue does not hold, before any site is modelled."""
+    for site in study.sites:
+        _allowed_ids(study, site)
+
+
 def cold_limit_c(study: Study) -> float:
     """Highest low-temperature limit among the study's chemistries (charging for the
     rechargeable ones, discharging for primary cells): below it some chemistry cannot
