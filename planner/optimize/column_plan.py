@@ -64,9 +64,9 @@ def solve_columns(problem, served, cands, deadline):
         build_seconds += time.perf_counter() - t_build
         # column generation may use 80 % of the time left (its bound is what proves the
         # gap; the integer step is often a rounding), less a reserve for each block still
-        # to come: an even share per block (0.19 s at 10,000 sites and a 60 s
-        # limit) stopped pricing in a large group on a busy machine and made the plan
-        # depend on the machine's load, although the whole solve ended well within the limit
+        # to come: an even share per block (0.19 s at 10,000 sites and a 60 s limit, the
+        # 0.5 s floor) stopped pricing in some groups and made the plan depend on the
+        # machine's speed, although the whole solve ended well within the limit
         share = _time_share(0.8 * (deadline - time.perf_counter()), len(blocks) - bi, 0.5)
         mr = generate_columns(gr, site_group, trip_cost, is_open, rate=rate,
                               payload_kg=problem.payload_kg_per_trip, crew=crew, budget=budget,
