@@ -104,21 +104,11 @@ def spending_by_year(problem: FleetProblem, solution: FleetSolution, *, start_ye
     One row per year 0..H (year H is the end of the study: residual value and the last
     failure risk). ``regions`` keeps only the sites and trips of those regions.
     """
-    h = int(problem.horizon_years)
     wanted = None if regions is None else set(regions)
-    sites = {s.site_id: s for s in problem.sites}
-    totals = {k: np.zeros(h + 1) for k in SPENDING_PARTS}
-    for plan in solution.sites:
-        if wanted is not None and plan.region not in wanted:
-            continue
-        flows = site_cash_flows(plan, sites[plan.site_id], horizon_years=h,
-                                residual_value=problem.residual_value)
-        for k in SPENDING_PARTS:
-            totals[k] += flows[k]
-    for trip in solution.trips:
-        if wanted is None or trip.region in wanted:
-            totals["trips"][trip.year] += trip.cost
-    return spending_rows(totals, rate=problem.discount_rate_frac, start_year=start_year,
+    totals = _part_totals(problem, solution,
+                          lambda region: "fleet" if wanted is None or region in wanted else None)
+    parts = totals.get("fleet") or {k: np.zeros(int(problem.horizon_years) + 1) for k in SPENDING_PARTS}
+    return spending_rows(parts, rate=problem.discount_rate_frac, start_year=start_year,
                          inflation_frac=inflation_frac)
 
 
@@ -128,21 +118,39 @@ def spending_by_region(problem: FleetProblem, solution: FleetSolution, *, start_
     :func:`spending_by_year` restricted to each region, from one pass over the plan
     (each site's cash flows computed once, not once per region)."""
     h = int(problem.horizon_years)
+    totals = _part_totals(problem, solution, lambda region: region)
+    return [{"region": r, "rows": spending_rows(
+                totals.get(r) or {k: np.zeros(h + 1) for k in SPENDING_PARTS},
+                rate=problem.discount_rate_frac, start_year=start_year, inflation_frac=inflation_frac)}
+            for r in sorted({s.region for s in problem.sites})]
+
+
+def _part_totals(problem: FleetProblem, solution: FleetSolution, bucket_of) -> dict:
+    """Yearly money per part, summed into the bucket ``bucket_of(region)`` of each site and
+    trip (``None``: left out), in plan order."""
+    h = int(problem.horizon_years)
     sites = {s.site_id: s for s in problem.sites}
-    regions = sorted({s.region for s in problem.sites})
-    totals = {r: {k: np.zeros(h + 1) for k in SPENDING_PARTS} for r in regions}
+    totals: dict = {}
+
+    def parts(region):
+        key = bucket_of(region)
+        if key is None:
+            return None
+        return totals.setdefault(key, {k: np.zeros(h + 1) for k in SPENDING_PARTS})
+
     for plan in solution.sites:
+        mine = parts(plan.region)
+        if mine is None:
+            continue
         flows = site_cash_flows(plan, sites[plan.site_id], horizon_years=h,
                                 residual_value=problem.residual_value)
-        mine = totals[plan.region]
         for k in SPENDING_PARTS:
             mine[k] += flows[k]
     for trip in solution.trips:
-        if trip.region in totals:
-            totals[trip.region]["trips"][trip.year] += trip.cost
-    return [{"region": r, "rows": spending_rows(totals[r], rate=problem.discount_rate_frac,
-                                                start_year=start_year, inflation_frac=inflation_frac)}
-            for r in regions]
+        mine = parts(trip.region)
+        if mine is not None:
+            mine["trips"][trip.year] += trip.cost
+    return totals
 
 
 def spending_rows(parts: dict[str, np.ndarray], *, rate: float, start_year: int,

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 import time
+from dataclasses import replace
 
 import numpy as np
 
@@ -205,16 +206,15 @@ def _diagnose(problem, gr, site_group, trip_cost, is_open, deadline) -> list[str
     fleet limit left every served site has a schedule (screened), so a plan exists; with
     another limit left, phase 1 of column generation decides it for the LP relaxation."""
     active = fleet_limit_texts(problem)
-    limits = {"crew_site_visits_per_year": problem.crew_site_visits_per_year, "annual_budget": problem.annual_budget}
     out = []
     for key, text in active:
         if len(active) == 1:
             out.append(f"{text} cannot be met; without it a plan exists")
             continue
-        kept = {k: (None if k == key else v) for k, v in limits.items()}
+        kept = replace(problem, **{key: None})
         mr = generate_columns(gr, site_group, trip_cost, is_open, rate=float(problem.discount_rate_frac),
-                              payload_kg=problem.payload_kg_per_trip, crew=kept["crew_site_visits_per_year"],
-                              budget=kept["annual_budget"], feasibility_only=True,
+                              payload_kg=problem.payload_kg_per_trip, crew=kept.crew_site_visits_per_year,
+                              budget=kept.annual_budget, feasibility_only=True,
                               time_limit_s=max(0.5, min(10.0, deadline - time.perf_counter())))
         if mr.converged and not mr.infeasible:
             out.append(f"{text} cannot be met; without it the other limit is met in the LP relaxation")
