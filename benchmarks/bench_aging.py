@@ -136,7 +136,7 @@ def python_loop_one_lane(chem, temp_c, soc, current, volts, years):
     closed = list(soc[k_top:]) + list(soc[:k_top]) + [soc[k_top]]
     state = 0.0
     for _ in range(years):
-        for rng_, mean, count, i0, i1 in rainflow.extract_cycles(closed):
+        for rng_, _mean, count, i0, i1 in rainflow.extract_cycles(closed):
             t_c = 0.5 * (temp_c[(i0 + k_top) % H] + temp_c[(i1 + k_top) % H]) + 273.15
             k = ((cyc_p["a"] * c_rate + cyc_p["b"])
                  * (cyc_p["doc_c"] * (rng_ - 0.6) ** 3 + cyc_p["doc_d"]) / 100.0 * cycle_af(t_c))
@@ -171,7 +171,7 @@ def main():
     rng = np.random.default_rng(2024)
     print(f"machine load indicator: {machine_speed_s():.3f} s for 5 x 1e7 multiplies "
           f"(load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs); "
-          f"compiled kernels: {'yes, %d threads' % kernels.thread_count() if kernels.AVAILABLE else 'no'}")
+          f"compiled kernels: {f'yes, {kernels.thread_count()} threads' if kernels.AVAILABLE else 'no'}")
     temps = site_temperatures(args.sites, rng)
     patterns = site_depth_patterns(args.sites, rng)
     oversize, volts = design_grid(chem, args.designs)

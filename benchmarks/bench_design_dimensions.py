@@ -20,10 +20,10 @@ import numpy as np
 
 from planner import pipeline
 from planner.climate import list_bundled
-from planner.costing import build_problem
 from planner.optimize import solve_fleet
-from planner.scenario import load_study
-from planner.site_model import model_sites
+from planner.plan.costing import build_problem
+from planner.site.model import model_sites
+from planner.study.loading import load_study
 
 
 def write_study(folder: Path, n_sites: int, measures: str, seed: int = 11) -> Path:

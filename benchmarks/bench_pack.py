@@ -1,4 +1,4 @@
-"""Benchmark of planner.pack_spread.life_distribution (prints figures, asserts nothing).
+"""Benchmark of planner.pack.spread.life_distribution (prints figures, asserts nothing).
 
 Target (issue 8): 1,000 sites x 1,000 draws in <= 30 s on the project machine.
 
@@ -11,7 +11,7 @@ import time
 
 import numpy as np
 
-from planner.pack_spread import life_distribution
+from planner.pack.spread import life_distribution
 
 
 def invented_fleet(n_sites, horizon_years=20, seed=0):

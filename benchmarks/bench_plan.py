@@ -28,7 +28,7 @@ from fleet_gen import write_fleet  # noqa: E402
 from planner.parallel import StageLog, default_workers  # noqa: E402
 from planner.pipeline import run_study  # noqa: E402
 from planner.report import write_json, write_workbook  # noqa: E402
-from planner.scenario import load_study  # noqa: E402
+from planner.study.loading import load_study  # noqa: E402
 
 GIB = 1024 ** 3
 

@@ -16,9 +16,9 @@ import time
 import numpy as np
 
 from planner.climate import list_bundled, load_climate
-from planner.enclosures import ENCLOSURE_KINDS
-from planner.lumped_thermal import simulate_lumped
-from planner.thermal import battery_temperature_fleet
+from planner.thermal.battery import battery_temperature_fleet
+from planner.thermal.enclosures import ENCLOSURE_KINDS
+from planner.thermal.lumped import simulate_lumped
 
 
 def main(n_sites: int = 1000) -> None:

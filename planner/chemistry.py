@@ -20,10 +20,10 @@ from __future__ import annotations
 
 import functools
 import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from importlib import resources
 from types import MappingProxyType
-from typing import Mapping
 
 import numpy as np
 

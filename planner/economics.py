@@ -272,7 +272,7 @@ class CostBreakdown:
     def to_dict(self) -> dict:
         return {f.name: float(getattr(self, f.name)) for f in fields(self)}
 
-    def __add__(self, other: "CostBreakdown") -> "CostBreakdown":
+    def __add__(self, other: CostBreakdown) -> CostBreakdown:
         return CostBreakdown(
             **{f.name: getattr(self, f.name) + getattr(other, f.name) for f in fields(self)}
         )

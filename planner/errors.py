@@ -22,14 +22,6 @@ class InputError(ValueError):
         super().__init__(one_line(f"{source}: {message}" if source else message))
 
 
-class InfeasibleError(RuntimeError):
-    """The study has no feasible plan; ``reasons`` lists one line per cause."""
-
-    def __init__(self, reasons: list[str]):
-        self.reasons = list(reasons)
-        super().__init__("; ".join(self.reasons) if self.reasons else "no feasible plan")
-
-
 class OutputError(OSError):
     """An output could not be written (disk full, no permission, device error).
 

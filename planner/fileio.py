@@ -16,6 +16,7 @@ replaced by a regular file; other special files are refused.
 
 from __future__ import annotations
 
+import functools
 import os
 import re
 import stat
@@ -233,11 +234,11 @@ class OutputBatch:
     def commit(self) -> None:
         """Write the character devices, then rename every staged file over its target."""
         for target, write, what in self._direct:
-            _guarded(lambda: write(target), target, what)
+            _guarded(functools.partial(write, target), target, what)
         for tmp, target, what in self._staged:
-            _guarded(lambda: _match_mode(tmp, target), target, what)
+            _guarded(functools.partial(_match_mode, tmp, target), target, what)
         for tmp, target, what in self._staged:
-            _guarded(lambda: os.replace(tmp, target), target, what)
+            _guarded(functools.partial(os.replace, tmp, target), target, what)
         self._staged.clear()
         self._direct.clear()
 
@@ -311,8 +312,8 @@ def atomic_path(target, *, what: str = "output file"):
     tmp = _new_temp(target, what)
     try:
         yield tmp
-        _guarded(lambda: _match_mode(tmp, target), target, what)
-        _guarded(lambda: os.replace(tmp, target), target, what)
+        _guarded(functools.partial(_match_mode, tmp, target), target, what)
+        _guarded(functools.partial(os.replace, tmp, target), target, what)
     finally:
         tmp.unlink(missing_ok=True)
 

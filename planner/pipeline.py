@@ -19,18 +19,22 @@ from functools import partial
 
 import numpy as np
 
-from planner.costing import build_problem, offered_outcomes, pack_price, standalone_cost_bounds
-from planner.design_evaluation import evaluate_fleet
-from planner.load_growth import evaluate_with_growth
+from planner.designs.evaluation import evaluate_fleet
+from planner.designs.load_growth import evaluate_with_growth
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (
-    compare_chemistry, compare_solutions, restrict_chemistry, same_method, sensitivity_problems,
+    compare_chemistry,
+    compare_solutions,
+    restrict_chemistry,
+    same_method,
+    sensitivity_problems,
 )
 from planner.parallel import StageLog, Workers
-from planner.plan_assembly import assemble_plan
-from planner.scenario import Study
-from planner.site_model import model_sites
-from planner.thermal_measures import check_site_measures, evaluate_with_measures
+from planner.plan.assembly import assemble_plan
+from planner.plan.costing import build_problem, offered_outcomes, pack_price, standalone_cost_bounds
+from planner.site.model import model_sites
+from planner.site.thermal_measures import check_site_measures, evaluate_with_measures
+from planner.study.loading import Study
 
 WARMING_SENSITIVITY_K = 2.0
 

@@ -21,9 +21,9 @@ from click.testing import CliRunner
 
 from planner.aging import age_lanes
 from planner.aging.cycle import cycle_state_increment, schmalstieg2014_beta_cap
+from planner.aging.profiles import cycling_profile
 from planner.chemistry import get_chemistry
 from planner.cli import cli
-from planner.cli.life import cycling_profile
 
 H = 8760
 R = 8.314462618

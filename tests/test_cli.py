@@ -12,7 +12,7 @@ from click.testing import CliRunner
 
 from planner import __version__
 from planner.cli import cli
-from planner.scenario import load_study
+from planner.study.loading import load_study
 
 REPO = Path(__file__).resolve().parents[1]
 

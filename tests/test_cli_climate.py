@@ -11,7 +11,7 @@ from click.testing import CliRunner
 from planner.cli import cli
 from planner.climate import load_climate
 from planner.climate.summary import summarize_temperatures
-from planner.thermal import battery_temperature
+from planner.thermal.battery import battery_temperature
 
 FIXED_KEYS = ("air_mean_c", "air_p99_c", "battery_mean_c", "battery_p1_c", "battery_p99_c",
               "hours_above_45c", "hours_below_0c", "effective_temp_c")
@@ -155,7 +155,6 @@ def test_climate_warning_is_one_line_without_python_source(tmp_path):
     import os
     import subprocess
     import sys
-
 
     from test_climate_readers import write_epw
 

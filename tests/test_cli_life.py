@@ -7,8 +7,8 @@ import pytest
 import rainflow
 from click.testing import CliRunner
 
+from planner.aging.profiles import cycling_profile
 from planner.cli import cli
-from planner.cli.life import cycling_profile
 
 
 def _run(*args):

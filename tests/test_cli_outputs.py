@@ -16,12 +16,11 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
+from plan_fixture import make_plan
 
 import planner.pipeline
 from planner.cli import cli
 from planner.cli.terminal import printable
-
-from plan_fixture import make_plan
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -168,7 +167,6 @@ def test_json_to_failing_stdout_exits_4_and_keeps_workbook_away(study_dir, no_pl
 
     monkeypatch.setattr(sys, "stdout", FullStdout())
     from planner.cli.plan import write_outputs
-
     from planner.errors import OutputError
     with pytest.raises(OutputError, match="standard output: could not write the plan JSON"):
         write_outputs(synthetic_plan(2), study_dir / "plan.xlsx", "-")

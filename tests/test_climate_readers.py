@@ -11,8 +11,7 @@ import pytest
 from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
-from planner.climate import ClimateWarning, TypicalYear, list_bundled, load_climate
-from planner.climate import solar
+from planner.climate import ClimateWarning, TypicalYear, list_bundled, load_climate, solar
 from planner.errors import InputError
 
 PVLIB_DATA = Path(pvlib.__file__).parent / "data"

@@ -9,8 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from planner.climate.summary import (effective_temperature_c, monthly_means_c,
-                                     summarize_temperatures)
+from planner.climate.summary import effective_temperature_c, monthly_means_c, summarize_temperatures
 
 R = 8.314462618   # J/(mol K), CODATA 2018
 

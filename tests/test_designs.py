@@ -6,16 +6,16 @@ import numpy as np
 import pytest
 
 from planner.chemistry import get_chemistry
-from planner.design_evaluation import evaluate_fleet
-from planner.designs import (
+from planner.designs.candidates import (
     enumerate_site_designs,
     max_service_years,
     requirement_wh,
     window_frac,
     worn_out_soh_frac,
 )
-from planner.scenario import load_study
-from planner.site_model import model_sites
+from planner.designs.evaluation import evaluate_fleet
+from planner.site.model import model_sites
+from planner.study.loading import load_study
 
 QUICK = Path(__file__).resolve().parents[1] / "scenarios" / "quick.toml"
 
@@ -109,7 +109,7 @@ def test_far_from_best_keeps_what_can_win_within_each_chemistry():
     # trip exceeds the best full-trip cost of its chemistry at the site by over 10 %.
     from types import SimpleNamespace
 
-    from planner.design_screening import RELEVANCE_FRAC, mark_far_from_best
+    from planner.designs.screening import RELEVANCE_FRAC, mark_far_from_best
 
     def outcome(chem, low, high):
         design = SimpleNamespace(site_index=0, chemistry=chem, is_existing=False)
@@ -131,8 +131,8 @@ def test_packs_left_unsimulated_are_the_ones_the_full_run_marks_dominated(monkey
     # service limit with no load unserved is not simulated. Against the run that
     # simulates every pack: the same designs are offered with the same figures, and every
     # pack left out is one that run marks dominated (or too small to be offered).
-    from planner import design_evaluation
-    from planner.costing import offered_outcomes, pack_price, standalone_cost_bounds
+    from planner.designs import evaluation as design_evaluation
+    from planner.plan.costing import offered_outcomes, pack_price, standalone_cost_bounds
 
     study = load_study(Path(__file__).resolve().parents[1] / "scenarios" / "corvale.toml")
     models = model_sites(study)

@@ -8,7 +8,8 @@ those formulas outside the project (research note sizing-economics.md §3.3-3.5)
 
 import numpy as np
 import pytest
-from hypothesis import given, strategies as st
+from hypothesis import given
+from hypothesis import strategies as st
 
 from planner import economics as ec
 
@@ -124,7 +125,7 @@ def test_expected_wait_days():
         if m == 7:
             waits.append(0.0)
         else:
-            waits.append(((start_of_july - d - 0.5) % 365))
+            waits.append((start_of_july - d - 0.5) % 365)
     assert ec.expected_wait_days([7]) == pytest.approx(np.mean(waits), abs=1e-9)
 
 

@@ -16,13 +16,11 @@ import types
 
 import numpy as np
 import pandas as pd
-import pytest
 import pvlib
+import pytest
 
 from planner.energy import pv
 from planner.errors import InputError
-
-
 
 MST = dt.timezone(dt.timedelta(hours=-7))
 

@@ -382,7 +382,7 @@ def _kernel_py():
 
 def _mixed_case(rng, n_hours, n_lanes, n_cols):
     """Lanes of mixed chemistries reading shared per-(site, chemistry) columns, as
-    planner.design_evaluation._duty calls the SOC stage (invented inputs)."""
+    planner.designs.evaluation._duty calls the SOC stage (invented inputs)."""
     c = _random_case(rng, n_hours, n_cols)
     lane = dict(cap=rng.uniform(100, 2000, n_lanes), usable=rng.uniform(0.7, 1.0, n_lanes),
                 eta_c=rng.choice([0.9, 0.98], n_lanes), eta_d=rng.choice([0.92, 0.97], n_lanes),
@@ -423,7 +423,7 @@ def test_kernel_python_function_equals_numpy_loop(n_hours, n_lanes, with_avail, 
                                                   keep):
     # reference: the numpy recursion (checked above against the independent plain-Python
     # loop); the kernel's own Python function runs here, so its logic is checked with or
-    # without numba. Mixed chemistries share site columns, as in planner.design_evaluation._duty.
+    # without numba. Mixed chemistries share site columns, as in planner.designs.evaluation._duty.
     rng = np.random.default_rng(n_hours + n_lanes)
     c = _mixed_case(rng, n_hours, n_lanes, 3)
     p = _prepare_mixed(c, with_avail, with_sd)

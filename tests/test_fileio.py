@@ -17,8 +17,13 @@ import pytest
 
 from planner import fileio
 from planner.errors import InputError, OutputError
-from planner.fileio import (OutputBatch, check_input_file, read_input_bytes, remove_stale_temps,
-                            write_atomically)
+from planner.fileio import (
+    OutputBatch,
+    check_input_file,
+    read_input_bytes,
+    remove_stale_temps,
+    write_atomically,
+)
 
 REPO = Path(__file__).resolve().parents[1]
 as_root = pytest.mark.skipif(os.geteuid() != 0, reason="making device nodes needs root")

@@ -16,12 +16,11 @@ import os
 import tempfile
 from pathlib import Path
 
-import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from planner.errors import InputError, OutputError
-from planner.scenario import load_study
+from planner.study.loading import load_study
 
 SITES = [
     {"id": "Q-1", "name": "Ridge gauge", "region": "hills", "climate": "alpine", "load_w": "2.0",

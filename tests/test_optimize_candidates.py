@@ -1,6 +1,7 @@
 """Dominance pruning and screening of candidate designs."""
 
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from planner.optimize import Candidate, SiteOptions
 from planner.optimize.candidates import prune_dominated, screen_site, whole_years
@@ -48,7 +49,7 @@ def test_screen_site_reasons():
 def test_pruned_set_is_the_pareto_front(rows):
     # brute-force Pareto check (definition of dominance): nothing kept is dominated by any
     # input, and every input is matched or dominated by something kept
-    cands = [c(f"d{i}", p, l, mass=m) for i, (p, l, m) in enumerate(rows)]
+    cands = [c(f"d{i}", p, life, mass=m) for i, (p, life, m) in enumerate(rows)]
     kept = prune_dominated(cands)
 
     def dom(x, y):  # x no worse than y everywhere

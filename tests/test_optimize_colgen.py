@@ -11,13 +11,12 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from test_optimize_bruteforce import fleet_best
+from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
 
 from planner.optimize import ExistingPack, FleetProblem, SiteOptions, solve_fleet
 from planner.optimize.colgen import Pricer
 from planner.optimize.schedule import build_graphs
-
-from test_optimize_bruteforce import fleet_best
-from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
 
 
 def test_orp_vectors_by_columns():

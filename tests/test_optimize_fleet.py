@@ -4,15 +4,21 @@ properties that follow from the model (sources beside each check)."""
 from dataclasses import replace
 
 import pytest
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from test_optimize_bruteforce import fleet_best
 
 from planner.errors import InputError
 from planner.optimize import (
-    Candidate, ExistingPack, FleetProblem, SiteOptions, compare_chemistries, sensitivity, solve_fleet,
+    Candidate,
+    ExistingPack,
+    FleetProblem,
+    SiteOptions,
+    compare_chemistries,
+    sensitivity,
+    solve_fleet,
 )
 from planner.optimize.analysis import restrict_chemistry, scale_trip_costs
-
-from test_optimize_bruteforce import fleet_best
 
 ALL_MONTHS = tuple(range(1, 13))
 
@@ -224,7 +230,7 @@ def small_fleets(draw, max_regions=2, max_sites=3, h_max=5, rate=None, chems=("l
                               measure=measure, measure_price=measures[measure][0],
                               measure_labour=measures[measure][1]))
             if design_changes and k > 0 and draw(st.booleans()):
-                # an install window, as a load step gives (planner.load_growth)
+                # an install window, as a load step gives (planner.designs.load_growth)
                 first = draw(st.integers(0, h - 1))
                 last = draw(st.one_of(st.none(), st.integers(first, h - 1)))
                 cands[-1] = replace(cands[-1], first_install_year=first, last_install_year=last)

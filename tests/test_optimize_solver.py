@@ -2,11 +2,10 @@
 
 import numpy as np
 import pytest
+from test_optimize_fleet import orp, orp_site
 
 from planner.optimize import solve_fleet
 from planner.optimize.solver import gap, pick_solver, solve_milp
-
-from test_optimize_fleet import orp, orp_site
 
 
 def test_highs_banner_does_not_reach_stdout(capfd):
@@ -65,6 +64,7 @@ def test_costs_at_the_money_bound_solve_to_the_scaled_optimum():
     # shared trip 3000, no discount: 15,000), with every amount times 1e8; a linear
     # objective's optimum scales with its costs.
     from test_optimize_fleet import cand
+
     from planner.optimize import ExistingPack, FleetProblem, SiteOptions
 
     k = 1e8

@@ -1,7 +1,7 @@
 """The restructured pack spread against the previous implementation, and strings as units.
 
 Check values of the first test are the previous implementation's percentiles (the
-Monte Carlo that simulated every cell of every string, planner/pack.py before the
+Monte Carlo that simulated every cell of every string, planner/pack/structure.py before the
 split), recorded on 16 designs of the demo study (scenarios/corvale.toml) whose lives
 the Monte Carlo ran and which stay below the 20-year service cap. Their inputs (nominal
 fade curves, thresholds, temperatures, laws) are stored in tests/data.
@@ -12,8 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from planner.pack_spread import life_distribution
-from planner.pack_spread import EXACT_REST_STRINGS
+from planner.pack.spread import EXACT_REST_STRINGS, life_distribution
 
 DATA = Path(__file__).parent / "data" / "pack_spread_designs.npz"
 
@@ -95,10 +94,10 @@ def test_per_site_string_counts_equal_separate_runs():
 
 @pytest.mark.parametrize("i", [0, 10])
 def test_compiled_curve_lookup_gives_the_numpy_bits(i, monkeypatch):
-    # The compiled interpolation in the nominal curves (planner._spread_kernels) must give
+    # The compiled interpolation in the nominal curves (planner.pack._kernels) must give
     # the numpy expression's results to the bit on the reference designs of
     # tests/data/pack_spread_designs.npz: plans must not change with numba or without.
-    from planner import _spread_kernels as sk
+    from planner.pack import _kernels as sk
     if sk.READ is None:
         pytest.skip("numba not installed")
     args = _design(np.load(DATA), i)

@@ -10,7 +10,7 @@ from click.testing import CliRunner
 
 from planner.cli import cli
 from planner.economics import upv
-from planner.plan_assembly import sawtooth
+from planner.plan.assembly import sawtooth
 
 REPO = Path(__file__).resolve().parents[1]
 QUICK = REPO / "scenarios" / "quick.toml"

@@ -17,7 +17,7 @@ import pytest
 from planner import pipeline
 from planner.parallel import StageLog
 from planner.report import plan_to_json_text
-from planner.scenario import load_study
+from planner.study.loading import load_study
 
 REPO = Path(__file__).resolve().parents[1]
 _spec = importlib.util.spec_from_file_location("fleet_gen", REPO / "benchmarks" / "fleet_gen.py")

@@ -4,7 +4,7 @@ named with its days off air, and sites another chemistry keeps are listed."""
 import pytest
 
 from planner.optimize import Candidate, FleetProblem, SiteOptions, compare_chemistries, solve_fleet
-from planner.plan_comparison import comparison_rows
+from planner.plan.comparison import comparison_rows
 from planner.report.wording import coverage_text, drivers_text
 
 ALL_MONTHS = tuple(range(1, 13))

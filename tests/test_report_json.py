@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from plan_fixture import make_plan
 
 from planner.report import plan_to_json_text, write_json
 from planner.report.plan_json import round_significant
-from plan_fixture import make_plan
 
 # Fixed keys of the plan JSON (docs/plan-json.md, "fixed" marks; issue 6 "Outputs of this stage").
 FIXED_TOP = ("total_present_cost", "solver", "sites", "trips", "chemistry_comparison")

@@ -21,9 +21,9 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 from openpyxl.utils import range_boundaries
+from plan_fixture import make_plan
 
 from planner.report import SHEET_NAMES, neutralise_text, write_json, write_workbook
-from plan_fixture import make_plan
 
 N_SITES = 22  # more than the 20 fade charts, so the "most expensive 20" choice is exercised
 # Numbers in an xlsx keep 15-16 significant digits (Excel specifications and limits: number

@@ -14,7 +14,7 @@ from click.testing import CliRunner
 
 from planner.chemistry import CHEMISTRY_IDS, get_chemistry
 from planner.cli import cli
-from planner.designs import max_service_years
+from planner.designs.candidates import max_service_years
 
 REPO = Path(__file__).resolve().parents[1]
 

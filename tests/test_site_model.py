@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from planner.scenario import load_study
-from planner.site_model import model_sites
+from planner.site.model import model_sites
+from planner.study.loading import load_study
 
 
 def test_load_terms_add_and_scale_by_month(tmp_path):

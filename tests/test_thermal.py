@@ -9,16 +9,20 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
-from planner import enclosures, lumped_thermal, thermal
 from planner.climate import TypicalYear, load_climate
 from planner.errors import InputError
+from planner.thermal import battery as thermal
+from planner.thermal import enclosures
+from planner.thermal import lumped as lumped_thermal
 
 N = 8760
 
 
 def flat_year(temp_c=20.0, ghi=0.0, dni=0.0, dhi=0.0, lat=45.0):
     """A constant-weather year (inputs only; checks use analytic formulas)."""
-    full = lambda v: np.full(N, float(v)) if np.ndim(v) == 0 else np.asarray(v, float)
+    def full(v):
+        return np.full(N, float(v)) if np.ndim(v) == 0 else np.asarray(v, float)
+
     return TypicalYear(name="flat", source="test", latitude_deg=lat, longitude_deg=0.0,
                        altitude_m=0.0, utc_offset_h=0.0, temp_air_c=full(temp_c),
                        ghi_w_m2=full(ghi), dni_w_m2=full(dni), dhi_w_m2=full(dhi),
@@ -193,9 +197,9 @@ def test_enclosure_kinds_and_errors():
 
 def test_compiled_hour_loops_give_the_numpy_loops_bits(monkeypatch):
     # The exact lumped step (Incropera & DeWitt, lumped capacitance, eq. 5.6) run by the
-    # compiled loops of planner._thermal_kernels must be the numpy loops' numbers bit for
+    # compiled loops of planner.thermal._kernels must be the numpy loops' numbers bit for
     # bit: plans must not change with numba installed or not.
-    from planner import _thermal_kernels as tk
+    from planner.thermal import _kernels as tk
     if tk.LINEAR is None:
         pytest.skip("numba not installed")
     rng = np.random.default_rng(3)

@@ -17,13 +17,14 @@ from __future__ import annotations
 
 import numpy as np
 
+from planner import HOURS_PER_YEAR
+
 R_GAS_J_MOL_K = 8.314462618
 """Molar gas constant (CODATA 2018), J/(mol K)."""
 
 KELVIN_OFFSET = 273.15
 SECONDS_PER_HOUR = 3600.0
 HOURS_PER_DAY = 24.0
-HOURS_PER_YEAR = 8760.0
 
 
 def arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c=25.0):

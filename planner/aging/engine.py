@@ -36,14 +36,14 @@ from types import MappingProxyType
 
 import numpy as np
 
+from planner import HOURS_PER_YEAR
+from planner.aging import kernels
 from planner.aging.calendar import calendar_rate_parts
 from planner.aging.cycle import cycle_exponent, cycle_state_increment
-from planner.aging import kernels
 from planner.aging.rainflow import Cycles, extract_cycles_lanes
 from planner.aging.superposition import loss_from_state, repeat_year, state_from_loss
 from planner.chemistry import AgingParams, Chemistry, get_chemistry
 
-HOURS_PER_YEAR = 8760
 _DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
 MONTH_START_H = np.concatenate([[0], np.cumsum(_DAYS_PER_MONTH)[:-1]]) * 24
 """Hour index at which each month of the typical year starts (leap day dropped)."""
@@ -100,7 +100,7 @@ class AgingState:
 
     @classmethod
     def from_losses(cls, calendar_loss_frac, cycle_loss_frac, *, age_years=0.0,
-                    calendar_exponent=1.0, cycle_exponent=1.0) -> "AgingState":
+                    calendar_exponent=1.0, cycle_exponent=1.0) -> AgingState:
         """A state holding given losses (e.g. a measured capacity split by the caller).
 
         The exponents only set the internal representation; :func:`age_lanes` converts a

@@ -60,7 +60,7 @@ def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, a
                          "'planner climate --list') or a weather file", source="climate")
     from planner.climate.summary import summarize_temperatures
     from planner.fileio import same_file
-    from planner.thermal import battery_temperature
+    from planner.thermal.battery import battery_temperature
 
     if csv_path and os.path.isfile(source) and same_file(csv_path, source):
         raise InputError(f"--csv {csv_path} is the weather file read; expected another file "
@@ -150,6 +150,7 @@ def csv_declarations(year) -> str:
 
 def _write_csv(path: Path, year, thermal) -> None:
     import pandas as pd
+
     from planner.fileio import atomic_path
 
     frame = pd.DataFrame({

@@ -8,49 +8,18 @@ import math
 import click
 import numpy as np
 
+from planner import HOURS_PER_YEAR
+from planner.aging.profiles import cycling_profile
 from planner.errors import InputError
 
-HOURS_PER_YEAR = 8760
 DAYS_PER_YEAR = 365
-
-
-def cycling_profile(top_soc_frac: float, dod_frac: float, cycles_per_day: float,
-                    c_rate: float):
-    """Synthetic hourly SOC and current of regular cycling from a full pack.
-
-    Each cycle starts from ``top_soc_frac``, discharges ``dod_frac`` at a steady current
-    over ``d = ceil(dod / c_rate)`` whole hours, charges it back over the next ``d`` hours
-    and rests full until the next cycle; cycles start every ``24 / cycles_per_day`` hours
-    (rounded down to whole hours). Values are the SOC at the start of each hour and the
-    hour's mean current (+ discharge, - charge) as a C-rate. Hourly samples cannot show
-    a cycle faster than two hours, so the nominal ``c_rate`` is passed to the aging
-    engine as the cycle C-rate separately.
-
-    Returns
-    -------
-    soc_frac, current_c_rate : ndarray, shape (8760,)
-    """
-    ramp_h = max(1, math.ceil(dod_frac / c_rate - 1e-9))
-    period_h = 24.0 / cycles_per_day
-    hours = np.arange(HOURS_PER_YEAR)
-    starts = np.floor(np.arange(0.0, HOURS_PER_YEAR, period_h)).astype(int)
-    cycle_of_hour = np.searchsorted(starts, hours, side="right") - 1
-    phase = hours - starts[cycle_of_hour]
-    step = dod_frac / ramp_h
-    down = phase < ramp_h
-    up = (phase >= ramp_h) & (phase < 2 * ramp_h)
-    soc = np.full(HOURS_PER_YEAR, top_soc_frac)
-    soc[down] = top_soc_frac - step * phase[down]
-    soc[up] = top_soc_frac - dod_frac + step * (phase[up] - ramp_h)
-    current = np.where(down, step, np.where(up, -step, 0.0))
-    return soc, current
 
 
 def _temperature(temp_c, climate, enclosure):
     if temp_c is not None:
         return np.full(HOURS_PER_YEAR, float(temp_c)), f"constant {temp_c:g} °C"
     from planner.climate import load_climate
-    from planner.thermal import battery_temperature
+    from planner.thermal.battery import battery_temperature
 
     year = load_climate(climate)
     thermal = battery_temperature(year, enclosure)
@@ -269,8 +238,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
 def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,
                       balancing, draws, *, model_sets=None) -> dict:
     """P10/P50/P90 years to end of life of a series string (pack Monte Carlo)."""
-    from planner.pack import stress_parameters
-    from planner.pack_spread import DEFAULT_DRAWS, life_summary
+    from planner.pack.spread import DEFAULT_DRAWS, life_summary
+    from planner.pack.structure import stress_parameters
 
     series_cells = 1 if series_cells is None else series_cells
     if not 1 <= series_cells <= 1000:

@@ -10,7 +10,7 @@ import click
 
 from planner.errors import InputError, OutputError
 from planner.fileio import OutputBatch
-from planner.schema import NAMED_SECTIONS, SECTIONS, SITE_COLUMNS, Field
+from planner.study.schema import NAMED_SECTIONS, SECTIONS, SITE_COLUMNS, Field
 
 # Two invented example sites: a river gauge in the mountains and a desert pipeline monitor.
 EXAMPLE_SITES = [

@@ -40,7 +40,7 @@ def plan_command(ctx, study, out_path, json_path, workers):
     """
     from planner.parallel import default_workers
     from planner.pipeline import progress_steps, run_study
-    from planner.scenario import load_study
+    from planner.study.loading import load_study
 
     opts = options(ctx)
     study_obj = load_study(study)
@@ -91,7 +91,7 @@ def output_paths(study, out_option: str | None, json_option: str | None):
         json_target = Path(json_target)
         outputs.append((json_target, json_source, "plan JSON"))
     inputs = study.input_files()
-    for index, (path, where, what) in enumerate(outputs):
+    for index, (path, where, _what) in enumerate(outputs):
         if "\x00" in str(path):
             raise InputError(f"{where} {printable(path)} holds a NUL character in the path; "
                              "expected a file name", source="plan")

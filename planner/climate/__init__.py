@@ -23,9 +23,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from planner import HOURS_PER_YEAR
 from planner.errors import InputError
 
-HOURS_PER_YEAR = 8760
 #: The fixed non-leap calendar year used to label a typical year's hours.
 REFERENCE_YEAR = 2023
 
@@ -91,7 +91,7 @@ class TypicalYear:
         """Hour starts in local standard time (fixed offset, non-leap year 2023)."""
         return hour_starts(self.utc_offset_h)
 
-    def with_warming(self, warming_k: float) -> "TypicalYear":
+    def with_warming(self, warming_k: float) -> TypicalYear:
         """A copy with ``warming_k`` kelvin added to every hourly air temperature."""
         if warming_k == 0.0:
             return self

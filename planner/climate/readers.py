@@ -23,8 +23,12 @@ import numpy as np
 import pandas as pd
 
 from planner.climate import REFERENCE_YEAR, TypicalYear
-from planner.climate.csv_reader import (CSV_OPTIONS, check_option_keys, file_declarations,
-                                        read_plain_csv)
+from planner.climate.csv_reader import (
+    CSV_OPTIONS,
+    check_option_keys,
+    file_declarations,
+    read_plain_csv,
+)
 from planner.climate.normalise import RawSeries, first_line, normalise
 from planner.errors import InputError
 from planner.fileio import check_input_file

@@ -14,6 +14,7 @@ import pandas as pd
 
 from planner.climate import hour_starts
 
+
 @functools.lru_cache(maxsize=128)
 def solar_geometry(latitude_deg: float, longitude_deg: float, altitude_m: float,
                    utc_offset_h: float) -> pd.DataFrame:

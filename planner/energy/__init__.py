@@ -16,5 +16,3 @@ Modules (one physical concept each):
 The sub-modules are imported lazily by the caller (``from planner.energy import soc``) so
 that importing this package does not pull in pvlib.
 """
-
-HOURS_PER_YEAR = 8760

@@ -19,10 +19,9 @@ import os
 
 import numpy as np
 
+from planner import HOURS_PER_YEAR
 from planner.errors import InputError
 from planner.fileio import read_input_bytes
-
-HOURS_PER_YEAR = 8760
 
 #: Upper bound accepted for any load power (W). Remote unattended sites (telemetry,
 #: repeaters, monitors) draw from about a watt to a few kilowatts; a value above this

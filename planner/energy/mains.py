@@ -14,9 +14,8 @@ import math
 
 import numpy as np
 
+from planner import HOURS_PER_YEAR
 from planner.errors import InputError
-
-HOURS_PER_YEAR = 8760
 
 
 def mains_available(n_hours: int = HOURS_PER_YEAR, *, outages_per_year: float = 0.0,

@@ -44,15 +44,14 @@ change ``E_max`` here; the compensated voltage is a reported value for the aging
 
 from __future__ import annotations
 
-from typing import Iterator
+from collections.abc import Iterator
 
 import numpy as np
-
-from planner.errors import InputError
 
 from planner.energy import _soc_kernels as _kernels
 from planner.energy import soc_fused, soc_numpy
 from planner.energy.soc_results import HOURS_PER_YEAR, SUMMARY_FIELDS, SocChunk, SocResult
+from planner.errors import InputError
 
 #: Default lanes per chunk: 8,192 lanes x 8,760 h x float32 is 287 MB per streamed series.
 DEFAULT_CHUNK_LANES = 8192

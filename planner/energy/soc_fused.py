@@ -15,7 +15,6 @@ from planner.energy import _soc_kernels as _kernels
 from planner.energy.soc_numpy import group_offers, groups
 from planner.energy.soc_results import HOURS_PER_YEAR, SocChunk, finish_chunk, monthly_unserved
 
-
 #: The hour loop run lane block by lane block: plain Python (for tests on tiny inputs).
 _fused_hours = _kernels.block_hours
 #: The same loop compiled with numba (parallel over lane blocks), or ``None``.

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field, fields
 
 import numpy as np
 
-HOURS_PER_YEAR = 8760
+from planner import HOURS_PER_YEAR
 
 
 @dataclass(frozen=True)

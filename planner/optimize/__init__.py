@@ -5,12 +5,23 @@ for the per-chemistry comparison and the sensitivity cases.
 """
 
 from planner.optimize.analysis import (
-    ChemistryResult, SensitivityResult, compare_chemistries, compare_solutions, sensitivity,
+    ChemistryResult,
+    SensitivityResult,
+    compare_chemistries,
+    compare_solutions,
+    sensitivity,
 )
 from planner.optimize.candidates import prune_dominated
 from planner.optimize.fleet import solve_fleet
 from planner.optimize.problem import (
-    Candidate, ExistingPack, FleetProblem, FleetSolution, SiteOptions, SitePlan, Trip, Unserved,
+    Candidate,
+    ExistingPack,
+    FleetProblem,
+    FleetSolution,
+    SiteOptions,
+    SitePlan,
+    Trip,
+    Unserved,
 )
 
 __all__ = [

@@ -299,7 +299,7 @@ def generate_columns(g: SiteGraphs, site_group: np.ndarray, group_trip_cost: np.
     y_cost = group_trip_cost[ks] * ec.spv(rate, ts)
     y_ub = np.where(group_open[ks], 1.0 if payload_kg is None else float(max(1, n_sites)), 0.0)
     entries = []
-    for j, (k, t) in enumerate(zip(ks, ts)):  # one column per (group, year): G*H, small
+    for k, t in zip(ks, ts):  # one column per (group, year): G*H, small
         idx, val = [], []
         if payload_kg is not None:
             idx.append(r_pay + k * h + t)

@@ -16,7 +16,11 @@ import numpy as np
 
 from planner import economics as ec
 from planner.optimize.colgen import (
-    Pricer, column_coefficients, generate_columns, group_costs, polish_trip_years,
+    Pricer,
+    column_coefficients,
+    generate_columns,
+    group_costs,
+    polish_trip_years,
 )
 from planner.optimize.path_model import fleet_limit_texts
 from planner.optimize.problem import Unserved
@@ -255,11 +259,17 @@ def _column_matrix(gr, cols, bsites, site_group, block, trip_cost, is_open, prob
         for t in range(h):
             j = n + bi * h + t
             for s in members:
-                rows.append(r_visit + s * h + t); cidx.append(j); vals.append(-1.0)
+                rows.append(r_visit + s * h + t)
+                cidx.append(j)
+                vals.append(-1.0)
             if payload is not None:
-                rows.append(r_pay + bi * h + t); cidx.append(j); vals.append(-float(payload))
+                rows.append(r_pay + bi * h + t)
+                cidx.append(j)
+                vals.append(-float(payload))
             if budget is not None:
-                rows.append(r_bud + t); cidx.append(j); vals.append(float(trip_cost[k]))
+                rows.append(r_bud + t)
+                cidx.append(j)
+                vals.append(float(trip_cost[k]))
             y_cost.append(float(trip_cost[k] * ec.spv(rate, t)))
             y_ub.append(0.0 if not is_open[k] else (1.0 if payload is None else float(max(1, len(members)))))
     lo = np.concatenate([np.ones(nb), np.full(n_rows - nb, -math.inf)])

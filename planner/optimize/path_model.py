@@ -194,7 +194,7 @@ def _stack(mats, fleet_rows):
     lo = [m["lo"] for m in mats]
     hi = [m["hi"] for m in mats]
     base = row_off[-1]
-    for k, (r, cidx, v, rlo, rhi) in enumerate(fleet_rows(col_off)):
+    for r, cidx, v, rlo, rhi in fleet_rows(col_off):
         rows.append(base + np.asarray(r))
         cols.append(np.asarray(cidx))
         vals.append(np.asarray(v, dtype=float))

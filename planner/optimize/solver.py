@@ -95,7 +95,7 @@ def objective_scale(c: np.ndarray, offset: float = 0.0) -> float:
 
     Raises :class:`planner.errors.InputError` when a cost or the offset is not finite:
     the solver would otherwise search without end (money fields are bounded in
-    ``planner.schema``; this guards every other way in).
+    ``planner.study.schema``; this guards every other way in).
     """
     from planner.errors import InputError
 

@@ -49,7 +49,7 @@ def plans_and_trips(gr: SiteGraphs, site_idx, paths, y, region, month, trip_cost
     """
     plans, trips = [], []
     visitors = {}
-    for i, (pair, years, arcs, e) in enumerate(paths):
+    for i, (_pair, years, _arcs, _e) in enumerate(paths):
         for t in years:
             visitors.setdefault(t, []).append(i)
     share = {}

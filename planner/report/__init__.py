@@ -2,10 +2,10 @@
 
 - :func:`write_json` / :func:`plan_to_json_text`: the plan as JSON (``docs/plan-json.md``).
 - :func:`write_workbook`: the plan workbook (``docs/workbook.md``).
-- :mod:`planner.report.cautions`: the standard safety cautions and per-site warning helpers.
+- :mod:`planner.plan.cautions`: the standard safety cautions and per-site warning helpers.
 """
 
-from planner.report.cautions import STANDARD_CAUTIONS, derived_site_warnings
+from planner.plan.cautions import STANDARD_CAUTIONS, derived_site_warnings
 from planner.report.cells import neutralise_text
 from planner.report.plan_json import plan_to_json_text, write_json
 from planner.report.workbook import SHEET_NAMES, build_workbook, write_workbook

@@ -149,7 +149,7 @@ def write_rows(ws, first_row: int, first_col: int, rows, number_formats) -> int:
     if not _FAST_CELLS:
         return _write_rows_public(ws, first_row, first_col, rows, number_formats)
     templates = []
-    for offset, fmt in enumerate(number_formats):
+    for fmt in number_formats:
         if fmt:
             probe = Cell(ws, row=1, column=1)
             probe.number_format = fmt

@@ -12,8 +12,16 @@ from openpyxl.worksheet.pagebreak import Break
 from planner.report import charts, styles
 from planner.report.cells import cell_value, put
 from planner.report.tables import (
-    CHART_ROWS, Column, dig, field_of, mapping_of, plan_sites, seq, title, write_table)
-
+    CHART_ROWS,
+    Column,
+    dig,
+    field_of,
+    mapping_of,
+    plan_sites,
+    seq,
+    title,
+    write_table,
+)
 
 #: Spending columns: (JSON key, header words). Their sum is the row's total.
 SPENDING_COLUMNS = (

@@ -4,11 +4,19 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
+from planner.plan.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
 from planner.report import styles
 from planner.report.cells import put
 from planner.report.tables import (
-    Column, field_of, mapping_of, plan_sites, seq, title, wrap_rows, write_table)
-from planner.report.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
+    Column,
+    field_of,
+    mapping_of,
+    plan_sites,
+    seq,
+    title,
+    wrap_rows,
+    write_table,
+)
 
 
 # ---------------------------------------------------------------- Assumptions

@@ -2,7 +2,7 @@
 
 One row per site, most at risk first: the probability that the pack in service reaches
 end of life before its next planned replacement (``risk_before_next_visit_frac``, see
-``planner.visit_risk``), the year of that visit and the expected cost of a failure
+``planner.plan.visit_risk``), the year of that visit and the expected cost of a failure
 before it. Rows above :data:`AT_RISK_FRAC` are highlighted.
 """
 
@@ -15,7 +15,7 @@ from planner.report import styles
 from planner.report.cells import cell_value
 from planner.report.tables import Column, field_of, plan_sites, study_start_year, title, write_table
 
-#: Sites above this probability are highlighted (the same threshold as planner.visit_risk).
+#: Sites above this probability are highlighted (the same threshold as planner.plan.visit_risk).
 AT_RISK_FRAC = 0.10
 AT_RISK_FILL = PatternFill("solid", fgColor="F6DDCC")
 AT_RISK_FONT = Font(name=styles.FONT_NAME, bold=True, color="7A2E0E")

@@ -6,11 +6,19 @@ from collections.abc import Mapping
 
 from openpyxl.utils import get_column_letter
 
+from planner.plan.cautions import LITHIUM_IDS
 from planner.report import styles
 from planner.report.cells import cell_value
 from planner.report.tables import (
-    Column, field_of, install_text, month_text, plan_sites, seq, study_start_year, write_table)
-from planner.report.cautions import LITHIUM_IDS
+    Column,
+    field_of,
+    install_text,
+    month_text,
+    plan_sites,
+    seq,
+    study_start_year,
+    write_table,
+)
 
 
 # ---------------------------------------------------------------- Visits

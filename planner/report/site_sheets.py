@@ -12,8 +12,21 @@ from openpyxl.utils import get_column_letter
 from planner.report import charts, styles
 from planner.report.cells import cell_value, put, write_rows
 from planner.report.tables import (
-    CHART_COLS, CHART_ROWS, MONTH_ABBR, Column, as_float_array, chart_page_breaks, dig,
-    field_of, install_text, month_text, plan_sites, seq, title, write_table)
+    CHART_COLS,
+    CHART_ROWS,
+    MONTH_ABBR,
+    Column,
+    as_float_array,
+    chart_page_breaks,
+    dig,
+    field_of,
+    install_text,
+    month_text,
+    plan_sites,
+    seq,
+    title,
+    write_table,
+)
 
 #: How many sites get a capacity-fade chart (the most expensive ones).
 FADE_CHART_SITES = 20

@@ -16,11 +16,19 @@ from openpyxl.chart import Reference
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.pagebreak import Break
 
+from planner.plan.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
 from planner.report import charts, styles
-from planner.report.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
 from planner.report.cells import cell_value, put
 from planner.report.tables import (
-    CHART_ROWS, Column, field_of, mapping_of, plan_sites, seq, title, write_table)
+    CHART_ROWS,
+    Column,
+    field_of,
+    mapping_of,
+    plan_sites,
+    seq,
+    title,
+    write_table,
+)
 from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
 
 #: How many of the most expensive sites the Summary lists.

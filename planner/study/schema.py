@@ -1,0 +1,331 @@
+"""The study-file and sites-table vocabulary: every key, its unit, default and range.
+
+One table drives validation (:mod:`planner.study.loading`), the reference in
+``docs/study-file.md``, the starter study written by ``planner new`` and the
+inputs listed in the workbook's assumptions sheet, so the four can never drift apart.
+"""
+
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+from typing import Any
+
+REQUIRED = object()
+
+
+@dataclass(frozen=True)
+class Field:
+    """One key of the study file or one column of the sites table."""
+
+    name: str
+    kind: str  # "float", "int", "str", "bool", "months", "floats", "strs"
+    default: Any = REQUIRED
+    unit: str = ""
+    minimum: float | None = None
+    maximum: float | None = None
+    exclusive_minimum: bool = False
+    choices: tuple[str, ...] | None = None
+    doc: str = ""
+
+    @property
+    def required(self) -> bool:
+        return self.default is REQUIRED
+
+    def expectation(self) -> str:
+        """Plain words for what a valid value looks like, for error messages."""
+        what = {
+            "float": "a number",
+            "int": "a whole number",
+            "str": "text",
+            "bool": "true or false",
+            "months": "months 1-12 (e.g. 6-9 or 5;6;7)",
+            "floats": "a list of numbers (in a table cell: separated by ';')",
+            "strs": "a list of names",
+        }[self.kind]
+        if self.choices:
+            return "one of " + ", ".join(self.choices)
+        bounds = []
+        if self.minimum is not None:
+            bounds.append(f"{'>' if self.exclusive_minimum else '>='} {self.minimum:g}")
+        if self.maximum is not None:
+            bounds.append(f"<= {self.maximum:g}")
+        return what + (" " + " and ".join(bounds) if bounds else "")
+
+
+def closest(name: str, valid) -> str:
+    """A ``; did you mean 'x'?`` suffix for a mistyped key, or an empty string."""
+    match = difflib.get_close_matches(name, list(valid), n=1, cutoff=0.6)
+    return f"; did you mean '{match[0]}'?" if match else ""
+
+
+F = Field
+
+#: Largest amount any single money field may hold, in any currency. Far above any real
+#: trip, pack or daily penalty (even in currencies of small unit), yet small enough that
+#: sums over a fleet and a 60-year horizon stay finite and the optimizer's coefficients
+#: stay within the range a MILP solver handles (HiGHS treats 1e20 as infinite).
+MAX_MONEY = 1e12
+#: Largest annual budget (a fleet-wide sum of many amounts).
+MAX_BUDGET = 1e15
+
+STUDY = (
+    F("name", "str", "", doc="Title shown in the plan; defaults to the file name."),
+    F("sites_file", "str", doc="Sites table (CSV or XLSX), relative to the study file."),
+    F("horizon_years", "int", 20, "years", 1, 60, doc="Planning horizon."),
+    F("discount_rate_frac", "float", 0.03, "1/year", 0.0, 0.5,
+      doc="Real discount rate (NIST Handbook 135 convention: constant money, real rate)."),
+    F("inflation_frac", "float", 0.0, "1/year", -0.1, 0.5,
+      doc="General inflation: the plan's spending by year is also shown in money of each "
+          "year (constant x (1 + inflation)^year); with nominal_rate_frac it also gives the "
+          "real rate = (1 + nominal)/(1 + inflation) - 1."),
+    F("nominal_rate_frac", "float", None, "1/year", 0.0, 0.5,
+      doc="Optional nominal discount rate; when given it replaces discount_rate_frac."),
+    F("currency", "str", "EUR", doc="Currency label written beside every amount."),
+    F("start_year", "int", 2027, "calendar year", 1990, 2100,
+      doc="Calendar year of the plan's year 0; ages of installed packs count to it."),
+    F("warming_k", "float", 0.0, "K", -5.0, 10.0,
+      doc="Added to every hourly air temperature (climate-change sensitivity)."),
+    F("report_soh_frac", "float", 0.8, "fraction", 0.5, 0.99,
+      doc="State of health used to report a 'life' figure (planning uses the site requirement)."),
+)
+
+CANDIDATES = (
+    F("chemistries", "strs", ("vrla", "lfp", "nmc", "lto", "lisocl2"),
+      doc="Chemistries the optimizer may choose from."),
+    F("oversize_factors", "floats", (1.0, 1.25, 1.5, 2.0, 3.0), "x 1x size", 1.0, 10.0,
+      doc="Pack sizes tried, as multiples of the 1x reference size."),
+    F("aging_factor", "float", 1.25, "factor", 1.0, 2.0,
+      doc="IEEE 1013 aging factor in the 1x size (1.25: end of life at 80 % capacity)."),
+    F("design_margin", "float", 1.10, "factor", 1.0, 2.0,
+      doc="Design margin in the 1x size (IEEE 1013 practice: 1.10-1.15)."),
+    F("lead_acid_temperature_factor", "str", "datasheet", choices=("datasheet", "ieee485"),
+      doc="VRLA cold correction in the 1x size: the chemistry's low-rate datasheet curve "
+          "(about 1.18 at 0 °C; telemetry packs discharge over days) or IEEE 485 Table 1 "
+          "(about 1.40 at 0 °C, written for 1-8 h rates; more conservative)."),
+    F("load_growth_step_years", "int", 5, "years", 1, 30,
+      doc="With a site's load growth: the load is re-simulated in steps of this many years; a "
+          "pack installed in a step is designed for the load at the step's end."),
+    F("design_changes", "bool", True,
+      doc="A replacement may install any candidate design of the site (false: a site keeps "
+          "the design of its first new pack)."),
+)
+
+COSTS = (
+    F("trip_cost", "float", 2500.0, "currency/trip", 0.0, MAX_MONEY,
+      doc="Mobilisation cost of one planned trip to a region (vehicle, helicopter, travel)."),
+    F("site_visit_cost", "float", 150.0, "currency/site", 0.0, MAX_MONEY,
+      doc="Extra cost of each site visited on a trip."),
+    F("labour_hours_per_replacement", "float", 3.0, "h", 0.0, 200.0,
+      doc="Crew hours to swap one pack."),
+    F("labour_rate_per_h", "float", 85.0, "currency/h", 0.0, MAX_MONEY),
+    F("disposal_per_kg", "float", 1.5, "currency/kg", 0.0, MAX_MONEY,
+      doc="Disposal or recycling of a removed pack."),
+    F("unplanned_trip_cost", "float", None, "currency/trip", 0.0, MAX_MONEY,
+      doc="Cost of an emergency trip after a failure; default 1.5 x the region's trip cost."),
+    F("downtime_cost_per_day", "float", 200.0, "currency/day", 0.0, MAX_MONEY,
+      doc="Penalty for each day a site is off air."),
+    F("illustrative", "bool", True,
+      doc="Mark the costs as illustrative in the workbook (set false for quoted prices)."),
+)
+
+PRICE = (
+    F("price_per_kwh", "float", None, "currency/kWh", 0.0, MAX_MONEY,
+      doc="Pack price per nominal kWh; default the chemistry library's illustrative price."),
+    F("fixed_price", "float", 0.0, "currency/pack", 0.0, MAX_MONEY,
+      doc="Fixed part of a pack's price (enclosure, BMS, cabling)."),
+    F("price_trend_frac_per_year", "float", 0.0, "1/year", -0.5, 0.5,
+      doc="Real yearly change of the pack price (-0.03: 3 % cheaper each year); a pack bought "
+          "in year t costs price x (1 + change)^t."),
+)
+
+REGION = (
+    F("trip_cost", "float", None, "currency/trip", 0.0, MAX_MONEY, doc="Default [costs].trip_cost."),
+    F("site_visit_cost", "float", None, "currency/site", 0.0, MAX_MONEY, doc="Default [costs].site_visit_cost."),
+    F("access_months", "months", tuple(range(1, 13)), "month numbers",
+      doc="Months when crews can reach the region's sites."),
+)
+
+LIMITS = (
+    F("crew_site_visits_per_year", "int", 0, "sites/year", 0, 1_000_000, doc="0 means no limit."),
+    F("annual_budget", "float", 0.0, "currency/year", 0.0, MAX_BUDGET, doc="0 means no limit."),
+    F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, 1e6, doc="0 means no limit."),
+)
+
+THERMAL = (
+    F("measures", "strs", ("insulated-box", "heater-box", "sun-shield", "vault"),
+      doc="Thermal measures a new installation may add where they can matter (heaters and the "
+          "box where the battery gets too cold to charge, shade, a vault and the box where it gets "
+          "hot); [\"none\"] switches them off. Ids: insulated-box, heater (a pad alone), heater-box, "
+          "sun-shield, vault."),
+    F("heater_setpoint_c", "float", 5.0, "°C", -30.0, 30.0,
+      doc="Thermostat of an added battery heater (lithium-ion is charged above 0 °C)."),
+    F("heater_power_w", "float", 20.0, "W", 1.0, 2000.0,
+      doc="Electric power of an added heater pad; its energy is part of the load, hour by hour."),
+    F("heater_control", "str", "charging", choices=("charging", "thermostat"),
+      doc="charging: an added heater runs on the charging source's surplus over the load (up to its "
+          "power) while the battery is below the setpoint, warming the pack to accept charge; "
+          "thermostat: it holds the setpoint day and night from the battery."),
+    F("heater_price", "float", 120.0, "currency", 0.0, MAX_MONEY, doc="Heater pad with thermostat."),
+    F("heater_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit a heater."),
+    F("box_ua_w_k", "float", 1.0, "W/K", 0.05, 100.0,
+      doc="Conductance of the insulated battery box (in series with the enclosure's)."),
+    F("box_price", "float", 150.0, "currency", 0.0, MAX_MONEY, doc="Insulated battery box."),
+    F("box_labour_h", "float", 1.0, "h", 0.0, 200.0, doc="Crew hours to fit the box."),
+    F("shield_price", "float", 250.0, "currency", 0.0, MAX_MONEY, doc="Sun shield or canopy over a cabinet."),
+    F("shield_labour_h", "float", 2.0, "h", 0.0, 200.0, doc="Crew hours to fit a sun shield."),
+    F("vault_price", "float", 2500.0, "currency", 0.0, MAX_MONEY, doc="Buried vault for the battery, dug in."),
+    F("vault_labour_h", "float", 16.0, "h", 0.0, 500.0, doc="Crew hours to dig in and move to a vault."),
+)
+
+SOLVER = (
+    F("name", "str", "auto", choices=("auto", "highs", "cbc"),
+      doc="MILP solver: HiGHS where installed, CBC otherwise."),
+    F("time_limit_s", "float", 60.0, "s", 1.0, 86400.0),
+    F("gap_rel_frac", "float", 0.005, "fraction", 0.0, 0.5, doc="Relative optimality gap to stop at."),
+)
+
+OUTPUT = (
+    F("workbook", "str", "", doc="Workbook path; default output/<study file name>.xlsx."),
+    F("json", "str", "", doc="Optional JSON path for the same plan."),
+    F("fade_chart_sites", "int", 20, "sites", 0, 200,
+      doc="Capacity-fade charts are drawn for this many of the most expensive sites."),
+    F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
+)
+
+# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
+# electronics, so a cap applies (chemistries.toml holds the default with its source).
+SERVICE_LIFE = tuple(
+    F(chem_id, "float", None, "years", 1.0, 60.0,
+      doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
+          "blank = the chemistry library's value (`planner life --list`).")
+    for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
+
+SECTIONS = {
+    "study": STUDY,
+    "candidates": CANDIDATES,
+    "costs": COSTS,
+    "service_life": SERVICE_LIFE,
+    "limits": LIMITS,
+    "thermal": THERMAL,
+    "solver": SOLVER,
+    "output": OUTPUT,
+}
+# Sections whose sub-tables are named by the user: [prices.<chemistry>], [regions.<name>],
+# [climates.<name>] (options for a user climate file, checked by planner.climate).
+NAMED_SECTIONS = {"prices": PRICE, "regions": REGION, "climates": None}
+
+SITE_COLUMNS = (
+    F("id", "str", doc="Unique site id."),
+    F("name", "str", "", doc="Site name; defaults to the id."),
+    F("region", "str", doc="Trip region: one planned trip serves every site of its region visited that year."),
+    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry, or an EPW/TMY3/TMY2 file."),
+    F("enclosure", "str", "cabinet-sun", choices=("cabinet-sun", "cabinet-shade", "vault", "shelter"),
+      doc="Enclosure kind (sets the thermal model's defaults)."),
+    F("load_w", "float", unit="W", minimum=0.0, maximum=5000.0, doc="Continuous load (mean power)."),
+    F("burst_w", "float", 0.0, "W", 0.0, 20000.0, doc="Extra power during a transmit burst."),
+    F("burst_s", "float", 0.0, "s", 0.0, 3600.0, doc="Length of each burst."),
+    F("burst_every_min", "float", 0.0, "min", 0.0, 1440.0, doc="Time between burst starts; 0 = no bursts."),
+    F("load_schedule_w", "floats", (), "W", 0.0, 20000.0,
+      doc="Extra load per hour of the day: 24 values separated by ';' (hour 0 first)."),
+    F("load_monthly_factors", "floats", (), "factor", 0.0, 10.0,
+      doc="Multiplies the whole load month by month: 12 values separated by ';'."),
+    F("load_file", "str", "",
+      doc="Hourly load CSV (8,760 rows, column load_w in W), added to the other load terms; "
+          "relative to the study file."),
+    F("charging", "str", "pv", choices=("pv", "mains", "none"), doc="Charging source."),
+    F("pv_wp", "float", 0.0, "Wp", 0.0, 20000.0, doc="PV array size (with charging = pv)."),
+    F("pv_tilt_deg", "float", None, "deg", 0.0, 90.0, doc="Blank: |latitude| + 15, capped at 90 (favours winter)."),
+    F("pv_azimuth_deg", "float", None, "deg", 0.0, 360.0, doc="Blank: facing the equator (180 north of it, 0 south)."),
+    F("pv_snow_months", "months", (), "month numbers",
+      doc="Months the array is taken as snow-covered (no PV); blank = none."),
+    F("outages_per_year", "float", 0.0, "1/year", 0.0, 365.0, doc="Mains outages (with charging = mains)."),
+    F("outage_mean_h", "float", 0.0, "h", 0.0, 2000.0, doc="Mean mains outage duration."),
+    F("load_growth_frac_per_year", "float", 0.0, "1/year", -0.2, 0.5,
+      doc="Yearly growth of the site's own load (0.05: 5 % a year); later packs are designed for it."),
+    F("autonomy_days", "float", unit="days", minimum=0.0, maximum=60.0, exclusive_minimum=True,
+      doc="Days the pack must carry the load with no charging."),
+    F("system_voltage_v", "float", 12.0, "V", 1.0, 60.0, doc="Nominal DC bus voltage."),
+    F("access_months", "months", (), "month numbers", doc="Months the site can be reached; blank = its region's."),
+    F("heater_setpoint_c", "float", None, "°C", -40.0, 40.0,
+      doc="Battery heater thermostat; blank = no heater."),
+    F("thermal_measures", "str", "",
+      doc="Thermal measures this site may use, separated by ';' ('none': none); blank = [thermal].measures."),
+    F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
+      doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
+    F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),
+    F("existing_chemistry", "str", "", doc="Chemistry of the pack installed today (blank: new pack at start)."),
+    F("existing_capacity_wh", "float", 0.0, "Wh", 0.0, 1e7),
+    F("existing_installed_year", "int", 0, "calendar year", 0, 2100),
+    F("existing_soh_frac", "float", 0.0, "fraction", 0.0, 1.0,
+      doc="Measured capacity / rated capacity, if known (0: predict from age)."),
+    F("notes", "str", "", doc="Free text, copied to the plan."),
+)
+
+
+def reference_markdown() -> str:
+    """The study-file reference (``docs/study-file.md``), generated from the tables above."""
+
+    def rows(specs):
+        out = ["| key | unit | default | allowed | meaning |", "|---|---|---|---|---|"]
+        for spec in specs:
+            default = "required" if spec.required else _shown_default(spec.default)
+            out.append(f"| `{spec.name}` | {spec.unit or ''} | {default} | {spec.expectation()} "
+                       f"| {spec.doc} |")
+        return out
+
+    lines = [
+        "# Study file reference",
+        "",
+        "Generated from `planner/study/schema.py` (a test keeps the two equal). A study is a TOML file",
+        "with the sections below, plus a sites table (CSV or XLSX) named by `[study].sites_file`.",
+        "Unknown keys, sections and columns are errors (the closest valid name is suggested).",
+        "Money is in `[study].currency`, in constant (real) terms. Every money field is at most",
+        f"{MAX_MONEY:g} and `[limits].annual_budget` at most {MAX_BUDGET:g}, in any currency: far above",
+        "any real amount, and small enough that fleet sums stay finite for the optimizer.",
+        "",
+        "A `[regions.<region>]` table that no site uses is an error (the closest region of the",
+        "sites is suggested); sites in a region without a table use the `[costs]` defaults.",
+        "",
+        "Numbers in the sites table are plain decimals: an optional sign, digits and an optional",
+        "decimal point (`2`, `-1.5`, `0.25`). Exponents (`1e1`), digit separators (`1_0`, `1,000`),",
+        "`inf` and `nan` are errors; months are whole numbers 1-12.",
+        "",
+        "Input files (the study, its sites table, climate and load files) must be regular files of",
+        f"at most {_input_limit_mib()} MiB each; a folder, device, named pipe or socket is refused before",
+        "anything is read. A study saved with a UTF-8 byte-order mark is read as without it.",
+        "",
+    ]
+    for section, specs in SECTIONS.items():
+        lines += [f"## [{section}]", "", *rows(specs), ""]
+    lines += ["## [prices.<chemistry>]", "",
+              "Optional, one table per chemistry id (`vrla`, `lfp`, `nmc`, `lto`, `lisocl2`).", "",
+              *rows(NAMED_SECTIONS["prices"]), ""]
+    lines += ["## [regions.<region>]", "",
+              "Optional, one table per region named in the sites table.", "",
+              *rows(NAMED_SECTIONS["regions"]), ""]
+    lines += ["## [climates.<name>]", "",
+              "Optional: a user climate file and how to read it (`file` plus the reading options",
+              "in `docs/climate.md`); sites then name it in their `climate` column.", ""]
+    lines += ["## Sites table columns", "",
+              "One row per site. Months are written `6-9`, `11-3` (wrapping), `5;6;7` or `all`.", "",
+              *rows(SITE_COLUMNS), ""]
+    lines += ["## Complete example", "", "`scenarios/corvale.toml` with `scenarios/corvale_sites.csv`;",
+              "`planner new DIR` writes a commented starter with every key.", ""]
+    return "\n".join(lines)
+
+
+def _input_limit_mib() -> int:
+    from planner.fileio import MAX_INPUT_BYTES
+
+    return MAX_INPUT_BYTES // 2**20
+
+
+def _shown_default(value) -> str:
+    if isinstance(value, tuple):
+        return "[" + ", ".join(str(v) for v in value) + "]" if value else "(blank)"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if value == "" or value is None:
+        return "(blank)"
+    return f"{value:g}" if isinstance(value, float) else str(value)

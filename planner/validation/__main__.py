@@ -1,0 +1,5 @@
+import sys
+
+from planner.validation.published import main
+
+sys.exit(main())

@@ -1,0 +1,350 @@
+"""Study-file and sites-table validation (issue: foundation).
+
+Each class of bad input must give the project's InputError with one line naming the file,
+the key path or row/column, what was found and what was expected.
+"""
+
+import os
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from planner.errors import InputError
+from planner.study.loading import load_study, parse_months
+from planner.study.schema import reference_markdown
+
+REPO = Path(__file__).resolve().parents[1]
+
+SITES_HEADER = "id,name,region,climate,load_w,charging,pv_wp,autonomy_days,access_months\n"
+GOOD_ROW = "A-1,Gauge,hills,alpine,2.0,pv,60,5,6-9\n"
+
+
+def write_study(tmp_path, toml_body, sites=SITES_HEADER + GOOD_ROW, sites_name="sites.csv"):
+    (tmp_path / sites_name).write_text(sites, encoding="utf-8")
+    study = tmp_path / "study.toml"
+    study.write_text(toml_body, encoding="utf-8")
+    return study
+
+
+BASE = '[study]\nsites_file = "sites.csv"\n'
+
+
+def error_of(path) -> str:
+    with pytest.raises(InputError) as info:
+        load_study(path)
+    message = str(info.value)
+    assert "\n" not in message, "an input error is one line"
+    return message
+
+
+def test_valid_minimal_study_fills_defaults(tmp_path):
+    study = load_study(write_study(tmp_path, BASE))
+    assert study.settings["study"]["horizon_years"] == 20
+    assert study.sites[0].access_months == (6, 7, 8, 9)
+    assert study.sites[0].name == "Gauge"
+    assert study.name == "study"
+
+
+def test_unknown_key_suggests_closest(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + "horizon_year = 10\n"))
+    assert "study.toml" in message
+    assert "[study].horizon_year" in message
+    assert "did you mean 'horizon_years'" in message
+
+
+def test_unknown_section_suggests_closest(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + "[cost]\ntrip_cost = 1.0\n"))
+    assert "unknown section [cost]" in message and "did you mean 'costs'" in message
+
+
+def test_wrong_type(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + 'horizon_years = "twenty"\n'))
+    assert "[study].horizon_years = 'twenty'" in message and "whole number" in message
+
+
+@pytest.mark.parametrize(
+    "line, key",
+    [
+        ("[costs]\ntrip_cost = -5.0", "[costs].trip_cost"),
+        ("discount_rate_frac = 0.6", "[study].discount_rate_frac"),
+        ("horizon_years = 0", "[study].horizon_years"),
+        ("horizon_years = 61", "[study].horizon_years"),
+        ("[regions.hills]\naccess_months = [0, 13]", "[regions.hills].access_months"),
+    ],
+)
+def test_out_of_range_values(tmp_path, line, key):
+    message = error_of(write_study(tmp_path, BASE + line + "\n"))
+    assert key in message and "expected" in message
+
+
+def test_unknown_chemistry_lists_valid_ids(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + '[candidates]\nchemistries = ["lfp", "lifepo"]\n'))
+    assert "lifepo" in message and "vrla, lfp, nmc, lto, lisocl2" in message
+
+
+def test_missing_study_file(tmp_path):
+    message = error_of(tmp_path / "nope.toml")
+    assert "nope.toml" in message and "not found" in message
+
+
+def test_invalid_toml_syntax(tmp_path):
+    message = error_of(write_study(tmp_path, "[study\n"))
+    assert "not valid TOML" in message
+
+
+def test_missing_sites_file(tmp_path):
+    study = tmp_path / "study.toml"
+    study.write_text('[study]\nsites_file = "absent.csv"\n')
+    message = error_of(study)
+    assert "absent.csv" in message and "not found" in message
+
+
+def test_empty_sites_table(tmp_path):
+    assert "no rows" in error_of(write_study(tmp_path, BASE, sites=SITES_HEADER))
+    assert "empty" in error_of(write_study(tmp_path, BASE, sites=""))
+
+
+def test_duplicate_site_ids_name_both_rows(tmp_path):
+    message = error_of(write_study(tmp_path, BASE, sites=SITES_HEADER + GOOD_ROW + GOOD_ROW))
+    assert "row 3" in message and "duplicate site id 'A-1'" in message and "row 2" in message
+
+
+@pytest.mark.parametrize(
+    "row, column",
+    [
+        ("A-1,Gauge,hills,alpine,2.0,pv,60,0,6-9\n", "autonomy_days"),
+        ("A-1,Gauge,hills,alpine,2.0,pv,60,-1,6-9\n", "autonomy_days"),
+        ("A-1,Gauge,hills,alpine,2.0,pv,60,5,13\n", "access_months"),
+        ("A-1,Gauge,hills,alpine,-2,pv,60,5,6-9\n", "load_w"),
+        ("A-1,Gauge,hills,alpine,abc,pv,60,5,6-9\n", "load_w"),
+        ("A-1,Gauge,hills,alpine,2.0,wind,60,5,6-9\n", "charging"),
+        ("A-1,Gauge,hills,alpine,2.0,pv,,5,6-9\n", "pv_wp"),
+        (",Gauge,hills,alpine,2.0,pv,60,5,6-9\n", "id"),
+    ],
+)
+def test_bad_site_cells_name_row_and_column(tmp_path, row, column):
+    message = error_of(write_study(tmp_path, BASE, sites=SITES_HEADER + row))
+    assert "sites.csv" in message and "row 2" in message and f"column {column}" in message
+    assert "expected" in message
+
+
+def test_unknown_climate_names_row_and_suggests(tmp_path):
+    row = "A-1,Gauge,hills,alpin,2.0,pv,60,5,6-9\n"
+    message = error_of(write_study(tmp_path, BASE, sites=SITES_HEADER + row))
+    assert "row 2, column climate" in message and "did you mean 'alpine'" in message
+
+
+def test_climate_entry_needs_an_existing_file(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + '[climates.logger]\nfile = "nope.csv"\n'))
+    assert "[climates.logger].file" in message and "not found" in message
+
+
+def test_unknown_column_suggests_closest(tmp_path):
+    sites = SITES_HEADER.replace("autonomy_days", "autonomy_day") + GOOD_ROW
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "unknown column 'autonomy_day'" in message and "autonomy_days" in message
+
+
+def test_existing_pack_needs_capacity_and_year(tmp_path):
+    sites = SITES_HEADER.strip() + ",existing_chemistry\n" + GOOD_ROW.strip() + ",vrla\n"
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "existing_capacity_wh" in message
+
+
+def test_xlsx_sites_table(tmp_path):
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    sheet = book.active
+    for line in (SITES_HEADER + GOOD_ROW).strip().splitlines():
+        sheet.append(line.split(","))
+    book.save(tmp_path / "sites.xlsx")
+    study = tmp_path / "study.toml"
+    study.write_text('[study]\nsites_file = "sites.xlsx"\n')
+    assert load_study(study).sites[0].autonomy_days == 5.0
+
+
+def test_nominal_rate_converts_to_real(tmp_path):
+    # NIST Handbook 135 real rate d = (1 + D)/(1 + I) - 1; D = 5 %, I = 2 % -> 0.029412 (computed)
+    study = load_study(write_study(tmp_path, BASE + "nominal_rate_frac = 0.05\ninflation_frac = 0.02\n"))
+    assert study.discount_rate_frac == pytest.approx(0.029412, abs=1e-6)
+
+
+@pytest.mark.parametrize(
+    "text, months",
+    [("6-9", (6, 7, 8, 9)), ("11-2", (1, 2, 11, 12)), ("5;7", (5, 7)), ("all", tuple(range(1, 13)))],
+)
+def test_month_notation(text, months):
+    assert parse_months(text) == months
+
+
+def test_bundled_studies_validate():
+    for name in ("corvale.toml", "quick.toml"):
+        study = load_study(REPO / "scenarios" / name)
+        assert len(study.sites) >= 3
+
+
+def test_demo_network_meets_its_brief():
+    # The demo must have 12-20 sites in at least three contrasting climates (foundation issue).
+    study = load_study(REPO / "scenarios" / "corvale.toml")
+    assert 12 <= len(study.sites) <= 20
+    assert len({site.climate for site in study.sites}) >= 3
+
+
+def test_reference_doc_is_generated_from_schema():
+    assert (REPO / "docs" / "study-file.md").read_text(encoding="utf-8") == reference_markdown()
+
+
+# ---------------------------------------------------------------- junk input
+
+toml_text = st.text(alphabet=st.characters(codec="utf-8"), max_size=200)
+toml_like = st.lists(
+    st.sampled_from(['[study]', 'sites_file = "sites.csv"', 'horizon_years = 5', 'horizon_years = "x"',
+                     '[costs]', 'trip_cost = -1', '[regions.a]', 'access_months = [1, 99]',
+                     '[candidates]', 'chemistries = []', 'oversize_factors = [0.5]', '= =', '[[study]]',
+                     'name = 3', 'discount_rate_frac = nan', 'x = {a = 1}', '[prices.lfp]',
+                     'price_per_kwh = inf']),
+    max_size=8,
+).map("\n".join)
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(body=st.one_of(toml_text, toml_like))
+def test_junk_toml_raises_only_input_error(tmp_path, body):
+    study = write_study(tmp_path, body)
+    try:
+        load_study(study)
+    except InputError:
+        pass
+
+
+csv_cell = st.one_of(st.text(max_size=6), st.sampled_from(["", "1", "-3", "nan", "1e999", "6-9", "pv"]))
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.lists(csv_cell, min_size=0, max_size=10), max_size=4),
+       raw=st.text(max_size=120))
+def test_junk_sites_table_raises_only_input_error(tmp_path, rows, raw):
+    import csv
+    import io
+
+    buffer = io.StringIO()
+    csv.writer(buffer).writerows(rows)
+    for sites in (SITES_HEADER + buffer.getvalue(), raw):
+        study = write_study(tmp_path, BASE, sites=sites)
+        try:
+            load_study(study)
+        except InputError:
+            pass
+
+
+def test_load_schedule_needs_24_values(tmp_path):
+    sites = ("id,region,climate,load_w,charging,pv_wp,autonomy_days,load_schedule_w\n"
+             "A,r,alpine,1,pv,50,5," + ";".join(["1"] * 23) + "\n")
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "row 2, column load_schedule_w: 23 values; expected 24" in message
+
+
+def test_missing_load_file_names_row(tmp_path):
+    sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,r,alpine,1,pv,50,5,x.csv\n"
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "row 2, column load_file" in message and "not found" in message
+
+
+# ---------------------------------------------------------------- issue 15 hardening
+
+
+def test_unused_region_table_is_an_error_with_a_hint(tmp_path):
+    # item 3: [regions.hill] while the sites say "hills" must not fall back silently
+    message = error_of(write_study(tmp_path, BASE + "[regions.hill]\ntrip_cost = 5000.0\n"))
+    assert "[regions.hill] is used by no site; did you mean 'hills'?" in message
+
+
+def test_unused_region_table_without_a_close_name_lists_the_regions(tmp_path):
+    message = error_of(write_study(tmp_path, BASE + "[regions.coast]\ntrip_cost = 5000.0\n"))
+    assert "[regions.coast] is used by no site; the sites' regions are hills" in message
+
+
+def test_region_without_a_table_keeps_the_cost_defaults(tmp_path):
+    study = load_study(write_study(tmp_path, BASE + "[costs]\ntrip_cost = 1234.0\n"))
+    assert study.region("hills")["trip_cost"] == 1234.0
+
+
+@pytest.mark.parametrize("column, cell", [
+    ("load_w", "1_0"), ("load_w", "1e1"), ("load_w", "inf"), ("load_w", "nan"),
+    ("load_w", "0x10"), ("load_w", "١٢"), ("access_months", "1e1"), ("access_months", "6.0"),
+    ("pv_wp", "6 0"),
+])
+def test_sites_numbers_follow_one_plain_decimal_syntax(tmp_path, column, cell):
+    # item 6: "1_0" is not 10 and "1e1" is not October
+    header = "id,region,climate,load_w,charging,pv_wp,autonomy_days,access_months\n"
+    values = {"load_w": "2", "pv_wp": "60", "access_months": "6-9", column: cell}
+    row = f"A,hills,alpine,{values['load_w']},pv,{values['pv_wp']},5,{values['access_months']}\n"
+    message = error_of(write_study(tmp_path, BASE, sites=header + row))
+    assert f"row 2, column {column}: found '{cell}'" in message
+
+
+@pytest.mark.parametrize("cell, value", [("2", 2.0), ("-0", 0.0), ("+2.5", 2.5), (".5", 0.5), ("2.", 2.0)])
+def test_plain_decimals_are_accepted(tmp_path, cell, value):
+    header = "id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
+    study = load_study(write_study(tmp_path, BASE, sites=header + f"A,hills,alpine,{cell},pv,60,5\n"))
+    assert study.sites[0].load_w == value
+
+
+def test_xlsx_numbers_are_read_as_plain_decimals(tmp_path):
+    import pandas as pd
+
+    frame = pd.DataFrame({"id": ["A"], "region": ["hills"], "climate": ["alpine"], "load_w": [0.00001],
+                          "charging": ["pv"], "pv_wp": [60], "autonomy_days": [5]})
+    frame.to_excel(tmp_path / "sites.xlsx", index=False)
+    study = load_study(write_study(tmp_path, BASE.replace("sites.csv", "sites.xlsx"),
+                                   sites_name="ignored.csv"))
+    assert study.sites[0].load_w == pytest.approx(1e-5)
+
+
+def test_deeply_nested_toml_is_bad_input(tmp_path):
+    # item 10: 5,000 nested arrays gave a RecursionError traceback
+    message = error_of(write_study(tmp_path, BASE + "x = " + "[" * 5000 + "]" * 5000 + "\n"))
+    assert "nested too deeply" in message
+
+
+def test_byte_order_mark_is_accepted(tmp_path):
+    # item 14: Windows editors save UTF-8 with a BOM (Unicode Standard §23.8, U+FEFF)
+    study = tmp_path / "study.toml"
+    write_study(tmp_path, BASE)
+    study.write_bytes(b"\xef\xbb\xbf" + BASE.encode("utf-8"))
+    assert load_study(study).sites[0].id == "A-1"
+
+
+@pytest.mark.parametrize("key", ["downtime_cost_per_day", "trip_cost", "labour_rate_per_h",
+                                 "site_visit_cost", "disposal_per_kg", "unplanned_trip_cost"])
+def test_money_fields_are_bounded(tmp_path, key):
+    # item 8: 1e308 in a money field made HiGHS spin for minutes or gave a false "no plan"
+    message = error_of(write_study(tmp_path, BASE + f"[costs]\n{key} = 1e308\n"))
+    assert f"[costs].{key} = 1e+308: expected a number >= 0 and <= 1e+12" in message
+
+
+def test_semicolon_separated_table_gets_a_hint(tmp_path):
+    sites = SITES_HEADER.replace(",", ";") + GOOD_ROW.replace(",", ";")
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "separated by ';'" in message
+
+
+def test_table_on_another_sheet_gets_a_hint(tmp_path):
+    import pandas as pd
+
+    with pd.ExcelWriter(tmp_path / "sites.xlsx") as writer:
+        pd.DataFrame({"Notes": ["the sites are on the next sheet"]}).to_excel(writer, sheet_name="Read me", index=False)
+        pd.DataFrame({"id": ["A"]}).to_excel(writer, sheet_name="Sites", index=False)
+    message = error_of(write_study(tmp_path, BASE.replace("sites.csv", "sites.xlsx"), sites_name="x.csv"))
+    assert "read from the first sheet ('Read me')" in message
+
+
+def test_fifo_climate_or_load_file_is_refused_by_type(tmp_path):
+    # item 9: a FIFO named as a load file is refused before anything reads it
+    os.mkfifo(tmp_path / "load.csv")
+    sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,hills,alpine,1,pv,50,5,load.csv\n"
+    message = error_of(write_study(tmp_path, BASE, sites=sites))
+    assert "load.csv: is a named pipe (FIFO), not a regular file" in message
