@@ -8,8 +8,9 @@ to licensed practice. Scopes of the named standards are summarised in
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
+
+from planner.plan.numbers import finite_number
 
 
 @dataclass(frozen=True)
@@ -180,21 +181,14 @@ def derived_site_warnings(site: dict) -> list[str]:
     cold_covered = "charge_blocked_hours_per_year" in site or "cold" in said
     hot_covered = "above" in said and "°c" in said
     found = [
-        None if cold_covered else cold_charge_warning(site_id, chem, _number(temp.get("battery_p1_c")),
+        None if cold_covered else cold_charge_warning(site_id, chem, finite_number(temp.get("battery_p1_c")),
                                                       heated=bool(site.get("heater"))),
         None if hot_covered or chem not in LITHIUM_ION_IDS else hot_battery_warning(site_id, chem,
-                                                                                   _number(temp.get("battery_p99_c"))),
-        heavy_pack_warning(site_id, _number(site.get("pack_mass_kg"))),
+                                                                                   finite_number(temp.get("battery_p99_c"))),
+        heavy_pack_warning(site_id, finite_number(site.get("pack_mass_kg"))),
     ]
     out = []
     for text in [*raised, *(f for f in found if f)]:
         if text not in out:
             out.append(text)
     return out
-
-
-def _number(value) -> float | None:
-    """A finite float, or None for anything else (the plan may lack a value)."""
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        return None
-    return float(value) if math.isfinite(value) else None

@@ -9,6 +9,7 @@ from openpyxl.chart import Reference
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.pagebreak import Break
 
+from planner.plan.numbers import finite_number
 from planner.report import charts, styles
 from planner.report.cells import cell_value, put
 from planner.report.tables import (
@@ -37,15 +38,10 @@ def _spending_rows(plan) -> list[Mapping]:
     return [r for r in seq(plan.get("spending_by_year")) if isinstance(r, Mapping)]
 
 
-def _number(value):
-    value = cell_value(value)
-    return value if isinstance(value, int | float) else None
-
-
 def present_value_tolerance(rows, plan_total) -> float:
     """Tolerance of the check line: :data:`PRESENT_VALUE_TOLERANCE` plus the rounding of
     figures read back from the plan JSON (6 significant digits, docs/plan-json.md)."""
-    stored = sum(abs(_number(r.get("present_value")) or 0.0) for r in rows) + abs(plan_total or 0.0)
+    stored = sum(abs(finite_number(r.get("present_value")) or 0.0) for r in rows) + abs(plan_total or 0.0)
     return PRESENT_VALUE_TOLERANCE + 5e-6 * stored
 
 
@@ -53,8 +49,8 @@ def spending_sheet(ws, plan, fmt) -> None:
     cur = fmt["cur"]
     money = styles.money_format_dash_zero(cur)
     study = mapping_of(plan.get("study"))
-    inflation = _number(study.get("inflation_frac")) or 0.0
-    rate = _number(study.get("discount_rate_frac"))
+    inflation = finite_number(study.get("inflation_frac")) or 0.0
+    rate = finite_number(study.get("discount_rate_frac"))
     title(ws, "Spending by year",
           f"Constant money of the study start [{cur}], as the optimizer prices it; money of the year at "
           f"{inflation:.1%} inflation; present value at the real rate"
@@ -79,8 +75,8 @@ def spending_sheet(ws, plan, fmt) -> None:
     # Check lines: the present values add up to the plan's total present cost. Labels sit in
     # column A and run over the empty cells to their right.
     pv_col = headers.index(f"Present value [{cur}]") + 1
-    total_pv = sum(_number(r.get("present_value")) or 0.0 for r in rows)
-    plan_total = _number(plan.get("total_present_cost"))
+    total_pv = sum(finite_number(r.get("present_value")) or 0.0 for r in rows)
+    plan_total = finite_number(plan.get("total_present_cost"))
     check = [("Sum of the present values above", total_pv),
              ("Total present cost of the plan", plan_total)]
     if plan_total is not None:
@@ -104,7 +100,7 @@ def spending_sheet(ws, plan, fmt) -> None:
     first_part = headers.index(f"{SPENDING_COLUMNS[0][1]} [{cur}]") + 1
     series = [Reference(ws, min_col=first_part + k, min_row=top, max_row=last)
               for k, (key, _) in enumerate(SPENDING_COLUMNS)
-              if any(_number(r.get(key)) for r in rows)]
+              if any(finite_number(r.get(key)) for r in rows)]
     year_col = 2 if "Calendar year" in headers else 1
     charts.stacked_bar_chart(
         ws, title="Spending by year, constant money", x_title="Year",
@@ -132,7 +128,7 @@ def _region_table(ws, plan, fmt, top: int) -> int:
     records = [{"year": r.get("year"), "calendar_year": r.get("calendar_year"),
                 "totals": [dig(rows, r.get("year"), "total") for rows in by_region]} for r in years]
     records.append({"year": "Present value",
-                    "totals": [sum(_number(x.get("present_value")) or 0.0 for x in rows.values())
+                    "totals": [sum(finite_number(x.get("present_value")) or 0.0 for x in rows.values())
                                for rows in by_region]})
     cols = [Column("Year", field_of("year"), styles.INTEGER, width=6),
             Column("Calendar year", field_of("calendar_year"), "0", optional=True, width=9)]

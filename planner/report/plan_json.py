@@ -160,4 +160,3 @@ def write_json(plan: Mapping, path) -> Path:
             os.fsync(fh.fileno())
 
     return write_atomically(path, _write, what="plan JSON")
-

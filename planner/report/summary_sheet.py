@@ -17,6 +17,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.pagebreak import Break
 
 from planner.plan.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
+from planner.plan.numbers import finite_number
 from planner.report import charts, styles
 from planner.report.cells import cell_value, put
 from planner.report.tables import (
@@ -40,21 +41,16 @@ COST_GROUPS = (("equipment", "Equipment"), ("trips_and_labour", "Trips and labou
                ("downtime", "Days off air"), ("failure_risk", "Failure risk"))
 
 
-def _number(value):
-    value = cell_value(value)
-    return value if isinstance(value, int | float) else None
-
-
 def _facts(plan, fmt) -> list[tuple[str, object, str | None]]:
     study = mapping_of(plan.get("study"))
     solver = mapping_of(plan.get("solver"))
     cur = fmt["cur"]
     sites = plan_sites(plan)
     unserved = seq(plan.get("unserved_sites"))
-    installed = sum(_number(s.get("capacity_wh")) or 0.0 for s in sites) / 1000.0
+    installed = sum(finite_number(s.get("capacity_wh")) or 0.0 for s in sites) / 1000.0
     replacements = sum(len(seq(s.get("replacement_years"))) for s in sites)
-    trips = sum(_number(t.get("trip_count")) or 1 for t in seq(plan.get("trips")) if isinstance(t, Mapping))
-    inflation = _number(study.get("inflation_frac"))
+    trips = sum(finite_number(t.get("trip_count")) or 1 for t in seq(plan.get("trips")) if isinstance(t, Mapping))
+    inflation = finite_number(study.get("inflation_frac"))
     return [
         (f"Total present cost [{cur}]", plan.get("total_present_cost"), fmt["money"]),
         ("Plan status", plan_status_text(plan), None),
@@ -151,8 +147,8 @@ def fleet_groups(sites, key: str) -> list[dict]:
         g = groups.setdefault(name, {"group": name, "sites": 0, "installed_kwh": 0.0,
                                      "present_cost": 0.0, "replacements": 0})
         g["sites"] += 1
-        g["installed_kwh"] += (_number(site.get("capacity_wh")) or 0.0) / 1000.0
-        g["present_cost"] += _number(site.get("present_cost")) or 0.0
+        g["installed_kwh"] += (finite_number(site.get("capacity_wh")) or 0.0) / 1000.0
+        g["present_cost"] += finite_number(site.get("present_cost")) or 0.0
         g["replacements"] += len(seq(site.get("replacement_years")))
     return sorted(groups.values(), key=lambda g: (-g["present_cost"], g["group"]))
 
@@ -185,9 +181,9 @@ def _overview(ws, plan, fmt, top: int) -> int:
 
 def _top_sites(ws, plan, fmt, top: int) -> int:
     sites = plan_sites(plan)
-    costed = [s for s in sites if _number(s.get("present_cost")) is not None]
+    costed = [s for s in sites if finite_number(s.get("present_cost")) is not None]
     ranked = sorted(costed, key=lambda s: (-float(s["present_cost"]), str(s.get("id"))))[:TOP_SITES]
-    total = _number(plan.get("total_present_cost"))
+    total = finite_number(plan.get("total_present_cost"))
     put(ws, top, 1, f"The {len(ranked)} most expensive sites of {len(sites):,} "
                     "(every site: sheet Sites)").font = styles.SECTION_FONT
     cols = [Column("Site id", field_of("id"), width=12), Column("Site name", field_of("name")),

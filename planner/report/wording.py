@@ -8,8 +8,9 @@ the JSON (``solver.status``, ``chemistry_comparison[].status``).
 
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping
+
+from planner.plan.numbers import finite_number
 
 #: Longest list of site ids written out in a sentence; beyond it, a count and a pointer.
 MAX_IDS_NAMED = 3
@@ -19,18 +20,11 @@ def _seq(value) -> list:
     return list(value) if isinstance(value, list | tuple) else []
 
 
-def _num(value):
-    """A finite number, else None (NaN and infinities read as missing)."""
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        return None
-    return value if math.isfinite(value) else None
-
-
 def _count(value) -> int | None:
     """A count given as a number or as a list of ids."""
     if isinstance(value, list | tuple):
         return len(value)
-    value = _num(value)
+    value = finite_number(value)
     return int(value) if value is not None else None
 
 
@@ -80,10 +74,10 @@ def drivers_text(row: Mapping, currency: str) -> str | None:
     """
     parts = []
     for d in _seq(row.get("driving_sites")):
-        if not isinstance(d, Mapping) or _num(d.get("difference")) is None:
+        if not isinstance(d, Mapping) or finite_number(d.get("difference")) is None:
             continue
         text = f"{d.get('id')}: {d['difference']:+,.0f} {currency}".rstrip()
-        downtime = _num(d.get("downtime_difference"))
+        downtime = finite_number(d.get("downtime_difference"))
         if downtime is not None and abs(downtime) >= 0.5:
             text += f", of which days off air {downtime:+,.0f} {currency}".rstrip()
         parts.append(text)
@@ -92,8 +86,8 @@ def drivers_text(row: Mapping, currency: str) -> str | None:
 
 def downtime_share(row: Mapping) -> float | None:
     """Days off air as a fraction of a comparison row's fleet present cost."""
-    downtime = _num(row.get("downtime"))
-    total = _num(row.get("total_with_others_present_cost"))
+    downtime = finite_number(row.get("downtime"))
+    total = finite_number(row.get("total_with_others_present_cost"))
     if downtime is None or not total:
         return None
     return downtime / total
@@ -108,7 +102,7 @@ def plan_status_text(plan: Mapping) -> str:
     every = f"all {n_sites:,} sites served" if n_sites != 1 else "the site is served"
     coverage = (every if n_unserved == 0 else
                 f"{served:,} of {n_sites:,} sites served; {n_unserved:,} cannot be (see Cautions)")
-    gap = _num(solver.get("gap_frac"))
+    gap = finite_number(solver.get("gap_frac"))
     status = str(solver.get("status") or "")
     if status == "feasible":
         certainty = ("stopped at the time limit" +
