@@ -87,7 +87,9 @@ STUDY = (
     F("warming_k", "float", 0.0, "K", -5.0, 10.0,
       doc="Added to every hourly air temperature (climate-change sensitivity)."),
     F("report_soh_frac", "float", 0.8, "fraction", 0.5, 0.99,
-      doc="State of health used to report a 'life' figure (planning uses the site requirement)."),
+      doc="State of health at which the plan also reports each chosen pack's years "
+          "(years_to_report_soh, Sites column 'Years to ... SOH'); lives and replacements use "
+          "each site's own end of life (eol_soh_frac)."),
 )
 
 CANDIDATES = (
