@@ -30,7 +30,7 @@ CSV_OPTIONS = {
     "longitude_deg": "degrees east, west negative (required)",
     "altitude_m": "metres above sea level (default 0)",
     "time_zone": "zone of timestamps without an offset: 'local-standard' (default), 'UTC', "
-                 "hours like 2 or -5, or a zone name like 'America/Denver'",
+                 "hours like 2 or -5, or a tz-database zone with daylight saving like 'MST7MDT'",
     "time_column": "timestamp column (default 'time')",
     "time_format": "strftime format of the timestamps (default: ISO 8601)",
     "temperature_column": "air temperature column (default 'temp_air_c', the column "
