@@ -1,9 +1,10 @@
 """Column generation for the fleet plan: site schedules priced per trip group, then an
 integer problem over the generated schedules.
 
-The pricer, the master LP and the trip-year local search live in
-:mod:`planner.optimize.colgen`; this module runs them over the trip groups (one master
-per group, or one over all groups when fleet-wide limits bind them) and reads the plans.
+The master LP and the trip-year local search live in :mod:`planner.optimize.colgen`,
+the pricer in :mod:`planner.optimize.pricing`; this module runs them over the trip
+groups (one master per group, or one over all groups when fleet-wide limits bind them)
+and reads the plans.
 """
 
 from __future__ import annotations
@@ -17,15 +18,14 @@ import numpy as np
 
 from planner import economics as ec
 from planner.optimize.colgen import (
-    Column,
     MasterResult,
-    Pricer,
     column_coefficients,
     generate_columns,
     group_costs,
     polish_trip_years,
 )
 from planner.optimize.path_model import fleet_limit_texts
+from planner.optimize.pricing import Column, Pricer
 from planner.optimize.problem import SitePlan, Trip, Unserved
 from planner.optimize.schedule import SiteGraphs, build_graphs
 from planner.optimize.solver import SolveReport, gap, solve_milp
