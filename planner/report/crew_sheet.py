@@ -45,8 +45,8 @@ from planner.report.wording import chemistry_name
 #: the next crew pages with up-to-date packs.
 CREW_YEARS = 3
 #: (header, width) of the crew columns; the widths add up to styles.PRINT_WIDTH_CHARS.
-COLUMNS = (("#", 3), ("Site", 11), ("Install", 26), ("Charger setting", 12),
-           ("Thermal kit", 10), ("Remove and carry out", 22), ("Access and notes", 16))
+COLUMNS = (("#", 3), ("Site", 10), ("Install", 27), ("Charger setting", 12),
+           ("Thermal kit", 9), ("Remove and carry out", 25), ("Access and notes", 14))
 #: Characters of CREW_FONT_PT text per unit of column width: a unit prints about 7 pt
 #: wide (styles.PT_PER_WIDTH) and 8 pt text averages about 4.2 pt a character (9 pt text
 #: measured 4.7 pt on the rendered PDF), so about 1.65; 1.45 leaves room for word wrapping.

@@ -262,14 +262,14 @@ def cost_sheet(ws, plan, fmt) -> None:
 
     cur, names = fmt["cur"], fmt["chemistry_names"]
     cols = [Column("Site id", field_of("id")), Column("Site name", field_of("name")),
-            Column("Chosen chemistry", lambda s: chemistry_name(s.get("chemistry"), names), width=24),
+            Column("Chosen chemistry", lambda s: chemistry_name(s.get("chemistry"), names), width=40),
             Column(f"Chosen present cost [{cur}]", field_of("present_cost"), fmt["money"])]
     for chem in order:
         name = chemistry_name(chem, names)
         cols.append(Column(f"{name}: present cost [{cur}]", (lambda s, c=chem: best(s, c, "present_cost")),
                            fmt["money"], optional=True, width=14))
         cols.append(Column(f"{name}: life [years]", (lambda s, c=chem: best(s, c, "life_years")),
-                           styles.ONE_DECIMAL, optional=True, width=10))
+                           styles.ONE_DECIMAL, optional=True, width=12))
     sites = plan_sites(plan)
     kept, last = write_table(ws, 1, 1, cols, sites)
     sens = [s for s in seq(plan.get("sensitivity")) if isinstance(s, Mapping)]

@@ -150,7 +150,7 @@ def _comparison(ws, plan, fmt, top: int) -> tuple[int, list[dict]]:
     put(ws, top, 1, "This plan, and the whole fleet with one chemistry wherever it can serve "
                     "(the other sites keep their best design)").font = styles.SECTION_FONT
     # money columns take their width from the values (a fleet's days off air run to millions)
-    cols = [Column("Case", field_of("case"), width=34),
+    cols = [Column("Case", field_of("case"), width=40),
             Column(f"Fleet present cost [{cur}]", field_of("total"), fmt["money"])]
     cols += [Column(f"{word} [{cur}]", field_of(key), fmt["money"], optional=True)
              for key, word in COST_GROUPS]
@@ -227,7 +227,7 @@ def fleet_groups(sites, key: str, label=None) -> list[dict]:
 
 
 def _group_table(ws, top: int, label: str, groups, fmt) -> int:
-    cols = [Column(label, field_of("group"), width=34),
+    cols = [Column(label, field_of("group"), width=40),
             Column("Sites", field_of("sites"), styles.INTEGER, width=8),
             Column("Installed [kWh]", field_of("installed_kwh"), styles.ONE_DECIMAL, width=11),
             Column(f"Present cost [{fmt['cur']}]", field_of("present_cost"), fmt["money"], width=14),
@@ -337,7 +337,8 @@ def summary_sheet(ws, plan, fmt) -> None:
     comp_last, rows = _comparison(ws, plan, fmt, comp_top)
     comparison_columns = sum(1 for c in range(1, CHART_DATA_COL) if ws.cell(row=comp_top + 1, column=c).value)
     # Page 2 starts with the charts and the fleet overview: no chart is cut by a page.
-    chart_top = comp_last + 2
+    # the charts two rows below the break, so no chart frame is drawn at the foot of page 1
+    chart_top = comp_last + 3
     ws.row_breaks.append(Break(id=comp_last + 1))
     _comparison_charts(ws, rows, fmt, chart_top)
     after = chart_top + (chart_rows_of(rows) if len(rows) > 1 else 0)

@@ -97,13 +97,14 @@ def _indent_text_after_numbers(ws, top, left, kept, last) -> None:
 
 
 def _fit_header_height(ws, row, left, kept) -> None:
-    # Headers wrap; give the row enough lines (15 points each) for the longest one.
+    # Headers wrap; give the row enough lines (15 points each) for the longest one (a header
+    # naming a chemistry in full runs to five or six lines in a money column).
     lines = 1
     for offset, col in enumerate(kept):
         width = ws.column_dimensions[get_column_letter(left + offset)].width or 10
         lines = max(lines, math.ceil(len(col.header) * 1.1 / max(width - 1, 1)))
     current = ws.row_dimensions[row].height or 15
-    ws.row_dimensions[row].height = max(current, 15 * min(lines, 4))
+    ws.row_dimensions[row].height = max(current, 15 * min(lines, 6))
 
 
 def _set_widths(ws, left, kept, matrix, keep) -> None:
