@@ -274,8 +274,9 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
     with zipfile.ZipFile(xlsx) as zf:
         charts = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
         # 3 bar charts (Summary: cost groups per chemistry, cost by chemistry; Spending by
-        # year) + 20 fade charts (20 most expensive of 22) + climate charts (<= 4).
-        assert 3 + 20 + 1 <= len(charts) <= 3 + 20 + 4
+        # year) + 20 fade charts (20 most expensive of 22) + climate charts (<= 4) + the two
+        # scatter charts of Site map.
+        assert 3 + 20 + 1 + 2 <= len(charts) <= 3 + 20 + 4 + 2
         kinds = {"barChart": 0, "scatterChart": 0, "lineChart": 0}
         for name in charts:
             xml = zf.read(name)
@@ -293,7 +294,7 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
                     values = [c for row in ws.iter_rows(min_row=min_row, max_row=max_row, min_col=min_col,
                                                         max_col=max_col, values_only=True) for c in row]
                     assert any(isinstance(v, (int, float)) for v in values), (name, ref)
-        assert kinds["barChart"] == 3 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
+        assert kinds["barChart"] == 3 and kinds["scatterChart"] == 22 and kinds["lineChart"] >= 1
 
 
 def test_fade_charts_are_the_most_expensive_sites(written):

@@ -1,8 +1,8 @@
 """The plan workbook: one sheet per question a planner asks.
 
 Sheets: Summary (fleet overview), Spending by year, Sites at risk, Sites, Capacity fade,
-Fade by year, Visit schedule, Trip list, Cost comparison, Climate, Assumptions and
-sources, Cautions. The input is the plan dict laid out in ``docs/plan-json.md``; optional
+Fade by year, Visit schedule, Trip list, Cost comparison, Climate, Site map, Assumptions
+and sources, Cautions. The input is the plan dict laid out in ``docs/plan-json.md``; optional
 parts that are missing are left out, never faked. The layout is described in
 ``docs/workbook.md``; each sheet is built in the module named beside it below.
 """
@@ -16,6 +16,7 @@ from openpyxl import Workbook
 
 from planner.fileio import write_atomically
 from planner.report import styles
+from planner.report.map_sheet import map_sheet
 from planner.report.money_sheets import cost_sheet, spending_sheet
 from planner.report.reference_sheets import assumptions_sheet, cautions_sheet
 from planner.report.risk_sheet import risk_sheet
@@ -36,6 +37,7 @@ SHEETS = (
     ("Trip list", lambda ws, plan, fmt, h: trip_sheet(ws, plan, fmt)),
     ("Cost comparison", lambda ws, plan, fmt, h: cost_sheet(ws, plan, fmt)),
     ("Climate", lambda ws, plan, fmt, h: climate_sheet(ws, plan)),
+    ("Site map", lambda ws, plan, fmt, h: map_sheet(ws, plan)),
     ("Assumptions and sources", lambda ws, plan, fmt, h: assumptions_sheet(ws, plan)),
     ("Cautions", lambda ws, plan, fmt, h: cautions_sheet(ws, plan)),
 )
