@@ -577,3 +577,45 @@ def test_fleet_overview_at_1000_sites(tmp_path):
     assert longest < 300  # no cell lists hundreds of ids
     text = [c.value for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
     assert any("250 sites cannot be served by any design" in t and "Cautions" in t for t in text)
+
+
+def test_site_map_has_a_series_per_chemistry_and_per_attention_status(written, book):
+    # Native scatter charts (ECMA-376 c:scatterChart): one series per chosen chemistry and one
+    # per attention status, each pointing at the longitude/latitude cells of its own sites.
+    plan, xlsx, _ = written
+    ws = book["Site map"]
+    chems = {s["chemistry"] for s in plan["sites"]}
+    with zipfile.ZipFile(xlsx) as zf:
+        names = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
+        maps = []
+        for name in names:
+            root = ET.fromstring(zf.read(name))
+            heading = root.find(f"{C}chart/{C}title")
+            title = "" if heading is None else "".join(
+                t.text or "" for t in heading.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}t"))
+            if title.startswith("Sites by"):
+                labels = [v.text for ser in root.iter(f"{C}ser") for v in ser.findall(f"{C}tx/{C}v")]
+                maps.append((title, labels, _series_ranges(zf.read(name))))
+    assert {t for t, _, _ in maps} == {"Sites by chosen chemistry", "Sites by attention status"}
+    by_title = {t: (labels, refs) for t, labels, refs in maps}
+    labels, refs = by_title["Sites by chosen chemistry"]
+    assert set(labels) == chems
+    points = 0
+    for (y_ref,) in refs:
+        _, cells = y_ref.rsplit("!", 1)
+        min_col, min_row, _, max_row = range_boundaries(cells.replace("$", ""))
+        points += max_row - min_row + 1
+    assert points == len(plan["sites"])
+    labels, _ = by_title["Sites by attention status"]
+    assert "not served" not in labels or plan["unserved_sites"]
+    assert ws.freeze_panes
+
+
+def test_attention_status_comes_from_the_plan_when_it_has_one():
+    from planner.report.map_sheet import attention_status
+
+    assert attention_status({"id": "A", "attention_status": "check enclosure"}, set()) == "check enclosure"
+    assert attention_status({"id": "A"}, {"A"}) == "not served"
+    assert attention_status({"id": "B", "risk_before_next_visit_frac": 0.5}, set()).startswith("risk")
+    assert attention_status({"id": "B", "warnings": ["x"]}, set()) == "warnings"
+    assert attention_status({"id": "B", "warnings": []}, set()) == "no flag"
