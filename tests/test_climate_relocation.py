@@ -27,23 +27,28 @@ def _december(values):
 
 def _direct_pvlib_december(year, latitude_deg):
     """December DC energy of 1 W at 45 deg tilt, computed with pvlib alone: the station's
-    hourly clearness over pvlib's own Ineichen clear sky, moved to ``latitude_deg``."""
+    hourly global and beam clearness over pvlib's own Ineichen clear sky, moved to
+    ``latitude_deg`` (hours with the station's clear sky under 50 W/m2 left dark: in
+    December the site 20 degrees poleward has no sun in them)."""
     times = year.times()
     mid = times + pd.Timedelta(minutes=30)
     station = pvlib.location.Location(year.latitude_deg, year.longitude_deg, altitude=year.altitude_m)
     site = pvlib.location.Location(latitude_deg, year.longitude_deg, altitude=year.altitude_m)
-    cs_station = station.get_clearsky(mid, model="ineichen")["ghi"].to_numpy()
+    cs_station = station.get_clearsky(mid, model="ineichen")
     sun = site.get_solarposition(mid)
-    cs_site = site.get_clearsky(mid, model="ineichen", solar_position=sun)["ghi"].to_numpy()
+    cs_site = site.get_clearsky(mid, model="ineichen", solar_position=sun)
+    lit = cs_station["ghi"].to_numpy() >= 50.0
     with np.errstate(divide="ignore", invalid="ignore"):
-        k = np.where(cs_station >= 50.0, np.clip(year.ghi_w_m2 / cs_station, 0, 1.2), 0.0)
-    ghi = k * cs_site
-    parts = pvlib.irradiance.erbs(ghi, sun["zenith"].to_numpy(), times.day_of_year.to_numpy())
+        k = np.where(lit, np.clip(year.ghi_w_m2 / cs_station["ghi"].to_numpy(), 0, 1.2), 0.0)
+        kb = np.where(lit, np.clip(year.dni_w_m2 / cs_station["dni"].to_numpy(), 0, 1.2), 0.0)
+    ghi = k * cs_site["ghi"].to_numpy()
+    cos_z = np.cos(np.radians(sun["zenith"].to_numpy()))
+    dni = np.clip(kb * cs_site["dni"].to_numpy(), 0, np.where(cos_z > 0, 0.9 * ghi / cos_z, 0))
+    dhi = ghi - dni * np.maximum(cos_z, 0)
     poa = pvlib.irradiance.get_total_irradiance(
         TILT, AZIMUTH, sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy(),
-        np.nan_to_num(parts["dni"]), ghi, np.nan_to_num(parts["dhi"]),
-        dni_extra=pvlib.irradiance.get_extra_radiation(mid).to_numpy(), albedo=0.2,
-        model="haydavies")["poa_global"]
+        dni, ghi, dhi, dni_extra=pvlib.irradiance.get_extra_radiation(mid).to_numpy(),
+        albedo=0.2, model="haydavies")["poa_global"]
     poa = np.maximum(np.nan_to_num(np.asarray(poa, float)), 0)
     cell = pvlib.temperature.sapm_cell(poa, year.temp_air_c, year.wind_speed_m_s, **SAPM)
     return _december(np.maximum(pvlib.pvsystem.pvwatts_dc(poa, cell, 1.0, -0.004), 0))
@@ -92,14 +97,22 @@ def test_no_site_gets_sun_at_night_in_either_hemisphere():
 
 def test_clearness_is_kept_where_the_station_had_sun():
     year = load_climate(STATION)
-    k = hourly_clearness(year)
+    k, k_beam = hourly_clearness(year)
     moved = relocate_years([year], [Place(40.0, year.longitude_deg, 273.0, -5.0)])[0]
-    from planner.climate.solar import clear_sky_ghi_many
+    from planner.climate.solar import clear_sky_many
     sun = sun_paths(40.0, year.longitude_deg, 273.0, -5.0)
-    clear = clear_sky_ghi_many(sun, 40.0, year.longitude_deg, 273.0, -5.0)[:, 0]
+    clear, clear_dni = (a[:, 0] for a in clear_sky_many(sun, 40.0, year.longitude_deg, 273.0, -5.0))
     lit = clear > 100
     np.testing.assert_allclose(moved.ghi_w_m2[lit], np.minimum(k[lit] * clear[lit], 1400.0),
                                rtol=1e-12)
+    # The beam clearness too, where the diffuse floor (DHI >= 0.1 GHI) does not bind.
+    cos_z = np.cos(np.radians(sun.zenith_deg[:, 0]))
+    free = lit & (k_beam * clear_dni * cos_z < 0.85 * moved.ghi_w_m2)
+    np.testing.assert_allclose(moved.dni_w_m2[free], k_beam[free] * clear_dni[free], rtol=1e-12)
+    # Closure: GHI = DNI cos(z) + DHI (definition), DHI >= 0.1 GHI.
+    np.testing.assert_allclose(moved.dni_w_m2 * np.maximum(cos_z, 0) + moved.dhi_w_m2,
+                               moved.ghi_w_m2, atol=1e-9)
+    assert np.all(moved.dhi_w_m2 >= 0.1 * moved.ghi_w_m2 - 1e-9)
 
 
 def test_the_climate_own_place_keeps_the_measured_year():

@@ -227,9 +227,9 @@ def linke_turbidity_many(latitude_deg, longitude_deg, utc_offset_h) -> np.ndarra
     return out
 
 
-def clear_sky_ghi_many(sun: SunPath, latitude_deg, longitude_deg, altitude_m,
-                       utc_offset_h) -> np.ndarray:
-    """Ineichen clear-sky GHI at n places, (8760, n), W/m2.
+def clear_sky_many(sun: SunPath, latitude_deg, longitude_deg, altitude_m,
+                   utc_offset_h) -> tuple[np.ndarray, np.ndarray]:
+    """Ineichen clear-sky GHI and DNI at n places, (8760, n) each, W/m2.
 
     Ineichen & Perez (2002), Solar Energy 73(3), 151-157 (``pvlib.clearsky.ineichen``)
     with the Kasten & Young (1989) air mass at the standard-atmosphere pressure of the
@@ -246,7 +246,14 @@ def clear_sky_ghi_many(sun: SunPath, latitude_deg, longitude_deg, altitude_m,
         sky = pvlib.clearsky.ineichen(sun.apparent_zenith_deg, am_abs, turbidity,
                                       altitude=alt[None, :],
                                       dni_extra=extra_radiation_many(utc_offset_h))
-    return np.nan_to_num(np.asarray(sky["ghi"], float))
+    return (np.nan_to_num(np.asarray(sky["ghi"], float)),
+            np.nan_to_num(np.asarray(sky["dni"], float)))
+
+
+def clear_sky_ghi_many(sun: SunPath, latitude_deg, longitude_deg, altitude_m,
+                       utc_offset_h) -> np.ndarray:
+    """Ineichen clear-sky GHI at n places, (8760, n), W/m2 (see :func:`clear_sky_many`)."""
+    return clear_sky_many(sun, latitude_deg, longitude_deg, altitude_m, utc_offset_h)[0]
 
 
 #: Day of year of each hour of the reference year (local standard time).
