@@ -218,3 +218,13 @@ def test_climate_command_shows_one_site(tmp_path):
     assert len(data["monthly"]["air_min_c"]) == 12
     missing = CliRunner().invoke(cli, ["climate", "--study", str(path), "--site", "Z"])
     assert missing.exit_code == 2 and "no site 'Z'" in missing.output
+
+
+def test_plan_console_lists_climate_warnings():
+    from planner.cli.plan import MAX_UNSERVED_LINES, _climate_lines
+
+    sites = [{"id": f"S{i}", "site_climate": {"warnings": [f"nearest station x is {2000 + i} km away"]}}
+             for i in range(MAX_UNSERVED_LINES + 3)] + [{"id": "T", "site_climate": None}]
+    lines = _climate_lines(sites)
+    assert lines[0] == "  CLIMATE S0: nearest station x is 2000 km away"
+    assert lines[-1].startswith("  ... and 3 more climate warnings")

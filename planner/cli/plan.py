@@ -173,6 +173,18 @@ class _progress:
 MAX_UNSERVED_LINES = 10
 
 
+def _climate_lines(sites) -> list[str]:
+    """Warnings about where a site's climate comes from (far station, altitude, normals)."""
+    found = [(site["id"], w) for site in sites
+             for w in ((site.get("site_climate") or {}).get("warnings") or [])]
+    lines = [f"  CLIMATE {printable(site_id)}: {printable(w)}"
+             for site_id, w in found[:MAX_UNSERVED_LINES]]
+    if len(found) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(found) - MAX_UNSERVED_LINES:,} more climate warnings "
+                     "(all listed on the workbook's Cautions sheet)")
+    return lines
+
+
 def _summary(plan, out) -> str:
     from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
 
@@ -203,6 +215,7 @@ def _summary(plan, out) -> str:
         for warning in site.get("warnings") or []:
             if str(warning).startswith(SHORTFALL_CAUSE):
                 lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
+    lines += _climate_lines(plan["sites"])
     unserved = plan.get("unserved_sites", [])
     for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
