@@ -10,6 +10,8 @@ chemistry and a small block beside it, sorted by status, feeds the second chart.
 
 from __future__ import annotations
 
+import math
+
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.series import SeriesLabel
 from openpyxl.utils import get_column_letter
@@ -94,12 +96,14 @@ def _scatter(ws, *, title_text, groups, x_col, y_col, anchor, bounds):
         s.marker.graphicalProperties.line.solidFill = colour
         s.graphicalProperties.line.noFill = True   # points only: no line joins the sites
         chart.series.append(s)
-    (lon_lo, lon_hi), (lat_lo, lat_hi) = bounds
+    (lon_lo, lon_hi, lon_step), (lat_lo, lat_hi, lat_step) = bounds
     chart.x_axis.title = "Longitude [° E]"
     chart.y_axis.title = "Latitude [° N]"
     chart.x_axis.scaling.min, chart.x_axis.scaling.max = lon_lo, lon_hi
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = lat_lo, lat_hi
-    chart.x_axis.numFmt = chart.y_axis.numFmt = "0"
+    chart.x_axis.majorUnit, chart.y_axis.majorUnit = lon_step, lat_step
+    chart.x_axis.numFmt = "0.#" if lon_step < 1 else "0"
+    chart.y_axis.numFmt = "0.#" if lat_step < 1 else "0"
     # Axes on the left and bottom edges, wherever 0 degrees lies.
     chart.x_axis.crosses = chart.y_axis.crosses = "min"
     chart.legend.position = "b"
@@ -108,16 +112,23 @@ def _scatter(ws, *, title_text, groups, x_col, y_col, anchor, bounds):
     ws.add_chart(chart, anchor)
 
 
+#: Axis steps in degrees, the smallest giving at most AXIS_TICKS intervals is used.
+AXIS_STEPS = (0.5, 1, 2, 5, 10, 15, 30, 45, 60, 90)
+AXIS_TICKS = 8
+
+
 def _bounds(points):
-    """Axis ranges with a margin, on whole degrees."""
-    lats = [p[0] for p in points]
-    lons = [p[1] for p in points]
+    """(low, high, step) of the longitude and latitude axes: a margin around the sites,
+    on multiples of a round step."""
+    def span(values, floor, ceil):
+        lo, hi = min(values), max(values)
+        pad = max(0.25, 0.05 * (hi - lo))
+        lo, hi = max(floor, lo - pad), min(ceil, hi + pad)
+        step = next((s for s in AXIS_STEPS if (hi - lo) / s <= AXIS_TICKS), AXIS_STEPS[-1])
+        return (max(floor, math.floor(lo / step) * step), min(ceil, math.ceil(hi / step) * step),
+                step)
 
-    def span(lo, hi, floor, ceil):
-        pad = max(0.5, 0.08 * (hi - lo))
-        return max(floor, int(lo - pad) - 1), min(ceil, int(hi + pad) + 1)
-
-    return span(min(lons), max(lons), -180, 180), span(min(lats), max(lats), -90, 90)
+    return span([p[1] for p in points], -180, 180), span([p[0] for p in points], -90, 90)
 
 
 def _blocks(keys, top):
