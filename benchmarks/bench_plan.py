@@ -12,8 +12,8 @@ Usage: python benchmarks/bench_plan.py [--sites N] [--workers N] [--keep DIR]
 ``--climates stations``: every site has its own coordinates and altitude and takes the
 nearest of N invented station files (EPW and plain CSV, written by fleet_gen.py);
 ``--climates normals``: every site has its own coordinates and its own monthly normals.
-Issue 24's target: both within 30 % of the bundled fleet run side by side on the commit
-before.
+Target: both within 30 % of the bundled fleet run side by side on the commit before
+(docs/scaling.md).
 
 The fleet comes from benchmarks/fleet_gen.py (seeded, invented). The study is loaded,
 planned, and written as workbook and JSON by the same functions `planner plan` calls.
