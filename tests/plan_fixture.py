@@ -202,6 +202,17 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         site["expected_failure_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 3000.0
         site["expected_downtime_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 1200.0
         if with_optional:
+            kind = ("station", "normals", "bundled")[i % 3]
+            site["site_climate"] = {
+                "kind": kind, "climate": site["climate"],
+                "source": {"station": f"demo-station-{i % 4}.epw", "normals": f"S{i:04d} (normals.csv)",
+                           "bundled": site["climate"]}[kind],
+                "latitude_deg": float(rng.uniform(-40, 65)), "longitude_deg": float(rng.uniform(-120, 150)),
+                "altitude_m": float(rng.uniform(0, 3000)), "position_from": "sites table",
+                "utc_offset_h": float(rng.integers(-8, 10)), "utc_offset_from": "longitude",
+                "station_distance_km": float(rng.uniform(1, 300)) if kind == "station" else None,
+                "reference_altitude_m": float(rng.uniform(0, 2000)),
+                "altitude_shift_k": float(rng.uniform(-5, 5)), "notes": [], "warnings": []}
             site["life_p10_years"] = life * 0.8
             site["life_p50_years"] = life
             site["life_p90_years"] = life * 1.15

@@ -42,8 +42,8 @@ pytestmark = pytest.mark.skipif(_NO_RENDERER, reason="LibreOffice (soffice) or p
 def rendered(tmp_path_factory):
     """{name: (xlsx, pdf)} for the demo and the 1,000-site fixture, plus the demo's JSON."""
     folder = tmp_path_factory.mktemp("print")
-    for name in ("corvale.toml", "corvale_sites.csv"):
-        shutil.copy(REPO / "scenarios" / name, folder / name)
+    for path in (REPO / "scenarios").glob("corvale*"):  # the study and every file it names
+        shutil.copy(path, folder / path.name)
     with (folder / "corvale.toml").open("a", encoding="utf-8") as fh:
         fh.write("\n[output]\nsensitivity = false\n")
     demo = folder / "demo.xlsx"
@@ -55,7 +55,8 @@ def rendered(tmp_path_factory):
                     str(demo), str(fleet)], check=True, capture_output=True, timeout=600)
     return {"demo": (demo, folder / "demo.pdf"), "fleet": (fleet, folder / "fleet.pdf"),
             "exit_code": result.exit_code, "output": result.output,
-            "json": json.loads((folder / "demo.json").read_text(encoding="utf-8"))}
+            "json": json.loads((folder / "demo.json").read_text(encoding="utf-8"))
+            if (folder / "demo.json").is_file() else {}}
 
 
 def _pages(pdf: Path) -> int:

@@ -23,9 +23,10 @@ from hypothesis import strategies as st
 from openpyxl.utils import range_boundaries
 from plan_fixture import make_plan
 
+from planner.plan.attention import sites_not_served
 from planner.report import SHEET_NAMES, neutralise_text, write_json, write_workbook
 
-N_SITES = 22  # more than the 20 fade charts, so the "most expensive 20" choice is exercised
+N_SITES = 22  # more than the 16 fade charts, so the "most expensive 16" choice is exercised
 # Numbers in an xlsx keep 15-16 significant digits (Excel specifications and limits: number
 # precision 15 digits; openpyxl writes "%.16g"), so "equal" means within 1e-15 relative.
 XL = 1e-15
@@ -293,9 +294,9 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
     with zipfile.ZipFile(xlsx) as zf:
         charts = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
         # 4 bar charts (Summary: cost groups per case, days off air per case, cost by
-        # chemistry; Spending by year) + 20 fade charts (20 most expensive of 22) + climate
-        # charts (<= 4).
-        assert 4 + 20 + 1 <= len(charts) <= 4 + 20 + 4
+        # chemistry; Spending by year) + 16 fade charts (16 most expensive of 22) + climate
+        # charts (<= 4) + the two scatter charts of Site map.
+        assert 4 + 16 + 1 + 2 <= len(charts) <= 4 + 16 + 4 + 2
         kinds = {"barChart": 0, "scatterChart": 0, "lineChart": 0}
         for name in charts:
             xml = zf.read(name)
@@ -313,12 +314,12 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
                     values = [c for row in ws.iter_rows(min_row=min_row, max_row=max_row, min_col=min_col,
                                                         max_col=max_col, values_only=True) for c in row]
                     assert any(isinstance(v, (int, float)) for v in values), (name, ref)
-        assert kinds["barChart"] == 4 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
+        assert kinds["barChart"] == 4 and kinds["scatterChart"] == 18 and kinds["lineChart"] >= 1
 
 
 def test_fade_charts_are_the_most_expensive_sites(written):
     plan, xlsx, _ = written
-    expected = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:20]
+    expected = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:16]
     with zipfile.ZipFile(xlsx) as zf:
         titles = " ".join(zf.read(n).decode() for n in zf.namelist() if n.startswith("xl/charts/chart"))
     for site in expected:
@@ -646,8 +647,9 @@ def _fade_series_colours(xlsx):
     with zipfile.ZipFile(xlsx) as zf:
         for name in sorted(n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)):
             root = ET.fromstring(zf.read(name))
-            if not any(True for _ in root.iter(f"{C}scatterChart")):
-                continue
+            text = "".join(t.text or "" for t in root.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}t"))
+            if not any(True for _ in root.iter(f"{C}scatterChart")) or "State of health" not in text:
+                continue  # the Site map's scatter charts are not fade charts
             mins = [float(m.get("val")) for m in root.iter(f"{C}min")]
             for ser in root.iter(f"{C}ser"):
                 label = "".join(t.text or "" for t in ser.iter(f"{C}v"))
@@ -732,3 +734,46 @@ def test_crew_pages_say_what_to_install_program_bring_and_remove(written, book):
         assert row[5].startswith("Demo lead-acid") if site.get("existing_pack") else row[5] == "nothing (first pack)"
         months = "any month" if len(site["access_months"]) == 12 else "Jun-Sep"
         assert row[6].startswith(months)
+
+
+def test_site_map_has_a_series_per_chemistry_and_per_attention_status(written, book):
+    # Native scatter charts (ECMA-376 c:scatterChart): one series per chosen chemistry and one
+    # per attention status, each pointing at the longitude/latitude cells of its own sites.
+    plan, xlsx, _ = written
+    ws = book["Site map"]
+    chems = {s["chemistry_name"] for s in plan["sites"]}  # full names, as everywhere
+    with zipfile.ZipFile(xlsx) as zf:
+        names = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
+        maps = []
+        for name in names:
+            root = ET.fromstring(zf.read(name))
+            heading = root.find(f"{C}chart/{C}title")
+            title = "" if heading is None else "".join(
+                t.text or "" for t in heading.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}t"))
+            if title.startswith("Sites by"):
+                labels = [v.text for ser in root.iter(f"{C}ser") for v in ser.findall(f"{C}tx/{C}v")]
+                maps.append((title, labels, _series_ranges(zf.read(name))))
+    assert {t for t, _, _ in maps} == {"Sites by chosen chemistry", "Sites by attention status"}
+    by_title = {t: (labels, refs) for t, labels, refs in maps}
+    labels, refs = by_title["Sites by chosen chemistry"]
+    assert set(labels) == chems
+    points = 0
+    for (y_ref,) in refs:
+        _, cells = y_ref.rsplit("!", 1)
+        min_col, min_row, _, max_row = range_boundaries(cells.replace("$", ""))
+        points += max_row - min_row + 1
+    assert points == len(plan["sites"])
+    labels, _ = by_title["Sites by attention status"]
+    # not served as on Needs attention (no design, or more than 1 % of the load lost)
+    assert "not served" not in labels or plan["unserved_sites"] or sites_not_served(plan)
+    assert ws.freeze_panes
+
+
+def test_attention_status_comes_from_the_plan_when_it_has_one():
+    from planner.report.map_sheet import attention_status
+
+    assert attention_status({"id": "A", "attention_status": "check enclosure"}, set()) == "check enclosure"
+    assert attention_status({"id": "A"}, {"A"}) == "not served"
+    assert attention_status({"id": "B", "risk_before_next_visit_frac": 0.5}, set()).startswith("risk")
+    assert attention_status({"id": "B", "warnings": ["x"]}, set()) == "warnings"
+    assert attention_status({"id": "B", "warnings": []}, set()) == "no flag"

@@ -34,14 +34,22 @@ def _enclosure_choices():
 @click.option("--option", "option_pairs", multiple=True, metavar="KEY=VALUE",
               help="A declaration for a plain CSV file, e.g. temperature_unit=C (repeat).")
 @click.option("--list", "list_only", is_flag=True, help="List the bundled climates and exit.")
+@click.option("--study", "study_path", default=None, type=click.Path(dir_okay=False),
+              help="A study file: with --site, show that site's climate as the plan resolves it.")
+@click.option("--site", "site_id", default=None, metavar="ID",
+              help="Site id of --study: its station or normals, position, shift and month table.")
 def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, as_json,
-                    json_out, option_pairs, list_only):
+                    json_out, option_pairs, list_only, study_path, site_id):
     """Show the typical year at SOURCE and the battery temperature in an enclosure.
 
     SOURCE is a bundled climate name (see --list) or an EPW, TMY3, TMY2 or CSV
     file. A plain CSV file needs its declarations (see docs/climate.md): as
     '# key = value' lines at its top (the CSV written by --csv carries them) or as
     repeated --option KEY=VALUE, which take precedence.
+
+    With --study and --site instead of SOURCE: one site's climate as the plan resolves
+    it (its nearest station and the distance, or its monthly normals; its position, UTC
+    offset and altitude shift; a table of monthly values) in the site's own enclosure.
 
     \b
     Examples:
@@ -51,9 +59,19 @@ def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, a
       planner climate alpine --csv output/alpine-hourly.csv
       planner climate output/alpine-hourly.csv --enclosure vault
       planner climate output/alpine-hourly.csv --option name=alpine-copy --option altitude_m=2100
+      planner climate --study scenarios/corvale.toml --site UV-01
     """
     from planner.climate import list_bundled, load_climate
 
+    if study_path or site_id:
+        from planner.cli.site_climate import show_site_climate
+
+        if source or not (study_path and site_id):
+            raise InputError("--study and --site go together, without SOURCE; expected e.g. "
+                             "'planner climate --study study.toml --site S-01'", source="climate")
+        show_site_climate(study_path, site_id, as_json=as_json, csv_path=csv_path,
+                          writer=_write_csv, json_out=json_out)
+        return
     if list_only:
         for name, text in list_bundled():
             click.echo(f"{name:24s} {text}")
@@ -111,10 +129,10 @@ def _parse_options(pairs) -> dict | None:
     return options or None
 
 
-def position_text(latitude_deg: float, longitude_deg: float) -> str:
+def position_text(latitude_deg: float, longitude_deg: float, decimals: int = 2) -> str:
     """A position in hemisphere letters, never a signed 'E': '35.10 N, 111.70 W'."""
-    lat = f"{abs(latitude_deg):.2f} {'S' if latitude_deg < 0 else 'N'}"
-    lon = f"{abs(longitude_deg):.2f} {'W' if longitude_deg < 0 else 'E'}"
+    lat = f"{abs(latitude_deg):.{decimals}f} {'S' if latitude_deg < 0 else 'N'}"
+    lon = f"{abs(longitude_deg):.{decimals}f} {'W' if longitude_deg < 0 else 'E'}"
     return f"{lat}, {lon}"
 
 

@@ -210,6 +210,18 @@ def _attention_lines(plan, currency) -> list[str]:
     return lines
 
 
+def _climate_lines(sites) -> list[str]:
+    """Warnings about where a site's climate comes from (far station, altitude, normals)."""
+    found = [(site["id"], w) for site in sites
+             for w in ((site.get("site_climate") or {}).get("warnings") or [])]
+    lines = [f"  CLIMATE {printable(site_id)}: {printable(w)}"
+             for site_id, w in found[:MAX_UNSERVED_LINES]]
+    if len(found) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(found) - MAX_UNSERVED_LINES:,} more climate warnings "
+                     "(all listed on the workbook's Cautions sheet)")
+    return lines
+
+
 def _summary(plan, out) -> str:
     from planner.report.wording import (
         chemistry_names,
@@ -253,6 +265,7 @@ def _summary(plan, out) -> str:
     if len(short) > MAX_UNSERVED_LINES:
         lines.append(f"  ... and {len(short) - MAX_UNSERVED_LINES:,} more sites whose charging source is "
                      "too small (all on the workbook's Needs attention sheet)")
+    lines += _climate_lines(plan["sites"])
     unserved = plan.get("unserved_sites", [])
     for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")

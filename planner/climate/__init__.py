@@ -61,6 +61,9 @@ class TypicalYear:
         irradiance, W/m2.
     wind_speed_m_s : np.ndarray
         8,760 hourly mean wind speeds, m/s.
+    sun : planner.climate.solar.SunPath, optional
+        The sun at mid-hour at this place, when it was computed with the year (a site's
+        own sky); otherwise consumers compute it from the location (cached).
     """
 
     name: str
@@ -74,6 +77,7 @@ class TypicalYear:
     dni_w_m2: np.ndarray
     dhi_w_m2: np.ndarray
     wind_speed_m_s: np.ndarray
+    sun: object = None
 
     def __post_init__(self):
         for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s"):
@@ -93,11 +97,16 @@ class TypicalYear:
 
     def with_warming(self, warming_k: float) -> TypicalYear:
         """A copy with ``warming_k`` kelvin added to every hourly air temperature."""
-        if warming_k == 0.0:
+        return self.with_air_offset(
+            warming_k, f"air temperature {float(warming_k):+g} K (warming offset)")
+
+    def with_air_offset(self, offset_k: float, note: str) -> TypicalYear:
+        """A copy with ``offset_k`` kelvin added to every hourly air temperature (the
+        irradiance arrays are shared, not copied); ``note`` is added to ``source``."""
+        if offset_k == 0.0:
             return self
-        return dataclasses.replace(
-            self, temp_air_c=self.temp_air_c + float(warming_k),
-            source=f"{self.source}; air temperature {float(warming_k):+g} K (warming offset)")
+        return dataclasses.replace(self, temp_air_c=self.temp_air_c + float(offset_k),
+                                   source=f"{self.source}; {note}")
 
 
 @functools.lru_cache(maxsize=64)

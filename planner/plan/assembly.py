@@ -88,6 +88,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         "warnings": list(model.warnings),
         "thermal_measure": measure,
         "heater_energy_wh_per_year": model.heater_energy_wh_per_year,
+        "site_climate": model.site_climate.to_dict() if model.site_climate else None,
         **risk_before_next_visit(plan, options, horizon),
     }
     if shown is not None:

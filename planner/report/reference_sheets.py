@@ -16,9 +16,9 @@ from planner.plan.numbers import finite_number
 from planner.report import styles
 from planner.report.cells import put
 from planner.report.tables import (
+    PRINT_ALL_ROWS_MAX,
     Column,
     field_of,
-    long_table_print_area,
     mapping_of,
     plan_sites,
     seq,
@@ -127,22 +127,26 @@ def cautions_sheet(ws, plan, fmt) -> None:
         k["count"] += 1
         if len(k["sites"]) < 5:
             k["sites"].append(str(w["id"]))
+    # the columns line up with the cautions above: text in the wide ones
     gcols = [Column("Kind", lambda k: k["kind"].title, width=30),
-             Column("Warnings", field_of("count"), styles.INTEGER, width=10),
-             Column("What to do", lambda k: k["kind"].action, width=80),
+             Column("What to do", lambda k: k["kind"].action, width=90),
              Column("First sites", lambda k: ", ".join(k["sites"]) + (", ..." if k["count"] > 5 else ""),
-                    width=40)]
+                    width=50),
+             Column("Warnings", field_of("count"), styles.INTEGER, width=10)]
     _, glast = write_table(ws, row + 1, 1, gcols, list(kinds.values()))
     wrap_rows(ws, row + 2, glast, 4)
     table_top = glast + 2
-    put(ws, table_top, 1, f"Every per-site warning ({len(warn):,}): filter the Kind column").font = \
-        styles.SECTION_FONT
-    wcols = [Column("Kind", lambda w: w["kind"].title, width=30), Column("Site id", field_of("id"), width=12),
-             Column("Warning", field_of("text"), width=90), Column("Site name", field_of("name"), width=40)]
+    long_list = len(warn) > PRINT_ALL_ROWS_MAX
+    put(ws, table_top, 1, f"Every per-site warning ({len(warn):,}): filter the Kind column"
+        + ("; not printed (the kinds above are)" if long_list else "")).font = styles.SECTION_FONT
+    wcols = [Column("Kind", lambda w: w["kind"].title, width=30), Column("Warning", field_of("text"), width=90),
+             Column("Site id", field_of("id"), width=14), Column("Site name", field_of("name"), width=24)]
     kept, wlast = write_table(ws, table_top + 1, 1, wcols, warn)
     ws.auto_filter.ref = f"A{table_top + 1}:{get_column_letter(len(kept))}{wlast}"
     ws.freeze_panes = "A2"
     styles.landscape_fit_width(ws, title_rows="4:4")
-    area = long_table_print_area(ws, 1, table_top + 1, wlast, len(kept), "warnings")
-    end = int(area.rsplit(":", 1)[1].lstrip("ABCDEFGHIJKLMNOPQRSTUVWXYZ"))
-    wrap_rows(ws, table_top + 2, end, len(kept))
+    if long_list:
+        # a fleet's warnings run to hundreds of pages: the kinds print, the list filters
+        ws.print_area = f"A1:{get_column_letter(len(kept))}{table_top}"
+    else:
+        wrap_rows(ws, table_top + 2, wlast, len(kept))

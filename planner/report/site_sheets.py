@@ -32,7 +32,7 @@ from planner.report.tables import (
 from planner.report.wording import chemistry_name
 
 #: How many sites get a capacity-fade chart (the most expensive ones).
-FADE_CHART_SITES = 20
+FADE_CHART_SITES = 16  # two printed pages of eight
 #: Largest fleet whose Fade by year table also lists every alternative design year by year.
 FADE_TABLE_ALTERNATIVES_MAX_SITES = 200
 #: How many representative sites get a climate chart.

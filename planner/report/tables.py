@@ -28,7 +28,7 @@ CHART_COLS = 9
 #: a 1,000-site workbook prints in a few dozen pages. Every row stays in the file, with a
 #: filter on the header: filter, then print the selection.
 PRINT_ALL_ROWS_MAX = 120
-PRINT_FIRST_ROWS = 40
+PRINT_FIRST_ROWS = 30
 
 
 @dataclass(frozen=True)

@@ -2,10 +2,10 @@
 
 Sheets: Needs attention (first: what to act on), Summary (fleet overview), Spending by
 year, Sites at risk, Sites, Capacity fade, Fade by year, Visit schedule, Trip list, Crew
-trips, Cost comparison, Climate, Assumptions and sources, Cautions. The input is the plan
-dict laid out in ``docs/plan-json.md``; optional parts that are missing are left out,
-never faked. The layout is described in ``docs/workbook.md``; each sheet is built in the
-module named beside it in :data:`SHEETS`, and adding a sheet is one entry there.
+trips, Cost comparison, Climate, Site map, Assumptions and sources, Cautions. The input is
+the plan dict laid out in ``docs/plan-json.md``; optional parts that are missing are left
+out, never faked. The layout is described in ``docs/workbook.md``; each sheet is built in
+the module named beside it in :data:`SHEETS`, and adding a sheet is one entry there.
 """
 
 from __future__ import annotations
@@ -20,6 +20,7 @@ from planner.fileio import write_atomically
 from planner.report import styles
 from planner.report.attention_sheet import attention_sheet
 from planner.report.crew_sheet import crew_sheet
+from planner.report.map_sheet import map_sheet
 from planner.report.money_sheets import cost_sheet, spending_sheet
 from planner.report.reference_sheets import assumptions_sheet, cautions_sheet
 from planner.report.risk_sheet import risk_sheet
@@ -55,6 +56,7 @@ SHEETS = (
     Sheet("Crew trips", crew_sheet),
     Sheet("Cost comparison", cost_sheet),
     Sheet("Climate", climate_sheet),
+    Sheet("Site map", map_sheet),
     Sheet("Assumptions and sources", assumptions_sheet),
     Sheet("Cautions", cautions_sheet),
 )

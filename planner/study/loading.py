@@ -13,7 +13,7 @@ import os
 import re
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
@@ -24,7 +24,9 @@ import pandas as pd
 from planner.errors import InputError
 from planner.fileio import check_input_file, read_input_bytes
 from planner.study.schema import (
+    MONTHS,
     NAMED_SECTIONS,
+    NORMALS_COLUMNS,
     SECTIONS,
     SITE_COLUMNS,
     Field,
@@ -32,6 +34,8 @@ from planner.study.schema import (
 )
 
 ALL_MONTHS = tuple(range(1, 13))
+#: What a [climates.<name>] table may point at (exactly one): key -> words for messages.
+CLIMATE_KINDS = {"file": "climate file", "stations": "station folder", "normals": "normals table"}
 
 
 @dataclass(frozen=True)
@@ -66,6 +70,9 @@ class Study:
     climates: Mapping[str, Mapping[str, Any]]
     sites: tuple[Site, ...]
     sites_path: Path
+    #: Rows of each normals climate's table: climate name -> row id -> checked values.
+    normals: Mapping[str, Mapping[str, Mapping[str, Any]]] = field(
+        default_factory=lambda: MappingProxyType({}))
 
     @property
     def name(self) -> str:
@@ -102,7 +109,15 @@ class Study:
         base = self.path.parent
         files = {self.path: "the study file", self.sites_path: "the study's sites table"}
         for name, options in self.climates.items():
-            files.setdefault((base / str(options["file"])).resolve(), f"climate file of [climates.{name}]")
+            for key, what in CLIMATE_KINDS.items():
+                if key in options:
+                    files.setdefault((base / str(options[key])).resolve(),
+                                     f"{what} of [climates.{name}]")
+            if "stations" in options:
+                from planner.climate.stations import scan_station_folder
+
+                for station in scan_station_folder(base / str(options["stations"])).stations:
+                    files.setdefault(station.path.resolve(), f"station file of [climates.{name}]")
         for site in self.sites:
             if site.load_file:
                 files.setdefault((base / site.load_file).resolve(), f"load file of site {site.id}")
@@ -306,7 +321,8 @@ def load_study(path) -> Study:
     raw = read_sites_table(sites_path)
     sites = tuple(_validate_sites(raw, sites_path, settings, named))
     _check_regions(sites, named["regions"], source)
-    _check_climates(sites, named["climates"], base, sites_path, source)
+    normals = _check_climates(sites, named["climates"], base, sites_path, source)
+    _check_locations(sites, named["climates"], normals, str(sites_path))
     return Study(
         path=path.resolve(),
         settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
@@ -315,6 +331,7 @@ def load_study(path) -> Study:
         climates=MappingProxyType(named["climates"]),
         sites=sites,
         sites_path=sites_path,
+        normals=MappingProxyType(normals),
     )
 
 
@@ -355,20 +372,42 @@ def _check_regions(sites, regions, source: str):
                              "named in the sites table's region column", source=source)
 
 
-def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
-    """Every site's climate must be bundled, a [climates.<name>] entry or an existing file."""
+def _check_climates(sites, climates, base: Path, sites_path: Path, source: str) -> dict:
+    """Every site's climate must be bundled, a [climates.<name>] entry or an existing file.
+
+    Returns the checked rows of each normals table (climate name -> row id -> values).
+    """
     from planner.climate import list_bundled
 
     bundled = [name for name, _ in list_bundled()]
+    normals = {}
     for name, options in climates.items():
-        if "file" not in options:
-            raise InputError(f"[climates.{name}] has no key 'file': expected the climate file's path",
-                             source=source)
-        if _exists(base / str(options["file"])):
-            check_input_file(base / str(options["file"]), what="a climate file")
+        kinds = [key for key in CLIMATE_KINDS if key in options]
+        if len(kinds) != 1:
+            found = " and ".join(f"'{k}'" for k in kinds) or "none of them"
+            raise InputError(f"[climates.{name}] has {found}; expected exactly one of 'file' (a "
+                             "weather file), 'stations' (a folder of weather files) or 'normals' "
+                             "(a table of monthly normals)", source=source)
+        kind = kinds[0]
+        if kind != "file" and len(options) > 1:
+            extra = sorted(k for k in options if k != kind)
+            raise InputError(f"[climates.{name}] with '{kind}' takes no other key; found "
+                             f"{', '.join(extra)}", source=source)
+        target = base / str(options[kind])
+        if not _exists(target):
+            raise InputError(f"[climates.{name}].{kind} = {_shown(options[kind])}: not found; "
+                             f"expected a {CLIMATE_KINDS[kind]} beside the study", source=source)
+        if kind == "stations":
+            from planner.climate.stations import scan_station_folder
+
+            if not target.is_dir():
+                raise InputError(f"[climates.{name}].stations = {_shown(options[kind])} is not a "
+                                 "folder; expected a folder of weather files", source=source)
+            scan_station_folder(target)   # a folder without one readable file fails here
+        elif kind == "normals":
+            normals[name] = read_normals_table(target)
         else:
-            raise InputError(f"[climates.{name}].file = {_shown(options['file'])}: file not found; "
-                             "expected an EPW, TMY3, TMY2 or CSV file beside the study", source=source)
+            check_input_file(target, what="a climate file")
     for site in sites:
         if site.load_file and _exists(base / site.load_file):
             check_input_file(base / site.load_file, what="an hourly load CSV")
@@ -385,18 +424,92 @@ def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
             f"row {site.row}, column climate: found {_shown(name)}{closest(name, bundled)}; expected a "
             f"bundled climate ({', '.join(bundled)}), a [climates.<name>] entry or a climate file",
             source=str(sites_path))
+    return normals
+
+
+def _check_locations(sites, climates, normals, source: str):
+    """Coordinates go together; station and normals climates need them for every site."""
+    def fail(site, column, message):
+        raise InputError(f"row {site.row}, column {column}: {message}", source=source)
+
+    for site in sites:
+        lat, lon = site.latitude_deg, site.longitude_deg
+        if (lat is None) != (lon is None):
+            column = "longitude_deg" if lon is None else "latitude_deg"
+            fail(site, column, "empty while the other coordinate is given; expected both "
+                 "latitude_deg and longitude_deg, or neither")
+        if site.utc_offset_h is not None and lat is None:
+            fail(site, "utc_offset_h", "a UTC offset without coordinates; expected latitude_deg "
+                 "and longitude_deg too (the offset places the site's own sun)")
+        options = climates.get(site.climate, {})
+        kind = next((k for k in ("stations", "normals") if k in options), None)
+        if site.normals_id and kind != "normals":
+            fail(site, "normals_id", f"{_shown(site.normals_id)} with climate "
+                 f"{_shown(site.climate)}, which has no normals table; expected a climate of "
+                 "[climates.<name>] with normals, or an empty cell")
+        if kind and lat is None:
+            located = [s.row for s in sites if s.climate == site.climate and s.latitude_deg is not None]
+            given = f" (given on row{'s' if len(located) > 1 else ''} {_rows_text(located)})" \
+                if located else ""
+            why = "picks each site's nearest station" if kind == "stations" else \
+                "generates each site's year at its own position"
+            fail(site, "latitude_deg", f"empty, but climate {_shown(site.climate)} {why}{given}; "
+                 "expected latitude_deg and longitude_deg for every site of that climate")
+        if kind == "normals":
+            row_id = site.normals_id or site.id
+            if row_id not in normals[site.climate]:
+                table = Path(str(options["normals"])).name
+                fail(site, "normals_id" if site.normals_id else "id",
+                     f"no row {_shown(row_id)} in the normals table {table} of climate "
+                     f"{_shown(site.climate)}{closest(row_id, normals[site.climate])}; expected a "
+                     "row whose id is the site's normals_id or, when that is empty, its id")
+
+
+def _rows_text(rows) -> str:
+    shown = ", ".join(str(r) for r in rows[:5])
+    return shown + (f" and {len(rows) - 5} more" if len(rows) > 5 else "")
+
+
+def read_normals_table(path: Path) -> dict[str, Mapping[str, Any]]:
+    """A monthly-normals table (CSV or XLSX), checked: row id -> values (NORMALS_COLUMNS)."""
+    source = str(path)
+    frame = read_sites_table(path, what="normals table")
+    rows = _validate_rows(frame, NORMALS_COLUMNS, source, what="normals table")
+    out = {}
+    for row, values in rows:
+        for m in MONTHS:
+            low, high = values[f"tmin_{m}_c"], values[f"tmax_{m}_c"]
+            if low >= high:
+                raise InputError(f"row {row}, column tmin_{m}_c: {low:g} °C is not below "
+                                 f"tmax_{m}_c {high:g} °C; expected the mean daily minimum below "
+                                 "the mean daily maximum", source=source)
+        given = [m for m in MONTHS if values[f"ghi_{m}_kwh_m2_day"] is not None]
+        if given and len(given) < 12:
+            missing = next(m for m in MONTHS if m not in given)
+            raise InputError(f"row {row}, column ghi_{missing}_kwh_m2_day: empty while other months "
+                             "are given; expected all 12 months of irradiation or none",
+                             source=source)
+        if given and values["cloudiness"]:
+            raise InputError(f"row {row}, column cloudiness: {_shown(values['cloudiness'])} with "
+                             "monthly irradiation; expected one of the two", source=source)
+        if values["id"] in out:
+            raise InputError(f"row {row}, column id: duplicate id '{values['id']}'; expected one "
+                             "row per site or named normals", source=source)
+        out[values["id"]] = MappingProxyType(dict(values, row=row))
+    return out
 
 
 # ---------------------------------------------------------------- sites table
 
 
-def read_sites_table(path: Path) -> pd.DataFrame:
-    """The sites table as text cells (CSV or XLSX), headers stripped."""
+def read_sites_table(path: Path, what: str = "sites table") -> pd.DataFrame:
+    """The sites table (or another table of the study) as text cells (CSV or XLSX),
+    headers stripped."""
     source = str(path)
     suffix = path.suffix.lower()
     if suffix not in (".csv", ".xlsx"):
-        raise InputError(f"sites table must be .csv or .xlsx, found '{path.suffix}'", source=source)
-    data = io.BytesIO(read_input_bytes(path, what="the sites table"))
+        raise InputError(f"{what} must be .csv or .xlsx, found '{path.suffix}'", source=source)
+    data = io.BytesIO(read_input_bytes(path, what=f"the {what}"))
     try:
         if suffix == ".csv":
             frame = pd.read_csv(data, dtype=str, keep_default_na=False, skipinitialspace=True,
@@ -404,11 +517,11 @@ def read_sites_table(path: Path) -> pd.DataFrame:
         else:
             frame = _read_first_sheet(data, source)
     except pd.errors.EmptyDataError:
-        raise InputError("the sites table is empty: expected a header row and one row per site",
-                         source=source) from None
+        raise InputError(f"the {what} is empty: expected a header row and one row per "
+                         f"{'site' if what == 'sites table' else 'entry'}", source=source) from None
     except Exception as err:  # noqa: BLE001 - any parser failure is a user-file problem
         message = str(err).splitlines()[0] if str(err) else err.__class__.__name__
-        raise InputError(f"cannot read the sites table: {message}", source=source) from None
+        raise InputError(f"cannot read the {what}: {message}", source=source) from None
     frame.columns = [str(c).strip() for c in frame.columns]
     return frame
 
@@ -444,25 +557,26 @@ def _table_hint(frame: pd.DataFrame, column: str) -> str:
     return ""
 
 
-def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Site]:
-    source = str(path)
-    by_name = {s.name: s for s in SITE_COLUMNS}
+def _validate_rows(frame: pd.DataFrame, specs, source: str, what: str):
+    """Check the columns and every cell of a table against ``specs``: (row, values) per row,
+    defaults filled in; rows are spreadsheet rows (the header is row 1)."""
+    by_name = {s.name: s for s in specs}
     for column in frame.columns:
         if column not in by_name:
             hint = closest(column, by_name) + _table_hint(frame, column)
             raise InputError(f"unknown column '{_shown(column)[1:-1]}'{hint}", source=source)
-    for spec in SITE_COLUMNS:
+    for spec in specs:
         if spec.required and spec.name not in frame.columns:
             raise InputError(f"missing column '{spec.name}': expected {spec.expectation()}",
                              source=source)
     if frame.empty:
-        raise InputError("the sites table has no rows: expected one row per site", source=source)
-
-    sites, seen = [], {}
+        raise InputError(f"the {what} has no rows: expected one row per "
+                         f"{'site' if what == 'sites table' else 'entry'}", source=source)
+    out = []
     for index, record in enumerate(frame.to_dict("records")):
         row = index + 2  # spreadsheet row number: the header is row 1
         values = {}
-        for spec in SITE_COLUMNS:
+        for spec in specs:
             cell = str(record.get(spec.name, "")).strip()
             if cell == "":
                 if spec.required:
@@ -476,6 +590,14 @@ def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Si
                 unit = f" [{spec.unit}]" if spec.unit else ""
                 raise InputError(f"row {row}, column {spec.name}: found {_shown(cell)}; expected "
                                  f"{spec.expectation()}{unit}", source=source) from None
+        out.append((row, values))
+    return out
+
+
+def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Site]:
+    source = str(path)
+    sites, seen = [], {}
+    for row, values in _validate_rows(frame, SITE_COLUMNS, source, what="sites table"):
         site_id = values["id"]
         if site_id in seen:
             raise InputError(f"row {row}, column id: duplicate site id '{site_id}' "

@@ -187,6 +187,22 @@ SOLVER = (
     F("gap_rel_frac", "float", 0.005, "fraction", 0.0, 0.5, doc="Relative optimality gap to stop at."),
 )
 
+LOCATION = (
+    F("station_distance_limit_km", "float", 150.0, "km", 1.0, 20000.0,
+      doc="A site farther than this from its nearest station (a climate of [climates.<name>] "
+          "with stations) gets a warning naming the distance. A typical year stands for its "
+          "region's monthly statistics, not its day-to-day weather; monthly temperature and "
+          "irradiation stay similar over roughly 100-200 km of open terrain (from memory)."),
+    F("station_altitude_limit_m", "float", 500.0, "m", 1.0, 9000.0,
+      doc="A site whose altitude differs from its station's (or its named normals') by more "
+          "than this gets a warning with the shift applied: real gradients near the ground "
+          "range about 4-8 K/km and valleys hold cold air on clear nights (from memory), so "
+          "500 m leaves the standard-gradient shift about 1 K uncertain."),
+    F("lapse_rate_k_per_km", "float", 6.5, "K/km", 0.0, 10.0,
+      doc="Air temperature falls this much per km of altitude when a climate is moved to a "
+          "site's altitude_m (ICAO standard atmosphere 6.5 K/km; 0 switches the shift off)."),
+)
+
 OUTPUT = (
     F("workbook", "str", "", doc="Workbook path; default output/<study file name>.xlsx."),
     F("json", "str", "", doc="Optional JSON path for the same plan."),
@@ -210,6 +226,7 @@ SECTIONS = {
     "service_life": SERVICE_LIFE,
     "limits": LIMITS,
     "thermal": THERMAL,
+    "location": LOCATION,
     "solver": SOLVER,
     "output": OUTPUT,
 }
@@ -221,7 +238,21 @@ SITE_COLUMNS = (
     F("id", "str", doc="Unique site id."),
     F("name", "str", "", doc="Site name; defaults to the id."),
     F("region", "str", doc="Trip region: one planned trip serves every site of its region visited that year."),
-    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry, or an EPW/TMY3/TMY2 file."),
+    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry (a weather file, a "
+      "folder of station files or a table of monthly normals), or an EPW/TMY3/TMY2 file."),
+    F("latitude_deg", "float", None, "deg N", -90.0, 90.0,
+      doc="Site latitude (south negative). With longitude_deg: sun, irradiance and PV at the "
+          "site's own position; required by station-folder and normals climates."),
+    F("longitude_deg", "float", None, "deg E", -180.0, 180.0,
+      doc="Site longitude (west negative); given with latitude_deg."),
+    F("altitude_m", "float", None, "m", -500.0, 8850.0,
+      doc="Site altitude above sea level: the climate's air temperature is moved to it by "
+          "[location].lapse_rate_k_per_km; blank = the climate's own altitude."),
+    F("utc_offset_h", "float", None, "h", -12.0, 14.0,
+      doc="Local standard time minus UTC at the site (with coordinates); blank = the nautical "
+          "zone round(longitude / 15)."),
+    F("normals_id", "str", "",
+      doc="Row of the site's normals table (a climate with normals); blank = the site's id."),
     F("enclosure", "str", "cabinet-sun", choices=("cabinet-sun", "cabinet-shade", "vault", "shelter"),
       doc="Enclosure kind (sets the thermal model's defaults)."),
     F("load_w", "float", unit="W", minimum=0.0, maximum=5000.0, doc="Continuous load (mean power)."),
@@ -262,6 +293,34 @@ SITE_COLUMNS = (
     F("existing_soh_frac", "float", 0.0, "fraction", 0.0, 1.0,
       doc="Measured capacity / rated capacity, if known (0: predict from age)."),
     F("notes", "str", "", doc="Free text, copied to the plan."),
+)
+
+
+MONTHS = ("jan", "feb", "mar", "apr", "may", "jun", "jul", "aug", "sep", "oct", "nov", "dec")
+CLOUDINESS = ("clear", "few", "scattered", "broken", "overcast")
+
+#: Columns of a monthly-normals table ([climates.<name>] normals = "file").
+NORMALS_COLUMNS = (
+    F("id", "str", doc="A site id, or a name sites give in their normals_id column."),
+    *(F(f"tmin_{m}_c", "float", unit="°C", minimum=-90.0, maximum=60.0,
+        doc="Mean daily minimum air temperature of the month." if m == "jan" else "")
+      for m in MONTHS),
+    *(F(f"tmax_{m}_c", "float", unit="°C", minimum=-90.0, maximum=60.0,
+        doc="Mean daily maximum air temperature of the month." if m == "jan" else "")
+      for m in MONTHS),
+    *(F(f"ghi_{m}_kwh_m2_day", "float", None, "kWh/m² per day", 0.0, 12.0,
+        doc="Monthly mean daily global horizontal irradiation (all 12 or none)."
+        if m == "jan" else "")
+      for m in MONTHS),
+    F("cloudiness", "str", "", choices=CLOUDINESS,
+      doc="Instead of irradiation: the usual cloud amount (clear 0, few 1-2, scattered 3-4, "
+          "broken 5-7, overcast 8 oktas), turned into clearness by Kasten & Czeplak (1980)."),
+    F("altitude_m", "float", None, "m", -500.0, 8850.0,
+      doc="Altitude the normals were measured at; blank = the site's own (no lapse shift)."),
+    F("wind_speed_m_s", "float", 2.0, "m/s", 0.0, 40.0, doc="Mean wind speed (constant)."),
+    F("day_to_day_sd_k", "float", 2.0, "K", 0.0, 10.0,
+      doc="Standard deviation of the day-to-day anomaly of daily mean temperature."),
+    F("notes", "str", "", doc="Free text (where the normals come from)."),
 )
 
 
@@ -307,11 +366,24 @@ def reference_markdown() -> str:
               "Optional, one table per region named in the sites table.", "",
               *rows(NAMED_SECTIONS["regions"]), ""]
     lines += ["## [climates.<name>]", "",
-              "Optional: a user climate file and how to read it (`file` plus the reading options",
-              "in `docs/climate.md`); sites then name it in their `climate` column.", ""]
+              "Optional, one table per user climate; sites name it in their `climate` column. Each",
+              "holds exactly one of:", "",
+              "- `file`: a weather file (EPW, TMY3, TMY2 or plain CSV) and its reading options",
+              "  (`docs/climate.md`);",
+              "- `stations`: a folder of weather files; each site (with `latitude_deg` and",
+              "  `longitude_deg`) takes the nearest station by great-circle distance, its air",
+              "  temperature moved to the site's `altitude_m` (`[location]`);",
+              "- `normals`: a table (CSV or XLSX) of monthly normals, columns below; each site",
+              "  (with coordinates) takes the row named by its `normals_id` or its `id`.", "",
+              "Paths are relative to the study file.", ""]
     lines += ["## Sites table columns", "",
               "One row per site. Months are written `6-9`, `11-3` (wrapping), `5;6;7` or `all`.", "",
               *rows(SITE_COLUMNS), ""]
+    lines += ["## Normals table columns", "",
+              "One row per site or per named set of normals; every month of `tmin_<mon>_c` and",
+              "`tmax_<mon>_c` (`jan` ... `dec`) is required, the minimum below the maximum. The",
+              "same columns exist for every month where the first one is described.", "",
+              *rows(NORMALS_COLUMNS), ""]
     lines += ["## Complete example", "", "`scenarios/corvale.toml` with `scenarios/corvale_sites.csv`;",
               "`planner new DIR` writes a commented starter with every key.", ""]
     return "\n".join(lines)
