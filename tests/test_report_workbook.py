@@ -728,7 +728,7 @@ def test_crew_pages_say_what_to_install_program_bring_and_remove(written, book):
             continue
         pack = site["replacements"][0]
         assert row[2].startswith(NAMES[pack["chemistry"]]) and f"{pack['pack_mass_kg']:.1f} kg" in row[2]
-        assert row[3] == (f"{pack['charge_voltage_v_per_cell']:.3g} V per cell\n"
+        assert row[3] == (f"{pack['charge_voltage_v_per_cell']:.2f} V per cell\n"
                           f"{pack['charge_voltage_v']:.2f} V per pack")
         assert (row[4] == "NEW insulated box") == (site["thermal_measure"] == "insulated-box")
         assert row[5].startswith("Demo lead-acid") if site.get("existing_pack") else row[5] == "nothing (first pack)"

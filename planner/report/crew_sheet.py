@@ -111,7 +111,7 @@ def _charge_text(pack, rechargeable) -> str:
     whole = finite_number(pack.get("charge_voltage_v"))
     if per_cell is None:
         return ""
-    return f"{per_cell:.3g} V per cell" + (f"\n{whole:.2f} V per pack" if whole is not None else "")
+    return f"{per_cell:.2f} V per cell" + (f"\n{whole:.2f} V per pack" if whole is not None else "")
 
 
 def _rechargeable(chemistry) -> bool:
@@ -189,8 +189,9 @@ def _trip_lines(trip, stops, visits, payload_kg, start, currency) -> tuple[str, 
     count = finite_number(trip.get("trip_count")) or 1
     out_mass = sum(finite_number(p[3].get("pack_mass_kg")) or 0.0 for p in packs if isinstance(p[3], Mapping))
     n_out = sum(1 for p in packs if isinstance(p[3], Mapping))
-    load = [f"carry {trip.get('pack_count') or len(packs)} packs" + (f", {mass:,.0f} kg in" if mass is not None else ""),
-            f"{n_out} old packs out" + (f", {out_mass:,.0f} kg" if n_out else "")]
+    n_in = trip.get("pack_count") or len(packs)
+    load = [f"carry {n_in} pack{'s' if n_in != 1 else ''}" + (f", {mass:,.0f} kg in" if mass is not None else ""),
+            f"{n_out} old pack{'s' if n_out != 1 else ''} out" + (f", {out_mass:,.0f} kg" if n_out else "")]
     if count > 1:
         load.append(f"split over {count:.0f} trips")
     load.append("lithium aboard: UN 38.3 dangerous goods, packed and declared" if chems & LITHIUM_IDS
