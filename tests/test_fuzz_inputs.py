@@ -113,6 +113,13 @@ def leftovers(folder: Path) -> list[str]:
     return [p.name for p in folder.rglob("*") if p.name.endswith(".tmp")]
 
 
+def assert_one_line_per_mistake(err) -> None:
+    """Several mistakes come together, each on its own line; at most 20 and a count."""
+    lines = err.lines() if isinstance(err, InputError) else [str(err)]
+    assert str(err) == "\n".join(lines) and len(lines) <= 21
+    assert all(line.strip() and "Traceback" not in line for line in lines)
+
+
 def check_case(folder: Path, case) -> object:
     """Load, validate and check the outputs of one case; the study, or None on InputError."""
     from planner.cli.plan import output_paths
@@ -125,8 +132,8 @@ def check_case(folder: Path, case) -> object:
     try:
         study = load_study(folder / "study.toml")
         workbook, json_target = output_paths(study, out, json_out)
-    except InputError as err:
-        assert "\n" not in str(err)
+    except (InputError, OutputError) as err:
+        assert_one_line_per_mistake(err)
         study = None
     finally:
         os.chdir(cwd)
@@ -178,7 +185,7 @@ def test_a_handful_of_full_plans_leave_inputs_untouched():
             try:
                 write_outputs(run_study(study), workbook, json_target)
             except (InputError, OutputError) as err:
-                assert "\n" not in str(err)
+                assert_one_line_per_mistake(err)
             finally:
                 os.chdir(cwd)
             after = digests(folder)

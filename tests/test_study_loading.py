@@ -32,11 +32,13 @@ BASE = '[study]\nsites_file = "sites.csv"\n'
 
 
 def error_of(path) -> str:
+    """The study's mistakes, one per line (several mistakes are reported together)."""
     with pytest.raises(InputError) as info:
         load_study(path)
-    message = str(info.value)
-    assert "\n" not in message, "an input error is one line"
-    return message
+    lines = info.value.lines()
+    assert str(info.value) == "\n".join(lines)
+    assert len(lines) <= 21 and all(line.strip() for line in lines)
+    return str(info.value)
 
 
 def test_valid_minimal_study_fills_defaults(tmp_path):

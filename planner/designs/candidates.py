@@ -214,6 +214,11 @@ def _ladder_pack(system_voltage_v, chem_id, cell_capacity_ah, cell_voltage_v,
 def _exclusion(model: SiteModel, chem: Chemistry) -> str:
     """Why a chemistry cannot serve a site at all, or an empty string."""
     site = model.site
+    if site.system_voltage_v < chem.cell_voltage_v:
+        # One cell alone is above the bus: no whole-cell pack fits (planner.study rejects
+        # a system voltage below every candidate's cell).
+        return (f"system voltage {site.system_voltage_v:g} V is below one {chem.id} cell "
+                f"({chem.cell_voltage_v:g} V)")
     if chem.rechargeable and site.charging == "none":
         return "no charging source on site, and the pack is rechargeable"
     if not chem.rechargeable and model.daily_load_wh > PRIMARY_MAX_DAILY_LOAD_WH:

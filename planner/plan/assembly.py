@@ -352,7 +352,8 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                   "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
                   "inflation_frac": s["inflation_frac"],
                   "sites_file": study.sites_path.name, "planner_version": __version__},
-        "total_present_cost": solution.objective,
+        # no site served: there is no plan whose cost could be given (docs/plan-json.md)
+        "total_present_cost": solution.objective if solution.sites else None,
         "solver": {"name": solution.solver_name, "status": solution.status,
                    "gap_frac": solution.gap_frac, "seconds": int(solution.seconds),
                    "objective": solution.objective, "best_bound": solution.best_bound,

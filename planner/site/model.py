@@ -21,6 +21,7 @@ from planner.energy.balance import ChargingShortfall, charging_shortfall
 from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_csv
 from planner.energy.mains import float_charge_power_w, mains_available
 from planner.energy.pv import pv_dc_power_w
+from planner.errors import InputError
 from planner.study.loading import Site, Study
 from planner.thermal.battery import battery_temperature_fleet
 from planner.thermal.enclosures import Enclosure
@@ -110,8 +111,12 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
     for site in study.sites:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", ClimateWarning)
-            years.append(_climate(study, site.climate, study.settings["study"]["warming_k"]
-                                  + site.warming_k + extra_warming_k))
+            try:
+                years.append(_climate(study, site.climate, study.settings["study"]["warming_k"]
+                                      + site.warming_k + extra_warming_k))
+            except InputError as err:  # name the site as well as the file
+                raise InputError(f"{site.where()}, column climate (site {site.id}): {err}",
+                                 source=study.sites_path.name) from None
         notices.append([f"climate {site.climate}: {w.message}" for w in caught
                         if issubclass(w.category, ClimateWarning)])
     internal = [site.load_w if site.electronics_heat_w is None else site.electronics_heat_w

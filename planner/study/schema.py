@@ -152,6 +152,9 @@ LIMITS = (
     F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, 1e6, doc="0 means no limit."),
 )
 
+#: Thermal measure ids (planner.site.thermal_measures prices each; a test keeps the two equal).
+THERMAL_MEASURE_IDS = ("insulated-box", "heater", "heater-box", "sun-shield", "vault")
+
 THERMAL = (
     F("measures", "strs", ("insulated-box", "heater-box", "sun-shield", "vault"),
       doc="Thermal measures a new installation may add where they can matter (heaters and the "
