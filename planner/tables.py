@@ -57,6 +57,8 @@ class Table:
     rows: list[Row]
     header_row: int = 1
     sheets: tuple[str, ...] = ()
+    #: Rows left out, each with its one-line error (``read_table(..., strict=False)``).
+    problems: list = field(default_factory=list)
     _index: dict = field(default_factory=dict, repr=False)
 
     def __post_init__(self):
@@ -106,7 +108,7 @@ class Table:
 
 
 def read_table(data: bytes, *, source: str, kind: str, what: str, delimiter: str = ",",
-               skip_lines: int = 0) -> Table:
+               skip_lines: int = 0, strict: bool = True) -> Table:
     """Read a CSV (``kind="csv"``) or the first sheet of an XLSX (``kind="xlsx"``).
 
     Parameters
@@ -123,12 +125,16 @@ def read_table(data: bytes, *, source: str, kind: str, what: str, delimiter: str
     skip_lines : int
         Lines before the header that are not part of the table (declarations); they
         still count in row and line numbers.
+    strict : bool
+        A row with more fields than the header raises; with ``strict=False`` it is left
+        out and its error kept in :attr:`Table.problems` (for a checker that reports
+        every mistake at once).
 
     Raises
     ------
     planner.errors.InputError
         Unreadable file, no header, an empty or repeated header name, a row with more
-        fields than the header.
+        fields than the header (``strict``).
     """
     if kind == "csv":
         records, sheets = _csv_records(data, source, what, delimiter, skip_lines), ()
@@ -149,13 +155,19 @@ def read_table(data: bytes, *, source: str, kind: str, what: str, delimiter: str
         raise InputError(f"{what} is empty: expected a header row and one row per entry",
                          source=source)
     header = _check_header(header_row, rows, source, kind, sheets)
+    kept, problems = [], []
     for row in rows:
         if len(row.cells) > len(header) and any(row.cells[len(header):]):
-            raise InputError(f"{row.where()}: {len(_trimmed(row.cells))} fields, the header has "
-                             f"{len(header)}; expected at most one value per column (a value "
-                             "holding the separator needs quotes)", source=source)
-    return Table(source=source, header=header, rows=rows, header_row=header_row.number,
-                 sheets=sheets)
+            problem = InputError(f"{row.where()}: {len(_trimmed(row.cells))} fields, the header "
+                                 f"has {len(header)}; expected at most one value per column (a "
+                                 "value holding the separator needs quotes)", source=source)
+            if strict:
+                raise problem
+            problems.append(problem)
+            continue
+        kept.append(row)
+    return Table(source=source, header=header, rows=kept, header_row=header_row.number,
+                 sheets=sheets, problems=problems)
 
 
 def column_label(index: int, kind: str) -> str:

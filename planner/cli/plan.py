@@ -82,7 +82,7 @@ def output_paths(study, out_option: str | None, json_option: str | None):
     base = study.path.parent
     for option, value in (("--out", out_option), ("--json", json_option)):
         if value is not None and not value.strip():
-            raise InputError(f"{option} is empty; expected a file name (or leave {option} out)",
+            raise InputError(f"{option} is empty; expected a file name (or leave the option out)",
                              source="plan")
     if out_option:
         workbook, source = _as_file(Path(out_option), out_option, study), "--out"

@@ -166,7 +166,8 @@ def _interval(starts_or_ends: np.ndarray, raw: RawSeries) -> np.timedelta64:
 def normalise(raw: RawSeries) -> TypicalYear:
     """Turn what a reader found into an hour-start, local-standard, degC typical year.
 
-    Steps, in order: convert time zone to local standard time; move hour-ending labels
+    Steps, in order: check the station's position and UTC offset (an EPW header may say
+    latitude 999); convert time zone to local standard time; move hour-ending labels
     to interval starts; reject duplicate timestamps; drop 29 February; convert units;
     check plausibility ranges; average sub-hourly records into hours; condense
     several years (``multi_year``); interpolate gaps of at most 6 h (with a

@@ -21,6 +21,7 @@ from planner.designs.candidates import (
     Outcome,
     SiteDesigns,
     max_service_years,
+    ruled_out_by_voltage,
     worn_out_soh_frac,
 )
 from planner.energy.freezing import lead_acid_freezing_point_c
@@ -84,7 +85,9 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         "replacement_months": list(plan.replacement_months) if plan else [],
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
-        "warnings": list(model.warnings),
+        "warnings": list(model.warnings) + [
+            f"{chem} is not offered: {why}"
+            for chem, why in sorted(ruled_out_by_voltage(designs.excluded).items())],
         "thermal_measure": measure,
         "heater_energy_wh_per_year": model.heater_energy_wh_per_year,
         **risk_before_next_visit(plan, options, horizon),

@@ -30,7 +30,7 @@ def read_sites_table(path: Path) -> Table:
     if suffix not in (".csv", ".xlsx"):
         raise InputError(f"sites table must be .csv or .xlsx, found '{path.suffix}'", source=source)
     data = read_input_bytes(path, what="the sites table")
-    return read_table(data, source=source, kind=suffix[1:], what="the sites table")
+    return read_table(data, source=source, kind=suffix[1:], what="the sites table", strict=False)
 
 
 def _table_hint(table: Table, column: str) -> str:
@@ -51,6 +51,8 @@ def validate_sites(table: Table, mistakes: MistakeList, *, start_year: int | Non
     ``chemistries`` feed the rules that compare a row with the study.
     """
     source = table.source
+    for problem in table.problems:  # rows longer than the header
+        mistakes.add(problem)
     by_name = {s.name: s for s in SITE_COLUMNS}
     for column in table.columns:
         if column not in by_name:
@@ -60,7 +62,7 @@ def validate_sites(table: Table, mistakes: MistakeList, *, start_year: int | Non
     for spec in missing:
         mistakes.add(InputError(f"missing column '{spec.name}': expected {spec.expectation()}",
                                 source=source))
-    if len(table) == 0:
+    if len(table) == 0 and not table.problems:
         mistakes.add(InputError("the sites table has no rows: expected one row per site",
                                 source=source))
     if missing:
@@ -187,8 +189,10 @@ def check_study_files(sites, table: Table, named, base: Path, sites_path: Path, 
 
     "Used" is read from the table's cells, so a row with a mistake elsewhere does not
     make its region or climate look unused."""
+    from planner.climate.readers import DEPRECATED_IDS
+
     regions = sorted({r for r in table.column("region") if r})
-    climates = sorted({_current_climate_id(c) for c in table.column("climate") if c})
+    climates = sorted({DEPRECATED_IDS.get(c, c) for c in table.column("climate") if c})
     _check_regions(regions, named["regions"], source, mistakes)
     _check_climates(sites, climates, named["climates"], base, sites_path, source, mistakes)
 
