@@ -21,9 +21,13 @@ A :class:`Table` holds the cells as text; numbers are read by
 from __future__ import annotations
 
 import csv
+import functools
 import io
+import itertools
 import math
+import operator
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 
@@ -31,8 +35,7 @@ from planner.errors import InputError
 from planner.numbers import parse_number_column
 
 
-@dataclass(frozen=True)
-class Row:
+class Row(NamedTuple):
     """One data row: where the user sees it and its cells (text, stripped)."""
 
     number: int           # spreadsheet row (1 = first row of the file or sheet)
@@ -75,6 +78,10 @@ class Table:
     def has(self, name: str) -> bool:
         return name in self._index
 
+    def index_of(self, name: str) -> int | None:
+        """Position of column ``name`` in each row's cells (None if absent)."""
+        return self._index.get(name)
+
     def cell(self, row: Row, name: str) -> str:
         """The text of ``row`` in column ``name`` ("" when the row is short or the column absent)."""
         i = self._index.get(name)
@@ -82,7 +89,10 @@ class Table:
 
     def column(self, name: str) -> list[str]:
         """Every row's text in column ``name``."""
-        return [self.cell(row, name) for row in self.rows]
+        i = self._index.get(name)
+        if i is None:
+            return [""] * len(self.rows)
+        return [row.cells[i] if i < len(row.cells) else "" for row in self.rows]
 
     def numbers(self, name: str, *, what: str, exponent: bool = True,
                 allow_blank: bool = True, label: str = "row") -> np.ndarray:
@@ -142,19 +152,16 @@ def read_table(data: bytes, *, source: str, kind: str, what: str, delimiter: str
         records, sheets = _xlsx_records(data, source, what)
     else:
         raise ValueError(f"kind must be 'csv' or 'xlsx', not {kind!r}")
-    header_row = None
-    rows = []
-    for record in records:
-        if header_row is None:
-            if any(record.cells):
-                header_row = record
-            continue
-        if any(record.cells):
-            rows.append(record)
-    if header_row is None:
+    cells_of = operator.itemgetter(2)
+    filled = list(itertools.compress(records, map(any, map(cells_of, records))))
+    if not filled:
         raise InputError(f"{what} is empty: expected a header row and one row per entry",
                          source=source)
+    header_row, rows = filled[0], filled[1:]
     header = _check_header(header_row, rows, source, kind, sheets)
+    if max(map(len, map(cells_of, rows)), default=0) <= len(header):
+        return Table(source=source, header=header, rows=rows, header_row=header_row.number,
+                     sheets=sheets)
     kept, problems = [], []
     for row in rows:
         if len(row.cells) > len(header) and any(row.cells[len(header):]):
@@ -220,18 +227,25 @@ def _csv_records(data: bytes, source: str, what: str, delimiter: str, skip_lines
     for _ in range(skip_lines):
         handle.readline()
     reader = csv.reader(handle, delimiter=delimiter, skipinitialspace=True)
-    records = []
     end = skip_lines  # last line read so far
     try:
+        if '"' not in text:
+            # No quoting, so one record per line: built without a Python step per line
+            # (a minute-by-minute climate file has half a million rows).
+            numbers = itertools.count(skip_lines + 1)
+            cells = map(tuple, map(functools.partial(map, str.strip), reader))
+            numbered = zip(numbers, itertools.count(skip_lines + 1), cells)
+            return list(map(functools.partial(tuple.__new__, Row), numbered))
+        records = []
         for number, fields in enumerate(reader, start=skip_lines + 1):
             start = end + 1
             end = skip_lines + reader.line_num
             # A spreadsheet shows one row per record: a quoted newline stays in its cell.
-            records.append(Row(number=number, line=start,
-                               cells=tuple(cell.strip() for cell in fields)))
+            records.append(Row(number, start, tuple(map(str.strip, fields))))
     except csv.Error as err:
-        raise InputError(f"line {end + 1}: cannot be read as CSV ({err}); expected {what} "
-                         "with quotes closed on every value", source=source) from None
+        raise InputError(f"line {skip_lines + reader.line_num}: cannot be read as CSV ({err}); "
+                         f"expected {what} with quotes closed on every value",
+                         source=source) from None
     return records
 
 

@@ -10,6 +10,7 @@ only repeat the mistake).
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 from types import MappingProxyType
 
@@ -67,15 +68,19 @@ def validate_sites(table: Table, mistakes: MistakeList, *, start_year: int | Non
                                 source=source))
     if missing:
         return []
+    # Where each column sits, looked up once: a fleet table has 100,000 rows x 30 columns.
+    columns = [(spec, table.index_of(spec.name), spec.required) for spec in SITE_COLUMNS]
+    cells_v = _cell_voltages(chemistries)
     sites, seen = [], {}
     for row in table.rows:
         where = row.where()
         count = len(mistakes)
         values = {}
-        for spec in SITE_COLUMNS:
-            cell = table.cell(row, spec.name)
+        cells, n_cells = row.cells, len(row.cells)
+        for spec, index, required in columns:
+            cell = cells[index] if index is not None and index < n_cells else ""
             if cell == "":
-                if spec.required:
+                if required:
                     mistakes.add(InputError(f"{where}, column {spec.name}: empty; expected "
                                             f"{spec.expectation()}", source=source))
                 values[spec.name] = spec.default
@@ -96,20 +101,36 @@ def validate_sites(table: Table, mistakes: MistakeList, *, start_year: int | Non
             continue
         values["name"] = values["name"] or site_id
         values["climate"] = _current_climate_id(values["climate"])
-        _check_site_rules(values, where, source, start_year, chemistries, mistakes)
+        _check_site_rules(values, where, source, start_year, cells_v, mistakes)
         if len(mistakes) == count:
             sites.append(Site(row=row.number, values=MappingProxyType(values), line=row.line))
     return sites
 
 
+def _cell_voltages(chemistries) -> dict[str, float]:
+    """Nominal cell voltage of each known candidate chemistry."""
+    from planner.chemistry import CHEMISTRY_IDS, get_chemistry
+
+    return {c: get_chemistry(c).cell_voltage_v for c in chemistries if c in CHEMISTRY_IDS}
+
+
 def _current_climate_id(name: str) -> str:
-    from planner.climate.readers import DEPRECATED_IDS, canonical_id
+    if name not in _deprecated_ids():
+        return name
+    from planner.climate.readers import canonical_id
 
     # The same warning as `planner climate`, once per old id (Python's warning filter).
-    return canonical_id(name) if name in DEPRECATED_IDS else name
+    return canonical_id(name)
 
 
-def _check_site_rules(values, where, source, start_year, chemistries, mistakes: MistakeList):
+@functools.lru_cache(maxsize=1)
+def _deprecated_ids() -> frozenset:
+    from planner.climate.readers import DEPRECATED_IDS
+
+    return frozenset(DEPRECATED_IDS)
+
+
+def _check_site_rules(values, where, source, start_year, cell_voltages, mistakes: MistakeList):
     """Rules that involve more than one column (or a column and the study)."""
     def fail(column, message):
         mistakes.add(InputError(f"{where}, column {column}: {message}", source=source))
@@ -131,29 +152,28 @@ def _check_site_rules(values, where, source, start_year, chemistries, mistakes: 
             check_measure_ids(ids, f"{where}, column thermal_measures", source)
         except InputError as err:
             mistakes.add(err)
-    _check_voltage(values, chemistries, fail)
+    _check_voltage(values, cell_voltages, fail)
     _check_existing_pack(values, start_year, fail)
 
 
-def _check_voltage(values, chemistries, fail):
+def _check_voltage(values, cells, fail):
     """A pack needs at least one whole cell: a system voltage below one cell of every
-    candidate chemistry builds nothing (a chemistry whose cell alone is above it is left
-    out at the site, with the reason, by planner.designs)."""
-    from planner.chemistry import CHEMISTRY_IDS, get_chemistry
-
+    candidate chemistry (``cells``: id -> nominal cell voltage) builds nothing (a chemistry
+    whose cell alone is above it is left out at the site, with the reason, by
+    planner.designs)."""
     volts = values["system_voltage_v"]
-    known = [c for c in chemistries if c in CHEMISTRY_IDS]
-    cells = {c: get_chemistry(c).cell_voltage_v for c in known}
-    if cells and all(volts < v for v in cells.values()):
+    if cells and volts < min(cells.values()):
         listed = ", ".join(f"{c} {v:g} V" for c, v in cells.items())
         fail("system_voltage_v", f"{volts:g} V is below one cell of every candidate chemistry "
                                  f"({listed}); expected at least {min(cells.values()):g} V")
 
 
 def _check_existing_pack(values, start_year, fail):
+    existing = values["existing_chemistry"]
+    if not existing and not any(values[c] for c in EXISTING_PACK_COLUMNS):
+        return
     from planner.chemistry import CHEMISTRY_IDS, get_chemistry
 
-    existing = values["existing_chemistry"]
     filled = [c for c in EXISTING_PACK_COLUMNS if values[c]]
     if not existing:
         if filled:
@@ -239,13 +259,14 @@ def _check_climates(sites, used, climates, base: Path, sites_path: Path, source:
             check_climate_options(path, rest, where)
     checked = set()
     for site in sites:
-        with mistakes.catch():
-            if site.load_file and _exists(base / site.load_file):
-                check_input_file(base / site.load_file, what="an hourly load CSV")
-            elif site.load_file:
-                raise InputError(f"{site.where()}, column load_file: {_shown(site.load_file)} not "
-                                 "found; expected an hourly load CSV beside the study",
-                                 source=str(sites_path))
+        if site.load_file:
+            with mistakes.catch():
+                if _exists(base / site.load_file):
+                    check_input_file(base / site.load_file, what="an hourly load CSV")
+                else:
+                    raise InputError(f"{site.where()}, column load_file: {_shown(site.load_file)} "
+                                     "not found; expected an hourly load CSV beside the study",
+                                     source=str(sites_path))
         name = site.climate
         if name in bundled or name in climates or name in checked:
             continue
