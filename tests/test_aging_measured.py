@@ -30,7 +30,7 @@ def test_measurement_on_the_curve_gives_the_equivalent_age():
 
 
 def test_measurement_below_the_whole_curve_caps_the_health():
-    # the example: 1 % of capacity
+    # 1 % of capacity
     health = health_from_today(CURVE, age_months=36, measured_soh_frac=0.01)
     assert not health.on_model_curve
     assert health.soh_monthly.max() <= 0.01 and health.years_to(0.7) == 0.0

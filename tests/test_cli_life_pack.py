@@ -62,7 +62,7 @@ def test_across_models_widens_the_band_and_says_so():
 
 
 @pytest.mark.parametrize("cells, draws", [
-    (1000, 100000),     # the example: 208 s and 6.3 GiB before the bound
+    (1000, 100000),     # 208 s and 6.3 GiB before the bound
     (200, 50000),       # variant: 10 million cell draws, twice the bound
 ])
 def test_pack_monte_carlo_past_the_stated_bound_is_refused(cells, draws):

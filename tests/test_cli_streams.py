@@ -1,7 +1,7 @@
 """Closed or failing standard streams, and what `planner plan` does with its outputs
 (planner/cli/streams.py, planner/cli/plan.py).
 
-Classes (each with the issue's example and a variant of our own):
+Classes (each with a known case and a second variant):
 - a closed standard output or error (``>&-``, ``2>&-``) or one that cannot be written
   (``2>/dev/full``): the plan is still written, the documented exit code kept, no
   traceback; a result that cannot reach standard output is exit 4;
@@ -66,7 +66,7 @@ def planner_child(folder: Path, args, *, shell_redirect: str = ""):
 
 
 @pytest.mark.parametrize("redirect", [
-    ">&-", "2>&-", "2>/dev/full",            # the issue's three
+    ">&-", "2>&-", "2>/dev/full",            # the three usual redirections
     ">&- 2>&- <&-",                          # variant: every standard stream closed
 ])
 def test_closed_streams_still_write_the_plan_with_exit_0(study_dir, redirect):
@@ -99,7 +99,7 @@ def test_result_commands_on_a_closed_standard_output_are_exit_4(tmp_path):
 
 
 def test_full_device_as_workbook_is_one_line_and_exit_4(study_dir):
-    # the issue's example printed "Exception ignored in ZipFile.__del__"; /dev/full is the
+    # it used to print "Exception ignored in ZipFile.__del__"; /dev/full is the
     # Linux device whose writes fail with ENOSPC (kernel admin-guide/devices.txt, 1:7)
     if not os.path.exists("/dev/full"):
         pytest.skip("no /dev/full on this system")
@@ -142,8 +142,8 @@ def run(folder: Path, *args):
 
 
 @pytest.mark.parametrize("args, expected", [
-    (["--out", ""], "--out is empty"),              # the issue's example: wrote the default
-    (["--json", ""], "--json is empty"),            # the issue's example: wrote nothing
+    (["--out", ""], "--out is empty"),              # wrote the default
+    (["--json", ""], "--json is empty"),            # wrote nothing
     (["--out", "  "], "--out is empty"),            # variant: blanks only
 ])
 def test_empty_output_options_are_refused(study_dir, no_planning, args, expected):

@@ -1,6 +1,6 @@
 """Climate files a hostile user writes: impossible stations, data coarser than hourly,
 a byte-order mark, declarations that are not numbers (planner/climate/normalise.py and
-csv_reader.py). Each class with the issue's example and a variant of our own.
+csv_reader.py). Each class with a known case and a second variant.
 """
 
 import re
@@ -30,7 +30,7 @@ def _epw_with(tmp_path, name, field_index, value):
 
 
 @pytest.mark.parametrize("index, value, words", [
-    (6, "999", "latitude 999"),           # the issue's example (|latitude| <= 90 by definition)
+    (6, "999", "latitude 999"),           # (|latitude| <= 90 by definition)
     (7, "-500", "longitude -500"),        # variant: longitude beyond 180 degrees
     (8, "15", "UTC offset (h) 15"),       # variant: no zone is 15 h from UTC (they span -12..+14)
 ])
@@ -59,7 +59,7 @@ def test_impossible_station_inside_a_plan_names_file_and_site(tmp_path):
 
 
 def test_two_hourly_data_is_an_error_not_interpolated(tmp_path):
-    # the issue's example: a reading every 2 hours, timestamps marking the start
+    # a reading every 2 hours, timestamps marking the start
     index = hours(periods=4380, freq="2h")
     path = write_csv(tmp_path / "two.csv", stamps(index), ramp()[::2])
     with pytest.raises(InputError, match="timestamps are 2 h apart; expected hourly or finer"):
@@ -92,7 +92,7 @@ def _declared_csv(tmp_path, name="declared.csv"):
 
 
 def test_byte_order_mark_before_declarations(tmp_path):
-    # the issue's example: the BOM hid the first declaration ("option ... is missing")
+    # the BOM hid the first declaration ("option ... is missing")
     path = _declared_csv(tmp_path)
     path.write_bytes(b"\xef\xbb\xbf" + path.read_bytes())
     year = load_climate(str(path))

@@ -15,7 +15,7 @@ from planner.study.loading import load_study
 
 
 @pytest.mark.parametrize("volts, ruled_out, offered", [
-    ("3", {"lfp", "nmc"}, {"vrla"}),        # the class: a bus below a lithium cell
+    ("3", {"lfp", "nmc"}, {"vrla"}),        # a bus below a lithium cell
     ("3.4", {"nmc"}, {"vrla", "lfp"}),      # variant: between an LFP and an NMC cell
     ("12", set(), {"vrla", "lfp", "nmc"}),
 ])

@@ -339,7 +339,7 @@ FULL_WORKBOOK = textwrap.dedent("""
 
 @as_root
 def test_full_device_workbook_has_no_ignored_exception(tmp_path):
-    # The issue's example: --out /dev/full printed "Exception ignored in ZipFile.__del__".
+    # --out /dev/full printed "Exception ignored in ZipFile.__del__".
     # variant: the same through a symbolic link to the device
     full = device(tmp_path, "full", 7)
     (tmp_path / "link.xlsx").symlink_to(full)

@@ -1,4 +1,4 @@
-"""Fuzzing the study loader, its validation and the output-path checks (issue 15, Checks),
+"""Fuzzing the study loader, its validation and the output-path checks,
 and the output commit under closed or failing streams and failing renames.
 
 Hypothesis mutates a valid quick-size study (study keys, sites-table cells, output paths)

@@ -3,7 +3,7 @@
 Class: a number that is not finite, is a huge integer or is out of range gives the
 one-line InputError naming where it was, never an OverflowError traceback, whether it
 comes from a study key, a sites-table cell, a climate declaration or a command-line
-option. Each door is tried with the issue's example and a variant of our own.
+option. Each door is tried with a known case and a second variant.
 """
 
 from pathlib import Path
@@ -75,7 +75,7 @@ def _error(path) -> str:
 
 
 @pytest.mark.parametrize("extra, expected", [
-    # the issue's example: hundreds of digits in a whole-number key
+    # hundreds of digits in a whole-number key
     (f"horizon_years = {HUGE}\n", "[study].horizon_years = an integer of 401 digits"),
     # our variant: a huge negative integer in a float key of another section
     (f"[limits]\npayload_kg_per_trip = -{HUGE}\n", "[limits].payload_kg_per_trip = an integer"),

@@ -375,7 +375,7 @@ def test_many_mistakes_show_twenty_lines_and_a_count(tmp_path):
 
 
 @pytest.mark.parametrize("nominal, inflation, real", [
-    (0.0, 0.5, "-33.3%"),      # the example: -3.57 billion EUR with exit 0
+    (0.0, 0.5, "-33.3%"),      # -3.57 billion EUR with exit 0
     (0.5, -0.1, "+66.7%"),     # variant: (1.5 / 0.9) - 1 (NIST HB 135 ch. 4), above 50 %
 ])
 def test_real_discount_rate_is_bounded(tmp_path, nominal, inflation, real):
@@ -441,7 +441,7 @@ def test_unused_climate_table_with_unknown_option_is_an_error(tmp_path):
     from planner.cli import cli
 
     assert CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(tmp_path / "a.csv")]).exit_code == 0
-    # the example: an unused table whose option is misspelt
+    # an unused table whose option is misspelt
     message = error_of(write_study(tmp_path, BASE + '[climates.spare]\nfile = "a.csv"\n'
                                                     'temperatur_unit = "C"\n'))
     assert "[climates.spare] is used by no site" in message

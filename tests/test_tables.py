@@ -1,7 +1,7 @@
 """Reading a user's table (planner/tables.py): the rows the user sees, and the shapes a
 table can go wrong in.
 
-Classes (each with the issue's example and a variant of our own):
+Classes (each with a known case and a second variant):
 - row and line numbers as a spreadsheet or an editor shows them (blank lines counted);
 - a row with more fields than the header;
 - a repeated or an empty header cell;
@@ -70,7 +70,7 @@ def test_xlsx_table_starting_below_row_1():
 
 
 def test_sites_table_error_names_the_spreadsheet_row(tmp_path):
-    # the issue's example: an error on spreadsheet row 6 was reported as row 4
+    # an error on spreadsheet row 6 was reported as row 4
     sites = ("id,region,climate,load_w,charging,pv_wp,autonomy_days\n"
              "A,hills,alpine,2,pv,60,5\n\n"
              "B,hills,alpine,2,pv,60,5\n\n"
@@ -89,7 +89,7 @@ def _fixed(tmp_path):
 
 
 def test_load_file_error_names_the_editor_line(tmp_path):
-    # the issue's example: a load file's line 13 was reported as line 12
+    # a load file's line 13 was reported as line 12
     values = ["1.0"] * 8760
     values[10] = "-4"
     text = "load_w\n" + "\n".join(values[:5]) + "\n\n" + "\n".join(values[5:]) + "\n"
@@ -113,7 +113,7 @@ def test_row_with_more_fields_than_the_header_is_named():
 
 
 def test_sites_row_with_an_extra_field_does_not_shift_columns(tmp_path):
-    # the issue's example: "column enclosure: found '2.0'"
+    # "column enclosure: found '2.0'"
     sites = ("id,region,climate,enclosure,load_w,charging,pv_wp,autonomy_days\n"
              "A,hills,alpine,cabinet-sun,2,pv,60,5\n"
              "B,hills,alpine,vault,extra,2.0,pv,60,5\n"
