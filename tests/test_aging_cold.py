@@ -1,4 +1,4 @@
-"""Aging in the cold and under daily cycling (issue 12): lithium plating, cold storage,
+"""Aging in the cold and under daily cycling (docs/aging.md): lithium plating, cold storage,
 daily LFP cycling, extrapolation flags.
 
 Check values and their sources:
@@ -143,7 +143,7 @@ def test_aging_set_option_and_list():
 
 def test_schmalstieg_published_counts_depth_on_rated_capacity():
     # Schmalstieg et al. 2014: beta_cap(V_mean, DOD) sqrt(Q) with DOD on the cell's rated
-    # capacity; the published set must not divide by the usable fraction (issue 12, point 4).
+    # capacity; the published set must not divide by the usable fraction.
     chem = get_chemistry("nmc")
     params = chem.aging_set("schmalstieg-published")
     depth, soc, count = np.array([0.9]), np.array([0.45]), np.array([1.0])

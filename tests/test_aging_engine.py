@@ -107,7 +107,7 @@ def test_higher_c_rate_shortens_cycle_life():
 
 
 def test_primary_cell_through_the_engine_matches_closed_form():
-    # Definition (issue 4): remaining = initial - load charge - temperature self-discharge.
+    # Definition (docs/aging.md): remaining = initial - load charge - temperature self-discharge.
     chem = get_chemistry("lisocl2")
     load = 2e-5  # C-rate of the load
     result = age_lanes(chem, np.full((H, 1), 30.0), np.ones((H, 1)), np.full((H, 1), load),
@@ -131,7 +131,7 @@ def test_shapes_and_additivity():
     assert result.soh_monthly.shape == (241, n)
     assert result.calendar_loss_frac.shape == result.cycle_loss_frac.shape == (241, n)
     assert result.efc_per_year.shape == (n,)
-    # Issue 4: calendar and cycle losses add.
+    # Calendar and cycle losses add (docs/aging.md).
     np.testing.assert_allclose(result.soh_monthly,
                                1 - result.calendar_loss_frac - result.cycle_loss_frac)
     np.testing.assert_allclose(result.soh_monthly[0], 1.0)

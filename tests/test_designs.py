@@ -79,7 +79,7 @@ def test_lives_respect_the_service_limit(quick):
 
 
 def test_hotter_climate_never_lengthens_life():
-    # Optimizer issue, behaviour check (common practice: heat shortens battery life).
+    # Behaviour check (common practice: heat shortens battery life).
     study = load_study(QUICK)
     base = {o.design.design_id: o.life_years
             for r in evaluate_fleet(study, model_sites(study)) for o in r.outcomes}

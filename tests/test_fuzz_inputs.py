@@ -1,5 +1,5 @@
-"""Fuzzing the study loader, its validation and the output-path checks,
-and the output commit under closed or failing streams and failing renames.
+"""Fuzzing the study loader, its validation and the output-path checks, and the output
+commit under closed or failing streams and failing renames.
 
 Hypothesis mutates a valid quick-size study (study keys, sites-table cells, output paths)
 and runs it in-process. Every example must end either validated or with the project's own

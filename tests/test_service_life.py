@@ -2,8 +2,8 @@
 
 Check values: the caps of the chemistry library (common practice: 15-20 year design life
 of stationary lithium-ion products; Eurobat 10-12 year class for VRLA, from memory) and
-the behaviour the planner promises (issue 12, point 5): a shorter cap plans more
-replacements.
+the behaviour the planner promises (docs/study-file.md, [service_life]): a shorter cap
+plans more replacements.
 """
 
 import json
@@ -41,7 +41,7 @@ def _plan(tmp_path, extra: str) -> dict:
 
 
 def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
-    # Issue 12, point 5: a vendor's 10-year design life in the study must bring the
+    # A vendor's 10-year design life in the study ([service_life]) must bring the
     # replacements forward (quick study, 15-year horizon, LFP only).
     (tmp_path / "base").mkdir()
     (tmp_path / "capped").mkdir()
@@ -58,7 +58,7 @@ def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
 
 
 def test_workbook_shows_the_cap_count_and_extrapolated_lives(tmp_path):
-    # Issue 12: the Summary says how many sites the cap decides; the Sites sheet marks
+    # The Summary says how many sites the cap decides (docs/workbook.md); the Sites sheet marks
     # lives that lean on extrapolated laws (plan keys of docs/plan-json.md).
     import openpyxl
 

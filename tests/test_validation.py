@@ -26,8 +26,8 @@ def test_every_published_point_is_within_its_band(rows):
     assert not failed
 
 
-def test_report_covers_the_points_the_issue_names(rows):
-    # Issue 12: Schmalstieg calendar and cycle, Naumann 2018/2020, Wang 2011 at C/2, the
+def test_report_covers_the_published_points(rows):
+    # The sources the aging laws rest on (docs/aging.md): Schmalstieg calendar and cycle, Naumann 2018/2020, Wang 2011 at C/2, the
     # lead-acid halving rule, Woehler points, ASTM E1049, NIST HB 135, IEEE 1013/1562,
     # and the facts of the trade.
     text = " ".join(r.point.source for r in rows)

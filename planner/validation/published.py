@@ -121,11 +121,11 @@ PUBLISHED = (
               "factor of 2)", "LFP stored full at 45 °C: years to 80 %", 3.0, (1.5, 6.0),
               "years", 1),
     Published("lfp_daily_years", "common practice: stationary LFP cycled once a day lasts "
-              "close to a decade (issue 12: 6-15 years)",
+              "close to a decade (band: 6-15 years)",
               "LFP, 25 °C, 1 cycle/day, 80 % depth, C/2: years to 80 %", None, (6.0, 15.0),
               "years", 1),
     Published("lfp_daily_cycles", "common practice: LFP 1,000-3,000 full cycles at least "
-              "(issue 12: at least 2,000 here)",
+              "(band: at least 2,000, the middle of that range)",
               "LFP, 25 °C, 1 cycle/day, 80 % depth, C/2: cycles to 80 %", None, (2000.0, INF),
               "cycles", 0),
     Published("nmc_full_cycles", "common practice: NMC at 4.20 V, full 1 C cycles, 25 °C: "
