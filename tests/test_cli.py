@@ -85,7 +85,8 @@ def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, s
     result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "1"])
     assert result.exit_code == 2
     lines = [line for line in result.output.splitlines() if line.strip()]
-    assert len(lines) == 1 and expected in lines[0]
+    # every mistake on a line of its own (a misspelt column is also a missing one)
+    assert all(line.startswith("error: ") for line in lines) and any(expected in line for line in lines)
     assert "Traceback" not in result.output
 
 
@@ -194,3 +195,19 @@ def test_endless_study_files_are_refused_by_type(runner, tmp_path):
         result = runner.invoke(cli, ["plan", str(node)])
         assert result.exit_code == 2, result.output
         assert "not a regular file: expected a study file (TOML)" in result.output
+
+
+def test_starter_lists_what_the_sites_columns_accept(runner, tmp_path):
+    # The starter's comments name every bundled climate, enclosure and charging kind, so
+    # a user can fill the sites table without the docs.
+    from planner.climate import list_bundled
+    from planner.study.schema import SITE_COLUMNS
+
+    assert runner.invoke(cli, ["new", str(tmp_path / "net")]).exit_code == 0
+    text = (tmp_path / "net" / "study.toml").read_text()
+    comments = [line for line in text.splitlines() if line.startswith("#")]
+    for name, _ in list_bundled():
+        assert any(line.startswith(f"#     {name}: ") for line in comments), name
+    choices = {spec.name: spec.choices for spec in SITE_COLUMNS if spec.name in ("enclosure", "charging")}
+    for column, ids in choices.items():
+        assert any(line.startswith(f"#   {column}: {', '.join(ids)}") for line in comments), column
