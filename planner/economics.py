@@ -24,6 +24,21 @@ import numpy as np
 DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31], dtype=float)
 
 
+#: Lowest real discount rate a study may use, per year. The residual value of the pack in
+#: service at the horizon is its price prorated over its life L and discounted from the
+#: horizon; bought s years before the horizon, that credit is worth
+#: ``(1 - s/L) (1 + d)**-s`` of the pack's own discounted price. With d below zero the
+#: factor ``(1 + d)**-s`` grows, and the credit exceeds the price for some s as soon as
+#: ``-ln(1 + d) > 1/L`` (the derivative at s = 0): a pack bought just before the horizon
+#: would earn money and the fleet's total could turn negative (computed). The longest
+#: service a study may plan is 60 years ([service_life]), so d >= exp(-1/60) - 1 =
+#: -1.65 %; -1.5 % keeps a margin and still allows the small negative real rates of
+#: years when inflation runs above interest.
+MIN_REAL_RATE_FRAC = -0.015
+#: Highest real discount rate, per year: the bound of ``[study].discount_rate_frac``.
+MAX_REAL_RATE_FRAC = 0.5
+
+
 def spv(rate, years):
     r"""Single present value factor: what one unit of money paid later is worth today.
 

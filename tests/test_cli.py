@@ -85,7 +85,8 @@ def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, s
     result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "1"])
     assert result.exit_code == 2
     lines = [line for line in result.output.splitlines() if line.strip()]
-    assert len(lines) == 1 and expected in lines[0]
+    # every mistake on a line of its own (a misspelt column is also a missing one)
+    assert all(line.startswith("error: ") for line in lines) and any(expected in line for line in lines)
     assert "Traceback" not in result.output
 
 
@@ -211,8 +212,11 @@ def test_readme_exit_code_table_matches_the_commands():
     from planner.cli.plan import not_all_served
 
     text = (REPO / "README.md").read_text(encoding="utf-8")
-    table = dict(re.findall(r"^\| (\d+) \| (.+?) \|$", text, flags=re.M))
-    assert set(table) == {"0", "2", "3", "4", "130"}
+    table = {}
+    for codes, meaning in re.findall(r"^\| ([\d, ]+) \| (.+?) \|$", text, flags=re.M):
+        for code in codes.split(","):
+            table[code.strip()] = meaning
+    assert set(table) == {"0", "2", "3", "4", "130", "143", "129"}
     assert cli_module.EXIT_OK == 0 and "every site is served" in table["0"]
     assert cli_module.EXIT_BAD_INPUT == 2 and "Bad input" in table["2"]
     assert cli_module.EXIT_INFEASIBLE == 3 and "cannot be served" in table["3"] and "1 %" in table["3"]
@@ -233,3 +237,19 @@ def test_plan_json_out_is_the_json_option():
 
     option = next(p for p in plan_command.params if p.name == "json_path")
     assert {"--json", "--json-out"} <= set(option.opts)
+
+
+def test_starter_lists_what_the_sites_columns_accept(runner, tmp_path):
+    # The starter's comments name every bundled climate, enclosure and charging kind, so
+    # a user can fill the sites table without the docs.
+    from planner.climate import list_bundled
+    from planner.study.schema import SITE_COLUMNS
+
+    assert runner.invoke(cli, ["new", str(tmp_path / "net")]).exit_code == 0
+    text = (tmp_path / "net" / "study.toml").read_text()
+    comments = [line for line in text.splitlines() if line.startswith("#")]
+    for name, _ in list_bundled():
+        assert any(line.startswith(f"#     {name}: ") for line in comments), name
+    choices = {spec.name: spec.choices for spec in SITE_COLUMNS if spec.name in ("enclosure", "charging")}
+    for column, ids in choices.items():
+        assert any(line.startswith(f"#   {column}: {', '.join(ids)}") for line in comments), column

@@ -219,11 +219,21 @@ def test_json_written_with_the_workbook(study_dir, no_planning):
 @pytest.mark.parametrize("workbook, expected", [
     ("a\\u0000b.xlsx", "a NUL character in the path"),
     ("x" * 300 + ".xlsx", "File name too long"),          # NAME_MAX 255 (POSIX limits.h)
-    ("quick_sites.csv/p.xlsx", "Not a directory"),
 ])
 def test_unusable_output_names_are_refused_before_planning(study_dir, no_planning, workbook, expected):
     text = (study_dir / "quick.toml").read_text().replace("[output]\n", f'[output]\nworkbook = "{workbook}"\n')
     (study_dir / "quick.toml").write_text(text)
     result = run(study_dir, "quick.toml")
     assert result.exit_code == 2 and expected in one_error_line(result)
+    assert no_planning == []
+
+
+@pytest.mark.parametrize("workbook", ["quick_sites.csv/p.xlsx", "quick_sites.csv/deeper/p.xlsx"])
+def test_output_folder_that_cannot_be_created_is_exit_4_before_planning(study_dir, no_planning, workbook):
+    # A folder the file system will not create is a refusal to write (README: exit 4), not
+    # a bad input; it is still found before any planning.
+    text = (study_dir / "quick.toml").read_text().replace("[output]\n", f'[output]\nworkbook = "{workbook}"\n')
+    (study_dir / "quick.toml").write_text(text)
+    result = run(study_dir, "quick.toml")
+    assert result.exit_code == 4 and "Not a directory" in one_error_line(result)
     assert no_planning == []

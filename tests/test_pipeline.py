@@ -193,3 +193,25 @@ def test_quick_plan_spending_adds_up_and_sites_carry_risk(quick_run):
     for site in plan["sites"]:
         assert 0.0 <= site["risk_before_next_visit_frac"] <= 1.0
         assert sum(site["cost_breakdown"].values()) == pytest.approx(site["present_cost"], rel=1e-5)
+
+
+def test_no_site_served_gives_a_null_total(tmp_path):
+    # docs/plan-json.md: a value that does not exist is null. Rechargeable packs only and
+    # no charging source: no site can be served, so there is no total (it was 0.0), and
+    # the command exits 3 with the workbook written.
+    from click.testing import CliRunner
+
+    from planner.cli import cli
+
+    (tmp_path / "s.csv").write_text("id,region,climate,load_w,charging,autonomy_days\n"
+                                    "A,r,alpine,2,none,5\nB,r,hot-desert,1,none,5\n")
+    (tmp_path / "s.toml").write_text('[study]\nsites_file = "s.csv"\nhorizon_years = 5\n'
+                                     '[candidates]\nchemistries = ["lfp"]\n'
+                                     "[output]\nsensitivity = false\n")
+    result = CliRunner().invoke(cli, ["plan", str(tmp_path / "s.toml"), "--out",
+                                      str(tmp_path / "p.xlsx"), "--json", str(tmp_path / "p.json"),
+                                      "--workers", "1", "--quiet"])
+    assert result.exit_code == 3, result.output
+    plan = json.loads((tmp_path / "p.json").read_text())
+    assert plan["total_present_cost"] is None and len(plan["unserved_sites"]) == 2
+    assert (tmp_path / "p.xlsx").stat().st_size > 0

@@ -109,14 +109,12 @@ def test_measures_switched_off_and_bad_ids(tmp_path):
     study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,\n",
                            '[thermal]\nmeasures = ["none"]\n')
     assert offered_measures(study, models) == []
-    study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,heated-blanket\n")
-    with pytest.raises(InputError, match="row .*thermal_measures.*heated-blanket"):
-        offered_measures(study, models)
-    # the plan checks every site's ids before modelling any site (a 10,000-site fleet
-    # would otherwise fail pieces into the run)
-    from planner.pipeline import run_study
+    # the study loader checks every site's ids with the study's other mistakes, before
+    # any site is modelled (a 10,000-site fleet would otherwise fail pieces into the run)
     with pytest.raises(InputError, match="row 2, column thermal_measures.*heated-blanket"):
-        run_study(study)
+        _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,heated-blanket\n")
+    with pytest.raises(InputError, match="row 2, column thermal_measures: 'none' together with vault"):
+        _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,none;vault\n")
 
 
 def test_measure_evaluated_only_for_chemistries_it_can_help(tmp_path):

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import click
 
+from planner.cli.params import Number
 from planner.errors import InputError, OutputError
 
 
@@ -21,9 +22,11 @@ def _enclosure_choices():
 @click.argument("source", required=False)
 @click.option("--enclosure", "enclosure", default="cabinet-sun", show_default=True,
               type=click.Choice(_enclosure_choices()), help="Enclosure kind around the battery.")
-@click.option("--warming-k", "warming_k", default=0.0, show_default=True, type=float,
+@click.option("--warming-k", "warming_k", default=0.0, show_default=True,
+              type=Number(minimum=-20.0, maximum=20.0),
               help="Kelvin added to every hourly air temperature.")
-@click.option("--heater-setpoint-c", "heater_setpoint_c", default=None, type=float,
+@click.option("--heater-setpoint-c", "heater_setpoint_c", default=None,
+              type=Number(minimum=-40.0, maximum=40.0),
               help="Battery heater thermostat setpoint, °C (default: no heater).")
 @click.option("--csv", "csv_path", default=None, type=click.Path(dir_okay=False),
               help="Write the hourly series (air, irradiance, battery, heater, HVAC) to this CSV.")
@@ -118,14 +121,8 @@ def _parse_options(pairs) -> dict | None:
         if not sep or not key.strip():
             raise InputError(f"--option '{pair}' is not KEY=VALUE; expected e.g. "
                              "temperature_unit=C", source="climate")
-        value = value.strip()
-        for convert in (int, float):
-            try:
-                value = convert(value)
-                break
-            except ValueError:
-                continue
-        options[key.strip()] = value
+        # kept as text: the declaration checks read numbers with the one parser
+        options[key.strip()] = value.strip()
     return options or None
 
 

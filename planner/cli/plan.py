@@ -10,10 +10,17 @@ from pathlib import Path
 import click
 
 from planner.cli import EXIT_INFEASIBLE, options, progress_enabled
+from planner.cli.params import Number
 from planner.cli.terminal import printable
 from planner.energy.balance import SHORTFALL_CAUSE
 from planner.errors import InputError, OutputError
-from planner.fileio import OutputBatch, is_char_device, prepare_target, same_file
+from planner.fileio import (
+    OutputBatch,
+    is_char_device,
+    prepare_target,
+    resolve_path,
+    same_file,
+)
 
 
 @click.command("plan")
@@ -24,7 +31,7 @@ from planner.fileio import OutputBatch, is_char_device, prepare_target, same_fil
 @click.option("--json", "--json-out", "json_path", type=str, default=None, metavar="PATH",
               help="Also write the plan as JSON to PATH ('-' for standard output). --json-out "
                    "is the same option under the name 'planner life' and 'planner climate' use.")
-@click.option("--workers", type=click.IntRange(min=1), default=None,
+@click.option("--workers", type=Number(minimum=1, maximum=4096, integer=True), default=None,
               help="Processes that share the per-site stages and the re-solves "
                    "(default: all cores). The plan does not depend on it.")
 @click.pass_context
@@ -74,13 +81,21 @@ def output_paths(study, out_option: str | None, json_option: str | None):
     """The workbook path and the JSON target (a path, "-" or None), checked before planning.
 
     Command-line paths are taken from the current folder, ``[output]`` paths from the
-    study's folder. A path ending in a separator (or naming a folder) means a folder: the
-    workbook is ``<study name>.xlsx`` in it. Refused (exit 2): a workbook not named
-    ``.xlsx``; an output that is one of the study's inputs or the other output; a folder
-    or special file other than a character device (written straight through).
+    study's folder (the real one: see planner.study.loading). A path ending in a separator
+    (or naming a folder) means a folder: the workbook is ``<study name>.xlsx`` in it.
+    ``-`` as the JSON path, on the command line or in ``[output].json``, is standard output.
+    A path that is a symbolic link is written through (the file it points to is replaced;
+    the link stays). Refused (exit 2): an empty path; a workbook not named ``.xlsx``; an
+    output that is one of the study's inputs or the other output; a folder or special
+    file other than a character device (written straight through). A folder that cannot
+    be created: exit 4.
     """
     configured = study.settings["output"]
     base = study.path.parent
+    for option, value in (("--out", out_option), ("--json", json_option)):
+        if value is not None and not value.strip():
+            raise InputError(f"{option} is empty; expected a file name (or leave the option out)",
+                             source="plan")
     if out_option:
         workbook, source = _as_file(Path(out_option), out_option, study), "--out"
     elif configured["workbook"]:
@@ -88,13 +103,14 @@ def output_paths(study, out_option: str | None, json_option: str | None):
         source = "[output].workbook"
     else:
         workbook, source = Path("output") / f"{study.stem}.xlsx", "default workbook"
-    if workbook.suffix.lower() != ".xlsx" and not is_char_device(workbook):
+    if "\x00" not in str(workbook) and workbook.suffix.lower() != ".xlsx" \
+            and not is_char_device(workbook):
         raise InputError(f"{source} {printable(workbook)} does not end in .xlsx; expected a "
                          "workbook name like plan.xlsx (or a folder ending in '/')", source="plan")
-    json_target = json_option or None
-    json_source = "--json"
+    json_target, json_source = json_option, "--json"
     if json_target is None and configured["json"]:
-        json_target, json_source = str(base / configured["json"]), "[output].json"
+        json_source = "[output].json"
+        json_target = "-" if configured["json"].strip() == "-" else str(base / configured["json"])
     outputs = [(workbook, source, "plan workbook")]
     if json_target and json_target != "-":
         if json_target.endswith(("/", os.sep)) or os.path.isdir(json_target):
@@ -102,17 +118,20 @@ def output_paths(study, out_option: str | None, json_option: str | None):
                              "file name such as plan.json", source="plan")
         json_target = Path(json_target)
         outputs.append((json_target, json_source, "plan JSON"))
+    real = []
+    for path, where, what in outputs:
+        try:
+            real.append(resolve_path(path, what=f"the {what}"))
+        except InputError as err:
+            raise InputError(f"{where} {printable(path)}: {err}", source="plan") from None
     inputs = study.input_files()
     for index, (path, where, _what) in enumerate(outputs):
-        if "\x00" in str(path):
-            raise InputError(f"{where} {printable(path)} holds a NUL character in the path; "
-                             "expected a file name", source="plan")
         for known, words in inputs.items():
-            if same_file(path, known):
+            if same_file(real[index], known):
                 raise InputError(f"{where} {printable(path)} is {words}; expected an output path "
                                  "that is none of the study's inputs", source="plan")
-        for other, other_where, _ in outputs[:index]:
-            if same_file(path, other) and not is_char_device(path):
+        for other_index, (_, other_where, _) in enumerate(outputs[:index]):
+            if same_file(real[index], real[other_index]) and not is_char_device(path):
                 raise InputError(f"{where} and {other_where} are the same file "
                                  f"{printable(path)}; expected two different outputs", source="plan")
     for path, _, what in outputs:
@@ -122,14 +141,22 @@ def output_paths(study, out_option: str | None, json_option: str | None):
 
 def _as_file(path: Path, text: str, study) -> Path:
     """A folder (trailing separator or existing folder) becomes <folder>/<study>.xlsx."""
-    if text.endswith(("/", os.sep)) or os.path.isdir(path):
+    if text.endswith(("/", os.sep)) or _is_dir(path):
         return path / f"{study.stem}.xlsx"
     return path
 
 
+def _is_dir(path: Path) -> bool:
+    try:
+        return os.path.isdir(path)
+    except ValueError:  # a NUL in the name: the resolver says so
+        return False
+
+
 def write_outputs(plan, workbook: Path, json_target) -> None:
-    """Write the workbook and the JSON together: both are renamed into place only when
-    both were written (standard output, for ``-``, is written before the renames)."""
+    """Write the workbook and the JSON as a pair (planner.fileio.OutputBatch): both new
+    or, if anything fails, both as they were. JSON for standard output (``-``) is written
+    before the files are renamed; it cannot be taken back."""
     from planner.report import build_workbook, plan_to_json_text
 
     with OutputBatch() as batch:
@@ -139,8 +166,7 @@ def write_outputs(plan, workbook: Path, json_target) -> None:
             if json_target == "-":
                 _write_stdout(text)
             else:
-                batch.add(json_target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
-                          what="plan JSON")
+                batch.add(json_target, text.encode("utf-8"), what="plan JSON")
         batch.commit()
 
 
@@ -148,8 +174,11 @@ def _write_stdout(text: str) -> None:
     try:
         sys.stdout.write(text)
         sys.stdout.flush()
-    except OSError as err:
-        raise OutputError(f"could not write the plan JSON: {err.strerror or err}",
+    except OutputError:
+        raise
+    except (OSError, AttributeError) as err:  # AttributeError: no stream at all
+        reason = getattr(err, "strerror", None) or "it is closed"
+        raise OutputError(f"could not write the plan JSON: {reason}",
                           source="standard output") from None
 
 

@@ -25,6 +25,7 @@ import pandas as pd
 
 from planner import HOURS_PER_YEAR
 from planner.errors import InputError
+from planner.numbers import number_input
 
 #: The fixed non-leap calendar year used to label a typical year's hours.
 REFERENCE_YEAR = 2023
@@ -151,21 +152,9 @@ def load_climate(source: str, *, base_dir: Path | None = None, options: dict | N
     if not isinstance(source, str) or not source.strip():
         raise InputError(f"climate source is {source!r}; expected a bundled climate name "
                          "or a path to an EPW/TMY3/TMY2/CSV file", source="climate")
-    try:
-        warming = float(warming_k)
-    except (TypeError, ValueError):
-        raise InputError(f"warming_k is {warming_k!r}; expected a number of kelvin",
-                         source="climate") from None
-    if not np.isfinite(warming) or abs(warming) > 20.0:
-        raise InputError(f"warming_k is {warming_k!r}; expected a number of kelvin between -20 and 20",
-                         source="climate")
-    name = source.strip()
-    if name in readers.DEPRECATED_IDS:
-        import warnings
-        new = readers.DEPRECATED_IDS[name]
-        warnings.warn(f"climate '{name}' is now called '{new}'; the old name is accepted in this "
-                      "release only, please use the new one", ClimateWarning, stacklevel=2)
-        name = new
+    warming = number_input(warming_k, name="warming_k", source="climate", minimum=-20.0,
+                           maximum=20.0, unit="K")
+    name = readers.canonical_id(source.strip())
     bundled = name in readers.PVLIB_FILES or name in archetypes.names()
     if bundled and options:
         raise InputError(f"options {sorted(options)} were given for the bundled climate "

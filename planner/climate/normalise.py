@@ -20,6 +20,7 @@ import pandas as pd
 from planner.climate import HOURS_PER_YEAR, ClimateWarning, TypicalYear, hour_starts
 from planner.climate.solar import clear_sky_ghi, split_ghi
 from planner.errors import InputError
+from planner.numbers import NumberError, parse_number, shown
 
 #: Plausible hourly air temperature, degC (beyond the recorded world extremes of about
 #: -89 and +57 degC, common practice).
@@ -124,8 +125,30 @@ def _check_range(values, rows, lo, hi, what, where):
                          "expected a plausible value (check the unit)", source=where)
 
 
+#: Where a weather file's header may put a station, checked before any computation:
+#: latitude and longitude by definition, UTC offsets in use run from -12 to +14 h, and
+#: ground stations lie between the Dead Sea shore (about -430 m) and 9,000 m (common practice).
+LOCATION_RANGES = {"latitude_deg": (-90.0, 90.0, "latitude"),
+                   "longitude_deg": (-180.0, 180.0, "longitude"),
+                   "altitude_m": (-500.0, 9000.0, "altitude (m)"),
+                   "utc_offset_h": (-12.0, 14.0, "UTC offset (h)")}
+
+
+def _check_location(raw: RawSeries) -> None:
+    """The station's position and time zone, as the file's header gives them, are
+    possible ones (an EPW header may say latitude 999)."""
+    for key, (lo, hi, words) in LOCATION_RANGES.items():
+        try:
+            parse_number(getattr(raw, key), minimum=lo, maximum=hi, exponent=True)
+        except NumberError:
+            raise InputError(f"the header gives {words} {shown(getattr(raw, key))}; expected "
+                             f"a number from {lo:g} to {hi:g}", source=raw.file) from None
+
+
 def _interval(starts_or_ends: np.ndarray, raw: RawSeries) -> np.timedelta64:
-    """The data interval: the most common spacing of consecutive timestamps."""
+    """The data interval: the most common spacing of consecutive timestamps; data coarser
+    than hourly is refused (a typical year is hour by hour: interpolating 2-hourly
+    readings would invent the hours between)."""
     if len(starts_or_ends) < 2:
         return np.timedelta64(3600, "s")
     diffs = np.diff(np.sort(starts_or_ends)).astype("timedelta64[s]").astype(np.int64)
@@ -143,7 +166,8 @@ def _interval(starts_or_ends: np.ndarray, raw: RawSeries) -> np.timedelta64:
 def normalise(raw: RawSeries) -> TypicalYear:
     """Turn what a reader found into an hour-start, local-standard, degC typical year.
 
-    Steps, in order: convert time zone to local standard time; move hour-ending labels
+    Steps, in order: check the station's position and UTC offset (an EPW header may say
+    latitude 999); convert time zone to local standard time; move hour-ending labels
     to interval starts; reject duplicate timestamps; drop 29 February; convert units;
     check plausibility ranges; average sub-hourly records into hours; condense
     several years (``multi_year``); interpolate gaps of at most 6 h (with a
@@ -151,10 +175,12 @@ def normalise(raw: RawSeries) -> TypicalYear:
     (clear-sky scaled GHI, Erbs decomposition).
     """
     where = raw.file
+    _check_location(raw)
     times = _to_local_standard(raw).to_numpy().astype("datetime64[s]")
     rows = np.asarray(raw.rows)
+    step = _interval(times, raw)
     if raw.marks == "end":
-        times = times - _interval(times, raw)
+        times = times - step
     order = np.argsort(times, kind="stable")
     sorted_times = times[order]
     dup = np.nonzero(sorted_times[1:] == sorted_times[:-1])[0]

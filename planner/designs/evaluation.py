@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.aging import age_lanes
+from planner.aging.measured import health_from_today
 from planner.chemistry import get_chemistry
 from planner.designs.candidates import (
     Outcome,
@@ -275,22 +276,31 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
         d = chunk[j]
         start = int(round(float(ages[j]) * 12))  # a Python float: numpy's round is slow
         soh_col = fade.soh_monthly[:, col]
-        if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
-            start = int(np.argmax(soh_col <= d.measured_soh_frac))
         cap = max_service_years(chem.id, d.service_life_years)
         cause = _cause(eol[j], lanes_of.available[j], fade, life_total[col], col, chem)
         if life_total[col] > cap and eol[j] < 1.0:
             cause = "service-life limit"
+        life_from_start = life_total[col] - start / 12.0
+        soh_today = soh_col[start:start + months]
+        if d.measured_soh_frac:
+            # From the day measured, the pack's health is never above the measurement.
+            health = health_from_today(soh_col, age_months=start,
+                                       measured_soh_frac=d.measured_soh_frac)
+            start, soh_today = health.start_month, health.months(months)
+            life_from_start = health.years_to(float(eol[j]))
+            if not health.on_model_curve:  # faded beyond the laws: its own end of life
+                cause = _cause(eol[j], lanes_of.available[j], fade,
+                               life_from_start + start / 12.0, col, chem)
         age = start / 12.0 if not d.measured_soh_frac else float(d.existing_age_years or 0.0)
-        life = min(life_total[col] - start / 12.0, cap - age)
+        life = min(life_from_start, cap - age)
         out.append(Outcome(
             design=d, eol_soh_frac=float(eol[j]), life_years=float(max(life, 0.0)),
             limiting_cause=cause,
-            soh_monthly=soh_col[start:start + months],
+            soh_monthly=soh_today,
             calendar_loss_frac=fade.calendar_loss_frac[start:start + months, col],
             cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
             efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
-            nominal_life_years=float(life_total[col] - start / 12.0),
+            nominal_life_years=float(life_from_start),
             unserved_wh_per_year=float(duty.unserved_wh[j]),
             charge_blocked_hours=float(duty.blocked_hours[j]),
             mean_soc_frac=float(duty.mean_soc[j])))

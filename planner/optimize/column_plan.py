@@ -26,27 +26,12 @@ from planner.optimize.colgen import (
 )
 from planner.optimize.path_model import fleet_limit_texts
 from planner.optimize.pricing import Column, Pricer
-from planner.optimize.problem import SitePlan, Trip, Unserved
+from planner.optimize.problem import MethodAnswer, SitePlan, Trip, Unserved
 from planner.optimize.schedule import SiteGraphs, build_graphs
 from planner.optimize.solver import SolveReport, gap, solve_milp
 from planner.optimize.trip_plans import TripGroup, plans_and_trips, trip_groups
 
 JOINT_MASTER = "column generation with one master over all trip groups and the fleet-wide rows"
-
-
-@dataclass(frozen=True)
-class ColumnsResult:
-    """Answer of :func:`solve_columns`. ``binding`` words the fleet-wide limits that no
-    plan meets; ``unserved`` holds the sites of trip groups left without a plan in time."""
-
-    status: str
-    bound: float
-    plans: list[SitePlan]
-    trips: list[Trip]
-    decomposition: str
-    binding: list[str]
-    unserved: list[Unserved]
-    build_seconds: float
 
 
 class PlansAndTrips(NamedTuple):
@@ -114,7 +99,7 @@ def _side_rows(problem) -> bool:
     return _fleet_rows(problem) or problem.payload_kg_per_trip is not None
 
 
-def solve_columns(problem, served, cands, deadline) -> ColumnsResult:
+def solve_columns(problem, served, cands, deadline) -> MethodAnswer:
     """Column generation, then integer problems over the generated schedules.
 
     Without fleet-wide limits every trip group has its own master LP and integer step
@@ -176,7 +161,7 @@ def _price_block(problem, block: _Block, deadline: float, blocks_left: int) -> M
 
 
 def _settle_block(problem, block: _Block, mr: MasterResult, deadline: float, blocks_left: int,
-                  tally: _Tally) -> ColumnsResult | None:
+                  tally: _Tally) -> MethodAnswer | None:
     """Plans of one block from its columns, added to ``tally``: the rounded LP trip
     years when they prove the gap, else an integer problem over the columns. Returns
     the answer instead when no integer plan over the columns meets the fleet rows."""
@@ -280,15 +265,15 @@ def _polish_weak_groups(problem, served, cands, weak: list[_WeakGroup], deadline
 
 
 def _limits_unmet(problem, block: _Block, mr: MasterResult, deadline: float,
-                  build_seconds: float) -> ColumnsResult:
+                  build_seconds: float) -> MethodAnswer:
     """Phase 1 proved that no LP solution, so no plan, meets the fleet-wide rows."""
     text = (f"{JOINT_MASTER}: phase 1 proves after {mr.iterations} pricing round(s) that the fleet-wide "
             f"limits cannot be met, even in the LP relaxation")
     binding = _diagnose(problem, block.graphs, block.site_group, block.trip_cost, block.is_open, deadline)
-    return ColumnsResult("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
+    return _columns_answer("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
 
 
-def _integer_infeasible(problem, mr: MasterResult, build_seconds: float) -> ColumnsResult:
+def _integer_infeasible(problem, mr: MasterResult, build_seconds: float) -> MethodAnswer:
     """The LP relaxation meets the fleet-wide rows but no integer choice among the
     generated schedules does: not a proof (price-and-branch prices at the root only)."""
     limits = " and the ".join(text for _, text in fleet_limit_texts(problem))
@@ -296,10 +281,10 @@ def _integer_infeasible(problem, mr: MasterResult, build_seconds: float) -> Colu
             f"problem over them is infeasible")
     binding = [f"no plan over the generated schedules meets the {limits} (the LP relaxation does; "
                f"method 'path' decides it exactly)"]
-    return ColumnsResult("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
+    return _columns_answer("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
 
 
-def _answer(problem, tally: _Tally, n_groups: int) -> ColumnsResult:
+def _answer(problem, tally: _Tally, n_groups: int) -> MethodAnswer:
     """The plans of every block, the bound, and how they were found, in words."""
     how = ("one master and one integer problem over all trip groups with the fleet-wide crew/budget rows"
            if _fleet_rows(problem)
@@ -311,7 +296,16 @@ def _answer(problem, tally: _Tally, n_groups: int) -> ColumnsResult:
     status = tally.status
     if status == "optimal" and gap(sum(p.present_cost for p in tally.plans), tally.bound) > problem.gap_rel_frac + 1e-12:
         status = "feasible"  # the integer step over generated columns is not proved within the gap
-    return ColumnsResult(status, tally.bound, tally.plans, tally.trips, text, [], tally.lost, tally.build_seconds)
+    return _columns_answer(status, tally.bound, tally.plans, tally.trips, text, [], tally.lost,
+                           tally.build_seconds)
+
+
+def _columns_answer(status, bound, plans, trips, text, binding, unserved, build_seconds) -> MethodAnswer:
+    """The answer priced: the plans' cost is the objective, and no bound above it."""
+    objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
+    if math.isfinite(objective) and math.isfinite(bound):
+        bound = min(bound, objective)
+    return MethodAnswer(status, objective, bound, plans, trips, text, binding, unserved, build_seconds)
 
 
 def _stopped(stops) -> str:

@@ -21,6 +21,7 @@ from planner.designs.candidates import (
     Outcome,
     SiteDesigns,
     max_service_years,
+    ruled_out_by_voltage,
     worn_out_soh_frac,
 )
 from planner.energy.freezing import lead_acid_freezing_point_c
@@ -85,7 +86,9 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         "replacement_months": list(plan.replacement_months) if plan else [],
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
-        "warnings": list(model.warnings),
+        "warnings": list(model.warnings) + [
+            f"{chem} is not offered: {why}"
+            for chem, why in sorted(ruled_out_by_voltage(designs.excluded).items())],
         "thermal_measure": measure,
         "heater_energy_wh_per_year": model.heater_energy_wh_per_year,
         "site_climate": model.site_climate.to_dict() if model.site_climate else None,
@@ -374,7 +377,8 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                   "inflation_frac": s["inflation_frac"], "report_soh_frac": s["report_soh_frac"],
                   "payload_kg_per_trip": study.settings["limits"]["payload_kg_per_trip"] or None,
                   "sites_file": study.sites_path.name, "planner_version": __version__},
-        "total_present_cost": solution.objective,
+        # no site served: there is no plan whose cost could be given (docs/plan-json.md)
+        "total_present_cost": solution.objective if solution.sites else None,
         "solver": {"name": solution.solver_name, "status": solution.status,
                    "gap_frac": solution.gap_frac, "seconds": int(solution.seconds),
                    "objective": solution.objective, "best_bound": solution.best_bound,

@@ -20,6 +20,7 @@ from planner.energy.balance import ChargingShortfall, charging_shortfall
 from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_csv
 from planner.energy.mains import float_charge_power_w, mains_available
 from planner.energy.pv import pv_dc_power_many_w, pv_dc_power_w
+from planner.errors import InputError
 from planner.site.location import (
     SiteClimate,
     describe_shared,
@@ -152,7 +153,11 @@ def _years(study: Study, extra_warming_k: float):
             continue
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", ClimateWarning)
-            years[j] = shared_climate(study, site.climate, warming[j])
+            try:
+                years[j] = shared_climate(study, site.climate, warming[j])
+            except InputError as err:  # name the site as well as the file
+                raise InputError(f"{site.where()}, column climate (site {site.id}): {err}",
+                                 source=study.sites_path.name) from None
         described[j] = describe_shared(study, site, years[j])
         notices[j] = [f"climate {site.climate}: {w.message}" for w in caught
                       if issubclass(w.category, ClimateWarning)]
