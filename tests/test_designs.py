@@ -79,17 +79,22 @@ def test_lives_respect_the_service_limit(quick):
 
 
 def test_hotter_climate_never_lengthens_life():
-    # Optimizer issue, behaviour check (common practice: heat shortens battery life).
+    # Behaviour check (common practice: heat shortens battery life). A pack whose charging
+    # the heat blocks (above its maximum charge temperature) has another duty: it sits
+    # emptier, which can slow its calendar fade; it is compared on its served load instead.
     study = load_study(QUICK)
-    base = {o.design.design_id: o.life_years
+    base = {o.design.design_id: o
             for r in evaluate_fleet(study, model_sites(study)) for o in r.outcomes}
-    warm = {o.design.design_id: o.life_years
+    warm = {o.design.design_id: o
             for r in evaluate_fleet(study, model_sites(study, extra_warming_k=5.0))
             for o in r.outcomes}
     shared = set(base) & set(warm)
-    assert len(shared) > 10
-    for design_id in shared:
-        assert warm[design_id] <= base[design_id] + 1e-9, design_id
+    same_duty = [d for d in shared if warm[d].charge_blocked_hot_hours == 0]
+    assert len(same_duty) > 10
+    for design_id in same_duty:
+        assert warm[design_id].life_years <= base[design_id].life_years + 1e-9, design_id
+    for design_id in set(shared) - set(same_duty):
+        assert warm[design_id].unserved_wh_per_year >= base[design_id].unserved_wh_per_year - 1e-6
 
 
 def test_no_rechargeable_pack_without_a_charging_source(tmp_path):

@@ -159,6 +159,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         if not 0.0 < cycles_per_day <= max_per_day:
             raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
                              f"at most {max_per_day:g} at this depth and C-rate", source="life")
+        if temp_c is not None:
+            _refuse_blocked_charging(chem, temp_c)
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
         peak = charge_rate = c_rate
     else:
@@ -197,6 +199,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         soc_frac=None if cycling else float(soc[0]))
     out["life_extrapolated"] = bool(notes)
     out["extrapolation_notes"] = notes
+    blocked = _blocked_charging_hours(chem, temp, current) if cycling else None
+    if blocked is not None:
+        out["charge_blocked_hours_per_year"] = blocked[0] + blocked[1]
+        out["charge_blocked_cold_hours_per_year"] = blocked[0]
+        out["charge_blocked_hot_hours_per_year"] = blocked[1]
     pack_options = (series_cells, cell_spread_frac, balancing, draws)
     if any(option is not None for option in pack_options) or across_models:
         model_sets = None
@@ -227,12 +234,40 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
     for note in notes:
         click.echo(f"extrapolated: {note}")
+    if blocked is not None and blocked[0] + blocked[1] > 0:
+        click.echo(f"charging blocked: {blocked[0]:.0f} h of the profile's charging hours fall "
+                   f"below {chem.charge_temp_min_c:g} °C and {blocked[1]:.0f} h above "
+                   f"{chem.charge_temp_max_c:g} °C; a plan does not charge then (planner plan), "
+                   "the cycles above still count them")
     if "years_to_eol_p50" in out:
         def shown(value):
             return f"{value:.1f}" if value is not None else f">{years}"
         click.echo(f"pack of {out['series_cells']} cells in series, {out['balancing']} balancing, "
                    f"{out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
                    f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} years")
+
+
+def _refuse_blocked_charging(chem, temp_c: float) -> None:
+    """Cycling at a constant temperature outside the chemistry's charge window would
+    report a life the battery management system never lets the pack reach: refuse it."""
+    if temp_c < chem.charge_temp_min_c:
+        why = f"below {chem.charge_temp_min_c:g} °C (lithium plating)" if chem.id != "vrla" \
+            else f"below {chem.charge_temp_min_c:g} °C"
+    elif temp_c > chem.charge_temp_max_c:
+        why = f"above {chem.charge_temp_max_c:g} °C (the charge over-temperature stop)"
+    else:
+        return
+    raise InputError(f"charging {chem.id} is blocked {why}, as in plans: a pack cycled at "
+                     f"{temp_c:g} °C is never recharged; give --temp-c from "
+                     f"{chem.charge_temp_min_c:g} to {chem.charge_temp_max_c:g} or drop "
+                     "--dod-frac/--cycles-per-day to store it", source="life")
+
+
+def _blocked_charging_hours(chem, temp, current) -> tuple[float, float]:
+    """Charging hours of the profile below and above the charge window (cold, hot)."""
+    charging = current < 0.0
+    return (float(np.count_nonzero(charging & (temp < chem.charge_temp_min_c))),
+            float(np.count_nonzero(charging & (temp > chem.charge_temp_max_c))))
 
 
 def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,

@@ -89,7 +89,7 @@ class Outcome:
     cycle_loss_frac: np.ndarray
     efc_per_year: float
     unserved_wh_per_year: float
-    charge_blocked_hours: float
+    charge_blocked_hours: float       # cold + hot
     mean_soc_frac: float
     life_p10_years: float = float("nan")
     life_p50_years: float = float("nan")
@@ -100,6 +100,8 @@ class Outcome:
     nominal_life_years: float = float("inf")
     dominated: bool = False
     far_from_best: bool = False
+    charge_blocked_cold_hours: float = 0.0   # below the minimum charge temperature
+    charge_blocked_hot_hours: float = 0.0    # above the maximum charge temperature
 
 
 @dataclass

@@ -254,7 +254,7 @@ def _simulate(lanes_of: _ChunkLanes, hourly, sel: np.ndarray):
         # A primary pack is never recharged: the load draws its C-rate hour by hour.
         current = hourly.load_w[:, lanes_of.site_idx[idx]] / capacity[idx]
         drain = _Duty(np.ones_like(current), current, np.zeros(idx.size), np.zeros(idx.size),
-                      np.ones(idx.size), np.zeros(idx.size))
+                      np.zeros(idx.size), np.ones(idx.size), np.zeros(idx.size))
         fades.update(_age_by_chemistry(chems, chunk, idx, hourly, drain, volts, peak_c,
                                        lanes_of.years))
     results, deferred = [], []
@@ -292,7 +292,9 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
             efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
             nominal_life_years=float(life_total[col] - start / 12.0),
             unserved_wh_per_year=float(duty.unserved_wh[j]),
-            charge_blocked_hours=float(duty.blocked_hours[j]),
+            charge_blocked_hours=float(duty.blocked_cold[j] + duty.blocked_hot[j]),
+            charge_blocked_cold_hours=float(duty.blocked_cold[j]),
+            charge_blocked_hot_hours=float(duty.blocked_hot[j]),
             mean_soc_frac=float(duty.mean_soc[j])))
     return out
 
@@ -304,17 +306,19 @@ class _Duty:
     soc: np.ndarray
     current: np.ndarray
     unserved_wh: np.ndarray
-    blocked_hours: np.ndarray
+    blocked_cold: np.ndarray
+    blocked_hot: np.ndarray
     mean_soc: np.ndarray
     efc: np.ndarray
 
     @classmethod
     def empty(cls, n):
-        return cls(None, None, np.zeros(n), np.zeros(n), np.ones(n), np.zeros(n))
+        return cls(None, None, np.zeros(n), np.zeros(n), np.zeros(n), np.ones(n), np.zeros(n))
 
     def put(self, idx, other):
         self.unserved_wh[idx] = other.unserved_wh
-        self.blocked_hours[idx] = other.blocked_hours
+        self.blocked_cold[idx] = other.blocked_cold
+        self.blocked_hot[idx] = other.blocked_hot
         self.mean_soc[idx] = other.mean_soc
         self.efc[idx] = other.efc
 
@@ -353,6 +357,7 @@ class _SocInputs:
             self_discharge_frac_per_h=self_discharge,
             max_charge_c_rate=per_lane("max_charge_c_rate"),
             charge_temp_min_c=per_lane("charge_temp_min_c"),
+            charge_temp_max_c=per_lane("charge_temp_max_c"),
             heater_on=hourly.heater_on[:, cols_site], min_soc_frac=1.0 - per_lane("max_dod_frac"),
             available_capacity_frac=available,
             lane_site_index=np.array([column[(d.site_index, d.chemistry)] for d in chunk],
@@ -368,13 +373,14 @@ def _duty(inputs: _SocInputs, capacity, soh, series=True) -> _Duty:
                                **{**inputs.options, "series": series}))
     s = sim.summary
     if not series:
-        return _Duty(None, None, s.unserved_wh, s.charge_blocked_hours, s.mean_soc_frac,
+        return _Duty(None, None, s.unserved_wh, s.charge_blocked_cold_hours,
+                     s.charge_blocked_hot_hours, s.mean_soc_frac,
                      s.equivalent_full_cycles_per_year * soh)
     # SOC stays relative to the faded capacity (it sets the voltage, hence calendar stress,
     # and an old pack cycles deeper); current is re-expressed against rated capacity.
     np.multiply(sim.current_c_rate, soh.astype(np.float32), out=sim.current_c_rate)
     return _Duty(sim.soc_frac, sim.current_c_rate, s.unserved_wh,
-                 s.charge_blocked_hours, s.mean_soc_frac,
+                 s.charge_blocked_cold_hours, s.charge_blocked_hot_hours, s.mean_soc_frac,
                  s.equivalent_full_cycles_per_year * soh)
 
 

@@ -109,6 +109,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             "equivalent_full_cycles_per_year": shown.efc_per_year,
             "mean_soc_frac": shown.mean_soc_frac,
             "charge_blocked_hours_per_year": shown.charge_blocked_hours,
+            "charge_blocked_cold_hours_per_year": shown.charge_blocked_cold_hours,
+            "charge_blocked_hot_hours_per_year": shown.charge_blocked_hot_hours,
             "reference_capacity_wh": reference.capacity_wh if reference else None,
             "reference_factors": _reference_factors(reference, model),
             "chemistry_name": chem.name,
@@ -208,9 +210,13 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
     if outcome.unserved_wh_per_year > 0:
         out.append(f"{outcome.unserved_wh_per_year:.0f} Wh of load a year not served with this "
                    "pack: the charging source is too small for the site's darkest or coldest weeks")
-    if outcome.charge_blocked_hours > 0 and chem.rechargeable:
-        out.append(f"charging blocked by cold for {outcome.charge_blocked_hours:.0f} h a year "
+    if outcome.charge_blocked_cold_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by cold for {outcome.charge_blocked_cold_hours:.0f} h a year "
                    f"(below {chem.charge_temp_min_c:g} °C); a battery heater would recover it")
+    if outcome.charge_blocked_hot_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by heat for {outcome.charge_blocked_hot_hours:.0f} h a year "
+                   f"(above {chem.charge_temp_max_c:g} °C, the battery management system's stop); "
+                   "shade, a vault or a lighter enclosure would recover it")
     if d.chemistry == "vrla":
         lowest_soc = 1.0 - chem.max_dod_frac
         freezing = float(lead_acid_freezing_point_c(lowest_soc))
