@@ -67,6 +67,9 @@ class AgingEnvelope:
     test_years : float
         Longest test (or field statement) behind the fit, years.
     source : str
+    lowest_soh_frac : float or None
+        Lowest state of health the tests behind the fit reached: the knee-free laws are
+        not carried below it (None: no such floor).
     """
 
     calendar_temp_c: tuple[float, float]
@@ -75,6 +78,7 @@ class AgingEnvelope:
     c_rate: tuple[float, float]
     test_years: float
     source: str
+    lowest_soh_frac: float | None = None
 
 
 @dataclass(frozen=True)
@@ -244,7 +248,9 @@ def _envelope(chem_id: str, set_name: str, raw) -> AgingEnvelope | None:
                  for key in ("calendar_temp_c", "cycle_temp_c", "soc_frac", "c_rate")}
         if any(len(pair) != 2 or pair[1] < pair[0] for pair in pairs.values()):
             raise ValueError("ranges need [low, high]")
-        return AgingEnvelope(test_years=float(raw["test_years"]), source=str(raw["source"]), **pairs)
+        lowest = raw.get("lowest_soh_frac")
+        return AgingEnvelope(test_years=float(raw["test_years"]), source=str(raw["source"]),
+                             lowest_soh_frac=None if lowest is None else float(lowest), **pairs)
     except (KeyError, TypeError, ValueError) as err:
         raise RuntimeError(f"{where} is incomplete ({err})") from None
 

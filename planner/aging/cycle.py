@@ -12,9 +12,12 @@ throughput laws have ``z = 1``.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from planner.aging.calendar import KELVIN_OFFSET, R_GAS_J_MOL_K, arrhenius_factor
+from planner.aging.plating import has_plating, plating_share
 
 WANG2011_B_TABLE = {0.5: 31630.0, 2.0: 21681.0, 6.0: 12934.0, 10.0: 15512.0}
 """Pre-exponential factor B vs C-rate, Wang et al. 2011 Table (from memory)."""
@@ -62,69 +65,6 @@ def wang2011_cycle_loss_pct(c_rate, temp_c, throughput_ah, *, b=None,
     temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
     return b * np.exp(-(activation_energy_j_mol - c_rate_alpha_j_mol * c_rate)
                       / (R_GAS_J_MOL_K * temp_k)) * np.asarray(throughput_ah, dtype=float) ** exponent
-
-
-def plating_factor(temp_c, charge_c_rate, *, plating_below_c, plating_share_ref,
-                   plating_activation_energy_j_mol, plating_c_rate_beta,
-                   plating_sei_activation_energy_j_mol, **_):
-    """Low-temperature factor of a sqrt-law cycle coefficient: lithium plating on graphite.
-
-    Below the crossover temperature ``T_x`` (about 25 °C: Waldmann et al. 2014, J. Power
-    Sources 262, 129-135; Feinauer et al. 2024, J. Power Sources 594, 233948) cycle fade
-    of a graphite anode speeds up as the *charge* temperature falls and the charge
-    current rises. Schimpe et al. 2018 (J. Electrochem. Soc. 165 (2), A181-A193, Eqs. 15
-    and 18, Table IV) split the cycle coefficient into an SEI term
-    ``k_hi exp(-Ea_hi/R (1/T - 1/T_ref))`` and a plating term
-    ``k_lo exp(+Ea_lo/R (1/T - 1/T_ref)) exp(beta (I_ch - I_ref)/C0)``. Relative to its
-    value at ``T_x`` and the same charge rate, their sum is
-
-        F = ((1 - s) AF_sei(T) + w AF_pl(T)) / ((1 - s) + w),   w = s exp(beta (C_ch - 1)),
-
-    with ``s`` the plating share at ``T_x`` and 1 C. ``F = 1`` at and above ``T_x`` (the
-    set's own temperature law applies there). The sqrt-law LFP set multiplies its
-    coefficient by F, as Schimpe fit it; the NMC set, whose activation energies come from
-    Waldmann's Arrhenius plot of the ageing *rate*, multiplies its rate by F.
-
-    Parameters
-    ----------
-    temp_c : array_like
-        Charge temperature, °C (the engine uses the temperature of the cycle).
-    charge_c_rate : array_like
-        Mean charge current as a C-rate.
-    """
-    temp = np.asarray(temp_c, dtype=float)
-    share = plating_share_ref
-    w = share * np.exp(plating_c_rate_beta * (np.asarray(charge_c_rate, dtype=float) - 1.0))
-    # Both Arrhenius terms relative to T_x share x = 1/T - 1/T_x.
-    x = 1.0 / (temp + KELVIN_OFFSET) - 1.0 / (plating_below_c + KELVIN_OFFSET)
-    sei = np.exp(-plating_sei_activation_energy_j_mol / R_GAS_J_MOL_K * x)
-    plating = np.exp(plating_activation_energy_j_mol / R_GAS_J_MOL_K * x)
-    factor = ((1.0 - share) * sei + w * plating) / ((1.0 - share) + w)
-    return np.where(temp < plating_below_c, factor, 1.0)
-
-
-def temperature_factor_with_plating(temp_c, charge_c_rate, params):
-    """The set's Arrhenius factor, times :func:`plating_factor` below the crossover.
-
-    Above ``plating_below_c`` (or for a set without plating parameters) the set's own
-    ``activation_energy_j_mol`` / ``temp_ref_c`` law; below it that law is held at the
-    crossover and the plating factor takes over. Runs once per counted cycle of every
-    lane, so each branch is evaluated on its own cycles only.
-    """
-    temp = np.asarray(temp_c, dtype=float)
-    ea, ref = params["activation_energy_j_mol"], params["temp_ref_c"]
-    if "plating_below_c" not in params:
-        return arrhenius_factor(temp, ea, ref)
-    below = params["plating_below_c"]
-    if temp.ndim == 0:
-        return (arrhenius_factor(max(float(temp), below), ea, ref)
-                * plating_factor(temp, charge_c_rate, **params))
-    cold = temp < below
-    factor = np.empty_like(temp)
-    factor[~cold] = arrhenius_factor(temp[~cold], ea, ref)
-    rate = np.broadcast_to(np.asarray(charge_c_rate, dtype=float), temp.shape)[cold]
-    factor[cold] = float(arrhenius_factor(below, ea, ref)) * plating_factor(temp[cold], rate, **params)
-    return factor
 
 
 def naumann2020_coefficient(c_rate, doc_frac, *, a, b, doc_c, doc_d, **_):
@@ -352,9 +292,42 @@ def cycle_exponent(model: str) -> float:
     return CYCLE_EXPONENTS[model]
 
 
+@dataclass(frozen=True)
+class CycleIncrements:
+    """What counted cycles add to the cycle state under a cycle law.
+
+    Attributes
+    ----------
+    total : ndarray
+        Increment of each cycle at its own temperature; for a set with the plating term
+        (:mod:`planner.aging.plating`) only the film share ``(1 - sigma)**2`` of it, the
+        plating share being summed over the charging hours instead.
+    reference : ndarray
+        The same cycles without the set's temperature factor and without the split: the
+        law as fitted at its reference temperature (it scales the plating term).
+    exponent : float
+        The law's exponent z (loss = state ** z).
+    """
+
+    total: np.ndarray
+    reference: np.ndarray
+    exponent: float
+
+
 def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_frac, count,
                           temp_c, c_rate, charge_voltage_v_per_cell, charge_c_rate=None):
     """State increments of counted cycles for the named cycle law, and the law's exponent.
+
+    ``(cycle_increments(...).total, exponent)``; see :func:`cycle_increments`.
+    """
+    inc = cycle_increments(model, params, chemistry, depth_frac, mean_soc_frac, count, temp_c,
+                           c_rate, charge_voltage_v_per_cell, charge_c_rate)
+    return inc.total, inc.exponent
+
+
+def cycle_increments(model: str, params, chemistry, depth_frac, mean_soc_frac, count, temp_c,
+                     c_rate, charge_voltage_v_per_cell, charge_c_rate=None) -> CycleIncrements:
+    """State increments of counted cycles for the named cycle law (:class:`CycleIncrements`).
 
     Parameters
     ----------
@@ -369,13 +342,8 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
     temp_c, c_rate, charge_voltage_v_per_cell : ndarray
         Battery temperature (°C), discharge C-rate and charge voltage per cell for each cycle.
     charge_c_rate : ndarray, optional
-        Charge C-rate for each cycle (the lithium-plating term; default ``c_rate``).
-
-    Returns
-    -------
-    increments : ndarray
-        Added to the cycle state; the cycle loss is ``state ** exponent``.
-    exponent : float
+        Mean charge C-rate of each cycle's lane: sets the plating share that leaves the
+        counted cycles (default ``c_rate``).
     """
     p = dict(params)
     depth = np.asarray(depth_frac, dtype=float)
@@ -383,36 +351,52 @@ def cycle_state_increment(model: str, params, chemistry, depth_frac, mean_soc_fr
     charge_rate = c_rate if charge_c_rate is None else charge_c_rate
     if model == "naumann2020":
         # Coefficient convention, as Wang et al. 2011 and Schimpe et al. 2018 apply their
-        # Arrhenius terms (Schimpe's plating factor scales the coefficient).
-        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
-        k = naumann2020_coefficient(c_rate, depth, **p) * heat
-        return k * k * n * depth, 0.5
-    if model == "schmalstieg2014_cycle":
-        volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
-        if p.get("depth_per_usable", 0.0) >= 0.5:
-            # Depth and throughput relative to the capacity usable at the charge voltage:
-            # the charge-voltage rule below is stated for *full* cycles at each voltage,
-            # so the shallower full cycle of a lower voltage must not be credited twice.
-            # The published model counts depth on rated capacity (the flag is 0 there).
-            depth = depth / np.asarray(chemistry.usable_fraction(charge_voltage_v_per_cell), dtype=float)
-        beta = schmalstieg2014_beta_cap(volts, depth, **p)
-        temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
-        # C-rate term borrowed from Wang et al. 2011 (coefficient convention, squared for z=0.5).
-        c_term = np.exp(p["c_rate_alpha_j_mol"] * (np.asarray(c_rate, dtype=float) - p["c_rate_ref"])
-                        / (R_GAS_J_MOL_K * temp_k))
-        # The temperature and charge-voltage rules of practice scale cycle *life*: clock convention.
-        life = charge_voltage_life_factor(charge_voltage_v_per_cell, p["voltage_ref_v_per_cell"],
-                                          p["voltage_doubling_step_v"])
-        # Waldmann et al. 2014 plot the ageing *rate*: here the factor scales the rate.
-        heat = temperature_factor_with_plating(temp_c, charge_rate, p)
-        directions = 2.0 if p["throughput_both_directions"] >= 0.5 else 1.0
-        throughput_ah = n * depth * p["cell_capacity_ah"] * directions
-        return (beta * c_term) ** 2 * throughput_ah * heat / life, 0.5
-    if model == "woehler_miner":
+        # Arrhenius terms: the film term's factor scales the coefficient, hence AF**2 in
+        # the state of a square-root law.
+        k = naumann2020_coefficient(c_rate, depth, **p)
+        base = k * k * n * depth
+        af = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
+        heat, exponent = af * af, 0.5
+    elif model == "schmalstieg2014_cycle":
+        base = _schmalstieg_reference(p, chemistry, depth, mean_soc_frac, n, temp_c, c_rate,
+                                      charge_voltage_v_per_cell)
+        # The temperature rule of practice scales the ageing *rate* (clock convention).
+        heat, exponent = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"]), 0.5
+    elif model == "woehler_miner":
         life = woehler_cycles_to_failure(np.maximum(depth, 1e-12), **p)
-        heat = halving_life_factor(temp_c, p["temp_ref_c"], p["halving_step_k"])
-        return p["loss_at_end_frac"] * n / (life * heat), 1.0
-    if model == "linear_throughput":
-        heat = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
-        return p["loss_at_end_frac"] * n * depth / p["full_cycles_to_end"] * heat, 1.0
-    raise ValueError(f"unknown cycle model {model!r}")
+        base = p["loss_at_end_frac"] * n / life
+        heat, exponent = 1.0 / halving_life_factor(temp_c, p["temp_ref_c"], p["halving_step_k"]), 1.0
+    elif model == "linear_throughput":
+        base = p["loss_at_end_frac"] * n * depth / p["full_cycles_to_end"]
+        heat, exponent = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"]), 1.0
+    else:
+        raise ValueError(f"unknown cycle model {model!r}")
+    total = base * heat
+    if has_plating(p):
+        film = 1.0 - plating_share(charge_rate, **p)
+        total = total * film * film
+    return CycleIncrements(total=np.asarray(total, dtype=float),
+                           reference=np.asarray(base, dtype=float), exponent=exponent)
+
+
+def _schmalstieg_reference(p, chemistry, depth, mean_soc_frac, n, temp_c, c_rate,
+                           charge_voltage_v_per_cell):
+    """Schmalstieg et al. 2014 cycle increments without the temperature rule (sqrt(Ah) law)."""
+    volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
+    if p.get("depth_per_usable", 0.0) >= 0.5:
+        # Depth and throughput relative to the capacity usable at the charge voltage:
+        # the charge-voltage rule below is stated for *full* cycles at each voltage,
+        # so the shallower full cycle of a lower voltage must not be credited twice.
+        # The published model counts depth on rated capacity (the flag is 0 there).
+        depth = depth / np.asarray(chemistry.usable_fraction(charge_voltage_v_per_cell), dtype=float)
+    beta = schmalstieg2014_beta_cap(volts, depth, **p) * p.get("coefficient_scale", 1.0)
+    temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
+    # C-rate term borrowed from Wang et al. 2011 (coefficient convention, squared for z=0.5).
+    c_term = np.exp(p["c_rate_alpha_j_mol"] * (np.asarray(c_rate, dtype=float) - p["c_rate_ref"])
+                    / (R_GAS_J_MOL_K * temp_k))
+    # The charge-voltage rule of practice scales cycle *life* (clock convention).
+    life = charge_voltage_life_factor(charge_voltage_v_per_cell, p["voltage_ref_v_per_cell"],
+                                      p["voltage_doubling_step_v"])
+    directions = 2.0 if p["throughput_both_directions"] >= 0.5 else 1.0
+    throughput_ah = n * depth * p["cell_capacity_ah"] * directions
+    return (beta * c_term) ** 2 * throughput_ah / life

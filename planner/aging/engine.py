@@ -42,9 +42,16 @@ import numpy as np
 from planner import HOURS_PER_YEAR
 from planner.aging import kernels
 from planner.aging.calendar import calendar_rate_parts
-from planner.aging.cycle import cycle_exponent, cycle_state_increment
+from planner.aging.cycle import cycle_exponent, cycle_increments
+from planner.aging.plating import (
+    has_plating,
+    plating_rate_factor,
+    plating_state_scale,
+    plating_temperature_factor,
+)
 from planner.aging.superposition import loss_from_state, repeat_year, state_from_loss
 from planner.aging.sweep import (
+    CHARGE_RATE_TABLE,
     MONTH_MATRIX,
     MONTH_OF_HOUR,  # noqa: F401  (re-exported: month of each hour of the typical year)
     MONTH_START_H,
@@ -52,6 +59,7 @@ from planner.aging.sweep import (
     TEMP_TABLE_C,
     CalendarRates,
     ChunkSweep,
+    PlatingRates,
     block_in_parent,
     lookup_table,
     sweep_chunk,
@@ -60,6 +68,11 @@ from planner.aging.sweep import (
 from planner.chemistry import AgingParams, Chemistry, get_chemistry
 
 _MONTH_START_YEAR_FRAC = MONTH_START_H / HOURS_PER_YEAR
+PLATING_EXPONENT = 0.5
+"""The plating term is a square-root law in charge throughput (Schimpe et al. 2018)."""
+CHARGE_RATE_BIN = 0.0001
+"""Bin of the charge C-rate lookup of the plating term, 1/h (exp(2 beta C) moves by
+2.6e-4 relative per bin at beta = 2.64 h)."""
 
 
 def row_years(rows):
@@ -83,6 +96,9 @@ class AgingState:
         Exponents of the laws that produced the states.
     age_years : ndarray, shape (n_lanes,)
         Years aged so far.
+    plating_state : ndarray, shape (n_lanes,), or None
+        State of the plating term (square-root law in charge throughput,
+        :mod:`planner.aging.plating`); None: no plating loss.
     """
 
     calendar_state: np.ndarray
@@ -90,6 +106,7 @@ class AgingState:
     calendar_exponent: float
     cycle_exponent: float
     age_years: np.ndarray
+    plating_state: np.ndarray | None = None
 
     @property
     def calendar_loss_frac(self) -> np.ndarray:
@@ -97,11 +114,19 @@ class AgingState:
 
     @property
     def cycle_loss_frac(self) -> np.ndarray:
+        """Loss of the counted cycles (the plating term apart: :attr:`plating_loss_frac`)."""
         return loss_from_state(self.cycle_state, self.cycle_exponent)
 
     @property
+    def plating_loss_frac(self) -> np.ndarray:
+        if self.plating_state is None:
+            return np.zeros_like(np.asarray(self.cycle_state, dtype=float))
+        return loss_from_state(self.plating_state, PLATING_EXPONENT)
+
+    @property
     def soh_frac(self) -> np.ndarray:
-        return np.maximum(1.0 - self.calendar_loss_frac - self.cycle_loss_frac, 0.0)
+        return np.maximum(1.0 - self.calendar_loss_frac - self.cycle_loss_frac
+                          - self.plating_loss_frac, 0.0)
 
     @classmethod
     def from_losses(cls, calendar_loss_frac, cycle_loss_frac, *, age_years=0.0,
@@ -127,14 +152,18 @@ class FadeResult:
     soh_monthly : ndarray, shape (12 * horizon_years + 1, n_lanes)
         State of health (remaining / rated capacity); row 0 is the start.
     calendar_loss_frac, cycle_loss_frac : ndarray, same shape
-        The two parts of the loss (they add). For primary lithium: self-discharge and
-        load charge drawn.
+        The two parts of the loss (they add). ``cycle_loss_frac`` holds all of cycling,
+        the plating term included. For primary lithium: self-discharge and load charge
+        drawn.
     efc_per_year : ndarray, shape (n_lanes,)
         Equivalent full cycles per year (discharged charge / rated capacity).
     state : AgingState
         State at the end of the horizon, to continue from.
     chemistry_id, aging_set : str
         Chemistry and aging parameter set used.
+    plating_loss_frac : ndarray, same shape as ``soh_monthly``, or None
+        The part of ``cycle_loss_frac`` lost to lithium plating while charging
+        (:mod:`planner.aging.plating`); None for a set without that term.
     """
 
     soh_monthly: np.ndarray
@@ -144,6 +173,7 @@ class FadeResult:
     state: AgingState
     chemistry_id: str
     aging_set: str
+    plating_loss_frac: np.ndarray | None = None
 
     def end_of_life(self, threshold_frac: float):
         """Years until SOH reaches ``threshold_frac`` and the loss parts at that moment.
@@ -165,14 +195,22 @@ class FadeResult:
         first = np.where(reached, np.argmax(below, axis=0), soh.shape[0] - 1)
         prev = np.maximum(first - 1, 0)
         z_cal, z_cyc = self.state.calendar_exponent, self.state.cycle_exponent
+        plating = (np.zeros_like(self.cycle_loss_frac) if self.plating_loss_frac is None
+                   else self.plating_loss_frac)
+        film = self.cycle_loss_frac - plating
         cal0 = state_from_loss(self.calendar_loss_frac[prev, lanes], z_cal)
         cal1 = state_from_loss(self.calendar_loss_frac[first, lanes], z_cal)
-        cyc0 = state_from_loss(self.cycle_loss_frac[prev, lanes], z_cyc)
-        cyc1 = state_from_loss(self.cycle_loss_frac[first, lanes], z_cyc)
+        cyc0 = state_from_loss(np.maximum(film[prev, lanes], 0.0), z_cyc)
+        cyc1 = state_from_loss(np.maximum(film[first, lanes], 0.0), z_cyc)
+        pl0 = state_from_loss(plating[prev, lanes], PLATING_EXPONENT)
+        pl1 = state_from_loss(plating[first, lanes], PLATING_EXPONENT)
+
+        def cycling_at(theta):
+            return (loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
+                    + loss_from_state(pl0 + theta * (pl1 - pl0), PLATING_EXPONENT))
 
         def soh_at(theta):
-            return (1.0 - loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
-                    - loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc))
+            return 1.0 - loss_from_state(cal0 + theta * (cal1 - cal0), z_cal) - cycling_at(theta)
 
         lo, hi = np.zeros(lanes.size), np.ones(lanes.size)
         for _ in range(60):  # SOH falls monotonically in theta: bisection to ~1e-18 of a month
@@ -183,8 +221,7 @@ class FadeResult:
         t_prev, t_first = row_years(prev), row_years(first)
         years = np.where(reached, t_prev + theta * (t_first - t_prev), np.inf)
         cal = loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
-        cyc = loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
-        return years, cal, cyc
+        return years, cal, cycling_at(theta)
 
     def years_to_soh(self, threshold_frac: float) -> np.ndarray:
         """Years until SOH first reaches ``threshold_frac`` (np.inf if never), see end_of_life."""
@@ -353,7 +390,8 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
                          charge_c_rate=charge_c_rate, lane_site=lane_site, aging_set=aging_set,
                          overrides=overrides, engine=engine)
     rates = _calendar_rates(lanes, rate_bin_k, soc_bin_frac)
-    year = _one_year(lanes, rates, max(int(chunk_lanes), 1))
+    plating = _plating_rates(lanes, rates, rate_bin_k)
+    year = _one_year(lanes, rates, plating, max(int(chunk_lanes), 1))
     return _over_horizon(lanes, year, initial_state)
 
 
@@ -419,28 +457,58 @@ def _calendar_rates(lanes: _Lanes, rate_bin_k, soc_bin_frac) -> CalendarRates:
                          exponent=exponent)
 
 
+def _plating_rates(lanes: _Lanes, rates: CalendarRates, rate_bin_k) -> PlatingRates | None:
+    """The plating term's temperature part per site and hour (``AF_pl**2``) and its
+    charge-rate part (``exp(2 beta (C - 1))``), binned as the calendar parts are; None
+    for a set without the term (:mod:`planner.aging.plating`)."""
+    p = lanes.params.cycle
+    if lanes.primary or lanes.current is None or not has_plating(p):
+        return None
+
+    def temp_part(temp_c):
+        af = plating_temperature_factor(temp_c, **p)
+        return af * af
+
+    def rate_part(charge_c_rate):
+        f = plating_rate_factor(charge_c_rate, **p)
+        return f * f
+
+    used_sites = np.unique(lanes.lane_site)
+    temp_site = np.ascontiguousarray(
+        tabulated(temp_part, lanes.temp[:, used_sites], TEMP_TABLE_C, rate_bin_k).T)
+    # binned with the temperature part (exact evaluation runs the numpy path)
+    rate_bin = CHARGE_RATE_BIN if rate_bin_k is not None else None
+    table = lookup_table(rate_part, CHARGE_RATE_TABLE, CHARGE_RATE_BIN) if rate_bin else None
+    return PlatingRates(temp_site=temp_site, rate_part=rate_part, rate_table=table,
+                        rate_bin=rate_bin, charge_rate=lanes.charge_rate)
+
+
 @dataclass(frozen=True)
 class _Year:
     """One typical year of every lane: monthly state increments (12, n_lanes) of the
-    calendar and cycle laws, and the discharged charge per year (n_lanes,)."""
+    calendar law, the counted cycles and the plating term, and the discharged charge per
+    year (n_lanes,)."""
 
     cal_monthly: np.ndarray
     cyc_monthly: np.ndarray
+    plating_monthly: np.ndarray
     efc: np.ndarray
 
 
-def _one_year(lanes: _Lanes, rates: CalendarRates, step: int) -> _Year:
+def _one_year(lanes: _Lanes, rates: CalendarRates, plating: PlatingRates | None,
+              step: int) -> _Year:
     """Sweep every chunk of ``step`` lanes once and turn its year into state increments."""
     n_lanes = lanes.n_lanes
     cal_monthly = np.empty((12, n_lanes))
     cyc_monthly = np.zeros((12, n_lanes))
+    plating_monthly = np.zeros((12, n_lanes))
     efc = np.zeros(n_lanes)
     if rates.soc_part is None:
         cal_monthly[:] = (rates.temp_rate_site @ MONTH_MATRIX)[rates.rate_row].T
     for start in range(0, n_lanes, step):
         ch = slice(start, min(start + step, n_lanes))
         sweep = sweep_chunk(lanes.soc, lanes.current, lanes.temp, lanes.lane_site, ch, rates,
-                            do_cycles=not lanes.primary, use_kernel=lanes.use_kernel,
+                            plating, do_cycles=not lanes.primary, use_kernel=lanes.use_kernel,
                             compiled=lanes.compiled)
         if sweep.cal_monthly is not None:
             cal_monthly[:, ch] = sweep.cal_monthly.T
@@ -450,17 +518,19 @@ def _one_year(lanes: _Lanes, rates: CalendarRates, step: int) -> _Year:
             if lanes.current is not None:
                 cyc_monthly[:, ch] = sweep.discharge_monthly.T
             continue
-        cyc_monthly[:, ch] = _cycle_increments(lanes, ch, sweep)
-    return _Year(cal_monthly, cyc_monthly, efc)
+        cyc_monthly[:, ch], plating_monthly[:, ch] = _cycle_increments(lanes, ch, sweep)
+    return _Year(cal_monthly, cyc_monthly, plating_monthly, efc)
 
 
-def _cycle_increments(lanes: _Lanes, ch: slice, sweep: ChunkSweep) -> np.ndarray:
-    """Monthly cycle-state increments ``(12, n_chunk)`` of the chunk's counted cycles.
+def _cycle_increments(lanes: _Lanes, ch: slice, sweep: ChunkSweep):
+    """Monthly state increments ``(12, n_chunk)`` of the chunk's counted cycles and of its
+    plating term.
 
     Each cycle takes its lane's mean discharge C-rate (or the burst rate when larger,
     which is conservative: bursts are charged to the whole cycle) and mean charge C-rate
     over the hours that charge (or the given charge rate); it is booked in the month it
-    closes.
+    closes. The plating term scales the lane's hourly plating sums by its cycle law at the
+    reference temperature per full equivalent cycle (:mod:`planner.aging.plating`).
     """
     n_chunk = ch.stop - ch.start
     if lanes.current is not None:
@@ -475,13 +545,21 @@ def _cycle_increments(lanes: _Lanes, ch: slice, sweep: ChunkSweep) -> np.ndarray
         charge_rate = lanes.charge_rate[ch]
     cycles = sweep.cycles
     if cycles.lane.size == 0:
-        return np.zeros((12, n_chunk))
-    inc, _ = cycle_state_increment(
+        return np.zeros((12, n_chunk)), np.zeros((12, n_chunk))
+    inc = cycle_increments(
         lanes.params.cycle_model, lanes.params.cycle, lanes.chem, cycles.range_, cycles.mean,
         cycles.count, sweep.cycle_temp_c, c_rate[cycles.lane], lanes.charge_v[ch][cycles.lane],
         charge_c_rate=charge_rate[cycles.lane])
     key = cycles.lane * 12 + sweep.cycle_month
-    return np.bincount(key, weights=inc, minlength=12 * n_chunk).reshape(n_chunk, 12).T
+    film = np.bincount(key, weights=inc.total, minlength=12 * n_chunk).reshape(n_chunk, 12).T
+    if sweep.plating_monthly is None:
+        return film, np.zeros((12, n_chunk))
+    cycles_done = np.bincount(cycles.lane, weights=cycles.range_ * cycles.count,
+                              minlength=n_chunk)
+    reference = np.bincount(cycles.lane, weights=inc.reference, minlength=n_chunk)
+    per_cycle = np.divide(reference, cycles_done, out=np.zeros(n_chunk), where=cycles_done > 0)
+    scale = plating_state_scale(per_cycle, charge_rate, **lanes.params.cycle)
+    return film, (sweep.plating_monthly * scale[:, None]).T
 
 
 def _over_horizon(lanes: _Lanes, year: _Year, initial_state: AgingState | None) -> FadeResult:
@@ -498,13 +576,18 @@ def _over_horizon(lanes: _Lanes, year: _Year, initial_state: AgingState | None) 
         cal0 = np.broadcast_to(state_from_loss(initial_state.calendar_loss_frac, cal_exp), (n_lanes,))
         cyc0 = np.broadcast_to(state_from_loss(initial_state.cycle_loss_frac, cyc_exp), (n_lanes,))
         age0 = np.broadcast_to(initial_state.age_years, (n_lanes,))
+    pl0 = np.zeros(n_lanes) if initial_state is None else np.broadcast_to(
+        state_from_loss(initial_state.plating_loss_frac, PLATING_EXPONENT), (n_lanes,))
     cal_states = repeat_year(cal0, year.cal_monthly, lanes.horizon)
     cyc_states = repeat_year(cyc0, year.cyc_monthly, lanes.horizon)
+    pl_states = repeat_year(pl0, year.plating_monthly, lanes.horizon)
     cal_loss = loss_from_state(cal_states, cal_exp)
-    cyc_loss = loss_from_state(cyc_states, cyc_exp)
+    pl_loss = loss_from_state(pl_states, PLATING_EXPONENT)
+    cyc_loss = loss_from_state(cyc_states, cyc_exp) + pl_loss
     soh = np.maximum(1.0 - cal_loss - cyc_loss, 0.0)
     state = AgingState(cal_states[-1].copy(), cyc_states[-1].copy(), cal_exp, cyc_exp,
-                       np.asarray(age0, dtype=float) + lanes.horizon)
+                       np.asarray(age0, dtype=float) + lanes.horizon, pl_states[-1].copy())
     return FadeResult(soh_monthly=soh, calendar_loss_frac=cal_loss, cycle_loss_frac=cyc_loss,
                       efc_per_year=year.efc, state=state, chemistry_id=lanes.chem.id,
-                      aging_set=lanes.params.name)
+                      aging_set=lanes.params.name,
+                      plating_loss_frac=pl_loss if has_plating(lanes.params.cycle) else None)

@@ -12,6 +12,7 @@ bin; sums differ by rounding only.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -32,6 +33,8 @@ TEMP_TABLE_C = (-90.0, 110.0)
 """Range of the temperature lookup tables, °C (hours outside are clipped to it)."""
 SOC_TABLE = (0.0, 1.5)
 """Range of the state-of-charge lookup table, fraction of rated capacity."""
+CHARGE_RATE_TABLE = (0.0, 10.0)
+"""Range of the charge C-rate lookup table of the plating term, 1/h (clipped beyond)."""
 
 
 def tabulated(func, x, bounds, step):
@@ -74,6 +77,24 @@ class CalendarRates:
 
 
 @dataclass(frozen=True)
+class PlatingRates:
+    """The plating term of an aging call, ready for the hour sweeps (or None without it).
+
+    ``temp_site`` holds ``AF_pl(T)**2`` per site and hour (rows as ``CalendarRates``);
+    ``rate_part`` is ``exp(2 beta (C - 1))`` of the charge C-rate and ``rate_table`` the
+    same at the lookup bins of ``rate_bin`` over :data:`CHARGE_RATE_TABLE` (None:
+    evaluated exactly, numpy path only); ``charge_rate`` is a given charge C-rate per
+    lane (None: each hour's own charge current).
+    """
+
+    temp_site: np.ndarray
+    rate_part: object
+    rate_table: np.ndarray | None
+    rate_bin: float | None
+    charge_rate: np.ndarray | None
+
+
+@dataclass(frozen=True)
 class ChunkSweep:
     """What one sweep over a chunk's year yields, per lane of the chunk.
 
@@ -91,6 +112,9 @@ class ChunkSweep:
         Rainflow cycles of the year (``cycles.lane`` counts from the chunk's first lane).
     cycle_temp_c, cycle_month : ndarray or None
         Temperature (mean of the two reversal hours) and closing month of each cycle.
+    plating_monthly : ndarray, shape (n_chunk, 12), or None
+        Sum over each month's charging hours of ``AF_pl(T_h)**2 exp(2 beta (C_h - 1))
+        C_h`` (:mod:`planner.aging.plating`; None without the plating term).
     """
 
     cal_monthly: np.ndarray | None
@@ -102,30 +126,37 @@ class ChunkSweep:
     cycles: Cycles | None
     cycle_temp_c: np.ndarray | None
     cycle_month: np.ndarray | None
+    plating_monthly: np.ndarray | None = None
 
 
-def sweep_chunk(soc, current, temp, lane_site, ch: slice, rates: CalendarRates, *,
-                do_cycles: bool, use_kernel: bool, compiled: bool) -> ChunkSweep:
+def sweep_chunk(soc, current, temp, lane_site, ch: slice, rates: CalendarRates,
+                plating: PlatingRates | None, *, do_cycles: bool, use_kernel: bool,
+                compiled: bool) -> ChunkSweep:
     """Sweep the lanes ``ch`` once: calendar sums, throughput and (``do_cycles``) cycles.
 
     ``soc``, ``current`` are (8760, n_lanes) (``current`` may be None or one shared
     column); ``temp`` is (8760, n_sites) and ``lane_site`` each lane's column of it.
     """
-    if use_kernel:
-        sweep = _kernel_sweep(soc, current, ch, rates, do_cycles, compiled, temp, lane_site)
+    if use_kernel and (plating is None or plating.rate_table is not None):
+        sweep = _kernel_sweep(soc, current, ch, rates, plating, do_cycles, compiled, temp,
+                              lane_site)
         if rates.soc_table is None and rates.soc_part is not None:
             cal = _calendar_numpy(np.ascontiguousarray(soc[:, ch].T), rates, rates.rate_row[ch])
-            return _with_calendar(sweep, cal)
+            return dataclasses.replace(sweep, cal_monthly=cal)
         if rates.soc_part is None:
-            return _with_calendar(sweep, None)
+            return dataclasses.replace(sweep, cal_monthly=None)
         return sweep
-    return _numpy_sweep(soc, current, temp, lane_site, ch, rates, do_cycles)
+    return _numpy_sweep(soc, current, temp, lane_site, ch, rates, plating, do_cycles)
 
 
-def _with_calendar(sweep: ChunkSweep, cal_monthly) -> ChunkSweep:
-    return ChunkSweep(cal_monthly, sweep.efc, sweep.hours_on, sweep.charged,
-                      sweep.hours_charging, sweep.discharge_monthly, sweep.cycles,
-                      sweep.cycle_temp_c, sweep.cycle_month)
+def _plating_numpy(cur, rates: CalendarRates, plating: PlatingRates, ch) -> np.ndarray:
+    """Monthly plating sums ``(n_chunk, 12)`` of the chunk's charging hours (numpy path)."""
+    charge = np.maximum(-np.asarray(cur, dtype=float), 0.0)
+    rate = charge if plating.charge_rate is None else np.where(
+        charge > 0.0, plating.charge_rate[ch][None, :], 0.0)
+    factor = tabulated(plating.rate_part, rate, CHARGE_RATE_TABLE, plating.rate_bin)
+    hourly = factor * charge * plating.temp_site[rates.rate_row[ch]].T
+    return (MONTH_MATRIX.T @ hourly).T
 
 
 def _calendar_numpy(soc_by_lane, rates: CalendarRates, rate_row) -> np.ndarray:
@@ -144,7 +175,7 @@ def _calendar_numpy(soc_by_lane, rates: CalendarRates, rate_row) -> np.ndarray:
     return out
 
 
-def _numpy_sweep(soc, current, temp, lane_site, ch, rates, do_cycles) -> ChunkSweep:
+def _numpy_sweep(soc, current, temp, lane_site, ch, rates, plating, do_cycles) -> ChunkSweep:
     """The numpy path: array passes over the chunk's lanes, contiguous in time."""
     n_chunk = ch.stop - ch.start
     # Lanes x hours, contiguous in time: one copy serves the rate and the rainflow.
@@ -153,7 +184,7 @@ def _numpy_sweep(soc, current, temp, lane_site, ch, rates, do_cycles) -> ChunkSw
     if rates.soc_part is not None:
         cal = _calendar_numpy(soc_by_lane, rates, rates.rate_row[ch])
     efc = np.zeros(n_chunk)
-    hours_on = charged = hours_charging = discharge_monthly = None
+    hours_on = charged = hours_charging = discharge_monthly = plated = None
     if current is not None:
         cur = current[:, ch] if current.shape[1] > 1 else np.broadcast_to(
             current, (HOURS_PER_YEAR, n_chunk))
@@ -165,6 +196,8 @@ def _numpy_sweep(soc, current, temp, lane_site, ch, rates, do_cycles) -> ChunkSw
             charged = charge.sum(axis=0)
             hours_charging = np.count_nonzero(charge, axis=0)
             del charge
+            if plating is not None:
+                plated = _plating_numpy(cur, rates, plating, ch)
         else:
             discharge_monthly = (MONTH_MATRIX.T @ discharge).T
     if not do_cycles:
@@ -175,11 +208,11 @@ def _numpy_sweep(soc, current, temp, lane_site, ch, rates, do_cycles) -> ChunkSw
     site_of_cycle = lane_site[ch][cycles.lane]
     cycle_temp = 0.5 * (temp[cycles.i_start, site_of_cycle] + temp[cycles.i_end, site_of_cycle])
     return ChunkSweep(cal, efc, hours_on, charged, hours_charging, discharge_monthly, cycles,
-                      cycle_temp, MONTH_OF_HOUR[cycles.i_end])
+                      cycle_temp, MONTH_OF_HOUR[cycles.i_end], plated)
 
 
-def _kernel_sweep(soc, current, ch, rates: CalendarRates, do_cycles, compiled, temp,
-                  lane_site) -> ChunkSweep:
+def _kernel_sweep(soc, current, ch, rates: CalendarRates, plating: PlatingRates | None,
+                  do_cycles, compiled, temp, lane_site) -> ChunkSweep:
     """The kernels of :mod:`planner.aging.kernels` on the lanes ``ch``."""
     fn = (lambda k: k) if compiled else kernels.python_function
     n_chunk = ch.stop - ch.start
@@ -199,6 +232,7 @@ def _kernel_sweep(soc, current, ch, rates: CalendarRates, do_cycles, compiled, t
     rev_v, rev_i = np.empty((n_chunk, capacity)), np.empty((n_chunk, capacity), np.int64)
     n_rev = np.zeros(n_chunk, np.int64)
     rate_row, temp_rate_site = rates.rate_row, rates.temp_rate_site
+    pl = _kernel_plating_inputs(plating, ch, n_chunk)
     if soc.flags.f_contiguous and not soc.flags.c_contiguous:
         # Stored lane by lane: sweep each lane along its own contiguous year.
         cur_t = np.ascontiguousarray(cur.T)
@@ -206,7 +240,8 @@ def _kernel_sweep(soc, current, ch, rates: CalendarRates, do_cycles, compiled, t
             soc.T, cur_t, ch.start, ch.stop, has_current, soc_table is not None, do_cycles,
             rate_row, temp_rate_site, table, lo, hi, offset, inv,
             np.append(MONTH_START_H, HOURS_PER_YEAR).astype(np.int64), cal, efc,
-            hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging)
+            hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging, pl.do,
+            np.ascontiguousarray(pl.temp_site), *pl.lookup, pl.charge_rate, pl.monthly)
     else:
         # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
         n_groups = min(kernels.thread_count(), n_chunk) if compiled else 1
@@ -216,13 +251,39 @@ def _kernel_sweep(soc, current, ch, rates: CalendarRates, do_cycles, compiled, t
             soc_rows, cur_rows, ch.start + shift, ch.stop + shift, n_groups,
             has_current, soc_table is not None, do_cycles, rows_of_lane,
             np.ascontiguousarray(temp_rate_site.T), table, lo, hi, offset, inv, MONTH_OF_HOUR,
-            cal, efc, hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging)
+            cal, efc, hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging, pl.do,
+            np.ascontiguousarray(pl.temp_site.T), *pl.lookup, pl.charge_rate, pl.monthly)
     cycles = cycle_temp = cycle_month = None
     if do_cycles:
         cycles, cycle_temp, cycle_month = _kernel_cycles(
             fn, soc, ch, rev_v, rev_i, n_rev, capacity, temp, lane_site)
     return ChunkSweep(cal, efc, hours_on, charged, hours_charging, dis, cycles, cycle_temp,
-                      cycle_month)
+                      cycle_month, pl.monthly if pl.do else None)
+
+
+@dataclass(frozen=True)
+class _KernelPlating:
+    """The plating inputs of the sweep kernels (dummies when ``do`` is False)."""
+
+    do: bool
+    temp_site: np.ndarray
+    lookup: tuple
+    charge_rate: np.ndarray
+    monthly: np.ndarray
+
+
+def _kernel_plating_inputs(plating: PlatingRates | None, ch: slice, n_chunk: int) -> _KernelPlating:
+    if plating is None:
+        return _KernelPlating(False, np.zeros((1, 1)), (np.zeros(1), 0.0, 0.0, 0.0, 0.0),
+                              np.zeros(1), np.zeros((n_chunk, 12)))
+    lo, hi = CHARGE_RATE_TABLE
+    step = plating.rate_bin
+    # NaN: each hour's own charge current (the kernels test v == v)
+    rate = (np.full(n_chunk, np.nan) if plating.charge_rate is None
+            else np.ascontiguousarray(plating.charge_rate[ch], dtype=float))
+    return _KernelPlating(True, plating.temp_site,
+                          (plating.rate_table, lo, hi, lo - 0.5 * step, 1.0 / step), rate,
+                          np.zeros((n_chunk, 12)))
 
 
 def _kernel_cycles(fn, soc, ch, rev_v, rev_i, n_rev, capacity, temp, lane_site):

@@ -295,7 +295,7 @@ def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
     hour); and those whose life ends by aging
     rather than at the service-life limit, when the measure slows that aging: a cooler
     aging-effective temperature (Arrhenius), or a warmer coldest hour for a chemistry
-    whose cycling ages faster in the cold (lithium plating below its crossover). A smaller
+    whose cycling ages faster in the cold (lithium plating while charging). A smaller
     pack from less cold derating alone is not counted: it saves a part of one pack's
     price, less than a measure costs."""
     cold = measure.helps in ("cold", "both") and model.design_temp_c < cold_limit_c(study)
@@ -325,10 +325,11 @@ def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
 
 
 def _ages_faster_cold(chemistry: str) -> bool:
-    """The chemistry's cycle-aging law has a low-temperature (plating) branch."""
+    """The chemistry's cycle-aging law has a plating term (grows as charging cools)."""
     chem = get_chemistry(chemistry)
     params = chem.aging_sets.get(chem.default_aging_set)
-    return params is not None and "plating_below_c" in params.cycle
+    # the plating term's parameters (planner.aging.plating, a later stage: read as data)
+    return params is not None and "plating_share_ref" in params.cycle
 
 
 def with_chemistries(study: Study, chemistries: tuple[str, ...]) -> Study:
