@@ -146,3 +146,20 @@ def test_cycling_in_a_climate_says_how_many_charging_hours_are_blocked():
     text = _run("--chemistry", "lfp", "--climate", "alpine", "--enclosure", "cabinet-sun",
                 "--dod-frac", "0.8", "--cycles-per-day", "1")
     assert "charging blocked:" in text.output
+
+
+def test_end_of_life_below_the_tested_range_is_raised_to_it_and_said():
+    # Published lithium-ion trajectories show a knee, typically between 80 and 70 % SOH
+    # (Attia et al. 2022, J. Electrochem. Soc. 169, 060517); the tests behind the LFP laws
+    # end near 80 % (chemistries.toml, from memory): a 70 % end of life is not computed
+    # on the knee-free law, it is raised to 80 % and flagged.
+    low = _json("--chemistry", "lfp", "--temp-c", "25", "--eol-soh", "0.7")
+    at80 = _json("--chemistry", "lfp", "--temp-c", "25", "--eol-soh", "0.8")
+    assert low["eol_soh_applied"] == 0.8 and low["life_knee_floor"] is True
+    assert low["years_to_eol"] == pytest.approx(at80["years_to_eol"])
+    assert at80["life_knee_floor"] is False
+    text = _run("--chemistry", "lfp", "--temp-c", "25", "--eol-soh", "0.7").output
+    assert "raised from 70% to 80% SOH" in text
+    # lead-acid has no such envelope floor (its worn-out floor is the 80 % criterion)
+    vrla = _json("--chemistry", "vrla", "--temp-c", "25", "--eol-soh", "0.7")
+    assert vrla["life_knee_floor"] is False

@@ -176,7 +176,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
                        peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=params.name)
-    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
+    # The knee-free laws are not carried below the lowest state of health their tests
+    # reached (aging set envelope): a lower --eol-soh is raised to it and said.
+    floor = params.envelope.lowest_soh_frac if params.envelope is not None else None
+    applied = max(eol_soh, floor) if floor is not None else eol_soh
+    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(applied))
     reached = math.isfinite(eol_years)
     out = {
         "chemistry": chem.id,
@@ -186,6 +190,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         "charge_voltage_v_per_cell": volts,
         "usable_fraction": top,
         "eol_soh": eol_soh,
+        "eol_soh_applied": applied,
+        "life_knee_floor": applied > eol_soh,
         "years_to_eol": eol_years if reached else None,
         "calendar_loss_frac": cal,
         "cycle_loss_frac": cyc,
@@ -211,7 +217,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
             model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
                                     years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
                           for name in chem.aging_sets]
-        out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options,
+        out.update(_pack_percentiles(chem, result, applied, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
     if cycling:
         out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
@@ -226,11 +232,14 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     click.echo(f"{chem.name}, aging set {result.aging_set}")
     click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
     click.echo(f"charge voltage {volts:.2f} V/cell, usable fraction {top:.2f}")
+    if applied > eol_soh:
+        click.echo(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests behind "
+                   f"aging set {params.name} end there, and the laws have no knee below it")
     if reached:
         extra = f", {out['cycles_to_eol']:.0f} cycles" if cycling else ""
-        click.echo(f"reaches {eol_soh:.0%} SOH after {eol_years:.1f} years{extra}")
+        click.echo(f"reaches {applied:.0%} SOH after {eol_years:.1f} years{extra}")
     else:
-        click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
+        click.echo(f"stays above {applied:.0%} SOH for the {years} years computed")
     click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
     for note in notes:
         click.echo(f"extrapolated: {note}")

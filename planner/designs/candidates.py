@@ -98,6 +98,7 @@ class Outcome:
     soh_p10_monthly: np.ndarray | None = None
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
+    knee_floor: bool = False                 # the end of life is the knee floor, not the load
     dominated: bool = False
     far_from_best: bool = False
     charge_blocked_cold_hours: float = 0.0   # below the minimum charge temperature
@@ -279,14 +280,32 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
 
 # Below these SOH values a pack is worn out whatever its size: lead-acid loses capacity
 # abruptly after 80 % (the IEEE 450 / IEEE 1188 replacement criterion, from memory) and
-# lithium-ion cells reach a knee of accelerating fade near 70-80 % that the fitted laws do
-# not describe (common practice). Primary cells run down to their reserve.
+# lithium-ion cells reach a knee of accelerating fade, typically between about 80 and 70 %
+# (review: Attia et al. 2022, J. Electrochem. Soc. 169, 060517), that the fitted laws do
+# not describe. Primary cells run down to their reserve.
 WORN_OUT_SOH = {"vrla": 0.80, "lfp": 0.70, "nmc": 0.70, "lto": 0.70, "lisocl2": 0.0}
 
 
 def worn_out_soh_frac(chemistry: str) -> float:
-    """SOH below which a pack of this chemistry is not kept in service."""
-    return WORN_OUT_SOH.get(chemistry, 0.8)
+    """SOH below which a pack of this chemistry is not kept in service: the chemistry's
+    worn-out floor, or the lowest state of health the tests behind its default aging set
+    reached when that is higher (:func:`knee_floor_soh_frac`)."""
+    return max(WORN_OUT_SOH.get(chemistry, 0.8), knee_floor_soh_frac(chemistry))
+
+
+def knee_floor_soh_frac(chemistry: str) -> float:
+    """Lowest state of health the tests behind the chemistry's default aging set reached
+    (``envelope.lowest_soh_frac``; 0 when none is recorded).
+
+    The fitted square-root laws have no knee; published aging trajectories of lithium-ion
+    cells show one, typically between about 80 % and 70 % (Attia et al. 2022). Rather than
+    carry a knee-free law below the data it was fitted on, a pack's life ends there at
+    the latest; a life this floor decides is flagged (it leans on the rule).
+    """
+    envelope = get_chemistry(chemistry).aging.envelope
+    if envelope is None or envelope.lowest_soh_frac is None:
+        return 0.0
+    return float(envelope.lowest_soh_frac)
 
 
 def max_service_years(chemistry: str, override: float | None = None) -> float:

@@ -28,11 +28,12 @@ from planner.designs.candidates import (
     Outcome,
     SiteDesigns,
     enumerate_site_designs,
+    WORN_OUT_SOH,
+    knee_floor_soh_frac,
     max_service_years,
     requirement_wh,
     usable_fraction,
     window_frac,
-    worn_out_soh_frac,
 )
 from planner.designs.screening import mark_dominated, mark_far_from_best
 from planner.energy.soc import iter_soc_chunks
@@ -182,8 +183,12 @@ class _ChunkLanes:
         self.available = np.array([cold[d.site_index, d.chemistry] for d in chunk])
         window = np.array([window_frac(self.chems[d.chemistry], d.charge_voltage_v_per_cell)
                            for d in chunk])
-        self.eol = np.maximum(required / (self.capacity * window * self.available),
-                              np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
+        need = required / (self.capacity * window * self.available)
+        floor = np.array([WORN_OUT_SOH.get(d.chemistry, 0.8) for d in chunk])
+        knee = np.array([knee_floor_soh_frac(d.chemistry) for d in chunk])
+        self.eol = np.maximum(need, np.maximum(floor, knee))
+        # the knee floor, not the load or the worn-out floor, sets the end of life
+        self.knee_floor = (knee > np.maximum(need, floor)) & (need < 1.0)
 
 
 def _smallest_packs(chunk) -> np.ndarray:
@@ -291,6 +296,7 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
             cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
             efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
             nominal_life_years=float(life_total[col] - start / 12.0),
+            knee_floor=bool(lanes_of.knee_floor[j]),
             unserved_wh_per_year=float(duty.unserved_wh[j]),
             charge_blocked_hours=float(duty.blocked_cold[j] + duty.blocked_hot[j]),
             charge_blocked_cold_hours=float(duty.blocked_cold[j]),

@@ -127,6 +127,11 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             entry["soh_p90_by_month"] = sawtooth(horizon, replacements,
                                                  [o.soh_p90_monthly for o in installed], existing_curve)
         notes = _extrapolation(model, shown)
+        entry["life_knee_floor"] = bool(shown.knee_floor)
+        if shown.knee_floor:
+            notes.append(f"life ends at {shown.eol_soh_frac:.0%} state of health, the lowest "
+                         "the aging tests behind the laws reached: the knee-free laws are not "
+                         "carried below it")
         entry["life_extrapolated"] = bool(notes)
         entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
@@ -304,7 +309,10 @@ def _design_rule_rows(study: Study) -> list[dict]:
         rows.append({"group": "design rules", "name": f"worn-out SOH {chem_id}",
                      "value": worn_out_soh_frac(chem_id), "unit": "fraction",
                      "source": "IEEE 450 / IEEE 1188 80 % replacement criterion for lead-acid "
-                               "(from memory); lithium-ion knee near 70-80 % (common practice)"})
+                               "(from memory); lithium-ion: no lower than the lowest state of "
+                               "health the tests behind the aging set reached (a knee typically "
+                               "lies between 80 and 70 %, Attia et al. 2022, J. Electrochem. Soc. "
+                               "169, 060517)"})
         rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
                      "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
                      "source": "catalogue ladders of cells and monoblocs (common practice)"})
