@@ -152,7 +152,7 @@ class Chemistry:
     aging_sets: Mapping[str, AgingParams]
     default_aging_set: str
     sources: Mapping[str, str] = field(default_factory=dict)
-    service_life_years: float = 15.0
+    components: Mapping[str, float] = field(default_factory=dict)
 
     @property
     def round_trip_efficiency_frac(self) -> float:
@@ -295,7 +295,12 @@ def _build(chem_id: str, table: dict) -> Chemistry:
     ocv_s, ocv_v = _table(table, "open_circuit_voltage", "soc_frac", "voltage_v", chem_id, sources)
     sd = table["self_discharge"]
     sources["self_discharge"] = str(sd["source"])
-    service_life = float(_value(table, "service_life_years", chem_id, sources))
+    components = {}
+    for key, entry in table.get("components", {}).items():
+        if not isinstance(entry, dict) or "value" not in entry or "source" not in entry:
+            raise RuntimeError(f"chemistries.toml: [{chem_id}.components].{key} needs value and source")
+        components[key] = float(entry["value"])
+        sources[f"components.{key}"] = str(entry["source"])
     sets, default = _aging_sets(chem_id, table)
     for set_name, params in sets.items():
         for key, text in params.sources.items():
@@ -317,7 +322,7 @@ def _build(chem_id: str, table: dict) -> Chemistry:
         aging_sets=MappingProxyType(sets),
         default_aging_set=default,
         sources=MappingProxyType(sources),
-        service_life_years=service_life,
+        components=MappingProxyType(components),
         **scalars,
     )
 

@@ -34,7 +34,8 @@ def _print_list():
         click.echo(f"{chem.id:8s} {chem.name}")
         click.echo(f"         charge voltages [V/cell]: {settings} "
                    f"(default {chem.default_charge_voltage_v_per_cell:.2f})")
-        click.echo(f"         service-life limit in plans: {chem.service_life_years:g} years")
+        lives = ", ".join(f"{key} {value:g}" for key, value in chem.components.items())
+        click.echo(f"         component lives in plans (planner.pack.components): {lives}")
         for name, params in chem.aging_sets.items():
             mark = "default" if name == chem.default_aging_set else "alternative"
             click.echo(f"         aging set {name} ({mark}): {params.description}")

@@ -61,6 +61,9 @@ class TypicalYear:
         irradiance, W/m2.
     wind_speed_m_s : np.ndarray
         8,760 hourly mean wind speeds, m/s.
+    temp_dew_c : np.ndarray or None
+        8,760 hourly dew points of the air, degC, when the weather file carries them
+        (EPW, TMY3, TMY2); None otherwise (the bundled archetypes).
     """
 
     name: str
@@ -74,9 +77,13 @@ class TypicalYear:
     dni_w_m2: np.ndarray
     dhi_w_m2: np.ndarray
     wind_speed_m_s: np.ndarray
+    temp_dew_c: np.ndarray | None = None
 
     def __post_init__(self):
-        for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s"):
+        for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s",
+                      "temp_dew_c"):
+            if field == "temp_dew_c" and self.temp_dew_c is None:
+                continue
             values = np.asarray(getattr(self, field))
             if values.dtype != np.float64 or values.flags.writeable or values.base is not None:
                 values = np.array(values, dtype=np.float64)
@@ -95,8 +102,10 @@ class TypicalYear:
         """A copy with ``warming_k`` kelvin added to every hourly air temperature."""
         if warming_k == 0.0:
             return self
+        # the dew point moves with the air temperature (constant relative humidity)
+        dew = None if self.temp_dew_c is None else self.temp_dew_c + float(warming_k)
         return dataclasses.replace(
-            self, temp_air_c=self.temp_air_c + float(warming_k),
+            self, temp_air_c=self.temp_air_c + float(warming_k), temp_dew_c=dew,
             source=f"{self.source}; air temperature {float(warming_k):+g} K (warming offset)")
 
 

@@ -13,13 +13,15 @@ where ``window = usable_fraction(V) - (1 - max_dod)`` is the part of rated capac
 between the charge-voltage ceiling and the low-voltage reserve. The SOH at which the
 inequality turns is the design's end-of-life threshold; it is higher (earlier) for a
 smaller pack, a lower charge voltage or a colder site. Whatever the threshold, a pack is
-not kept below its chemistry's worn-out SOH nor beyond its service life (both here).
+not kept below its chemistry's worn-out SOH (here) nor beyond what its other components
+and the study's ceiling allow (:mod:`planner.designs.service`).
 """
 
 from __future__ import annotations
 
 import copy
 import functools
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -58,7 +60,7 @@ class Design:
     reference: ReferenceSize | None
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
-    service_life_years: float | None = None  # the study's cap; None: the library's
+    service_life_years: float | None = None  # the study's ceiling ([service_life]); None: none
     thermal_measure: str = ""   # the thermal measure installed with it (planner.site.thermal_measures)
     install_years: tuple[int, int] | None = None  # its load step's install window (planner.designs.load_growth)
 
@@ -99,6 +101,10 @@ class Outcome:
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
     knee_floor: bool = False                 # the end of life is the knee floor, not the load
+    service_limit_years: float = float("inf")  # components and ceiling (planner.designs.service)
+    component_lives: dict = field(default_factory=dict)   # component -> years (inf: never)
+    imbalance_frac_per_year: float = 0.0     # capacity lost to cell imbalance each year
+    condensation: str = ""                   # the site's condensation class
     dominated: bool = False
     far_from_best: bool = False
     charge_blocked_cold_hours: float = 0.0   # below the minimum charge temperature
@@ -309,7 +315,8 @@ def knee_floor_soh_frac(chemistry: str) -> float:
 
 
 def max_service_years(chemistry: str, override: float | None = None) -> float:
-    """Longest service planned for a pack whatever the fade laws say (seals, dry-out,
-    electronics and corrosion are not in them): the study's ``override`` ([service_life])
-    or the chemistry library's ``service_life_years`` with its source."""
-    return float(override) if override is not None else get_chemistry(chemistry).service_life_years
+    """The user's ceiling on a pack's service: the study's ``override`` ([service_life]),
+    else none (``inf``). What else ends a pack besides fade (electronics, seals,
+    imbalance, standby drain) depends on the site and the design:
+    :mod:`planner.designs.service`."""
+    return float(override) if override is not None else math.inf

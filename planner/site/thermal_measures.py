@@ -292,10 +292,11 @@ def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
     with it (``variant``): every one when the measure cuts the energy today's heater draws;
     those left out for a temperature limit; those whose charging the cold blocks (cold
     measures at a cold site) or the heat blocks (measures that lower the hottest battery
-    hour); and those whose life ends by aging
-    rather than at the service-life limit, when the measure slows that aging: a cooler
-    aging-effective temperature (Arrhenius), or a warmer coldest hour for a chemistry
-    whose cycling ages faster in the cold (lithium plating while charging). A smaller
+    hour); and those whose life the ceiling of the study ([service_life]) does not decide
+    for every design, when the measure slows what ends them: a cooler aging-effective
+    temperature (cell fade by Arrhenius, electronics and imbalance by their own rules), or
+    a warmer coldest hour for a chemistry whose cycling ages faster in the cold (lithium
+    plating while charging). A smaller
     pack from less cold derating alone is not counted: it saves a part of one pack's
     price, less than a measure costs."""
     cold = measure.helps in ("cold", "both") and model.design_temp_c < cold_limit_c(study)
@@ -312,7 +313,10 @@ def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
     for chem in study.settings["candidates"]["chemistries"]:
         why = base.excluded.get(chem, "")
         mine = [o for o in base.outcomes if o.design.chemistry == chem]
-        aging = bool(mine) and not any(o.limiting_cause == "service-life limit" for o in mine)
+        # Life is the measure's business unless the user's [service_life] ceiling decides
+        # every design: cell fade and the components (electronics halving per 10 K, cell
+        # imbalance drifting faster when warm, seals by condensation) all see temperature.
+        aging = bool(mine) and not all(o.limiting_cause == "service-life limit" for o in mine)
         if "°C" in why or (mine and saves):
             out.append(chem)
         elif mine and cold and any(o.charge_blocked_cold_hours > 0 for o in mine):
