@@ -285,10 +285,13 @@ CYCLE_EXPONENTS = {
 """Exponent z of each cycle law (loss = state ** z)."""
 
 
-def cycle_exponent(model: str) -> float:
-    """Exponent z of the named cycle law."""
+def cycle_exponent(model: str, params=None) -> float:
+    """Exponent z of the named cycle law (a set's ``throughput_exponent`` when it gives one:
+    the square-root laws take it as a parameter so that it can be checked)."""
     if model not in CYCLE_EXPONENTS:
         raise ValueError(f"unknown cycle model {model!r}")
+    if params is not None and "throughput_exponent" in params:
+        return float(params["throughput_exponent"])
     return CYCLE_EXPONENTS[model]
 
 
@@ -349,38 +352,39 @@ def cycle_increments(model: str, params, chemistry, depth_frac, mean_soc_frac, c
     depth = np.asarray(depth_frac, dtype=float)
     n = np.asarray(count, dtype=float)
     charge_rate = c_rate if charge_c_rate is None else charge_c_rate
+    exponent = cycle_exponent(model, p)
     if model == "naumann2020":
         # Coefficient convention, as Wang et al. 2011 and Schimpe et al. 2018 apply their
-        # Arrhenius terms: the film term's factor scales the coefficient, hence AF**2 in
-        # the state of a square-root law.
+        # Arrhenius terms: the film term's factor scales the coefficient, hence AF**(1/z)
+        # (AF**2 for the square-root law) in the state.
         k = naumann2020_coefficient(c_rate, depth, **p)
-        base = k * k * n * depth
+        base = k ** (1.0 / exponent) * n * depth if exponent != 0.5 else k * k * n * depth
         af = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
-        heat, exponent = af * af, 0.5
+        heat = af ** (1.0 / exponent) if exponent != 0.5 else af * af
     elif model == "schmalstieg2014_cycle":
         base = _schmalstieg_reference(p, chemistry, depth, mean_soc_frac, n, temp_c, c_rate,
-                                      charge_voltage_v_per_cell)
+                                      charge_voltage_v_per_cell, exponent)
         # The temperature rule of practice scales the ageing *rate* (clock convention).
-        heat, exponent = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"]), 0.5
+        heat = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
     elif model == "woehler_miner":
         life = woehler_cycles_to_failure(np.maximum(depth, 1e-12), **p)
         base = p["loss_at_end_frac"] * n / life
-        heat, exponent = 1.0 / halving_life_factor(temp_c, p["temp_ref_c"], p["halving_step_k"]), 1.0
+        heat = 1.0 / halving_life_factor(temp_c, p["temp_ref_c"], p["halving_step_k"])
     elif model == "linear_throughput":
         base = p["loss_at_end_frac"] * n * depth / p["full_cycles_to_end"]
-        heat, exponent = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"]), 1.0
+        heat = arrhenius_factor(temp_c, p["activation_energy_j_mol"], p["temp_ref_c"])
     else:
         raise ValueError(f"unknown cycle model {model!r}")
     total = base * heat
     if has_plating(p):
         film = 1.0 - plating_share(charge_rate, **p)
-        total = total * film * film
+        total = total * film ** (1.0 / exponent)
     return CycleIncrements(total=np.asarray(total, dtype=float),
                            reference=np.asarray(base, dtype=float), exponent=exponent)
 
 
 def _schmalstieg_reference(p, chemistry, depth, mean_soc_frac, n, temp_c, c_rate,
-                           charge_voltage_v_per_cell):
+                           charge_voltage_v_per_cell, exponent=0.5):
     """Schmalstieg et al. 2014 cycle increments without the temperature rule (sqrt(Ah) law)."""
     volts = chemistry.open_circuit_voltage_v(mean_soc_frac)
     if p.get("depth_per_usable", 0.0) >= 0.5:
@@ -399,4 +403,4 @@ def _schmalstieg_reference(p, chemistry, depth, mean_soc_frac, n, temp_c, c_rate
                                       p["voltage_doubling_step_v"])
     directions = 2.0 if p["throughput_both_directions"] >= 0.5 else 1.0
     throughput_ah = n * depth * p["cell_capacity_ah"] * directions
-    return (beta * c_term) ** 2 * throughput_ah / life
+    return (beta * c_term) ** (1.0 / exponent) * throughput_ah / life

@@ -558,6 +558,9 @@ def _cycle_increments(lanes: _Lanes, ch: slice, sweep: ChunkSweep):
                               minlength=n_chunk)
     reference = np.bincount(cycles.lane, weights=inc.reference, minlength=n_chunk)
     per_cycle = np.divide(reference, cycles_done, out=np.zeros(n_chunk), where=cycles_done > 0)
+    z = cycle_exponent(lanes.params.cycle_model, lanes.params.cycle)
+    if z != 0.5:   # the reference is k**(1/z) per cycle; the plating law is in k**2
+        per_cycle = per_cycle ** (2.0 * z)
     scale = plating_state_scale(per_cycle, charge_rate, **lanes.params.cycle)
     return film, (sweep.plating_monthly * scale[:, None]).T
 
@@ -568,7 +571,7 @@ def _over_horizon(lanes: _Lanes, year: _Year, initial_state: AgingState | None) 
     n_lanes = lanes.n_lanes
     cal_exp = calendar_rate_parts(lanes.params.calendar_model, lanes.params.calendar,
                                   lanes.chem)[2]
-    cyc_exp = cycle_exponent(lanes.params.cycle_model)
+    cyc_exp = cycle_exponent(lanes.params.cycle_model, lanes.params.cycle)
     if initial_state is None:
         cal0, cyc0, age0 = np.zeros(n_lanes), np.zeros(n_lanes), np.zeros(n_lanes)
     else:
