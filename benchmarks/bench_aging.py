@@ -1,7 +1,8 @@
 """Benchmark of the aging engine: sites x designs x 20 years from hourly typical-year inputs.
 
-Target (issue 4): 1,000 sites x 240 designs over 20 years in <= 20 s and <= 2 GiB on the
-project's 2-core machine. Prints figures, asserts nothing.
+Speed target of the project (figures in docs/aging.md): 1,000 sites x 240 designs over
+20 years in <= 20 s and <= 2 GiB on the project's 2-core machine. Prints figures,
+asserts nothing.
 
 Inputs are synthetic but shaped like the real chain: one hourly battery temperature per
 site (seasonal + daily swing + weather noise), and per design an hourly SOC that swings

@@ -1,8 +1,9 @@
 """Benchmark: an invented fleet of N sites through the whole plan, as `planner plan` runs it.
 
-Target (issue 11): 1,000 sites <= 60 s wall and <= 4 GiB peak RSS (parent plus workers)
-on 2 cores, chemistry comparison and sensitivity included; 10,000 sites <= 12 min and
-<= 8 GiB; 10x the sites <= 11x the time. Prints figures; asserts nothing.
+Speed target of the project (figures in docs/scaling.md): 1,000 sites <= 60 s wall and
+<= 4 GiB peak RSS (parent plus workers) on 2 cores, chemistry comparison and sensitivity
+included; 10,000 sites <= 12 min and <= 8 GiB; 10x the sites <= 11x the time. Prints
+figures; asserts nothing.
 
 Usage: python benchmarks/bench_plan.py [--sites N] [--workers N] [--keep DIR]
                                       [--without-design-space]

@@ -99,8 +99,8 @@ sensitivity = {sensitivity}
 """
 
 
-# What switches off the design space of issue 13 (thermal measures, design changes at a
-# replacement), to measure what it costs.
+# What switches off the design space (thermal measures, design changes at a replacement),
+# to measure what it costs (docs/scaling.md).
 WITHOUT_DESIGN_SPACE = 'design_changes = false\n\n[thermal]\nmeasures = ["none"]\n'
 
 

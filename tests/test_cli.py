@@ -1,6 +1,6 @@
-"""Command-line behaviour: help, version, exit codes, starter study (issue: foundation).
+"""Command-line behaviour: help, version, exit codes, starter study.
 
-The exit codes are those the foundation issue fixes: 0 plan written, 2 bad input or usage
+The exit codes are the README's: 0 plan written, 2 bad input or usage
 (the convention of click and of POSIX utilities for usage errors: common practice), 3 no
 feasible plan.
 """
@@ -90,7 +90,7 @@ def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, s
 
 
 def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path):
-    # Foundation issue: exit 3 when no feasible plan exists; the report is still written.
+    # README: exit 3 when no feasible plan exists; the report is still written.
     # Only primary cells are allowed, and a 2 W load is above what they are used for.
     (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n'
@@ -102,7 +102,8 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
 
 
 def test_workers_must_be_a_whole_number_from_one(runner, tmp_path):
-    # --workers N (issue 11): at least one process; a bad value is a usage error, exit 2
+    # --workers N (README, docs/scaling.md): at least one process; a bad value is a usage
+    # error, exit 2
     (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n')
     result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "0"])
@@ -178,7 +179,7 @@ def test_console_summary_speaks_the_readers_words():
 
 
 def test_endless_study_files_are_refused_by_type(runner, tmp_path):
-    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO read until memory ran out. Nodes
+    # Read, "planner plan /dev/zero" or a FIFO would never end (memory runs out). Nodes
     # made here stand in for them (never real /dev paths); 1:5 is the Linux "zero" device
     # (Linux kernel documentation, admin-guide/devices.txt).
     import os

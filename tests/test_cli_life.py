@@ -23,7 +23,7 @@ def _json(*args):
 
 def test_storage_json_keys_and_lfp_fact():
     out = _json("--chemistry", "lfp", "--temp-c", "25")
-    # Fixed JSON keys of issue 4.
+    # Keys of `planner life --json` that scripts read (kept fixed).
     assert {"years_to_eol", "calendar_loss_frac", "cycle_loss_frac", "soh_by_year"} <= set(out)
     assert "cycles_to_eol" not in out  # only when cycling
     # common practice: LFP stored full at 25 °C reaches 80 % in about 15 years (x2).

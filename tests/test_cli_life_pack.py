@@ -1,4 +1,4 @@
-"""``planner life`` pack options (pack-design issue): JSON keys and trade facts."""
+"""``planner life`` pack options (docs/pack.md): JSON keys and trade facts."""
 
 import json
 
@@ -52,7 +52,7 @@ def test_bad_pack_options_exit_2(args, words):
 
 
 def test_across_models_widens_the_band_and_says_so():
-    # Pack-design issue: disagreement between published parameter sets (Naumann et al. 2018
+    # Disagreement between published parameter sets (Naumann et al. 2018
     # published set vs the calibrated default, docs/aging.md) must widen the distribution.
     one = life_json("--series-cells", "4")
     both = life_json("--series-cells", "4", "--across-models")

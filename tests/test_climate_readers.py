@@ -91,7 +91,7 @@ def test_typical_year_shape_and_times():
 def test_bundled_list_and_cache():
     names = [n for n, _ in list_bundled()]
     assert {"tmy3-sand-point-ak", "tmy3-greensboro-nc", "tmy2-miami-fl"} <= set(names)
-    assert len(names) >= 11  # three real years + at least eight archetypes (issue 3)
+    assert len(names) >= 11  # three real years + at least eight archetypes (docs/climate.md)
     assert load_climate("tmy2-miami-fl") is load_climate("tmy2-miami-fl")
 
 
@@ -267,7 +267,7 @@ def test_csv_short_gap_interpolated_with_warning(tmp_path):
     times = hours()
     temps = ramp()
     keep = np.ones(8760, bool)
-    keep[200:206] = False    # six missing hours: allowed (issue 3: gaps <= 6 h)
+    keep[200:206] = False    # six missing hours: allowed (docs/climate.md: gaps <= 6 h)
     path = write_csv(tmp_path / "g.csv", stamps(times[keep]), temps[keep])
     with pytest.warns(ClimateWarning, match="01-09 08:00-01-09 13:00 \\(6 h\\)"):
         year = load_climate(str(path), options=BASE)
@@ -471,8 +471,8 @@ def test_declarations_at_the_top_of_a_csv_replace_options(tmp_path):
 
 
 def test_fifo_climate_file_is_refused_before_reading(tmp_path):
-    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO as a climate file read without
-    # end; a node made here stands in for them (refused by type, never opened).
+    # "planner plan /dev/zero" or a FIFO as a climate file would be read without end
+    # (docs/climate.md); a node made here stands in for them (refused by type, never opened).
     import os
 
     os.mkfifo(tmp_path / "site.epw")

@@ -1,4 +1,4 @@
-"""Energy balance check: a charging source that cannot cover the load (issue 15, item 7)."""
+"""Energy balance check: a charging source that cannot cover the load (docs/energy.md)."""
 
 import json
 from pathlib import Path
@@ -70,8 +70,9 @@ REPO = Path(__file__).resolve().parents[1]
 
 
 def test_plan_says_so_per_site_everywhere(tmp_path):
-    # The issue's case: an off-grid shelter with a 42 Wp panel in a polar climate. Console,
-    # JSON warnings, Sites sheet (limiting cause) and Cautions sheet carry both numbers.
+    # The example of docs/energy.md: an off-grid shelter with a 42 Wp panel in a polar
+    # climate. Console, JSON warnings, Sites sheet (limiting cause) and Cautions sheet
+    # carry both numbers.
     from planner.cli import cli
 
     (tmp_path / "sites.csv").write_text(

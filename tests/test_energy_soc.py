@@ -107,7 +107,7 @@ def test_matches_independent_reference_loop():
        n=st.integers(1, 7), chunk=st.integers(1, 8))
 def test_energy_conservation_per_lane(seed, n_hours, n, chunk):
     # first law per lane: energy in = energy out + losses + change in stored energy
-    # (the acceptance check of the issue: 1e-9 relative)
+    # (to 1e-9 relative: docs/energy.md, energy conservation)
     rng = np.random.default_rng(seed)
     c = _random_case(rng, n_hours, n)
     r = _run(c, chunk_lanes=chunk)

@@ -1,4 +1,4 @@
-"""Safe reading and atomic writing (issue 15, items 2, 9, 11, 12).
+"""Safe reading and atomic writing (DEVELOPERS.md conventions; docs/workbook.md, "Safe writing").
 
 Device and FIFO tests use nodes made in a temporary folder (``os.mkfifo``; ``os.mknod`` as
 root), never real ``/dev`` paths. Device numbers 1:3 (null), 1:5 (zero) and 1:7 (full) are
@@ -35,7 +35,7 @@ def device(folder: Path, name: str, minor: int) -> Path:
     return path
 
 
-# ---------------------------------------------------------------- item 9: endless inputs
+# ---------------------------------------------------------------- endless inputs
 
 
 def test_fifo_input_is_refused_by_type_before_reading(tmp_path):
@@ -69,7 +69,7 @@ def test_input_size_is_capped(tmp_path, monkeypatch):
     assert read_input_bytes(small, what="the sites table") == b"y" * 4096
 
 
-# ---------------------------------------------------------------- item 2: special outputs
+# ---------------------------------------------------------------- special outputs
 
 
 @as_root
@@ -88,7 +88,7 @@ def test_fifo_output_is_refused(tmp_path):
     assert stat.S_ISFIFO(os.stat(fifo).st_mode)
 
 
-# ---------------------------------------------------------------- item 11: full disk, both or neither
+# ---------------------------------------------------------------- full disk, both or neither
 
 
 @as_root
@@ -116,7 +116,7 @@ def test_second_output_failing_leaves_both_targets_unchanged(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["plan.json", "plan.xlsx"]
 
 
-# ---------------------------------------------------------------- item 12: temporary files
+# ---------------------------------------------------------------- temporary files
 
 
 def _dead_pid() -> int:

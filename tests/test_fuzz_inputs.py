@@ -1,4 +1,4 @@
-"""Fuzzing the study loader, its validation and the output-path checks (issue 15, Checks).
+"""Fuzzing the study loader, its validation and the output-path checks.
 
 Hypothesis mutates a valid quick-size study (study keys, sites-table cells, output paths)
 and runs it in-process. Every example must end either validated or with the project's own

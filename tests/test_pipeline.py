@@ -15,7 +15,7 @@ from planner.plan.assembly import sawtooth
 REPO = Path(__file__).resolve().parents[1]
 QUICK = REPO / "scenarios" / "quick.toml"
 
-FIXED_SITE_KEYS = {  # docs/plan-json.md, keys fixed by the optimizer, energy and pack issues
+FIXED_SITE_KEYS = {  # docs/plan-json.md, keys marked fixed (scripts read them)
     "id", "chemistry", "oversize_factor", "charge_voltage_v", "capacity_wh", "replacement_years",
     "life_years", "present_cost", "reference_capacity_wh", "unserved_wh_per_year",
     "equivalent_full_cycles_per_year", "life_p10_years", "life_p50_years", "life_p90_years",
@@ -73,7 +73,7 @@ def test_plan_total_is_the_sum_of_site_costs(quick_run):
 
 
 def test_visits_fall_in_access_months(quick_run):
-    # Foundation issue: no trip outside a region's access months (quick.toml: hills 6-9).
+    # No trip outside a region's access months (docs/optimizer.md; quick.toml: hills 6-9).
     _, out = quick_run
     plan = json.loads((out / "q.json").read_text())
     for trip in plan["trips"]:
@@ -82,7 +82,7 @@ def test_visits_fall_in_access_months(quick_run):
 
 
 def test_identical_inputs_give_byte_identical_json(quick_run, tmp_path):
-    # Optimizer issue: identical inputs must give byte-identical JSON.
+    # Identical inputs must give byte-identical JSON (docs/plan-json.md).
     _, out = quick_run
     runner = CliRunner()
     result = runner.invoke(cli, ["--quiet", "plan", str(QUICK), "--workers", "1", "--out", str(tmp_path / "a.xlsx"),
@@ -139,7 +139,7 @@ def test_study_with_a_user_csv_climate_in_fahrenheit(tmp_path):
 
 
 def test_forcing_a_chemistry_never_lowers_the_fleet_cost(quick_run):
-    # Optimizer issue, behaviour check: restricting the choice can never beat the free optimum
+    # Behaviour check: restricting the choice can never beat the free optimum
     # (a property of minimisation; the quick study solves to a proven 0 % gap).
     _, out = quick_run
     plan = json.loads((out / "q.json").read_text())

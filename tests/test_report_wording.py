@@ -1,7 +1,7 @@
 """The reader's wording: coverage, drivers and plan status, with no solver vocabulary.
 
-Expected sentences are the wording the plan's readers asked for (issue text: "serves 15
-of 16 sites; DP-05 keeps lisocl2" rather than a solver status), checked literally.
+Expected sentences are the wording of docs/workbook.md ("serves 15 of 16 sites; DP-05
+keeps lisocl2" rather than a solver status), checked literally.
 """
 
 import math

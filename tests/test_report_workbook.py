@@ -315,8 +315,9 @@ def test_formula_injection_comes_back_as_text(written, book):
             for cell in row:
                 assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
                 if isinstance(cell.value, str) and cell.value in (*HOSTILE, "-Demo Ridge"):
-                    # Issue 15: shown as typed (no apostrophe), kept text by the cell's type,
-                    # its text number format and the quote-prefix flag.
+                    # docs/workbook.md, "Text can never become a formula": shown as typed
+                    # (no apostrophe), kept text by the cell's type, its text number
+                    # format and the quote-prefix flag.
                     assert cell.data_type == "s"
                     assert cell.number_format == "@" and cell.quotePrefix
                     found[cell.value] = True
@@ -407,7 +408,7 @@ def test_cautions_sheet_lists_standard_cautions_and_site_warnings(written, book)
     plan, xlsx, _ = written
     text = " ".join(str(c.value) for row in book["Cautions"].iter_rows() for c in row
                     if c.value is not None)
-    # The usual cautions of the trade (issue 7; ../shared/notes/sizing-economics.md §7).
+    # The usual cautions of the trade (README, safety; ../shared/notes/sizing-economics.md §7).
     for needle in ("hydrogen", "thermal runaway", "0 °C", "UN 38.3", "lift", "arc", "NFPA 855", "IEC 62485-2",
                    "IEC 62619", "licensed practice"):
         assert needle.lower() in text.lower(), needle
@@ -452,7 +453,7 @@ def test_libreoffice_renders_pdf_and_keeps_names_literal(tmp_path):
 
 
 def test_each_site_missing_a_different_key_still_writes(tmp_path):
-    # Tolerance (issue 7 brief): a missing optional key leaves that cell blank, never crashes.
+    # Tolerance (docs/workbook.md): a missing optional key leaves that cell blank, never crashes.
     # Every site loses a different key, so one write covers every key of the fixture.
     keys = sorted(make_plan(1)["sites"][0])
     plan = make_plan(len(keys), seed=5)

@@ -1,4 +1,4 @@
-"""Study-file and sites-table validation (issue: foundation).
+"""Study-file and sites-table validation (docs/study-file.md).
 
 Each class of bad input must give the project's InputError with one line naming the file,
 the key path or row/column, what was found and what was expected.
@@ -187,7 +187,8 @@ def test_bundled_studies_validate():
 
 
 def test_demo_network_meets_its_brief():
-    # The demo must have 12-20 sites in at least three contrasting climates (foundation issue).
+    # The demo network stays small enough to read (12-20 sites) and shows at least three
+    # contrasting climates.
     study = load_study(REPO / "scenarios" / "corvale.toml")
     assert 12 <= len(study.sites) <= 20
     assert len({site.climate for site in study.sites}) >= 3
@@ -253,11 +254,11 @@ def test_missing_load_file_names_row(tmp_path):
     assert "row 2, column load_file" in message and "not found" in message
 
 
-# ---------------------------------------------------------------- issue 15 hardening
+# ---------------------------------------------------------------- hostile and unusual input
 
 
 def test_unused_region_table_is_an_error_with_a_hint(tmp_path):
-    # item 3: [regions.hill] while the sites say "hills" must not fall back silently
+    # [regions.hill] while the sites say "hills" must not fall back silently
     message = error_of(write_study(tmp_path, BASE + "[regions.hill]\ntrip_cost = 5000.0\n"))
     assert "[regions.hill] is used by no site; did you mean 'hills'?" in message
 
@@ -278,7 +279,7 @@ def test_region_without_a_table_keeps_the_cost_defaults(tmp_path):
     ("pv_wp", "6 0"),
 ])
 def test_sites_numbers_follow_one_plain_decimal_syntax(tmp_path, column, cell):
-    # item 6: "1_0" is not 10 and "1e1" is not October
+    # "1_0" is not 10 and "1e1" is not October
     header = "id,region,climate,load_w,charging,pv_wp,autonomy_days,access_months\n"
     values = {"load_w": "2", "pv_wp": "60", "access_months": "6-9", column: cell}
     row = f"A,hills,alpine,{values['load_w']},pv,{values['pv_wp']},5,{values['access_months']}\n"
@@ -305,13 +306,13 @@ def test_xlsx_numbers_are_read_as_plain_decimals(tmp_path):
 
 
 def test_deeply_nested_toml_is_bad_input(tmp_path):
-    # item 10: 5,000 nested arrays gave a RecursionError traceback
+    # 5,000 nested arrays: one line of bad input, never a RecursionError traceback
     message = error_of(write_study(tmp_path, BASE + "x = " + "[" * 5000 + "]" * 5000 + "\n"))
     assert "nested too deeply" in message
 
 
 def test_byte_order_mark_is_accepted(tmp_path):
-    # item 14: Windows editors save UTF-8 with a BOM (Unicode Standard §23.8, U+FEFF)
+    # Windows editors save UTF-8 with a BOM (Unicode Standard §23.8, U+FEFF)
     study = tmp_path / "study.toml"
     write_study(tmp_path, BASE)
     study.write_bytes(b"\xef\xbb\xbf" + BASE.encode("utf-8"))
@@ -321,7 +322,7 @@ def test_byte_order_mark_is_accepted(tmp_path):
 @pytest.mark.parametrize("key", ["downtime_cost_per_day", "trip_cost", "labour_rate_per_h",
                                  "site_visit_cost", "disposal_per_kg", "unplanned_trip_cost"])
 def test_money_fields_are_bounded(tmp_path, key):
-    # item 8: 1e308 in a money field made HiGHS spin for minutes or gave a false "no plan"
+    # 1e308 in a money field would make HiGHS spin for minutes or give a false "no plan"
     message = error_of(write_study(tmp_path, BASE + f"[costs]\n{key} = 1e308\n"))
     assert f"[costs].{key} = 1e+308: expected a number >= 0 and <= 1e+12" in message
 
@@ -343,7 +344,7 @@ def test_table_on_another_sheet_gets_a_hint(tmp_path):
 
 
 def test_fifo_climate_or_load_file_is_refused_by_type(tmp_path):
-    # item 9: a FIFO named as a load file is refused before anything reads it
+    # A FIFO named as a load file is refused before anything reads it
     os.mkfifo(tmp_path / "load.csv")
     sites = "id,region,climate,load_w,charging,pv_wp,autonomy_days,load_file\nA,hills,alpine,1,pv,50,5,load.csv\n"
     message = error_of(write_study(tmp_path, BASE, sites=sites))

@@ -110,15 +110,14 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         method = "path"  # the pricing master needs highspy; the path model runs on CBC too
     deadline = t0 + float(problem.time_limit_s)
     if method == "columns" and served:
-        status, bound, plans, trips, decomposition, extra, build_seconds = solve_columns(
-            problem, served, cands, deadline)
-        binding = [x for x in extra if isinstance(x, str)]
-        unserved += [x for x in extra if not isinstance(x, str)]
+        found = solve_columns(problem, served, cands, deadline)
+        unserved += found.unserved
+        plans, bound = found.plans, found.bound
         objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
         if math.isfinite(objective) and math.isfinite(bound):
             bound = min(bound, objective)
-        return _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved,
-                         binding, decomposition, build_seconds, gap_without_plans=float("nan"))
+        return _solution(problem, t0, solver_name, found.status, objective, bound, plans, found.trips, unserved,
+                         found.binding, found.decomposition, found.build_seconds, gap_without_plans=float("nan"))
 
     status, objective, bound, plans, trips, lost, binding, decomposition, build_seconds = solve_paths(
         problem, served, cands, deadline)
