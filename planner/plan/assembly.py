@@ -181,7 +181,8 @@ def _life_limit(shown: Outcome | None, cause: str | None, source_limited: bool) 
         kind = "size"
     words = {"calendar": "cell fade (calendar)", "cycling": "cell fade (cycling)",
              "service-life limit": "service-life ceiling ([service_life])"}
-    name = words.get(cause, cause)
+    # the charging source's cause carries its own figures: one name for the counts
+    name = "charging source too small" if source_limited else words.get(cause, cause)
     if kind == "cell fade" and shown.knee_floor:
         name += " to the knee floor"
     return {"life_limited_by": name, "life_limit_kind": kind,
