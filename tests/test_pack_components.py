@@ -141,6 +141,10 @@ def test_a_sun_shield_can_win_at_a_hot_desert_site(tmp_path):
     bare = [o for o in designs[0].outcomes if not o.design.thermal_measure]
     assert max(o.life_years for o in shaded) > max(o.life_years for o in bare)
     assert min(o.charge_blocked_hot_hours for o in shaded) < min(o.charge_blocked_hot_hours for o in bare)
+    # the plan counts the hours heat blocks charging, apart from the cold ones
+    assert min(o.charge_blocked_hot_hours for o in bare) > 100
+    assert all(o.charge_blocked_hours == o.charge_blocked_cold_hours + o.charge_blocked_hot_hours
+               for o in designs[0].outcomes)
     solution = solve_fleet(build_problem(study, models, designs, hints))
     chosen = solution.sites[0].installations[0].design_id
     assert chosen.endswith("+sun-shield"), chosen
