@@ -40,7 +40,8 @@ def _print_list():
         click.echo(f"{chem.id:8s} {chem.name}")
         click.echo(f"         charge voltages [V/cell]: {settings} "
                    f"(default {chem.default_charge_voltage_v_per_cell:.2f})")
-        click.echo(f"         service-life limit in plans: {chem.service_life_years:g} years")
+        lives = ", ".join(f"{key} {value:g}" for key, value in chem.components.items())
+        click.echo(f"         component lives in plans (planner.pack.components): {lives}")
         for name, params in chem.aging_sets.items():
             mark = "default" if name == chem.default_aging_set else "alternative"
             click.echo(f"         aging set {name} ({mark}): {params.description}")
@@ -183,6 +184,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         if not 0.0 < cycles_per_day <= max_per_day:
             raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
                              f"at most {max_per_day:g} at this depth and C-rate", source="life")
+        if temp_c is not None:
+            _refuse_blocked_charging(chem, temp_c)
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
         peak = charge_rate = c_rate
     else:
@@ -198,7 +201,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
                        peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=params.name)
-    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
+    # The knee-free laws are not carried below the lowest state of health their tests
+    # reached (aging set envelope): a lower --eol-soh is raised to it and said.
+    floor = params.envelope.lowest_soh_frac if params.envelope is not None else None
+    applied = max(eol_soh, floor) if floor is not None else eol_soh
+    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(applied))
     reached = math.isfinite(eol_years)
     out = {
         "chemistry": chem.id,
@@ -212,6 +219,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         "usable_fraction": top,
         "eol_soh": eol_soh,
         "eol_soh_frac": eol_soh,  # the plan's name for eol_soh
+        "eol_soh_applied": applied,
+        "life_knee_floor": applied > eol_soh,
         "years_to_eol": eol_years if reached else None,
         "life_years": eol_years if reached else None,  # the plan's name for years_to_eol
         "calendar_loss_frac": cal,
@@ -226,6 +235,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         soc_frac=None if cycling else float(soc[0]))
     out["life_extrapolated"] = bool(notes)
     out["extrapolation_notes"] = notes
+    blocked = _blocked_charging_hours(chem, temp, current) if cycling else None
+    if blocked is not None:
+        out["charge_blocked_hours_per_year"] = blocked[0] + blocked[1]
+        out["charge_blocked_cold_hours_per_year"] = blocked[0]
+        out["charge_blocked_hot_hours_per_year"] = blocked[1]
     pack_options = (series_cells, cell_spread_frac, balancing, draws)
     if any(option is not None for option in pack_options) or across_models:
         model_sets = None
@@ -233,7 +247,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
             model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
                                     years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
                           for name in chem.aging_sets]
-        out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options,
+        out.update(_pack_percentiles(chem, result, applied, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
         for p in ("p10", "p50", "p90"):  # the plan's names beside years_to_eol_pNN
             if f"years_to_eol_{p}" in out:
@@ -256,23 +270,54 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         click.echo(f"charge voltage {volts:.2f} V per cell, usable fraction {top:.2f}")
     else:
         click.echo(f"nominal voltage {volts:.2f} V per cell (primary cells are not charged)")
+    if applied > eol_soh:
+        click.echo(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests behind "
+                   f"aging set {params.name} end there, and the laws have no knee below it")
     if reached:
         extra = f", {out['cycles_to_eol']:.0f} cycles" if cycling else ""
-        click.echo(f"reaches {eol_soh:.0%} SOH after {eol_years:.1f} years{extra}")
+        click.echo(f"reaches {applied:.0%} SOH after {eol_years:.1f} years{extra}")
     else:
-        click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
+        click.echo(f"stays above {applied:.0%} SOH for the {years} years computed")
     if chem.rechargeable:
         click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
     else:
         click.echo(f"capacity gone then: self-discharge {cal:.1%}, drawn by the load {cyc:.1%}")
     for note in notes:
         click.echo(f"extrapolated: {note}")
+    if blocked is not None and blocked[0] + blocked[1] > 0:
+        click.echo(f"charging blocked: {blocked[0]:.0f} h of the profile's charging hours fall "
+                   f"below {chem.charge_temp_min_c:g} °C and {blocked[1]:.0f} h above "
+                   f"{chem.charge_temp_max_c:g} °C; a plan does not charge then (planner plan), "
+                   "the cycles above still count them")
     if "years_to_eol_p50" in out:
         def shown(value):
             return f"{value:.1f}" if value is not None else f">{years}"
         click.echo(f"pack of {out['series_cells']} cells in series, {out['balancing']} balancing, "
                    f"{out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
                    f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} years")
+
+
+def _refuse_blocked_charging(chem, temp_c: float) -> None:
+    """Cycling at a constant temperature outside the chemistry's charge window would
+    report a life the battery management system never lets the pack reach: refuse it."""
+    if temp_c < chem.charge_temp_min_c:
+        why = f"below {chem.charge_temp_min_c:g} °C (lithium plating)" if chem.id != "vrla" \
+            else f"below {chem.charge_temp_min_c:g} °C"
+    elif temp_c > chem.charge_temp_max_c:
+        why = f"above {chem.charge_temp_max_c:g} °C (the charge over-temperature stop)"
+    else:
+        return
+    raise InputError(f"charging {chem.id} is blocked {why}, as in plans: a pack cycled at "
+                     f"{temp_c:g} °C is never recharged; give --temp-c from "
+                     f"{chem.charge_temp_min_c:g} to {chem.charge_temp_max_c:g} or drop "
+                     "--dod-frac/--cycles-per-day to store it", source="life")
+
+
+def _blocked_charging_hours(chem, temp, current) -> tuple[float, float]:
+    """Charging hours of the profile below and above the charge window (cold, hot)."""
+    charging = current < 0.0
+    return (float(np.count_nonzero(charging & (temp < chem.charge_temp_min_c))),
+            float(np.count_nonzero(charging & (temp > chem.charge_temp_max_c))))
 
 
 def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,

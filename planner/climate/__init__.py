@@ -62,6 +62,9 @@ class TypicalYear:
         irradiance, W/m2.
     wind_speed_m_s : np.ndarray
         8,760 hourly mean wind speeds, m/s.
+    temp_dew_c : np.ndarray or None
+        8,760 hourly dew points of the air, degC, when the weather file carries them
+        (EPW, TMY3, TMY2); None otherwise (the bundled archetypes).
     sun : planner.climate.solar.SunPath, optional
         The sun at mid-hour at this place, when it was computed with the year (a site's
         own sky); otherwise consumers compute it from the location (cached).
@@ -78,10 +81,14 @@ class TypicalYear:
     dni_w_m2: np.ndarray
     dhi_w_m2: np.ndarray
     wind_speed_m_s: np.ndarray
+    temp_dew_c: np.ndarray | None = None
     sun: object = None
 
     def __post_init__(self):
-        for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s"):
+        for field in ("temp_air_c", "ghi_w_m2", "dni_w_m2", "dhi_w_m2", "wind_speed_m_s",
+                      "temp_dew_c"):
+            if field == "temp_dew_c" and self.temp_dew_c is None:
+                continue
             values = np.asarray(getattr(self, field))
             if values.dtype != np.float64 or values.flags.writeable or values.base is not None:
                 values = np.array(values, dtype=np.float64)
@@ -106,8 +113,10 @@ class TypicalYear:
         irradiance arrays are shared, not copied); ``note`` is added to ``source``."""
         if offset_k == 0.0:
             return self
+        # the dew point moves with the air temperature (relative humidity kept)
+        dew = None if self.temp_dew_c is None else self.temp_dew_c + float(offset_k)
         return dataclasses.replace(self, temp_air_c=self.temp_air_c + float(offset_k),
-                                   source=f"{self.source}; {note}")
+                                   temp_dew_c=dew, source=f"{self.source}; {note}")
 
 
 @functools.lru_cache(maxsize=64)

@@ -66,6 +66,7 @@ class RawSeries:
     dhi: np.ndarray | None = None
     wind: np.ndarray | None = None
     wind_scale: float = 1.0
+    dew: np.ndarray | None = None     # dew point, in temp_unit (optional)
     clearness_frac: float = DEFAULT_CLEARNESS_FRAC
     multi_year: str | int | None = None
     typical: bool = False           # a typical-year file: calendar years are meaningless
@@ -204,6 +205,11 @@ def normalise(raw: RawSeries) -> TypicalYear:
         wind = np.asarray(raw.wind, float) * raw.wind_scale
         _check_range(wind, rows, *WIND_RANGE_M_S, "wind speed (m/s)", where)
         series["wind"] = wind
+    if raw.dew is not None:
+        dew = np.asarray(raw.dew, float)
+        dew = {"C": dew, "F": (dew - 32.0) * 5.0 / 9.0, "0.1C": dew * 0.1}[raw.temp_unit]
+        # optional: an implausible dew point is dropped rather than refused
+        series["dew"] = np.where((dew >= TEMP_RANGE_C[0]) & (dew <= TEMP_RANGE_C[1]), dew, np.nan)
 
     stamp = pd.DatetimeIndex(times)
     month, day = stamp.month.to_numpy(), stamp.day.to_numpy()
@@ -272,6 +278,13 @@ def normalise(raw: RawSeries) -> TypicalYear:
     filled = {}
     repaired = []
     for key, values in grids.items():
+        if key == "dew":
+            # optional: a dew point with long gaps is left out, not an error
+            try:
+                filled[key], _ = _fill_gaps(values, key, first_row, where)
+            except InputError:
+                pass
+            continue
         filled[key], gaps = _fill_gaps(values, key, first_row, where)
         if key == "temp":
             repaired = gaps
@@ -293,7 +306,7 @@ def normalise(raw: RawSeries) -> TypicalYear:
         name=raw.name, source=source_note, latitude_deg=raw.latitude_deg,
         longitude_deg=raw.longitude_deg, altitude_m=raw.altitude_m,
         utc_offset_h=raw.utc_offset_h, temp_air_c=filled["temp"], ghi_w_m2=ghi, dni_w_m2=dni,
-        dhi_w_m2=dhi, wind_speed_m_s=wind)
+        dhi_w_m2=dhi, wind_speed_m_s=wind, temp_dew_c=filled.get("dew"))
 
 
 def _typical_months(temp_grid: np.ndarray) -> np.ndarray:

@@ -186,6 +186,7 @@ def _read_tmy3(path: Path) -> RawSeries:
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=data["ghi"].to_numpy(float), dni=data["dni"].to_numpy(float),
         dhi=data["dhi"].to_numpy(float), wind=data["wind_speed"].to_numpy(float),
+        dew=data["temp_dew"].to_numpy(float) if "temp_dew" in data else None,
         typical=True)
 
 
@@ -217,7 +218,8 @@ def _read_tmy2(path: Path) -> RawSeries:
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=data["GHI"].to_numpy(float)[keep], dni=data["DNI"].to_numpy(float)[keep],
         dhi=data["DHI"].to_numpy(float)[keep], wind=data["Wspd"].to_numpy(float)[keep],
-        wind_scale=0.1, typical=True)
+        wind_scale=0.1, typical=True,
+        dew=data["DewPoint"].to_numpy(float)[keep] if "DewPoint" in data else None)
 
 
 def _read_epw(path: Path) -> RawSeries:
@@ -240,4 +242,5 @@ def _read_epw(path: Path) -> RawSeries:
         latitude_deg=float(meta["latitude"]), longitude_deg=float(meta["longitude"]),
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=col("ghi", 9999), dni=col("dni", 9999), dhi=col("dhi", 9999),
-        wind=col("wind_speed", 999), typical=True)
+        wind=col("wind_speed", 999), typical=True,
+        dew=col("temp_dew", 99.9) if "temp_dew" in data else None)

@@ -549,7 +549,7 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
 
     try:
         z_cal = float(calendar_rate_parts(aging_params.calendar_model, aging_params.calendar, None)[2])
-        z_cyc = float(cycle_exponent(aging_params.cycle_model))
+        z_cyc = float(cycle_exponent(aging_params.cycle_model, aging_params.cycle))
     except (ValueError, KeyError, AttributeError) as err:
         raise InputError(f"aging set: found an unknown law ({err}), expected one of the aging "
                          "engine's calendar and cycle models", source="life") from None

@@ -24,6 +24,7 @@ from planner.designs.candidates import (
     ruled_out_by_voltage,
     worn_out_soh_frac,
 )
+from planner.designs.service import SERVICE_CAUSES
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack.structure import PARAMETER_SOURCES as PACK_SOURCES
@@ -117,6 +118,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             "equivalent_full_cycles_per_year": shown.efc_per_year,
             "mean_soc_frac": shown.mean_soc_frac,
             "charge_blocked_hours_per_year": shown.charge_blocked_hours,
+            "charge_blocked_cold_hours_per_year": shown.charge_blocked_cold_hours,
+            "charge_blocked_hot_hours_per_year": shown.charge_blocked_hot_hours,
             "reference_capacity_wh": reference.capacity_wh if reference else None,
             "reference_factors": _reference_factors(reference, model),
             "chemistry_name": chem.name,
@@ -133,6 +136,11 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             entry["soh_p90_by_month"] = sawtooth(horizon, replacements,
                                                  [o.soh_p90_monthly for o in installed], existing_curve)
         notes = _extrapolation(model, shown)
+        entry["life_knee_floor"] = bool(shown.knee_floor)
+        if shown.knee_floor:
+            notes.append(f"life ends at {shown.eol_soh_frac:.0%} state of health, the lowest "
+                         "the aging tests behind the laws reached: the knee-free laws are not "
+                         "carried below it")
         entry["life_extrapolated"] = bool(notes)
         entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
@@ -150,9 +158,48 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         # The source, not the pack, limits this site: say it first, with the two numbers.
         entry["warnings"].insert(0, shortfall.warning())
         entry["limiting_cause"] = shortfall.cause()
+    entry.update(_life_limit(shown, entry.get("limiting_cause"), shortfall is not None))
     entry["alternatives"] = _alternatives(study, site.id, designs, by_chemistry,
                                           candidate.chemistry if candidate else None, existing)
     return entry
+
+
+#: Limiting causes that are cell fade (planner.designs.evaluation._cause).
+_FADE_CAUSES = ("calendar", "cycling", "calendar (cold derating)", "cycling (cold derating)",
+                "none within the horizon")
+
+
+def _life_limit(shown: Outcome | None, cause: str | None, source_limited: bool) -> dict:
+    """What ends the pack in service first at a site, for the plan's readers:
+    ``life_limited_by`` (the limiting cause in words), ``life_limit_kind`` ("cell fade",
+    "component", "ceiling", "energy", "size" or "charging source"), the component lives
+    and the service limit they and the ceiling set."""
+    if shown is None:
+        return {}
+    if source_limited:
+        kind = "charging source"
+    elif cause == "service-life limit":
+        kind = "ceiling"
+    elif cause in SERVICE_CAUSES:
+        kind = "component"
+    elif cause in _FADE_CAUSES:
+        kind = "cell fade"
+    elif cause in ("energy drawn", "self-discharge"):
+        kind = "energy"
+    else:
+        kind = "size"
+    words = {"calendar": "cell fade (calendar)", "cycling": "cell fade (cycling)",
+             "service-life limit": "service-life ceiling ([service_life])"}
+    # the charging source's cause carries its own figures: one name for the counts
+    name = "charging source too small" if source_limited else words.get(cause, cause)
+    if kind == "cell fade" and shown.knee_floor:
+        name += " to the knee floor"
+    return {"life_limited_by": name, "life_limit_kind": kind,
+            "component_lives_years": {_component_id(k): _finite(v)
+                                      for k, v in sorted(shown.component_lives.items())},
+            "service_limit_years": _finite(shown.service_limit_years),
+            "imbalance_loss_frac_per_year": shown.imbalance_frac_per_year,
+            "condensation_class": shown.condensation}
 
 
 def _replacements(designs: SiteDesigns, plan) -> list[dict]:
@@ -219,9 +266,13 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
     if outcome.unserved_wh_per_year > 0:
         out.append(f"{outcome.unserved_wh_per_year:.0f} Wh of load a year not served with this "
                    "pack: the charging source is too small for the site's darkest or coldest weeks")
-    if outcome.charge_blocked_hours > 0 and chem.rechargeable:
-        out.append(f"charging blocked by cold for {outcome.charge_blocked_hours:.0f} h a year "
+    if outcome.charge_blocked_cold_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by cold for {outcome.charge_blocked_cold_hours:.0f} h a year "
                    f"(below {chem.charge_temp_min_c:g} °C); a battery heater would recover it")
+    if outcome.charge_blocked_hot_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by heat for {outcome.charge_blocked_hot_hours:.0f} h a year "
+                   f"(above {chem.charge_temp_max_c:g} °C, the battery management system's stop); "
+                   "shade, a vault or a lighter enclosure would recover it")
     if d.chemistry == "vrla":
         lowest_soc = 1.0 - chem.max_dod_frac
         freezing = float(lead_acid_freezing_point_c(lowest_soc))
@@ -321,15 +372,23 @@ def _design_rule_rows(study: Study) -> list[dict]:
         rows.append({"group": "design rules", "name": f"worn-out SOH {chem_id}",
                      "value": worn_out_soh_frac(chem_id), "unit": "fraction",
                      "source": "IEEE 450 / IEEE 1188 80 % replacement criterion for lead-acid "
-                               "(from memory); lithium-ion knee near 70-80 % (common practice)"})
+                               "(from memory); lithium-ion: no lower than the lowest state of "
+                               "health the tests behind the aging set reached (a knee typically "
+                               "lies between 80 and 70 %, Attia et al. 2022, J. Electrochem. Soc. "
+                               "169, 060517)"})
         rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
                      "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
                      "source": "catalogue ladders of cells and monoblocs (common practice)"})
         override = study.settings.get("service_life", {}).get(chem_id)
-        rows.append({"group": "design rules", "name": f"service-life limit {chem_id}",
-                     "value": max_service_years(chem_id, override), "unit": "years",
-                     "source": "study file [service_life]" if override is not None
-                     else get_chemistry(chem_id).sources["service_life_years"]})
+        if override is not None:
+            rows.append({"group": "design rules", "name": f"service-life ceiling {chem_id}",
+                         "value": max_service_years(chem_id, override), "unit": "years",
+                         "source": "study file [service_life]"})
+        chem = get_chemistry(chem_id)
+        for key, value in chem.components.items():
+            rows.append({"group": "component lives", "name": f"{chem_id} {key}", "value": value,
+                         "unit": _component_unit(key),
+                         "source": chem.sources[f"components.{key}"]})
     rows.append({"group": "design rules", "name": "primary cells up to", "value":
                  PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
                  "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 0.1 W"})
@@ -346,6 +405,29 @@ def _chem_value(chem, name):
     if callable(value) or value is None:
         return "table (see chemistries.toml)"
     return value
+
+
+def _component_id(name: str) -> str:
+    """A component's JSON key: its name in snake case ("seals and terminals" ->
+    "seals_and_terminals")."""
+    return name.replace("-", "_").replace(" ", "_")
+
+
+def _component_unit(key: str) -> str:
+    for ending, unit in (("_years", "years"), ("_years_ref", "years"), ("_c", "°C"), ("_k", "K"),
+                         ("_v_per_cell", "V per cell"), ("_per_year_ref", "fraction/year"),
+                         ("_per_month", "fraction/month")):
+        if key.endswith(ending):
+            return unit
+    return "years" if "_years_" in key else ""
+
+
+def _counts(values) -> dict:
+    out: dict[str, int] = {}
+    for value in values:
+        if value:
+            out[value] = out.get(value, 0) + 1
+    return dict(sorted(out.items()))
 
 
 def _plain(value):
@@ -384,8 +466,16 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                    "objective": solution.objective, "best_bound": solution.best_bound,
                    "decomposition": solution.decomposition},
         "sites": sites,
+        # sites whose life a service limit (a component or the [service_life] ceiling),
+        # not cell fade, decides; and the same split by kind and by what limits life
         "service_life_limited_sites": sum(
-            1 for site in sites if site.get("limiting_cause") == "service-life limit"),
+            1 for site in sites if site.get("life_limit_kind") in ("component", "ceiling")),
+        "component_limited_sites": sum(
+            1 for site in sites if site.get("life_limit_kind") == "component"),
+        "ceiling_limited_sites": sum(
+            1 for site in sites if site.get("life_limit_kind") == "ceiling"),
+        "life_limited_by_counts": [{"life_limited_by": name, "sites": n} for name, n in
+                                   _counts(site.get("life_limited_by") for site in sites).items()],
         "trips": [{"region": t.region, "year": t.year, "month": t.month,
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
                    "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost,

@@ -171,12 +171,17 @@ def _extrapolated(plan, context) -> list[dict]:
 def _component_limit(plan, context) -> list[dict]:
     out = []
     for site in _sites(plan):
-        if site.get("limiting_cause") == "service-life limit":
-            life = finite_number(site.get("life_years"))
-            years = f"{life:.0f}-year " if life is not None else ""
-            out.append(_item(site, f"replaced at the {years}service life of its "
-                                   f"{site.get('chemistry_name') or site.get('chemistry') or 'pack'} "
-                                   "(seals, dry-out, electronics), before its cells wear out", None, None))
+        kind = site.get("life_limit_kind")
+        limited = (kind in ("component", "ceiling") if kind is not None
+                   else site.get("limiting_cause") == "service-life limit")
+        if not limited:
+            continue
+        life = finite_number(site.get("life_years"))
+        years = f"{life:.0f}-year " if life is not None else ""
+        what = site.get("life_limited_by") or "service life"
+        out.append(_item(site, f"replaced at the {years}limit of its {what} "
+                               f"({site.get('chemistry_name') or site.get('chemistry') or 'pack'}), "
+                               "before its cells wear out", None, None))
     return out
 
 
@@ -219,7 +224,7 @@ CAUSES: tuple[Cause, ...] = (
     Cause("life_extrapolated", "Life leans on an aging law outside its fit", "packs, present value",
           "check the life against capacity tests or field data before relying on the visit year",
           _extrapolated, examples=0),
-    Cause("component_limit", "Life set by a component's service life, not by fade", "",
+    Cause("component_limit", "Life set by a service limit (a component or the ceiling), not by fade", "",
           "nothing to change; a longer service life from the supplier would move the visit",
           _component_limit, examples=0),
 )

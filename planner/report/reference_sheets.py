@@ -44,11 +44,13 @@ def _solver_rows(plan) -> list[dict]:
     rows = [{"group": "how the plan was found", "name": text, "value": solver.get(key), "unit": unit,
              "source": "the optimizer's answer (planner.optimize)"}
             for key, (text, unit) in words.items() if solver.get(key) is not None]
-    limited = plan.get("service_life_limited_sites")
-    if finite_number(limited) is not None:
-        rows.append({"group": "how the plan was found", "name": "sites whose pack life the chemistry's "
-                     "service-life limit sets (not fade)", "value": limited, "unit": "sites",
-                     "source": "design rules below"})
+    counts = (("service_life_limited_sites", "sites whose pack life a service limit sets (not fade)"),
+              ("component_limited_sites", "of which a component's life (seals, terminals, electronics)"),
+              ("ceiling_limited_sites", "of which the study's [service_life] ceiling"))
+    for key, words in counts:
+        if finite_number(plan.get(key)) is not None:
+            rows.append({"group": "how the plan was found", "name": words, "value": plan.get(key),
+                         "unit": "sites", "source": "design rules below"})
     return rows
 
 

@@ -214,12 +214,14 @@ OUTPUT = (
     F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
 )
 
-# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
-# electronics, so a cap applies (chemistries.toml holds the default with its source).
+# The user's ceiling on service per chemistry. Seals, electronics, imbalance and standby
+# drain have lives of their own per site (chemistries.toml [<id>.components]); the lower
+# of the ceiling and those applies.
 SERVICE_LIFE = tuple(
     F(chem_id, "float", None, "years", 1.0, 60.0,
       doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
-          "blank = the chemistry library's value (`planner life --list`).")
+          "the lower of it and the component lives applies; blank = no ceiling "
+          "(`planner life --list` shows the component lives' sources).")
     for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
 
 SECTIONS = {
@@ -290,6 +292,10 @@ SITE_COLUMNS = (
     F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
       doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
     F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),
+    F("condensation", "str", "auto", choices=("auto", "dry", "occasional", "frequent"),
+      doc="How often moisture condenses on the pack (it ages seals and terminals): auto = "
+          "from the weather file's dew point when it has one, else by enclosure (shelter "
+          "dry, vault frequent, cabinets occasional)."),
     F("existing_chemistry", "str", "", doc="Chemistry of the pack installed today (blank: new pack at start)."),
     F("existing_capacity_wh", "float", 0.0, "Wh", 0.0, 1e7),
     F("existing_installed_year", "int", 0, "calendar year", 0, 2100),
