@@ -17,8 +17,9 @@ import zoneinfo
 import numpy as np
 import pandas as pd
 
-from planner.climate import HOURS_PER_YEAR, ClimateWarning, TypicalYear, hour_starts
+from planner import HOURS_PER_YEAR
 from planner.climate.solar import clear_sky_ghi, split_ghi
+from planner.climate.typical_year import ClimateWarning, TypicalYear, hour_starts
 from planner.errors import InputError
 from planner.numbers import NumberError, parse_number, shown
 
