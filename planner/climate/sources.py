@@ -7,7 +7,7 @@ from pathlib import Path
 
 from planner.climate.typical_year import TypicalYear
 from planner.errors import InputError
-from planner.numbers import number_input
+from planner.inputs.numbers import number_input
 
 
 def list_bundled() -> list[tuple[str, str]]:

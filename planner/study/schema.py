@@ -362,7 +362,7 @@ def reference_markdown() -> str:
         "decimal point (`2`, `-1.5`, `0.25`). Exponents (`1e1`), digit separators (`1_0`, `1,000`),",
         "`inf` and `nan` are errors; months are whole numbers 1-12. Every number of the study, the",
         "sites table, a climate declaration or a command-line option goes through one parser",
-        "(`planner.numbers`): non-finite values and huge integers are refused like any value out of",
+        "(`planner.inputs.numbers`): non-finite values and huge integers are refused like any value out of",
         "range.",
         "",
         "Every mistake of the study and its sites table is reported in one run, one line each (at",
