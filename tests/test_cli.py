@@ -173,10 +173,16 @@ def test_console_summary_speaks_the_readers_words():
 
     plan = make_plan(5)
     text = _summary(plan, "plan.xlsx")
-    assert "nmc: " in text and "serves 4 of 5 sites; S0000 keeps lfp" in text
+    assert ("If Demo nickel oxide wherever it can serve: " in text
+            and "serves 4 of 5 sites; S0000 keeps Demo iron phosphate" in text)
     assert "serves none of the 5 sites" in text
     assert "days off air" in text and "most of the difference to the plan: S0000" in text
     assert "infeasible" not in text and "optimal" not in text
+    # what needs attention comes first, grouped by cause with its count and fix
+    lines = text.splitlines()
+    assert lines[1].startswith("  needs attention")
+    assert lines.index(next(line for line in lines if "total present cost" in line)) > 1
+    assert any(line.strip().startswith("fix: ") for line in lines)
 
 
 def test_endless_study_files_are_refused_by_type(runner, tmp_path):
@@ -195,6 +201,42 @@ def test_endless_study_files_are_refused_by_type(runner, tmp_path):
         result = runner.invoke(cli, ["plan", str(node)])
         assert result.exit_code == 2, result.output
         assert "not a regular file: expected a study file (TOML)" in result.output
+
+
+def test_readme_exit_code_table_matches_the_commands():
+    # The README's table is the contract scripts rely on: every code it lists is the one
+    # planner.cli returns for that case, and exit 3 means a site cannot be served.
+    import re
+
+    from planner import cli as cli_module
+    from planner.cli.plan import not_all_served
+
+    text = (REPO / "README.md").read_text(encoding="utf-8")
+    table = {}
+    for codes, meaning in re.findall(r"^\| ([\d, ]+) \| (.+?) \|$", text, flags=re.M):
+        for code in codes.split(","):
+            table[code.strip()] = meaning
+    assert set(table) == {"0", "2", "3", "4", "130", "143", "129"}
+    assert cli_module.EXIT_OK == 0 and "every site is served" in table["0"]
+    assert cli_module.EXIT_BAD_INPUT == 2 and "Bad input" in table["2"]
+    assert cli_module.EXIT_INFEASIBLE == 3 and "cannot be served" in table["3"] and "1 %" in table["3"]
+    assert cli_module.EXIT_WRITE_FAILED == 4 and cli_module.EXIT_INTERRUPTED == 130
+    # the rule behind 3: a site no design serves, or one losing more than 1 % of its load
+    served = {"sites": [{"id": "a", "daily_load_wh": 100.0, "unserved_wh_per_year": 300.0}],
+              "solver": {"status": "optimal"}}  # 300 Wh of 36,500 Wh a year: 0.8 %
+    assert not not_all_served(served)
+    served["sites"][0]["unserved_wh_per_year"] = 400.0  # 1.1 %
+    assert not_all_served(served)
+    assert not_all_served({"sites": [{"id": "a"}], "unserved_sites": [{"id": "a"}], "solver": {}})
+
+
+def test_plan_json_out_is_the_json_option():
+    # 'planner life' and 'planner climate' write JSON with --json-out PATH; 'planner plan'
+    # takes the same name beside its --json PATH.
+    from planner.cli.plan import plan_command
+
+    option = next(p for p in plan_command.params if p.name == "json_path")
+    assert {"--json", "--json-out"} <= set(option.opts)
 
 
 def test_starter_lists_what_the_sites_columns_accept(runner, tmp_path):

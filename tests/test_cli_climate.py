@@ -187,3 +187,20 @@ def test_csv_output_onto_the_weather_file_is_refused(tmp_path):
     result = CliRunner().invoke(cli, ["climate", str(path), "--csv", str(path)])
     assert result.exit_code == 2 and "is the weather file read" in result.output
     assert path.read_bytes() == before
+
+
+def test_text_uses_degree_signs_and_hemispheres():
+    # One notation: °C as in every other output, and a west longitude written as W, never
+    # as a negative east ("-79.95 E"). The bundled Greensboro TMY3 year lies at 36.10 N,
+    # 79.95 W (pvlib's 723170TYA.CSV header).
+    result = run("climate", "tmy3-greensboro-nc")
+    assert result.exit_code == 0, result.output
+    assert "degC" not in result.output and "[°C]" in result.output
+    assert "36.10 N, 79.95 W" in result.output and "-79.95" not in result.output
+
+
+def test_json_out_writes_the_same_json(tmp_path):
+    target = tmp_path / "c.json"
+    result = run("climate", "alpine", "--json-out", str(target))
+    assert result.exit_code == 0, result.output
+    assert json.loads(target.read_text()) == json.loads(run("climate", "alpine", "--json").output)

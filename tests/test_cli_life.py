@@ -116,6 +116,47 @@ def test_climate_source_runs_and_heat_shortens_life():
     assert hot["battery_mean_temp_c"] > 20.0
 
 
+def test_plan_names_beside_the_life_names():
+    # One name for one thing: the plan's life_years / eol_soh_frac / life_pNN_years sit beside
+    # years_to_eol / eol_soh / years_to_eol_pNN (kept for scripts), with equal values.
+    out = _json("--chemistry", "lfp", "--temp-c", "25", "--eol-soh-frac", "0.75", "--series-cells", "4",
+                "--draws", "200")
+    assert out["life_years"] == out["years_to_eol"] and out["eol_soh_frac"] == out["eol_soh"] == 0.75
+    for p in ("p10", "p50", "p90"):
+        assert out[f"life_{p}_years"] == out[f"years_to_eol_{p}"]
+    old = _json("--chemistry", "lfp", "--temp-c", "25", "--eol-soh", "0.75")
+    assert old["years_to_eol"] == out["years_to_eol"]  # --eol-soh is the same option
+
+
+def test_per_cell_charge_voltage_option_and_its_older_name():
+    # --charge-voltage-v was always per cell; --charge-voltage-v-per-cell says so (the plan's
+    # charge_voltage_v is the whole pack). Both names give the same answer.
+    new = _json("--chemistry", "nmc", "--temp-c", "25", "--charge-voltage-v-per-cell", "4.0")
+    old = _json("--chemistry", "nmc", "--temp-c", "25", "--charge-voltage-v", "4.0")
+    assert new == old and new["charge_voltage_v_per_cell"] == 4.0
+
+
+def test_primary_cells_show_no_charge_voltage_or_cycling():
+    # A primary cell is not charged and does not cycle: its text says so.
+    result = _run("--chemistry", "lisocl2", "--temp-c", "20", "--c-rate", "0.0001")
+    assert result.exit_code == 0, result.output
+    assert "not charged" in result.output and "charge voltage" not in result.output
+    assert "cycling" not in result.output and "drawn by the load" in result.output
+    refused = _run("--chemistry", "lisocl2", "--temp-c", "20", "--charge-voltage-v-per-cell", "3.6")
+    assert refused.exit_code == 2 and "not rechargeable" in refused.output
+    assert _json("--chemistry", "lisocl2", "--temp-c", "20")["rechargeable"] is False
+
+
+def test_json_out_writes_the_same_json(tmp_path):
+    # --json-out PATH, as in 'planner plan --json-out': the file holds what --json prints.
+    target = tmp_path / "life.json"
+    result = _run("--chemistry", "vrla", "--temp-c", "25", "--json-out", str(target))
+    assert result.exit_code == 0, result.output
+    assert json.loads(target.read_text()) == _json("--chemistry", "vrla", "--temp-c", "25")
+    printed = _run("--chemistry", "vrla", "--temp-c", "25", "--json-out", "-")
+    assert json.loads(printed.output) == json.loads(target.read_text())
+
+
 def test_cycling_below_the_charge_limit_is_refused_with_the_reason():
     # common practice: graphite-anode lithium-ion is not charged below 0 °C (lithium
     # plating); plans block it, so planner life must not report a charged cycling life there

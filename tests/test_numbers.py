@@ -1,4 +1,4 @@
-"""The one number parser (planner/numbers.py) and every door a number comes in by.
+"""The one number parser (planner/inputs/numbers.py) and every door a number comes in by.
 
 Class: a number that is not finite, is a huge integer or is out of range gives the
 one-line InputError naming where it was, never an OverflowError traceback, whether it
@@ -14,7 +14,7 @@ from click.testing import CliRunner
 
 from planner.cli import cli
 from planner.errors import InputError
-from planner.numbers import NumberError, parse_number, parse_number_column
+from planner.inputs.numbers import NumberError, parse_number, parse_number_column
 from planner.study.loading import load_study
 
 HUGE = "1" + "0" * 400          # an integer of 401 digits: TOML reads it exactly

@@ -72,15 +72,20 @@ def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
 
 
 def test_workbook_shows_the_cap_count_and_extrapolated_lives(tmp_path):
-    # The Summary says how many sites a service limit decides; the Sites sheet marks
+    # The workbook says how many sites the cap decides (docs/workbook.md: Needs attention, as a
+    # cause with its count; Assumptions, under how the plan was found); the Sites sheet marks
     # lives that lean on extrapolated laws (plan keys of docs/plan-json.md).
     import openpyxl
 
     plan = _plan(tmp_path, "\n[service_life]\nlfp = 10\n")
     book = openpyxl.load_workbook(tmp_path / "p.xlsx")
-    summary = {row[0]: row[1] for row in book["Summary"].iter_rows(min_col=1, max_col=2,
-                                                                      values_only=True)}
-    assert summary["Sites whose life the service-life limit decides"] == \
+    causes = {}  # the first table: one row per cause with its count
+    for cause, count in book["Needs attention"].iter_rows(min_col=1, max_col=2, values_only=True):
+        causes.setdefault(cause, count)
+    assert causes["Life set by a service limit (a component or the ceiling), not by fade"] == plan["service_life_limited_sites"]
+    found = {row[1]: row[2] for row in book["Assumptions and sources"].iter_rows(values_only=True)
+             if row[0] == "how the plan was found"}
+    assert found["sites whose pack life a service limit sets (not fade)"] == \
         plan["service_life_limited_sites"]
     sites = book["Sites"]
     header = [c.value for c in sites[1]]

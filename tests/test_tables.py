@@ -1,4 +1,4 @@
-"""Reading a user's table (planner/tables.py): the rows the user sees, and the shapes a
+"""Reading a user's table (planner/inputs/tables.py): the rows the user sees, and the shapes a
 table can go wrong in.
 
 Classes (each with a known case and a second variant):
@@ -18,8 +18,8 @@ import pytest
 
 from planner.energy.loads import read_hourly_load_csv
 from planner.errors import InputError
+from planner.inputs.tables import column_label, read_table
 from planner.study.loading import load_study
-from planner.tables import column_label, read_table
 
 
 def csv_table(text: str, **kwargs):

@@ -131,3 +131,6 @@ def options(ctx: click.Context) -> dict:
 def progress_enabled(ctx: click.Context) -> bool:
     """A progress bar only on a terminal and without --quiet."""
     return not options(ctx).get("quiet") and sys.stderr.isatty()
+
+
+__all__ = ["main"]

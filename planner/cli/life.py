@@ -63,7 +63,7 @@ def _print_list():
 @click.option("--chemistry", "chem_id", default=None, metavar="ID",
               help="Chemistry id: vrla, lfp, nmc, lto or lisocl2 (see --list).")
 @click.option("--temp-c", "temp_c", type=Number(minimum=-60.0, maximum=90.0), default=None,
-              help="Constant battery temperature, degC.")
+              help="Constant battery temperature, °C.")
 @click.option("--climate", "climate", default=None, metavar="SOURCE",
               help="Bundled climate name or weather file (see 'planner climate --list').")
 @click.option("--enclosure", "enclosure", default="cabinet-sun", show_default=True,
@@ -72,9 +72,10 @@ def _print_list():
 @click.option("--soc-frac", "soc_frac", type=Number(minimum=0.0, maximum=1.0), default=None,
               help="Storage state of charge, fraction of rated capacity (default: full at "
                    "the charge voltage). Used when not cycling.")
-@click.option("--charge-voltage-v", "charge_voltage_v", type=Number(exclusive_minimum=True, minimum=0.0),
-              default=None,
-              help="Charge voltage PER CELL, V (default: the chemistry's default setting).")
+@click.option("--charge-voltage-v-per-cell", "--charge-voltage-v", "charge_voltage_v",
+              type=Number(exclusive_minimum=True, minimum=0.0), default=None,
+              help="Charge voltage per cell, V (default: the chemistry's default setting). "
+                   "--charge-voltage-v is the older name of the same option.")
 @click.option("--dod-frac", "dod_frac", type=Number(exclusive_minimum=True, minimum=0.0, maximum=1.0),
               default=None,
               help="Depth of each cycle, fraction of rated capacity (with --cycles-per-day).")
@@ -85,9 +86,10 @@ def _print_list():
               default=0.2, show_default=True,
               help="Discharge and charge C-rate of the cycles (for primary cells: the "
                    "constant load as a C-rate).")
-@click.option("--eol-soh", "eol_soh", type=Number(exclusive_minimum=True, minimum=0.0, maximum=0.999),
-              default=0.8, show_default=True,
-              help="End of life: state of health (remaining/rated capacity) fraction.")
+@click.option("--eol-soh-frac", "--eol-soh", "eol_soh",
+              type=Number(exclusive_minimum=True, minimum=0.0, maximum=0.999), default=0.8, show_default=True,
+              help="End of life: state of health (remaining/rated capacity) fraction. --eol-soh is "
+                   "the older name of the same option.")
 @click.option("--years", "years", type=Number(minimum=1, maximum=200, integer=True), default=40,
               show_default=True,
               help="Horizon in years.")
@@ -111,21 +113,25 @@ def _print_list():
 @click.option("--aging-set", "aging_set", default=None, metavar="ID",
               help="Aging parameter set of the chemistry (default: its default set; see --list).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
+@click.option("--json-out", "json_out", type=str, default=None, metavar="PATH",
+              help="Write the result as JSON to PATH ('-' for standard output), as in "
+                   "'planner plan --json-out'.")
 @click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
 def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
                  cycles_per_day, c_rate, eol_soh, years, series_cells, cell_spread_frac,
-                 balancing, draws, across_models, aging_set, as_json, list_only):
+                 balancing, draws, across_models, aging_set, as_json, json_out, list_only):
     """Predict the life of a battery stored or cycled at a temperature or in a climate.
 
     Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
-    --charge-voltage-v is per cell (e.g. 4.10 for NMC, 3.45 for LFP, 2.40 for VRLA).
+    --charge-voltage-v-per-cell is per cell (e.g. 4.10 for NMC, 3.45 for LFP, 2.40 for
+    VRLA); primary cells are not charged and take none.
 
     \b
     Examples:
       planner life --list
       planner life --chemistry lfp --temp-c 25
       planner life --chemistry lfp --temp-c 5 --aging-set naumann
-      planner life --chemistry nmc --temp-c 25 --charge-voltage-v 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
+      planner life --chemistry nmc --temp-c 25 --charge-voltage-v-per-cell 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
       planner life --chemistry vrla --climate hot-desert --enclosure cabinet-sun
       planner life --chemistry lfp --temp-c 35 --series-cells 16 --balancing passive --json
     """
@@ -144,22 +150,25 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     if (temp_c is None) == (climate is None):
         raise InputError("give exactly one of --temp-c T or --climate SOURCE", source="life")
     if temp_c is not None and not -60.0 <= temp_c <= 90.0:
-        raise InputError(f"--temp-c is {temp_c:g}; expected -60 to 90 degC", source="life")
+        raise InputError(f"--temp-c is {temp_c:g}; expected -60 to 90 °C", source="life")
     if (dod_frac is None) != (cycles_per_day is None):
         raise InputError("--dod-frac and --cycles-per-day go together; give both or neither",
                          source="life")
     if not 0.0 < eol_soh < 1.0:
-        raise InputError(f"--eol-soh is {eol_soh:g}; expected a fraction between 0 and 1",
+        raise InputError(f"--eol-soh-frac is {eol_soh:g}; expected a fraction between 0 and 1",
                          source="life")
     if not 1 <= years <= 200:
         raise InputError(f"--years is {years}; expected 1 to 200", source="life")
     if not c_rate > 0.0 or c_rate > 10.0:
         raise InputError(f"--c-rate is {c_rate:g}; expected more than 0 and at most 10",
                          source="life")
+    if charge_voltage_v is not None and not chem.rechargeable:
+        raise InputError(f"--charge-voltage-v-per-cell is {charge_voltage_v:g}; {chem.id} is not "
+                         "rechargeable: expected no charge voltage", source="life")
     volts = chem.default_charge_voltage_v_per_cell if charge_voltage_v is None else charge_voltage_v
     low, high = chem.usable_table_v[0], chem.usable_table_v[-1]
     if not low - 1e-9 <= volts <= high + 1e-9:
-        raise InputError(f"--charge-voltage-v is {volts:g} V per cell; expected {low:g} to "
+        raise InputError(f"--charge-voltage-v-per-cell is {volts:g} V per cell; expected {low:g} to "
                          f"{high:g} V per cell for {chem.id}", source="life")
     top = float(chem.usable_fraction(volts))
     cycling = dod_frac is not None
@@ -200,15 +209,20 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     reached = math.isfinite(eol_years)
     out = {
         "chemistry": chem.id,
+        "chemistry_name": chem.name,
+        "rechargeable": chem.rechargeable,
         "aging_set": result.aging_set,
         "battery_temperature": temp_text,
         "battery_mean_temp_c": round(float(temp.mean()), 3),
+        # for primary cells the nominal voltage: they are not charged
         "charge_voltage_v_per_cell": volts,
         "usable_fraction": top,
         "eol_soh": eol_soh,
+        "eol_soh_frac": eol_soh,  # the plan's name for eol_soh
         "eol_soh_applied": applied,
         "life_knee_floor": applied > eol_soh,
         "years_to_eol": eol_years if reached else None,
+        "life_years": eol_years if reached else None,  # the plan's name for years_to_eol
         "calendar_loss_frac": cal,
         "cycle_loss_frac": cyc,
         "equivalent_full_cycles_per_year": float(result.efc_per_year[0]),
@@ -235,6 +249,9 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
                           for name in chem.aging_sets]
         out.update(_pack_percentiles(chem, result, applied, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
+        for p in ("p10", "p50", "p90"):  # the plan's names beside years_to_eol_pNN
+            if f"years_to_eol_{p}" in out:
+                out[f"life_{p}_years"] = out[f"years_to_eol_{p}"]
     if cycling:
         out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
         out["dod_frac"] = dod_frac
@@ -242,12 +259,17 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         out["c_rate"] = c_rate
     else:
         out["soc_frac"] = float(soc[0])
-    if as_json:
+    if json_out and json_out != "-":
+        _write_json(json_out, out)
+    if as_json or json_out == "-":
         click.echo(json.dumps(out, indent=2))
         return
     click.echo(f"{chem.name}, aging set {result.aging_set}")
     click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
-    click.echo(f"charge voltage {volts:.2f} V/cell, usable fraction {top:.2f}")
+    if chem.rechargeable:
+        click.echo(f"charge voltage {volts:.2f} V per cell, usable fraction {top:.2f}")
+    else:
+        click.echo(f"nominal voltage {volts:.2f} V per cell (primary cells are not charged)")
     if applied > eol_soh:
         click.echo(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests behind "
                    f"aging set {params.name} end there, and the laws have no knee below it")
@@ -256,7 +278,10 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         click.echo(f"reaches {applied:.0%} SOH after {eol_years:.1f} years{extra}")
     else:
         click.echo(f"stays above {applied:.0%} SOH for the {years} years computed")
-    click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+    if chem.rechargeable:
+        click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+    else:
+        click.echo(f"capacity gone then: self-discharge {cal:.1%}, drawn by the load {cyc:.1%}")
     for note in notes:
         click.echo(f"extrapolated: {note}")
     if blocked is not None and blocked[0] + blocked[1] > 0:
@@ -329,6 +354,16 @@ def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spr
     rows, dist = life_summary(result, prefix="years_to_eol", **options)
     return {**rows[0], "series_cells": series_cells, "balancing": options["balancing"],
             "draws": dist.draws, "pack_notes": list(dist.notes)}
+
+
+def _write_json(path: str, data: dict) -> None:
+    """The result as JSON at ``path``, written atomically (planner.fileio)."""
+    from pathlib import Path
+
+    from planner.fileio import atomic_path
+
+    with atomic_path(Path(path), what="life JSON") as tmp:
+        Path(tmp).write_text(json.dumps(data, indent=2) + "\n", encoding="utf-8")
 
 
 def _given(name: str) -> bool:

@@ -1,4 +1,4 @@
-"""Command-line numbers through the one number parser (:mod:`planner.numbers`).
+"""Command-line numbers through the one number parser (:mod:`planner.inputs.numbers`).
 
 ``--temp-c nan``, ``--draws 1e400`` or ``--warming-k inf`` are refused like a bad study
 value: one line naming the option, what was found and what was expected, exit code 2.
@@ -9,7 +9,7 @@ from __future__ import annotations
 import click
 
 from planner.errors import InputError
-from planner.numbers import NumberError, describe, parse_number, shown
+from planner.inputs.numbers import NumberError, describe, parse_number, shown
 
 
 class Number(click.ParamType):

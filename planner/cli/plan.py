@@ -28,8 +28,9 @@ from planner.fileio import (
 @click.option("--out", "out_path", type=str, default=None,
               help="Workbook (.xlsx) to write, or a folder ending in '/' "
                    "(default output/<study name>.xlsx).")
-@click.option("--json", "json_path", type=str, default=None,
-              help="Also write the plan as JSON to this path ('-' for standard output).")
+@click.option("--json", "--json-out", "json_path", type=str, default=None, metavar="PATH",
+              help="Also write the plan as JSON to PATH ('-' for standard output). --json-out "
+                   "is the same option under the name 'planner life' and 'planner climate' use.")
 @click.option("--workers", type=Number(minimum=1, maximum=4096, integer=True), default=None,
               help="Processes that share the per-site stages and the re-solves "
                    "(default: all cores). The plan does not depend on it.")
@@ -38,8 +39,10 @@ def plan_command(ctx, study, out_path, json_path, workers):
     """Validate STUDY, model every site and candidate pack, optimise the fleet's
     replacements and trips, and write the plan workbook (and JSON).
 
-    Exit codes: 0 a plan was written; 2 bad input or usage; 3 no feasible plan
-    (the workbook explaining why is still written); 4 an output could not be written.
+    Exit codes: 0 a plan was written and every site is served; 2 bad input or usage;
+    3 some site cannot be served (no design serves it, or it loses more than 1 % of its
+    load; the plan for the others and the workbook explaining why are still written);
+    4 an output could not be written.
 
     \b
     Example:
@@ -61,8 +64,17 @@ def plan_command(ctx, study, out_path, json_path, workers):
 
     if not quiet:
         click.echo(_summary(plan, out), err=True)
-    if plan.get("unserved_sites") or plan["solver"]["status"] == "infeasible":
+    if not_all_served(plan):
         ctx.exit(EXIT_INFEASIBLE)
+
+
+def not_all_served(plan) -> bool:
+    """Whether some site cannot be served (exit code 3): no design serves it, it loses more
+    than the stated share of its load (planner.plan.attention), or no plan was found."""
+    from planner.plan.attention import sites_not_served
+
+    return bool(plan.get("unserved_sites") or sites_not_served(plan)
+                or (plan.get("solver") or {}).get("status") == "infeasible")
 
 
 def output_paths(study, out_option: str | None, json_option: str | None):
@@ -202,6 +214,31 @@ class _progress:
 MAX_UNSERVED_LINES = 10
 
 
+def _attention_lines(plan, currency) -> list[str]:
+    """The needs-attention groups, first on the console: count, cost, fix, a few cases."""
+    from planner.plan.attention import attention_of
+
+    groups = [g for g in attention_of(plan).get("groups") or [] if isinstance(g, dict)]
+    if not groups:
+        return ["  needs attention: nothing (every site served, none likely to fail before its visit)"]
+    lines = ["  needs attention (every case on the workbook's Needs attention sheet):"]
+    for group in groups:
+        count = group.get("count", 0)
+        noun = "trips" if group.get("cause") == "heavy_trip" else "sites"
+        cost = group.get("cost")
+        money = (f"; {group.get('cost_meaning')} {cost:,.0f} {currency}".rstrip()
+                 if isinstance(cost, int | float) and math.isfinite(cost) else "")
+        lines.append(f"    {printable(group.get('title'))}: {count:,} {noun}{printable(money)}")
+        lines.append(f"      fix: {printable(group.get('fix'))}")
+        shown = group.get("examples", 3)
+        items = group.get("items") or []
+        for item in items[:shown]:
+            lines.append(f"      {printable(item.get('id'))}: {printable(item.get('detail'))}")
+        if shown and len(items) > shown:
+            lines.append(f"      ... and {len(items) - shown:,} more")
+    return lines
+
+
 def _climate_lines(sites) -> list[str]:
     """Warnings about where a site's climate comes from (far station, altitude, normals)."""
     found = [(site["id"], w) for site in sites
@@ -215,41 +252,54 @@ def _climate_lines(sites) -> list[str]:
 
 
 def _summary(plan, out) -> str:
-    from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
+    from planner.report.wording import (
+        chemistry_names,
+        comparison_label,
+        coverage_text,
+        downtime_share,
+        drivers_text,
+        plan_status_text,
+    )
 
     currency = printable(plan["study"]["currency"])
     total = plan["total_present_cost"]
     total_text = (f"{total:,.0f} {currency}" if total is not None and math.isfinite(total)
                   else "none (no feasible plan)")
     n_sites = len(plan["sites"])
+    names = chemistry_names(plan)
     lines = [
         f"Plan for {printable(plan['study']['name'])}: {n_sites} sites, "
         f"{plan['study']['horizon_years']} years",
+        *_attention_lines(plan, currency),
         f"  total present cost: {total_text} ({plan_status_text(plan)})",
         "  fleet cost with each chemistry wherever it can serve (other sites keep their best design):",
     ]
     for row in plan.get("chemistry_comparison", []):
         served = row.get("sites_served") or 0
         cost = (f"{row['total_with_others_present_cost']:,.0f} {currency}, " if served else "")
-        lines.append(f"    {row['chemistry']}: {cost}{printable(coverage_text(row, n_sites))}")
+        lines.append(f"    {printable(comparison_label(row, names))}: {cost}"
+                     f"{printable(coverage_text(row, n_sites, names))}")
         share = downtime_share(row)
         if served and share is not None:
             lines.append(f"      equipment {row['equipment']:,.0f}, trips and labour "
                          f"{row['trips_and_labour']:,.0f}, days off air {row['downtime']:,.0f} "
-                         f"({share:.0%}), failure risk {row['failure_risk']:,.0f}")
+                         f"({share:.0%}), expected failure cost {row['failure_risk']:,.0f}")
         drivers = drivers_text(row, currency)
         if served and drivers:
             lines.append(f"      most of the difference to the plan: {printable(drivers)}")
-    for site in plan["sites"]:
-        for warning in site.get("warnings") or []:
-            if str(warning).startswith(SHORTFALL_CAUSE):
-                lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
+    short = [(site, w) for site in plan["sites"] for w in site.get("warnings") or []
+             if str(w).startswith(SHORTFALL_CAUSE)]
+    for site, warning in short[:MAX_UNSERVED_LINES]:
+        lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
+    if len(short) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(short) - MAX_UNSERVED_LINES:,} more sites whose charging source is "
+                     "too small (all on the workbook's Needs attention sheet)")
     lines += _climate_lines(plan["sites"])
     unserved = plan.get("unserved_sites", [])
     for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
     if len(unserved) > MAX_UNSERVED_LINES:
-        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites not served "
-                     "(all listed on the workbook's Cautions sheet)")
+        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites no design can serve "
+                     "(all on the workbook's Needs attention sheet)")
     lines.append(f"  workbook: {printable(out)}")
     return "\n".join(lines)

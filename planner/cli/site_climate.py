@@ -33,7 +33,7 @@ def monthly_table(model) -> dict:
             "battery_mean_c": rounded(battery, 2)}
 
 
-def show_site_climate(study_path, site_id, *, as_json: bool, csv_path, writer) -> None:
+def show_site_climate(study_path, site_id, *, as_json: bool, csv_path, writer, json_out=None) -> None:
     from planner.site.model import model_sites
     from planner.study.loading import load_study
 
@@ -52,16 +52,25 @@ def show_site_climate(study_path, site_id, *, as_json: bool, csv_path, writer) -
         writer(Path(csv_path), model.year, BatteryThermal(model.temp_battery_c, model.heater_power_w,
                                                           model.hvac_power_w, model.enclosure,
                                                           np.zeros_like(model.temp_battery_c)))
-    if as_json:
-        click.echo(json.dumps({"site": site.id, "climate": model.year.name,
-                               "source": model.year.source, "enclosure": site.enclosure,
-                               "site_climate": described, "monthly": table,
-                               **model.temperatures.to_dict()}, indent=2))
-        return
+    if as_json or json_out:
+        text = json.dumps({"site": site.id, "climate": model.year.name,
+                           "source": model.year.source, "enclosure": site.enclosure,
+                           "site_climate": described, "monthly": table,
+                           **model.temperatures.to_dict()}, indent=2)
+        if json_out and json_out != "-":
+            from planner.fileio import atomic_path
+
+            with atomic_path(Path(json_out), what="climate JSON") as tmp:
+                Path(tmp).write_text(text + "\n", encoding="utf-8")
+        if as_json or json_out == "-":
+            click.echo(text)
+            return
     click.echo("\n".join(_lines(site, model, described, table)))
 
 
 def _lines(site, model, d, table) -> list[str]:
+    from planner.cli.climate import position_text
+
     year = model.year
     kind = d.get("kind")
     if kind == "station":
@@ -74,7 +83,7 @@ def _lines(site, model, d, table) -> list[str]:
     lines = [
         f"Site      {site.id} {site.name} (region {site.region})",
         f"Climate   {what}",
-        f"Position  {year.latitude_deg:.4f} N, {year.longitude_deg:.4f} E "
+        f"Position  {position_text(year.latitude_deg, year.longitude_deg, 4)} "
         f"(from the {d.get('position_from', 'climate')}); UTC{year.utc_offset_h:+g} "
         f"(from the {d.get('utc_offset_from', 'climate')})",
     ]

@@ -18,7 +18,7 @@ from importlib import resources
 
 import numpy as np
 
-from planner.climate import HOURS_PER_YEAR, TypicalYear
+from planner import HOURS_PER_YEAR
 from planner.climate.normals import (  # noqa: F401  (part of this module's interface)
     PARTON_LOGAN_A_H,
     PARTON_LOGAN_B,
@@ -30,6 +30,7 @@ from planner.climate.normals import (  # noqa: F401  (part of this module's inte
     monthly_mean_of_days,
     parton_logan_hourly,
 )
+from planner.climate.typical_year import TypicalYear
 from planner.errors import InputError
 
 _REQUIRED = ("name", "description", "source", "latitude_deg", "longitude_deg", "altitude_m",

@@ -22,8 +22,8 @@ import pandas as pd
 from planner.climate.normalise import DEFAULT_CLEARNESS_FRAC, RawSeries, first_line
 from planner.errors import InputError, one_line
 from planner.fileio import read_input_bytes
-from planner.numbers import NumberError, number_input, parse_number, shown
-from planner.tables import read_table
+from planner.inputs.numbers import NumberError, number_input, parse_number, shown
+from planner.inputs.tables import read_table
 
 #: Option keys a plain CSV climate file accepts (documented in docs/climate.md).
 CSV_OPTIONS = {
@@ -34,7 +34,7 @@ CSV_OPTIONS = {
     "longitude_deg": "degrees east, west negative (required)",
     "altitude_m": "metres above sea level (default 0)",
     "time_zone": "zone of timestamps without an offset: 'local-standard' (default), 'UTC', "
-                 "hours like 2 or -5, or a zone name like 'America/Denver'",
+                 "hours like 2 or -5, or a tz-database zone with daylight saving like 'MST7MDT'",
     "time_column": "timestamp column (default 'time')",
     "time_format": "strftime format of the timestamps (default: ISO 8601)",
     "temperature_column": "air temperature column (default 'temp_air_c', the column "
@@ -129,7 +129,7 @@ class CsvDeclarations:
 def check_csv_declarations(options: dict, where: str) -> CsvDeclarations:
     """Check a plain CSV's declarations (file lines and options merged) without reading
     its data: the required ones are there, numbers are numbers in range (the one number
-    parser, :mod:`planner.numbers`), choices are among theirs."""
+    parser, :mod:`planner.inputs.numbers`), choices are among theirs."""
     check_option_keys(options, CSV_OPTIONS, where)
     unit = str(_required(options, "temperature_unit", where)).strip().upper().replace("°", "")
     unit = {"DEGC": "C", "DEGF": "F"}.get(unit, unit)
@@ -181,7 +181,7 @@ def read_plain_csv(path: Path, options: dict, skip_lines: int = 0) -> RawSeries:
     """Read a plain CSV climate file with its declared ``options`` into a RawSeries.
 
     Rows are numbered as a spreadsheet or an editor shows them (declaration lines and
-    blank lines counted; :mod:`planner.tables`).
+    blank lines counted; :mod:`planner.inputs.tables`).
     """
     where = str(path)
     declared = check_csv_declarations(options, where)

@@ -17,10 +17,11 @@ import zoneinfo
 import numpy as np
 import pandas as pd
 
-from planner.climate import HOURS_PER_YEAR, ClimateWarning, TypicalYear, hour_starts
+from planner import HOURS_PER_YEAR
 from planner.climate.solar import clear_sky_ghi, split_ghi
+from planner.climate.typical_year import ClimateWarning, TypicalYear, hour_starts
 from planner.errors import InputError
-from planner.numbers import NumberError, parse_number, shown
+from planner.inputs.numbers import NumberError, parse_number, shown
 
 #: Plausible hourly air temperature, degC (beyond the recorded world extremes of about
 #: -89 and +57 degC, common practice).

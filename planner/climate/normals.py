@@ -32,7 +32,7 @@ import dataclasses
 
 import numpy as np
 
-from planner.climate import HOURS_PER_YEAR
+from planner import HOURS_PER_YEAR
 
 #: Parton & Logan (1981), Agricultural Meteorology 23, 205-216, Table 1, air
 #: temperature at 150 cm: a = lag of the maximum after solar noon (h), b = night-time

@@ -22,7 +22,6 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from planner.climate import REFERENCE_YEAR, TypicalYear
 from planner.climate.csv_reader import (
     CSV_OPTIONS,
     check_csv_declarations,
@@ -31,6 +30,7 @@ from planner.climate.csv_reader import (
     read_plain_csv,
 )
 from planner.climate.normalise import RawSeries, first_line, normalise
+from planner.climate.typical_year import REFERENCE_YEAR, TypicalYear
 from planner.errors import InputError
 from planner.fileio import check_input_file
 
@@ -85,7 +85,7 @@ def canonical_id(name: str) -> str:
         return name
     import warnings
 
-    from planner.climate import ClimateWarning
+    from planner.climate.typical_year import ClimateWarning
 
     new = DEPRECATED_IDS[name]
     warnings.warn(f"climate '{name}' is now called '{new}'; the old name is accepted in this "

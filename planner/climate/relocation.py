@@ -30,8 +30,9 @@ import dataclasses
 
 import numpy as np
 
-from planner.climate import HOURS_PER_YEAR, TypicalYear
+from planner import HOURS_PER_YEAR
 from planner.climate.solar import clear_sky_ghi, clear_sky_many, sun_paths
+from planner.climate.typical_year import TypicalYear
 
 #: Below this station clear-sky GHI (W/m2, sun within a few degrees of the horizon) an
 #: hour's measured/clear-sky ratio is dominated by noise and horizon effects; the day's

@@ -14,7 +14,8 @@ import functools
 import numpy as np
 import pandas as pd
 
-from planner.climate import HOURS_PER_YEAR, hour_starts
+from planner import HOURS_PER_YEAR
+from planner.climate.typical_year import hour_starts
 
 
 @functools.lru_cache(maxsize=128)

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.climate import TypicalYear
+from planner.climate.typical_year import TypicalYear
 from planner.errors import InputError
 
 #: Mean radius of the Earth, km: the IUGG mean radius R1 = (2a + b)/3 of the WGS 84

@@ -63,6 +63,10 @@ class Design:
     service_life_years: float | None = None  # the study's ceiling ([service_life]); None: none
     thermal_measure: str = ""   # the thermal measure installed with it (planner.site.thermal_measures)
     install_years: tuple[int, int] | None = None  # its load step's install window (planner.designs.load_growth)
+    # the study's candidate size that gave this pack (an oversize factor, or years of load for
+    # primary cells); ``oversize_factor`` is the pack actually built over the 1x size, after
+    # rounding to whole cells
+    oversize_step: float | None = None
 
     @property
     def is_existing(self) -> bool:
@@ -271,7 +275,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
             steps = [(y, reference.capacity_wh * y) for y in PRIMARY_YEARS_OF_LOAD]
         references[chem_id] = reference
         seen = set()
-        for _factor, capacity in steps:
+        for step, capacity in steps:
             pack = _pack(model, chem, capacity)
             if pack.label in seen:  # whole cells: two factors can give the same pack
                 continue
@@ -282,7 +286,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
                                       float(volts), pack, reference,
                                       service_life_years=caps.get(chem_id),
-                                      thermal_measure=model.thermal_measure))
+                                      thermal_measure=model.thermal_measure, oversize_step=float(step)))
     site = model.site
     if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)

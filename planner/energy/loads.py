@@ -20,7 +20,7 @@ import numpy as np
 from planner import HOURS_PER_YEAR
 from planner.errors import InputError
 from planner.fileio import read_input_bytes
-from planner.tables import read_table
+from planner.inputs.tables import read_table
 
 #: Upper bound accepted for any load power (W). Remote unattended sites (telemetry,
 #: repeaters, monitors) draw from about a watt to a few kilowatts; a value above this
@@ -194,7 +194,7 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
     1 January 00:00 local standard time; exactly 8,760 data rows, or 8,784 for a leap
     year, in which case the 24 rows of 29 February (data rows 1,417-1,440) are dropped.
     Blank lines are skipped (and counted in the line numbers of messages). Every value
-    must be a finite number (:mod:`planner.numbers`) from 0 to
+    must be a finite number (:mod:`planner.inputs.numbers`) from 0 to
     ``MAX_LOAD_W``.
 
     Parameters
@@ -217,7 +217,7 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
     """
     src = os.fspath(path)
     data = read_input_bytes(src, what="a CSV of hourly load")
-    # Lines are numbered as an editor shows them, blank lines counted (planner.tables).
+    # Lines are numbered as an editor shows them, blank lines counted (planner.inputs.tables).
     table = read_table(data, source=src, kind="csv", what="a CSV of hourly load")
     if not table.has(column):
         raise InputError(f"header: found columns {list(table.columns)}, expected a column "

@@ -164,7 +164,7 @@ PARAMETER_SOURCES = {
         "et al. 2018); pass the site's effective battery temperature"
     ),
     "eol_soh_frac": (
-        "0.8: common practice for reporting life (DESIGN.md); the planner passes the "
+        "0.8: common practice for reporting life; the planner passes the "
         "site's requirement-based threshold"
     ),
     "temperature_profile": (

@@ -28,7 +28,8 @@ from planner.designs.service import SERVICE_CAUSES
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack.structure import PARAMETER_SOURCES as PACK_SOURCES
-from planner.plan.comparison import comparison_rows
+from planner.plan.attention import needs_attention
+from planner.plan.comparison import comparison_rows, cost_groups, fleet_cost
 from planner.plan.costing import pack_price
 from planner.plan.spending import spending_by_region, spending_by_year
 from planner.plan.visit_risk import risk_before_next_visit
@@ -101,12 +102,15 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         entry.update({
             "design_id": d.design_id, "chemistry": d.chemistry,
             "oversize_factor": round(d.oversize_factor, 4) if not d.is_existing else None,
+            "oversize_factor_step": d.oversize_step,
             "charge_voltage_v_per_cell": d.charge_voltage_v_per_cell,
             "charge_voltage_v": round(d.charge_voltage_v_per_cell * d.pack.series_cells, 4),
             "capacity_wh": d.pack.capacity_wh, "capacity_ah": d.pack.capacity_ah,
             "pack_structure": d.pack.label, "pack_mass_kg": d.pack.mass_kg,
             "life_years": _finite(shown.life_years), "limiting_cause": shown.limiting_cause,
             "eol_soh_frac": shown.eol_soh_frac,
+            "years_to_report_soh": years_to_soh(shown.soh_monthly,
+                                                study.settings["study"]["report_soh_frac"]),
             "life_p10_years": _finite(shown.life_p10_years),
             "life_p50_years": _finite(shown.life_p50_years),
             "life_p90_years": _finite(shown.life_p90_years),
@@ -147,6 +151,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
+            "pack_mass_kg": existing.design.pack.mass_kg,
             "remaining_life_years": _finite(existing.life_years)}
     shortfall = model.charging_shortfall
     if shortfall is not None:
@@ -206,6 +211,8 @@ def _replacements(designs: SiteDesigns, plan) -> list[dict]:
         out.append({
             "year": int(year), "month": int(month), "design_id": c.design_id, "chemistry": c.chemistry,
             "oversize_factor": c.oversize_factor, "capacity_wh": c.capacity_wh,
+            "oversize_factor_step": outcome.design.oversize_step if outcome else None,
+            "pack_structure": outcome.design.pack.label if outcome else None,
             "charge_voltage_v_per_cell": c.charge_voltage_v_per_cell,
             "charge_voltage_v": round(c.charge_voltage_v_per_cell * cells, 4) if cells else None,
             "pack_mass_kg": c.mass_kg, "life_years": _finite(c.life_years),
@@ -288,6 +295,18 @@ def _extrapolation(model: SiteModel, outcome: Outcome) -> list[str]:
 
 def _finite(value):
     return float(value) if value is not None and math.isfinite(value) else None
+
+
+def years_to_soh(soh_monthly, soh_frac: float) -> float | None:
+    """Years from installation until a monthly SOH curve first falls below ``soh_frac``
+    (None when it stays above it over the curve).
+
+    >>> years_to_soh([1.0, 0.95, 0.9, 0.85, 0.79], 0.8)
+    0.3333333333333333
+    """
+    curve = np.asarray(soh_monthly if soh_monthly is not None else [], dtype=float)
+    below = np.flatnonzero(curve < soh_frac)
+    return float(below[0]) / 12.0 if below.size else None
 
 
 def _assumptions(study: Study) -> list[dict]:
@@ -432,11 +451,13 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
              for m, d in zip(models, designs)]
     s = study.settings["study"]
     spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
-    return {
+    visit_cost = {o.site_id: o.site_visit_cost for o in problem.sites}
+    plan = {
         "schema_version": 1,
         "study": {"name": study.name, "currency": s["currency"], "horizon_years": s["horizon_years"],
                   "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
-                  "inflation_frac": s["inflation_frac"],
+                  "inflation_frac": s["inflation_frac"], "report_soh_frac": s["report_soh_frac"],
+                  "payload_kg_per_trip": study.settings["limits"]["payload_kg_per_trip"] or None,
                   "sites_file": study.sites_path.name, "planner_version": __version__},
         # no site served: there is no plan whose cost could be given (docs/plan-json.md)
         "total_present_cost": solution.objective if solution.sites else None,
@@ -457,10 +478,12 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                                    _counts(site.get("life_limited_by") for site in sites).items()],
         "trips": [{"region": t.region, "year": t.year, "month": t.month,
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
-                   "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
+                   "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost,
+                   "site_visits_cost": sum(visit_cost.get(i, 0.0) for i in t.site_ids)}
                   for t in solution.trips],
         "spending_by_year": spending_by_year(problem, solution, **spend),
         "spending_by_region": spending_by_region(problem, solution, **spend),
+        "cost_groups": cost_groups(fleet_cost(solution)),
         "chemistry_comparison": comparison_rows(solution, comparison),
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
                          "change_frac": c.change_frac, "designs_changed": c.designs_changed,
@@ -471,3 +494,5 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
                            for u in solution.unserved],
         "binding_limits": list(solution.binding_limits),
     }
+    plan["needs_attention"] = needs_attention(plan)
+    return plan

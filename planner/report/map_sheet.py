@@ -16,20 +16,22 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.series import SeriesLabel
 from openpyxl.utils import get_column_letter
 
+from planner.plan.attention import AT_RISK_FRAC, sites_not_served
 from planner.report import styles
 from planner.report.cells import cell_value, neutralise_text, put
 from planner.report.charts import CHART_HEIGHT_CM, CHART_WIDTH_CM
-from planner.report.risk_sheet import AT_RISK_FRAC
 from planner.report.tables import (
     CHART_ROWS,
     Column,
     dig,
     field_of,
+    long_table_print_area,
     plan_sites,
     seq,
     title,
     write_table,
 )
+from planner.report.wording import chemistry_name
 
 #: Marker shapes of the series, in turn (openpyxl marker symbols).
 MARKERS = ("circle", "triangle", "diamond", "square", "x", "star", "plus", "dash")
@@ -81,17 +83,18 @@ def _order(keys) -> list:
     return known + sorted(k for k in set(keys) if k not in DERIVED_STATUSES)
 
 
-def _scatter(ws, *, title_text, groups, x_col, y_col, anchor, bounds):
+def _scatter(ws, *, title_text, groups, x_col, y_col, anchor, bounds, colours=None, labels=None):
     chart = ScatterChart()
     chart.title = neutralise_text(title_text)
     chart.style = 2
     for index, (label, first, last) in enumerate(groups):
         s = Series(Reference(ws, min_col=y_col, min_row=first, max_row=last),
                    Reference(ws, min_col=x_col, min_row=first, max_row=last))
-        s.tx = SeriesLabel(v=neutralise_text(label))
+        s.tx = SeriesLabel(v=neutralise_text((labels or {}).get(label, label)))
         s.marker.symbol = MARKERS[index % len(MARKERS)]
         s.marker.size = 6
-        colour = styles.SERIES_COLOURS[index % len(styles.SERIES_COLOURS)]
+        colour = (colours(label) if colours else
+                  styles.SERIES_COLOURS[index % len(styles.SERIES_COLOURS)])
         s.marker.graphicalProperties.solidFill = colour
         s.marker.graphicalProperties.line.solidFill = colour
         s.graphicalProperties.line.noFill = True   # points only: no line joins the sites
@@ -141,9 +144,12 @@ def _blocks(keys, top):
     return out
 
 
-def map_sheet(ws, plan) -> None:
+def map_sheet(ws, plan, fmt) -> None:
     sites = plan_sites(plan)
+    names = fmt["chemistry_names"]
+    # not served as on Needs attention: no design serves it, or it loses too much of its load
     unserved = {str(u.get("id")) for u in seq(plan.get("unserved_sites")) if isinstance(u, dict)}
+    unserved |= set(sites_not_served(plan))
     located = [s for s in sites if _position(s) is not None]
     title(ws, "Where the sites are",
           "Longitude x latitude of every site: by chosen chemistry and by attention status. "
@@ -162,7 +168,7 @@ def map_sheet(ws, plan) -> None:
     cols = [Column("Site id", field_of("id"), width=12),
             Column("Site name", field_of("name")),
             Column("Region", field_of("region"), optional=True),
-            Column("Chemistry", lambda s: chem[id(s)], width=10),
+            Column("Chemistry", lambda s: chemistry_name(chem[id(s)], names), width=24),
             Column("Attention", lambda s: status[id(s)], width=18),
             Column("Longitude [° E]", lambda s: _position(s)[1], styles.THREE_DECIMALS, width=10),
             Column("Latitude [° N]", lambda s: _position(s)[0], styles.THREE_DECIMALS, width=10),
@@ -182,7 +188,8 @@ def map_sheet(ws, plan) -> None:
     bounds = _bounds([_position(s) for s in located])
     _scatter(ws, title_text="Sites by chosen chemistry",
              groups=_blocks([chem[id(s)] for s in by_chem], top + 1),
-             x_col=lon_col, y_col=lat_col, anchor="A3", bounds=bounds)
+             x_col=lon_col, y_col=lat_col, anchor="A3", bounds=bounds, colours=styles.chemistry_colour,
+             labels={c: chemistry_name(c, names) for c in set(chem.values())})
     # The attention chart reads a block sorted by status, two columns right of the table.
     left = len(kept) + 2
     rank = {k: i for i, k in enumerate(_order(list(status.values())))}
@@ -200,3 +207,4 @@ def map_sheet(ws, plan) -> None:
     if last > top:
         ws.auto_filter.ref = f"A{top}:{get_column_letter(len(kept))}{last}"
     styles.landscape_fit_width(ws, title_rows=f"{top}:{top}")
+    long_table_print_area(ws, 1, top, last, len(kept), "sites")

@@ -3,8 +3,8 @@
 Everything is checked before any computation, and every mistake found is reported
 together (:class:`~planner.errors.MistakeList`): each is one line naming the file, the
 key path or the row and column, what was found and what was expected. Numbers go
-through the one number parser (:mod:`planner.numbers`), paths through the one resolver
-(:func:`planner.fileio.resolve_path`), tables through :mod:`planner.tables`.
+through the one number parser (:mod:`planner.inputs.numbers`), paths through the one resolver
+(:func:`planner.fileio.resolve_path`), tables through :mod:`planner.inputs.tables`.
 
 Paths in a study are relative to the study file's real folder: a study opened through a
 symbolic link reads its sites table, climate and load files, and writes its
@@ -25,7 +25,7 @@ from typing import Any
 
 from planner.errors import InputError, MistakeList
 from planner.fileio import read_input_bytes, resolve_path
-from planner.numbers import NumberError, parse_number, shown
+from planner.inputs.numbers import NumberError, parse_number, shown
 from planner.study.schema import (
     NAMED_SECTIONS,
     SECTIONS,
@@ -211,7 +211,7 @@ def parse_field(spec: Field, value, *, from_text: bool):
 
 
 def _number(spec: Field, value) -> float:
-    # One parser for every number (planner.numbers): no exponent in a table cell's text.
+    # One parser for every number (planner.inputs.numbers): no exponent in a table cell's text.
     return float(parse_number(value, minimum=spec.minimum, maximum=spec.maximum,
                               exclusive_minimum=spec.exclusive_minimum,
                               integer=spec.kind == "int", exponent=False))

@@ -2,7 +2,7 @@
 
 One row per site (its id) or per named normal (a name sites give in their
 ``normals_id`` column); columns in :data:`planner.study.schema.NORMALS_COLUMNS`. Rows
-are numbered as the user's spreadsheet or editor shows them (:mod:`planner.tables`),
+are numbered as the user's spreadsheet or editor shows them (:mod:`planner.inputs.tables`),
 numbers go through the one number parser, and every mistake of the table is reported
 together.
 """
@@ -16,9 +16,9 @@ from typing import Any
 
 from planner.errors import InputError, MistakeList
 from planner.fileio import read_input_bytes
+from planner.inputs.tables import read_table
 from planner.study.loading import _shown, parse_field
 from planner.study.schema import MONTHS, NORMALS_COLUMNS, closest
-from planner.tables import read_table
 
 
 def read_normals_table(path: Path) -> dict[str, Mapping[str, Any]]:

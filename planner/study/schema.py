@@ -87,7 +87,9 @@ STUDY = (
     F("warming_k", "float", 0.0, "K", -5.0, 10.0,
       doc="Added to every hourly air temperature (climate-change sensitivity)."),
     F("report_soh_frac", "float", 0.8, "fraction", 0.5, 0.99,
-      doc="State of health used to report a 'life' figure (planning uses the site requirement)."),
+      doc="State of health at which the plan also reports each chosen pack's years "
+          "(years_to_report_soh, Sites column 'Years to ... SOH'); lives and replacements use "
+          "each site's own end of life (eol_soh_frac)."),
 )
 
 CANDIDATES = (
@@ -360,7 +362,7 @@ def reference_markdown() -> str:
         "decimal point (`2`, `-1.5`, `0.25`). Exponents (`1e1`), digit separators (`1_0`, `1,000`),",
         "`inf` and `nan` are errors; months are whole numbers 1-12. Every number of the study, the",
         "sites table, a climate declaration or a command-line option goes through one parser",
-        "(`planner.numbers`): non-finite values and huge integers are refused like any value out of",
+        "(`planner.inputs.numbers`): non-finite values and huge integers are refused like any value out of",
         "range.",
         "",
         "Every mistake of the study and its sites table is reported in one run, one line each (at",

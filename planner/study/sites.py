@@ -1,8 +1,8 @@
 """The sites table: one row per site, checked cell by cell and rule by rule.
 
-The table is read by :mod:`planner.tables` (rows numbered as the user's spreadsheet or
+The table is read by :mod:`planner.inputs.tables` (rows numbered as the user's spreadsheet or
 editor shows them; repeated or empty headers and rows longer than the header refused),
-numbers by :mod:`planner.numbers`. Every mistake goes to the study's
+numbers by :mod:`planner.inputs.numbers`. Every mistake goes to the study's
 :class:`~planner.errors.MistakeList`, so a table with ten bad cells gives ten lines in
 one run. A row with a bad cell skips the rules that join several columns (they would
 only repeat the mistake).
@@ -16,6 +16,7 @@ from types import MappingProxyType
 
 from planner.errors import InputError, MistakeList
 from planner.fileio import check_input_file, read_input_bytes
+from planner.inputs.tables import Table, read_table
 from planner.study.loading import (
     CLIMATE_KINDS,
     Site,
@@ -26,7 +27,6 @@ from planner.study.loading import (
 )
 from planner.study.normals import read_normals_table
 from planner.study.schema import SITE_COLUMNS, closest
-from planner.tables import Table, read_table
 
 #: Columns that describe the pack in service; filled in, they need its chemistry.
 EXISTING_PACK_COLUMNS = ("existing_capacity_wh", "existing_installed_year", "existing_soh_frac")

@@ -15,7 +15,7 @@ one set of rules holds for all of them:
   quotes"), never a silent shift of every column; fewer fields leave the rest blank.
 
 A :class:`Table` holds the cells as text; numbers are read by
-:mod:`planner.numbers` (:meth:`Table.numbers` for a whole column).
+:mod:`planner.inputs.numbers` (:meth:`Table.numbers` for a whole column).
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ from typing import NamedTuple
 import numpy as np
 
 from planner.errors import InputError
-from planner.numbers import parse_number_column
+from planner.inputs.numbers import parse_number_column
 
 
 class Row(NamedTuple):

@@ -74,7 +74,7 @@ def parse_number(value, *, minimum: float | None = None, maximum: float | None =
     >>> parse_number(10 ** 400, maximum=60, integer=True)
     Traceback (most recent call last):
     ...
-    planner.numbers.NumberError: out of range
+    planner.inputs.numbers.NumberError: out of range
     """
     number = _as_float(value, exponent)
     if integer:
