@@ -9,8 +9,9 @@ from planner.cli import cli
 
 
 def life_json(*args):
-    result = CliRunner().invoke(cli, ["life", "--chemistry", "lfp", "--temp-c", "35", "--json",
-                                      "--draws", "400", *args])
+    # 45 °C: the default LFP pack reaches 80 % within the horizon (about 32 years stored)
+    result = CliRunner().invoke(cli, ["life", "--chemistry", "lfp", "--temp-c", "45", "--json",
+                                      "--years", "60", "--draws", "400", *args])
     assert result.exit_code == 0, result.output
     return json.loads(result.output)
 

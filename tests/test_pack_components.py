@@ -126,14 +126,15 @@ def test_a_sun_shield_can_win_at_a_hot_desert_site(tmp_path):
     # LFP for hundreds of hours (charging blocked) and its electronics and cells age by
     # the heat; a sun shield lowers both. With LFP the only chemistry, the shield must be
     # tried; at its default price (250 + 2 crew hours) it wins where the longer life saves
-    # a replacement trip (invented case: a 16-year horizon, a 5,000 trip).
+    # a replacement trip (invented case: a 25-year horizon, a 5,000 trip; the electronics
+    # end the pack, about 11 years bare and 13 shaded: two replacements against one).
     from planner import pipeline
     from planner.optimize import solve_fleet
     from planner.plan import build_problem
 
     study, models = _models(tmp_path, "D-1,D-1,r,hot-desert,cabinet-sun,4.5,pv,80,5,12,\n",
                             '[thermal]\nmeasures = ["sun-shield"]\n'
-                            '[regions.r]\ntrip_cost = 5000.0\n', horizon=16)
+                            '[regions.r]\ntrip_cost = 5000.0\n', horizon=25)
     designs, hints = pipeline._evaluate_with_measures(study, models)
     measures = {o.design.thermal_measure for o in designs[0].outcomes}
     assert "sun-shield" in measures

@@ -73,8 +73,44 @@ def arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c=25.0):
                   * (1.0 / temp_k - 1.0 / (temp_ref_c + KELVIN_OFFSET)))
 
 
+def cold_limited_rate(temp_c, warm_rate, *, below_c=None, low_activation_energy_j_mol=None,
+                      no_gain_below_c=None):
+    r"""A calendar law's temperature part, carried into the cold only as far as data go.
+
+    .. math::
+
+        r(T) = \begin{cases} w(T') & T' \ge T_b \\
+               w(T_b)\,AF_{E_{a,low}}(T'; T_b) & T' < T_b \end{cases}
+        \qquad T' = \max(T, T_{stop})
+
+    with :math:`w` = ``warm_rate`` (the law's own temperature part, as fitted),
+    :math:`T_b` = ``below_c`` [°C] (the lowest temperature of the law's own storage tests),
+    :math:`E_{a,low}` = ``low_activation_energy_j_mol`` [J/mol] (the slope a storage study
+    that covers the cold supports, :func:`arrhenius_factor` referenced to :math:`T_b`) and
+    :math:`T_{stop}` = ``no_gain_below_c`` [°C] (the lowest storage temperature of that
+    study): colder than it the rate falls no further, because no data say by how much
+    (research note cold-and-scale, §2). Each limit is optional.
+
+    Examples
+    --------
+    A rate that halves per 10 K, held below 0 °C:
+
+    >>> rate = lambda t: 2.0 ** (np.asarray(t, dtype=float) / 10.0)
+    >>> [float(cold_limited_rate(t, rate, no_gain_below_c=0.0)) for t in (10.0, 0.0, -20.0)]
+    [2.0, 1.0, 1.0]
+    """
+    temp = np.asarray(temp_c, dtype=float)
+    if no_gain_below_c is not None:
+        temp = np.maximum(temp, no_gain_below_c)
+    rate = warm_rate(temp)
+    if below_c is None or low_activation_energy_j_mol is None:
+        return rate
+    cold = warm_rate(below_c) * arrhenius_factor(temp, low_activation_energy_j_mol, below_c)
+    return np.where(temp < below_c, cold, rate)
+
+
 def arrhenius_factor_below(temp_c, activation_energy_j_mol, temp_ref_c, *, below_c=None,
-                           low_activation_energy_j_mol=None):
+                           low_activation_energy_j_mol=None, no_gain_below_c=None):
     r"""Arrhenius factor with its own activation energy below the lowest fitted temperature.
 
     .. math::
@@ -84,18 +120,15 @@ def arrhenius_factor_below(temp_c, activation_energy_j_mol, temp_ref_c, *, below
 
     with :math:`T_b` = ``below_c`` [°C], :math:`E_a` = ``activation_energy_j_mol`` and
     :math:`E_{a,low}` = ``low_activation_energy_j_mol`` [J/mol] (the second factor
-    referenced to :math:`T_b`). A fit on warm points only
-    (e.g. 25 and 45 °C) says nothing about the slope in the cold: a storage study that
-    covers the cold supplies it (docs/aging.md, "Cold storage"). Without ``below_c`` the
-    plain factor is returned.
+    referenced to :math:`T_b`), held constant below ``no_gain_below_c``
+    (:func:`cold_limited_rate`). A fit on warm points only (e.g. 25 and 45 °C) says
+    nothing about the slope in the cold: a storage study that covers the cold supplies it
+    (docs/aging.md, "Cold storage"). Without ``below_c`` the plain factor is returned.
     """
-    af = arrhenius_factor(temp_c, activation_energy_j_mol, temp_ref_c)
-    if below_c is None or low_activation_energy_j_mol is None:
-        return af
-    temp = np.asarray(temp_c, dtype=float)
-    cold = (arrhenius_factor(below_c, activation_energy_j_mol, temp_ref_c)
-            * arrhenius_factor(temp, low_activation_energy_j_mol, below_c))
-    return np.where(temp < below_c, cold, af)
+    return cold_limited_rate(
+        temp_c, lambda t: arrhenius_factor(t, activation_energy_j_mol, temp_ref_c),
+        below_c=below_c, low_activation_energy_j_mol=low_activation_energy_j_mol,
+        no_gain_below_c=no_gain_below_c)
 
 
 def naumann2018_soc_factor(soc_frac, soc_c, soc_d):
@@ -120,7 +153,8 @@ def naumann2018_soc_factor(soc_frac, soc_c, soc_d):
 
 def naumann2018_calendar_loss(temp_c, soc_frac, duration_s, *, k_ref_per_sqrt_s,
                               activation_energy_j_mol, temp_ref_c, soc_c, soc_d,
-                              low_temp_below_c=None, low_temp_activation_energy_j_mol=None):
+                              low_temp_below_c=None, low_temp_activation_energy_j_mol=None,
+                              no_gain_below_c=None):
     r"""Calendar capacity loss of an LFP/graphite cell at constant conditions (fraction).
 
     .. math::
@@ -142,6 +176,8 @@ def naumann2018_calendar_loss(temp_c, soc_frac, duration_s, *, k_ref_per_sqrt_s,
     low_temp_below_c, low_temp_activation_energy_j_mol : float, optional
         Below this temperature the activation energy of a cold storage study applies
         (:func:`arrhenius_factor_below`).
+    no_gain_below_c : float, optional
+        Below this temperature the rate falls no further (:func:`cold_limited_rate`).
 
     Returns
     -------
@@ -168,13 +204,15 @@ def naumann2018_calendar_loss(temp_c, soc_frac, duration_s, *, k_ref_per_sqrt_s,
     """
     k = (k_ref_per_sqrt_s * arrhenius_factor_below(temp_c, activation_energy_j_mol, temp_ref_c,
                                                    below_c=low_temp_below_c,
-                                                   low_activation_energy_j_mol=low_temp_activation_energy_j_mol)
+                                                   low_activation_energy_j_mol=low_temp_activation_energy_j_mol,
+                                                   no_gain_below_c=no_gain_below_c)
          * naumann2018_soc_factor(soc_frac, soc_c, soc_d))
     return k * np.sqrt(np.asarray(duration_s, dtype=float))
 
 
 def schmalstieg2014_alpha_cap(voltage_v, temp_c, *, voltage_slope_per_v, voltage_offset,
-                              scale, temp_coefficient_k, **_):
+                              scale, temp_coefficient_k, low_temp_below_c=None,
+                              low_temp_activation_energy_j_mol=None, no_gain_below_c=None, **_):
     r"""Calendar coefficient of Schmalstieg et al. 2014, in d^-0.75.
 
     .. math::
@@ -185,7 +223,9 @@ def schmalstieg2014_alpha_cap(voltage_v, temp_c, *, voltage_slope_per_v, voltage
     (7.543 1/V), :math:`b` = ``voltage_offset`` (-23.75), :math:`s` = ``scale`` (1e6),
     :math:`\theta` = ``temp_coefficient_k`` (6976 K, i.e. Ea = 58.0 kJ/mol) and
     :math:`T` = ``temp_c`` + 273.15 K; clamped at 0 below the voltage where the linear
-    term vanishes (about 3.15 V).
+    term vanishes (about 3.15 V). Below ``low_temp_below_c`` the temperature part follows
+    ``low_temp_activation_energy_j_mol`` and below ``no_gain_below_c`` it is held
+    (:func:`cold_limited_rate`; the published law has neither).
 
     Parameters
     ----------
@@ -209,9 +249,26 @@ def schmalstieg2014_alpha_cap(voltage_v, temp_c, *, voltage_slope_per_v, voltage
     >>> round(float(a), 7)
     0.0004948
     """
-    temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
     linear = np.maximum(voltage_slope_per_v * np.asarray(voltage_v, dtype=float) + voltage_offset, 0.0)
-    return linear * scale * np.exp(-temp_coefficient_k / temp_k)
+    return linear * scale * schmalstieg2014_temp_factor(
+        temp_c, temp_coefficient_k=temp_coefficient_k, low_temp_below_c=low_temp_below_c,
+        low_temp_activation_energy_j_mol=low_temp_activation_energy_j_mol,
+        no_gain_below_c=no_gain_below_c)
+
+
+def schmalstieg2014_temp_factor(temp_c, *, temp_coefficient_k, low_temp_below_c=None,
+                                low_temp_activation_energy_j_mol=None, no_gain_below_c=None, **_):
+    r"""Temperature part ``exp(-theta/T)`` of :func:`schmalstieg2014_alpha_cap`, cold-limited.
+
+    ``theta`` = ``temp_coefficient_k`` [K], ``T`` = ``temp_c`` + 273.15 K; below
+    ``low_temp_below_c`` and ``no_gain_below_c`` as :func:`cold_limited_rate`.
+    """
+    def warm(temp):
+        return np.exp(-temp_coefficient_k / (np.asarray(temp, dtype=float) + KELVIN_OFFSET))
+
+    return cold_limited_rate(temp_c, warm, below_c=low_temp_below_c,
+                             low_activation_energy_j_mol=low_temp_activation_energy_j_mol,
+                             no_gain_below_c=no_gain_below_c)
 
 
 def schmalstieg2014_calendar_loss(voltage_v, temp_c, duration_days, **params):
@@ -375,10 +432,11 @@ def calendar_rate_parts(model: str, params, chemistry):
         k_ref, ea, t_ref = p["k_ref_per_sqrt_s"], p["activation_energy_j_mol"], p["temp_ref_c"]
         below = p.get("low_temp_below_c")
         ea_low = p.get("low_temp_activation_energy_j_mol")
+        stop = p.get("no_gain_below_c")
 
         def temp_part(temp_c):
             af = arrhenius_factor_below(temp_c, ea, t_ref, below_c=below,
-                                        low_activation_energy_j_mol=ea_low)
+                                        low_activation_energy_j_mol=ea_low, no_gain_below_c=stop)
             return (k_ref * af) ** 2 * SECONDS_PER_HOUR
 
         def soc_part(soc_frac):
@@ -389,8 +447,7 @@ def calendar_rate_parts(model: str, params, chemistry):
         z = p["time_exponent"]
 
         def temp_part(temp_c):
-            temp_k = np.asarray(temp_c, dtype=float) + KELVIN_OFFSET
-            return (p["scale"] * np.exp(-p["temp_coefficient_k"] / temp_k)) ** (1.0 / z) / HOURS_PER_DAY
+            return (p["scale"] * schmalstieg2014_temp_factor(temp_c, **p)) ** (1.0 / z) / HOURS_PER_DAY
 
         def soc_part(soc_frac):
             volts = chemistry.open_circuit_voltage_v(soc_frac)

@@ -11,6 +11,9 @@ import numpy as np
 
 H = 8760
 YEAR_S = 365 * 24 * 3600.0
+LONG_YEARS = 600
+"""Horizon for ratios of storage lives of sets that last centuries in storage (the
+large-format calendar levels: LFP at half charge and 25 °C lasts about 350 years)."""
 
 
 def storage_years(chem, temp_c, soc=None, years=80):
@@ -64,14 +67,14 @@ def loss_after_hours(result, hours):
     return float(np.interp(hours / H, row_years(rows), loss))
 
 
-def continuous_cycles(chem, volts=None, years=1, dod=None):
-    """Back-to-back full 1 C cycles (1 h down, 1 h up): cycles to 80 %."""
+def continuous_cycles(chem, volts=None, years=1, dod=None, temp_c=25.0):
+    """Back-to-back full 1 C cycles (1 h down, 1 h up): cycles to 80 % and the FadeResult."""
     from planner.aging import age_lanes
 
     volts = chem.default_charge_voltage_v_per_cell if volts is None else volts
     top = float(chem.usable_fraction(volts))
     depth = top if dod is None else dod
     even = np.arange(H) % 2 == 0
-    result = age_lanes(chem, np.full((H, 1), 25.0), np.where(even, top, top - depth)[:, None],
+    result = age_lanes(chem, np.full((H, 1), temp_c), np.where(even, top, top - depth)[:, None],
                        np.where(even, depth, -depth)[:, None], volts, years, peak_c_rate=1.0)
     return float(result.years_to_soh(0.8)[0]) * H / 2.0, result

@@ -58,7 +58,8 @@ def _lfp(key, chem_of):
     if key in ("wang2011/eq5/c2-life-ratio-45C-over-25C",
                "swierczynski2015/calendar-model/life-ratio-45C-over-25C"):
         soc = 1.0 if key.startswith("wang") else 0.5
-        return pred.storage_years(lfp, 25.0, soc) / pred.storage_years(lfp, 45.0, soc)
+        return (pred.storage_years(lfp, 25.0, soc, years=pred.LONG_YEARS)
+                / pred.storage_years(lfp, 45.0, soc, years=pred.LONG_YEARS))
     if key == "schimpe2018/table4/plating-share-1C-25C":
         result = pred.cycling(lfp, 25.0, dod=1.0, c_rate=1.0, years=5)
         return float(result.plating_loss_frac[-1, 0] / result.cycle_loss_frac[-1, 0])
@@ -70,6 +71,8 @@ def _lfp(key, chem_of):
         return pred.storage_years(lfp, 45.0)
     if key == "naumann2018/calendar-model/60C-soc50-1y":
         return pred.storage_loss(lfp, 60.0, 0.5)
+    if key == "naumann2018/calendar-model/60C-over-25C-soc50-1y":
+        return pred.storage_loss(lfp, 60.0, 0.5) / pred.storage_loss(lfp, 25.0, 0.5)
     if key == "wang2011/eq5/c2-25C-1000ah":
         # 1,000 Ah through a 2.2 Ah cell at C/2, full depth: 455 cycles of 4 h
         result = pred.cycling(lfp, 25.0, dod=1.0, per_day=6.0, c_rate=0.5, years=1)
@@ -122,6 +125,8 @@ def _nmc(key, chem_of):
     if key == "common-practice/stationary-nmc/1500-daily-cycles":
         return pred.cycles_to_80(nmc, 25.0, dod=0.8, per_day=1.0, c_rate=0.5,
                                  aging_set=warranty_set)
+    if key == "common-practice/stationary-nmc/daily-cycles-25C-80dod-c2":
+        return pred.cycles_to_80(nmc, 25.0, dod=0.8, per_day=1.0, c_rate=0.5)
     if key == "mokidm/abstract/samsung-nmc-35C-75dod":
         return pred.cycles_to_80(nmc, 35.0, dod=0.75, per_day=6.0, c_rate=0.5, years=10)
     if key == "waldmann2014/arrhenius-plot/1C-5C-over-25C":
@@ -130,6 +135,11 @@ def _nmc(key, chem_of):
         return float(cold.cycle_loss_frac[-1, 0] / warm.cycle_loss_frac[-1, 0])
     if key == "smith2017/calendar-model/life-ratio-60C-over-25C":
         return pred.storage_years(nmc, 25.0, years=300) / pred.storage_years(nmc, 60.0)
+    if key == "smith2017/calendar-model/life-ratio-60C-over-35C":
+        return pred.storage_years(nmc, 35.0, years=300) / pred.storage_years(nmc, 60.0)
+    if key == "smith2017/calendar-model/life-ratio-5C-over-25C":
+        return (pred.storage_years(nmc, 5.0, years=pred.LONG_YEARS)
+                / pred.storage_years(nmc, 25.0, years=pred.LONG_YEARS))
     if key.startswith("schmalstieg2014/alpha-cap/"):
         # the default's calendar law is the published one: evaluated with its parameters
         temp = 25.0 if "25C" in key else 35.0
@@ -152,9 +162,14 @@ def _consumer_cycles(nmc):
 
 
 def _side_by_side(key, chem_of):
-    """NMC over LFP at one condition (both default sets), as the side-by-side study reports."""
+    """The large-format cells of one test matrix: each default alone (its calendar level,
+    heat and daily cycling) or NMC over LFP at one condition, as the study reports."""
     lfp, nmc = chem_of("lfp"), chem_of("nmc")
     temp = 45.0 if "45C-" in key else 25.0
+    if key == "gasper2023/cycle-models/25C-80dod-c2-daily-lfp":
+        return pred.cycles_to_80(lfp, 25.0, dod=0.8, per_day=1.0, c_rate=0.5)
+    if key.endswith(("1y-lfp", "1y-nmc")):
+        return pred.storage_loss(lfp if key.endswith("-lfp") else nmc, temp, 1.0)
     if key.startswith("gasper2023/calendar-models/"):
         return pred.storage_loss(nmc, temp, 1.0) / pred.storage_loss(lfp, temp, 1.0)
     if key.startswith("gasper2023/cycle-models/"):
@@ -180,8 +195,13 @@ def _other(key, chem_of):
             return pred.storage_years(vrla, 25.0) / pred.storage_years(vrla, 30.0)
         return float(cyc.woehler_cycles_to_failure(0.5, **vrla.aging.cycle)
                      / cyc.woehler_cycles_to_failure(0.8, **vrla.aging.cycle))
-    if key.startswith(("common-practice/lto", "ghost")):
+    if key.startswith(("common-practice/lto", "ghost", "bank2020")):
         lto = chem_of("lto")
+        if key == "bank2020/fitted-model/45C-dod100-1C-5000efc":
+            _, result = pred.continuous_cycles(lto, years=2, temp_c=45.0)
+            return pred.loss_after_hours(result, 5000 * 2.0)
+        if key == "bank2020/fitted-model/storage-45C-full-1y":
+            return pred.storage_loss(lto, 45.0, 1.0)
         if key.startswith("ghost"):
             _, result = pred.continuous_cycles(lto, years=3, dod=0.8)
             return pred.loss_after_hours(result, 9000 * 2.0)
@@ -216,15 +236,31 @@ def _standard(key):
     raise KeyError(key)
 
 
+def _with_set(chem_of, set_id):
+    """``chem_of`` with the chemistry of ``set_id`` ("chemistry/set") aging by that set: a
+    row of a set other than the default is evaluated on its own set (a perturbed default
+    stays perturbed: the set keeps its name)."""
+    chem_id, set_name = set_id.split("/")
+
+    def of(cid):
+        chem = chem_of(cid)
+        if cid != chem_id or chem.default_aging_set == set_name:
+            return chem
+        return replace(chem, default_aging_set=set_name)
+
+    return of
+
+
 def predict(reference: Reference, chem_of) -> float:
-    """The planner's prediction at a reference row's condition."""
+    """The planner's prediction at a reference row's condition, with the first aging set
+    the row names (the side-by-side rows: both lithium-ion defaults)."""
     sets = reference.sets
     if reference.key.startswith("gasper2023/"):
         return float(_side_by_side(reference.key, chem_of))
     if sets and sets[0].startswith("lfp/"):
-        return float(_lfp(reference.key, chem_of))
+        return float(_lfp(reference.key, _with_set(chem_of, sets[0])))
     if sets and sets[0].startswith("nmc/"):
-        return float(_nmc(reference.key, chem_of))
+        return float(_nmc(reference.key, _with_set(chem_of, sets[0])))
     return float(_other(reference.key, chem_of))
 
 
@@ -292,7 +328,7 @@ def _mutations(set_id, calendar_ea, cold_ea=None, low_storage_ea=None, exponent=
     if cold_ea:
         out.append(Mutation(set_id, "cold (plating) activation energy x2", "cycle", cold_ea, 2.0))
     if low_storage_ea:
-        out.append(Mutation(set_id, "storage activation energy below 25 °C x2", "calendar",
+        out.append(Mutation(set_id, "cold storage activation energy x2", "calendar",
                             low_storage_ea, 2.0))
     if exponent:
         out += [Mutation(set_id, f"{exponent} +20 %", exponent_part, exponent, 1.2),
@@ -303,8 +339,8 @@ def _mutations(set_id, calendar_ea, cold_ea=None, low_storage_ea=None, exponent=
 MUTATIONS = (
     *_mutations(LFP, "activation_energy_j_mol", "plating_activation_energy_j_mol",
                 "low_temp_activation_energy_j_mol", "throughput_exponent"),
-    *_mutations(NMC, "temp_coefficient_k", "plating_activation_energy_j_mol", None,
-                "throughput_exponent"),
+    *_mutations(NMC, "temp_coefficient_k", "plating_activation_energy_j_mol",
+                "low_temp_activation_energy_j_mol", "throughput_exponent"),
     *_mutations(VRLA, "halving_step_k", None, None, "woehler_exponent"),
     *_mutations(LTO, "activation_energy_j_mol"),
 )
@@ -384,7 +420,7 @@ def render_markdown(rows: list[Row], coverage: list[Coverage] | None = None) -> 
         "",
         *[f"- {s}: {text}." for s, text in NO_INDEPENDENT_DATA.items()],
         "",
-        "Where a default set falls short of a fact of the trade (left so, with the reason):",
+        "Where a default set departs from a fact of the trade (left so, with the reason):",
         "",
         *[f"- {s}: {text}." for s, text in DEPARTURES.items()],
         "",

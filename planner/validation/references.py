@@ -47,9 +47,12 @@ def _x2(value: float) -> tuple[float, float]:
     return (value / 2.0, value * 2.0)
 
 
-LFP, NMC, VRLA, LTO, PRIMARY = ("lfp/published", "nmc/published-storage", "vrla/halving-8.3k",
+LFP, NMC, VRLA, LTO, PRIMARY = ("lfp/large-format", "nmc/large-format", "vrla/halving-8.3k",
                                 "lto/cycle-life", "lisocl2/self-discharge")
 DEFAULT_SETS = (LFP, NMC, VRLA, LTO, PRIMARY)
+LFP_SMALL_CELL, NMC_SMALL_CELL = "lfp/published", "nmc/published-storage"
+"""The sets whose calendar level is that of the small cells behind the published laws
+(selectable, not defaults): the rows of those papers' own levels check them."""
 NMC_WARRANTY = "nmc/stationary"
 """The NMC set whose calendar rate is calibrated to warranties (selectable, not a default)."""
 
@@ -59,48 +62,80 @@ GASPER = ("Gasper et al. 2023, J. Energy Storage 73, 109042 (doi 10.1016/j.est.2
           "title and volume from memory): one test matrix for large-format commercial cells, "
           "LFP 250 Ah and NMC 75 Ah (A) and 50 Ah (B1); the life models the first author fitted "
           "to each cell evaluated at the condition (read in his open-source code; anode "
-          "potential from Safari and Delacourt 2011 as in those models)")
+          "potential from Safari and Delacourt 2011 as in those models; the NMC models' "
+          "temperature normalised by 308.15 K, 35 °C, where the code reads 293.15 + 35: with "
+          "328.15 K the NMC cells would lose 0.2-1.9 % a year stored full at 25 °C and 1.4-3.7 % "
+          "at 55 °C, far below any NMC cell stored full, from memory)")
+BANK = ("Bank et al. 2020, J. Power Sources 473, 228566 (title and volume from memory): "
+        "commercial 10 Ah LTO-anode cells (NMC cathode) aged over temperature, rate and depth; "
+        "the life model the first author of Gasper et al. 2023 fitted to those data, evaluated "
+        "at the condition (read in his open-source code: cycling tested at 30-60 °C; 'almost "
+        "no calendar aging impact at all until 80 Celsius'; the fit overestimates cycling fade "
+        "in most cases, by its author's note)")
+SMITH = ("Smith et al. 2017, Proc. American Control Conference, life model of a 75 Ah Kokam "
+         "NMC cell stored and cycled from 0 to 55 °C (test range read in a code comment of the "
+         "first author of Gasper et al. 2023; b1 with Ea = 35,392 J/mol on sqrt(t), read in a "
+         "re-implementation)")
 
 REFERENCES = (
-    # ---------------------------------------------------------------- LFP (published set)
-    Reference("naumann2018/calendar-model/25C-soc50-1y", "calibration", (LFP,),
+    # ------------------------------------------ LFP (default: large-format level)
+    Reference("gasper2023/calendar-models/soc100-25C-1y-lfp", "calibration", (LFP,),
+              GASPER + ": the LFP cell's model, 8.37e4 exp(-5210/T) exp(-3560 Ua/T) t^0.526 "
+              "(t in days), the level the default's calendar law is set to",
+              "LFP stored full at 25 °C for 1 year: capacity loss", 0.01712, (0.0169, 0.0173),
+              "fraction", 4),
+    Reference("naumann2018/calendar-model/25C-soc50-1y", "calibration", (LFP_SMALL_CELL,),
               "Naumann et al. 2018, J. Energy Storage 17, 153-169, calendar capacity model "
               "(equation evaluated; coefficients read in a re-implementation by the same group)",
               "LFP storage at 25 °C, SOC 0.5, 1 year: capacity loss", 0.0425, (0.0420, 0.0430),
               "fraction", 4),
-    Reference("naumann2018/calendar-model/25C-soc100-1y", "calibration", (LFP,),
+    Reference("naumann2018/calendar-model/25C-soc100-1y", "calibration", (LFP_SMALL_CELL,),
               "Naumann et al. 2018, calendar capacity model (same)",
               "LFP storage at 25 °C, SOC 1.0, 1 year: capacity loss", 0.0678, (0.0673, 0.0683),
               "fraction", 4),
-    Reference("naumann2020/cycle-model/1C-doc100-1000fec", "calibration", (LFP,),
+    Reference("naumann2020/cycle-model/1C-doc100-1000fec", "calibration", (LFP, LFP_SMALL_CELL),
               "Naumann et al. 2020, J. Power Sources 451, 227666, cycle capacity model "
               "(equation evaluated; coefficients read in a re-implementation)",
               "LFP cycling at 1 C, depth 1.0, 1,000 full cycles, 25 °C: capacity loss", 0.0683,
               (0.0678, 0.0688), "fraction", 4),
-    Reference("wang2011/eq5/c2-life-ratio-45C-over-25C", "calibration", (LFP,),
+    Reference("wang2011/eq5/c2-life-ratio-45C-over-25C", "calibration", (LFP, LFP_SMALL_CELL),
               "Wang et al. 2011, J. Power Sources 196, 3942-3948, Eq. 5 at C/2 (equation "
               "evaluated: exp((31,700 - 185) J/mol / R x (1/298.15 - 1/318.15))^(1/0.55))",
               "LFP life at 25 °C / life at 45 °C (the default's activation energy above 25 °C)",
               4.28, (4.2, 4.36), "ratio", 2),
-    Reference("schimpe2018/table4/plating-share-1C-25C", "calibration", (LFP,),
+    Reference("schimpe2018/table4/plating-share-1C-25C", "calibration", (LFP, LFP_SMALL_CELL),
               "Schimpe et al. 2018, J. Electrochem. Soc. 165 (2), A181-A193, Table IV: "
               "4.01e-4 / (4.01e-4 + 1.46e-4 x sqrt(2)) (read in a re-implementation)",
               "LFP, 1 cycle a day, 1 C, 25 °C: plating share of the cycle loss", 0.660,
               (0.62, 0.70), "fraction", 3),
-    Reference("schimpe2018/table4/charge-at-0C-over-25C", "calibration", (LFP,),
+    Reference("schimpe2018/table4/charge-at-0C-over-25C", "calibration", (LFP, LFP_SMALL_CELL),
               "Schimpe et al. 2018, Table IV: exp(55.5 kJ/mol / R x (1/273.15 - 1/298.15))",
               "LFP plating loss, charging hours at 0 °C / at 25 °C (same cycle)", 7.76,
               (7.6, 7.9), "ratio", 2),
-    Reference("common-practice/storage/lfp-25C-full", "validation", (LFP,),
+    Reference("gasper2023/calendar-models/soc100-45C-1y-lfp", "validation", (LFP,),
+              GASPER + ": the LFP cell's model (same); the default's heat sensitivity comes "
+              "from other studies (Wang et al. 2011)",
+              "LFP stored full at 45 °C for 1 year: capacity loss (warm)", 0.05479,
+              _x2(0.05479), "fraction", 4, "band: within a factor of 2 (the heat law of "
+              "another study on this cell's level at 25 °C)"),
+    Reference("gasper2023/cycle-models/25C-80dod-c2-daily-lfp", "validation", (LFP,),
+              GASPER + ": the LFP cell's model, calendar 8.37e4 exp(-5210/T) exp(-3560 Ua/T) "
+              "t^0.526 averaged over the day and cycling (4.38e-8 + 1.55e-8 DOD + 1.68e-7 C) "
+              "(exp(2190/T) + exp(-1.55e5/T)) EFC^0.828 with C the C-rate averaged over the "
+              "day, as the model's code takes it (at the cycles' own C/2 it gives 3,300)",
+              "LFP, 25 °C, 1 cycle a day, 80 % depth, C/2, calendar fade included: cycles to "
+              "80 % (cycling)", 6530.0, _x2(6530.0), "cycles", 0, CROSS_CELL),
+    Reference("common-practice/storage/lfp-25C-full", "validation", (LFP_SMALL_CELL,),
               "common practice: LFP stored full lasts about 15 years at 25 °C",
               "LFP stored full at 25 °C: years to 80 %", 15.0, (7.5, 30.0), "years", 1,
               "band: within a factor of 2, wide enough to hold the published storage data "
-              "the default rests on (8.7 years) and the trade figure"),
-    Reference("common-practice/storage/lfp-45C-full", "validation", (LFP,),
+              "of the small cell (8.7 years) and the trade figure"),
+    Reference("common-practice/storage/lfp-45C-full", "validation", (LFP_SMALL_CELL,),
               "common practice: LFP stored full lasts about 3 years at 45 °C",
               "LFP stored full at 45 °C: years to 80 % (warm)", 3.0, (1.5, 6.0), "years", 1,
               "band: within a factor of 2"),
-    Reference("swierczynski2015/calendar-model/life-ratio-45C-over-25C", "validation", (LFP,),
+    Reference("swierczynski2015/calendar-model/life-ratio-45C-over-25C", "validation",
+              (LFP, LFP_SMALL_CELL),
               "Swierczynski et al. 2015, IEEE Trans. Ind. Appl. 51, 3453-3461, calendar model "
               "of A123 LFP cells from storage tests (equation evaluated; read in a "
               "re-implementation): (3.258e-9 45^5.087 + 0.295) / (3.258e-9 25^5.087 + 0.295) "
@@ -109,9 +144,16 @@ REFERENCES = (
               (4.55 / 1.5, 4.55 * 1.5), "ratio", 2,
               "band: within x1.5 either way, two studies of the same cell type (another lab, "
               "storage instead of cycling)"),
-    Reference("naumann2018/calendar-model/60C-soc50-1y", "validation", (LFP,),
+    Reference("naumann2018/calendar-model/60C-over-25C-soc50-1y", "validation", (LFP,),
               "Naumann et al. 2018, calendar capacity model at the top of its storage tests "
-              "(equation evaluated with the paper's own Ea = 17.1 kJ/mol; the default's heat "
+              "(equation evaluated with the paper's own Ea = 17.1 kJ/mol: exp(17,126 J/mol / R "
+              "x (1/298.15 - 1/333.15)); the default's heat law above 25 °C comes from other "
+              "studies)",
+              "LFP storage at SOC 0.5 for 1 year: capacity loss at 60 °C / at 25 °C (hot end)",
+              2.066, _x2(2.066), "ratio", 2, "band: within a factor of 2 (the two heat laws)"),
+    Reference("naumann2018/calendar-model/60C-soc50-1y", "validation", (LFP_SMALL_CELL,),
+              "Naumann et al. 2018, calendar capacity model at the top of its storage tests "
+              "(equation evaluated with the paper's own Ea = 17.1 kJ/mol; the set's heat "
               "law above 25 °C comes from other studies)",
               "LFP storage at 60 °C, SOC 0.5, 1 year: capacity loss (hot end)", 0.0879,
               _x2(0.0879), "fraction", 4, "band: within a factor of 2 (the two heat laws)"),
@@ -132,15 +174,27 @@ REFERENCES = (
               "LFP, 1 cycle a day, 80 % depth: cycle loss charged at 5 °C at C/5 / charged "
               "at 25 °C at C/2 (cold end)", 1.0, (0.5, 3.0), "ratio", 2,
               "band: from half to three times (an inference from a current limit)"),
-    Reference("common-practice/daily-cycling/lfp-25C", "validation", (LFP,),
+    Reference("common-practice/daily-cycling/lfp-25C", "validation", (LFP_SMALL_CELL,),
               "common practice: LFP cells last 1,000-3,000 full cycles at least; stationary "
               "LFP cycled once a day lasts close to a decade",
               "LFP, 25 °C, 1 cycle a day, 80 % depth, C/2: cycles to 80 %", None,
               (1500.0, 6000.0), "cycles", 0,
               "band: 1,500-6,000 holds the published cell data (about 1,800) and the trade"),
-    # ---------------------------------------------------------------- NMC (default set)
+    # ------------------------------------------ NMC (default: large-format level)
+    Reference("gasper2023/calendar-models/soc100-25C-1y-nmc", "calibration", (NMC,),
+              GASPER + ": the NMC cells' models, A 8.71e-7 exp(10 (T/308.15)^3 / (Ua/0.123)^(1/3)) "
+              "(t/1000 d)^0.578 and B1 36.2 exp(-4.4 (308.15/T)^3 (Ua/0.123)^(1/3)) "
+              "(t/10,000 d)^0.708: A 1.30 %, B1 4.63 %, geometric mean shown, the level the "
+              "default's calendar law is set to",
+              "NMC stored full at 25 °C for 1 year: capacity loss", 0.02449, (0.0241, 0.0249),
+              "fraction", 4),
+    Reference("smith2017/calendar-model/life-ratio-5C-over-25C", "calibration", (NMC,),
+              SMITH + ": exp(2 Ea/R (1/278.15 - 1/298.15)), the slope the default takes below "
+              "its own fit's 35 °C",
+              "NMC stored full: life at 5 °C / life at 25 °C (the default's cold slope)", 7.79,
+              (7.7, 7.9), "ratio", 2),
     Reference("common-practice/stationary-nmc/5000-cycles-80dod", "calibration",
-              (NMC, NMC_WARRANTY),
+              (NMC, NMC_SMALL_CELL, NMC_WARRANTY),
               "common practice: stationary NMC modules are rated for about 5,000 cycles to "
               "80 % at 80 % depth, 25 °C, C/2 (datasheets, from memory)",
               "NMC cycle term alone, 1 cycle a day, 80 % depth, 25 °C, C/2: cycles to 80 %",
@@ -155,6 +209,16 @@ REFERENCES = (
               "from the two calibration figures above)",
               "NMC, 1 cycle a day, 80 % depth, 25 °C, C/2, calendar fade included: cycles to 80 %",
               None, (1500.0, 6000.0), "cycles", 0),
+    Reference("common-practice/stationary-nmc/daily-cycles-25C-80dod-c2", "validation", (NMC,),
+              "common practice: stationary NMC lasts at least 1,500 cycles at one cycle a day "
+              "(modules rated for thousands of cycles, warranties of about ten years of daily "
+              "cycling, from memory); neither figure is what the default was fitted to (its "
+              "calendar level comes from large-format cells, its cycle term from the rated "
+              "cycle life alone)",
+              "NMC, 1 cycle a day, 80 % depth, 25 °C, C/2, charged to 4.20 V, calendar fade "
+              "included: cycles to 80 % (cycling)", None, (1500.0, 6000.0), "cycles", 0,
+              "band: at least 1,500 (the trade's floor) and no more than the 5,000 rated "
+              "cycles of the cycle term alone with a margin"),
     Reference("mokidm/abstract/samsung-nmc-35C-75dod", "validation", (NMC,),
               "Mokidm et al., experimental degradation data of Sony and BYD LFP and Samsung "
               "NMC cells (abstract read: the Samsung NMC cell reached 80 % after 3,000 cycles "
@@ -167,20 +231,25 @@ REFERENCES = (
               "about 55.5 kJ/mol, exp(55.5 kJ/mol / R (1/278.15 - 1/298.15)) = 5.0 (from memory)",
               "NMC, 1 cycle a day at 1 C: cycle loss at 5 °C / at 25 °C (cold end)", 5.0,
               (2.5, 10.0), "ratio", 2, "band: within a factor of 2 (magnitude from memory)"),
-    Reference("smith2017/calendar-model/life-ratio-60C-over-25C", "validation", (NMC,),
+    Reference("smith2017/calendar-model/life-ratio-60C-over-35C", "validation", (NMC,),
+              SMITH + ": exp(2 Ea/R (1/308.15 - 1/333.15)), over the range of the default's "
+              "own heat law (its slope below 35 °C is Smith's: a calibration row)",
+              "NMC stored full: life at 35 °C / life at 60 °C (hot end)", 7.95, _x2(7.95),
+              "ratio", 2, CROSS_CELL),
+    Reference("smith2017/calendar-model/life-ratio-60C-over-25C", "validation", (NMC_SMALL_CELL,),
               "Smith et al. 2017, Proc. American Control Conference, life model of a Kokam "
               "NMC cell: b1 with Ea = 35,392 J/mol on sqrt(t), exp(2 Ea/R (1/298.15 - "
               "1/333.15)) (parameters read in a re-implementation; test range from memory)",
               "NMC stored full: life at 25 °C / life at 60 °C (hot end)", 20.1, _x2(20.1),
               "ratio", 1, CROSS_CELL),
     Reference("schmalstieg2014/alpha-cap/4.1V-25C-365d", "calibration",
-              ("nmc/schmalstieg-published", NMC),
+              (NMC_SMALL_CELL, "nmc/schmalstieg-published"),
               "Schmalstieg et al. 2014, J. Power Sources 257, 325-334, alpha_cap equation "
               "(equation evaluated; coefficients read in a re-implementation)",
               "NMC storage at 4.1 V, 25 °C, 365 days: remaining capacity", 0.959, (0.957, 0.961),
               "fraction", 3),
     Reference("schmalstieg2014/alpha-cap/4.1V-35C-365d", "calibration",
-              ("nmc/schmalstieg-published", NMC),
+              (NMC_SMALL_CELL, "nmc/schmalstieg-published"),
               "Schmalstieg et al. 2014, alpha_cap equation (same)",
               "NMC storage at 4.1 V, 35 °C, 365 days: remaining capacity", 0.912, (0.910, 0.914),
               "fraction", 3),
@@ -199,12 +268,17 @@ REFERENCES = (
               "side by side)", 1.96, (1.0, 4.23), "ratio", 2,
               "band: from 1 (both NMC cells lose more than the LFP cell: the ordering) to twice "
               "the larger ratio"),
-    Reference("gasper2023/calendar-models/soc100-25C-1y-nmc-over-lfp", "validation", (LFP, NMC),
-              GASPER + ": NMC A / LFP 0.76, NMC B1 / LFP 2.70 (geometric mean shown)",
+    Reference("gasper2023/calendar-models/soc100-25C-1y-nmc-over-lfp", "calibration", (LFP, NMC),
+              GASPER + ": NMC A / LFP 0.76, NMC B1 / LFP 2.70 (geometric mean shown); the "
+              "condition both defaults' calendar levels are set at, so the ratio follows",
               "stored full at 25 °C for 1 year: NMC capacity loss / LFP capacity loss (side by "
-              "side)", 1.43, (0.378, 5.41), "ratio", 2,
-              "band: from half the smaller ratio to twice the larger (the two NMC cells "
-              "straddle the LFP cell)"),
+              "side)", 1.43, (1.40, 1.46), "ratio", 2),
+    Reference("gasper2023/calendar-models/soc100-45C-1y-nmc", "validation", (NMC,),
+              GASPER + ": the NMC cells' models (same): A 11.6 %, B1 9.94 %, geometric mean "
+              "shown; the default's heat sensitivity is Schmalstieg et al. 2014's",
+              "NMC stored full at 45 °C for 1 year: capacity loss (warm)", 0.1074,
+              (0.0497, 0.2319), "fraction", 4,
+              "band: from half the smaller loss to twice the larger"),
     Reference("gasper2023/cycle-models/25C-80dod-c2-1000cycles-nmc-over-lfp", "validation",
               (LFP, NMC),
               GASPER + ": NMC A / LFP 0.62, NMC B1 / LFP 1.21 (geometric mean shown)",
@@ -253,6 +327,19 @@ REFERENCES = (
               "common practice: LTO about 20,000 full cycles to 80 % at 25 °C",
               "LTO back-to-back full cycles, 25 °C: cycles to 80 %", 20000.0, (13333.0, 30000.0),
               "cycles", 0),
+    Reference("bank2020/fitted-model/45C-dod100-1C-5000efc", "validation", (LTO,),
+              BANK + ": the cycling term (1.29 + 7.83e-5 C + 4.02 DOD^3) exp(-8.33 x "
+              "318.15/T) EFC^0.526 = 11.3 % less the model's calendar gain over the 417 days "
+              "(0.7 %)",
+              "LTO cycled back to back, full depth, 1 C, 45 °C: capacity loss after 5,000 full "
+              "cycles, calendar fade included (warm, cycling)", 0.1056, _x2(0.1056), "fraction",
+              4, CROSS_CELL),
+    Reference("bank2020/fitted-model/storage-45C-full-1y", "validation", (LTO,),
+              BANK + ": no net calendar loss at 45 °C (the model gives a gain of 1.1 % and a "
+              "loss under 0.01 %)",
+              "LTO stored full at 45 °C for 1 year: capacity loss (warm)", None, (0.0, 0.02),
+              "fraction", 4, "band: no loss to 2 % (the fit's author finds almost no calendar "
+              "aging below 80 °C; the default's linear law is the conservative end)"),
     Reference("ghost/h2020-news/9000-cycles-80dod", "validation", (LTO,),
               "H2020 GHOST project: 10 % loss after more than 9,000 cycles at 80 % depth, 25 °C",
               "LTO cycled back to back at 80 % depth, 25 °C: loss after 9,000 cycles", 0.10,
@@ -291,20 +378,27 @@ REFERENCES = (
 )
 
 #: The row keys each aging set was fitted to (its calibration targets).
+_NAUMANN_CYCLE_AND_HEAT = {
+    "naumann2020/cycle-model/1C-doc100-1000fec", "wang2011/eq5/c2-life-ratio-45C-over-25C",
+    "schimpe2018/table4/plating-share-1C-25C", "schimpe2018/table4/charge-at-0C-over-25C"}
+_SCHMALSTIEG = {"schmalstieg2014/alpha-cap/4.1V-25C-365d", "schmalstieg2014/alpha-cap/4.1V-35C-365d",
+                "schmalstieg2014/beta-cap/3.667V-dod100-1000ah"}
 FITTED_TARGETS = {
-    LFP: frozenset({
-        "naumann2018/calendar-model/25C-soc50-1y", "naumann2018/calendar-model/25C-soc100-1y",
-        "naumann2020/cycle-model/1C-doc100-1000fec", "wang2011/eq5/c2-life-ratio-45C-over-25C",
-        "schimpe2018/table4/plating-share-1C-25C", "schimpe2018/table4/charge-at-0C-over-25C"}),
-    NMC: frozenset({
-        "common-practice/stationary-nmc/5000-cycles-80dod",
-        "schmalstieg2014/alpha-cap/4.1V-25C-365d", "schmalstieg2014/alpha-cap/4.1V-35C-365d",
-        "schmalstieg2014/beta-cap/3.667V-dod100-1000ah"}),
+    LFP: frozenset({"gasper2023/calendar-models/soc100-25C-1y-lfp",
+                    "gasper2023/calendar-models/soc100-25C-1y-nmc-over-lfp",
+                    *_NAUMANN_CYCLE_AND_HEAT}),
+    LFP_SMALL_CELL: frozenset({"naumann2018/calendar-model/25C-soc50-1y",
+                               "naumann2018/calendar-model/25C-soc100-1y",
+                               *_NAUMANN_CYCLE_AND_HEAT}),
+    NMC: frozenset({"gasper2023/calendar-models/soc100-25C-1y-nmc",
+                    "gasper2023/calendar-models/soc100-25C-1y-nmc-over-lfp",
+                    "smith2017/calendar-model/life-ratio-5C-over-25C",
+                    "common-practice/stationary-nmc/5000-cycles-80dod",
+                    "schmalstieg2014/beta-cap/3.667V-dod100-1000ah"}),
+    NMC_SMALL_CELL: frozenset({"common-practice/stationary-nmc/5000-cycles-80dod", *_SCHMALSTIEG}),
     NMC_WARRANTY: frozenset({
         "common-practice/stationary-nmc/5000-cycles-80dod",
-        "common-practice/stationary-nmc/warranty-70pct-10y",
-        "schmalstieg2014/alpha-cap/4.1V-25C-365d", "schmalstieg2014/alpha-cap/4.1V-35C-365d",
-        "schmalstieg2014/beta-cap/3.667V-dod100-1000ah"}),
+        "common-practice/stationary-nmc/warranty-70pct-10y", *_SCHMALSTIEG}),
     VRLA: frozenset({"agm-datasheets/woehler/50pct", "agm-datasheets/woehler/30pct"}),
     LTO: frozenset({"common-practice/lto/20000-cycles"}),
     PRIMARY: frozenset({"vendor/self-discharge/lisocl2-20C", "vendor/self-discharge/lisocl2-70C"}),
@@ -312,16 +406,19 @@ FITTED_TARGETS = {
 
 #: Perturbations no honest validation row rejects, and why (the report lists them).
 KNOWN_GAPS = {
-    (LFP, "storage activation energy below 25 °C x2"):
+    (LFP, "cold storage activation energy x2"):
         "no independent LFP storage data below 25 °C could be read offline",
-    (LFP, "throughput_exponent -20 %"):
-        "the independent LFP cycling rows (A123 cells, Wang et al. 2011) hold the slower "
-        "growth within their factor-2 band",
+    (NMC, "cold storage activation energy x2"):
+        "no independent NMC storage data below 35 °C could be read offline besides the study "
+        "the cold slope comes from (Smith et al. 2017, a calibration row); the rows at 25 °C "
+        "hold the slower or faster calendar fade within their bands",
     (VRLA, "woehler_exponent +20 %"):
         "the only independent cycling figure is of a flooded battery (factor-2 band)",
-    (LTO, "calendar activation energy +30 %"): "no LTO temperature data offline",
-    (LTO, "calendar activation energy -30 %"): "no LTO temperature data offline",
-    (LTO, "sign of the calendar activation energy"): "no LTO temperature data offline",
+    (LTO, "calendar activation energy -30 %"):
+        "the one LTO storage row (Bank et al. 2020) bounds the loss from above only: its cells "
+        "lose almost nothing, so a milder heat law stays within it",
+    (LTO, "sign of the calendar activation energy"):
+        "the one LTO storage row (Bank et al. 2020) bounds the loss from above only",
 }
 
 #: What the report says where independent data could not be found offline.
@@ -329,20 +426,34 @@ NO_INDEPENDENT_DATA = {
     LFP: "no independent data of LFP cycled cold could be read offline (Schimpe et al. "
          "2018's cold tests are what the plating term is fitted to): the cold row is an "
          "inference from the charge-current limit of practice",
-    LTO: "one independent figure only (H2020 GHOST); no LTO calendar or temperature data "
-         "could be read offline",
+    NMC: "no independent NMC storage data below 25 °C could be read offline: the slope below "
+         "35 °C comes from one study of a large NMC cell stored down to 0 °C (Smith et al. "
+         "2017), which is its calibration row; colder than 0 °C the rate falls no further",
+    LTO: "the level of the LTO laws rests on figures of practice (20,000 cycles to 80 %, "
+         "common practice; 0.5 % a year stored at 25 °C, from memory); two independent "
+         "studies check them (H2020 GHOST at 25 °C; Bank et al. 2020 at 45 °C through the "
+         "fitted model, where the default's calendar fade is the conservative end: those "
+         "cells lose almost nothing stored below 80 °C); no LTO data below 25 °C could be read "
+         "offline",
     PRIMARY: "no independent data: the only figures found offline (vendor statements) are "
              "what the self-discharge curve is fitted to",
 }
 
-#: Where a default set falls short of a fact of the trade, and why it is left so (the
+#: Where a default set departs from a fact of the trade, and why it is left so (the
 #: report lists them): the alternative that meets the figure is named.
 DEPARTURES = {
-    NMC: "daily cycling at 25 °C, 80 % depth, C/2, charged to 4.20 V, reaches 80 % after "
-         "about 1,200 cycles, short of the at least 1,500 of stationary practice; the "
-         "published storage law behind the calendar term (Schmalstieg et al. 2014, a "
-         "consumer 18650 cell) allows no more, and calibrating only the NMC calendar rate "
-         "to warranties (the set stationary: 1,863 cycles) would set the two lithium-ion "
-         "chemistries on unequal footing and reverse the ordering published side-by-side "
-         "data show stored full at 45 °C",
+    LFP: "stored full, the default reaches 80 % after more than a century at 25 °C and about "
+         "32 years at 45 °C, and cycled once a day at 25 °C, 80 % depth, C/2 after about "
+         "8,600 cycles (24 years): far beyond the trade's 15 and 3 years and 'close to a "
+         "decade' of daily cycling. Its calendar level is that of a large-format stationary "
+         "cell measured in one test matrix with the NMC cells (Gasper et al. 2023: 1.7 % a "
+         "year stored full at 25 °C; that cell's own fitted model gives about 107 and 12 "
+         "years stored full and about 6,500 daily cycles); the trade figures describe "
+         "products, not cell fade. Lives this long leave the fitted envelope (more than "
+         "three times the longest test) and are flagged, and component lives (electronics "
+         "20 years at 25 °C, halving per 10 K; seals) end such packs first. At 45 °C the "
+         "default loses 35 % less in a year than that cell (its heat law is Wang et al. "
+         "2011's, 28.7 kJ/mol, where the cell shows about 46): stored hot, its lives are "
+         "about 2.7 times that cell's. The set published keeps Naumann et al. 2018's "
+         "small-cell level and meets the trade figures (its rows above)",
 }
