@@ -221,6 +221,30 @@ def _shown(value) -> str:
     return shown(value)
 
 
+def row_values(row, columns, source: str, mistakes: MistakeList) -> dict[str, Any]:
+    """One table row's cells parsed against ``columns`` (``(spec, index, required)``:
+    the field and where it sits in the row); an empty cell takes the field's default, a
+    bad or missing required cell goes to ``mistakes`` with the row the user sees."""
+    where = row.where()
+    values = {}
+    cells, n_cells = row.cells, len(row.cells)
+    for spec, index, required in columns:
+        cell = cells[index] if index is not None and index < n_cells else ""
+        if cell == "":
+            if required:
+                mistakes.add(InputError(f"{where}, column {spec.name}: empty; expected "
+                                        f"{spec.expectation()}", source=source))
+            values[spec.name] = spec.default
+            continue
+        try:
+            values[spec.name] = parse_field(spec, cell, from_text=True)
+        except (ValueError, TypeError):
+            unit = f" [{spec.unit}]" if spec.unit else ""
+            mistakes.add(InputError(f"{where}, column {spec.name}: found {_shown(cell)}; "
+                                    f"expected {spec.expectation()}{unit}", source=source))
+    return values
+
+
 def _validate_table(table, specs, *, where: str, source: str, mistakes: MistakeList,
                     bad: set) -> dict[str, Any]:
     """Check one TOML table against its field specs; fill defaults.
