@@ -294,6 +294,9 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
             unserved_wh_per_year=float(duty.unserved_wh[j]),
             charge_blocked_hours=float(duty.blocked_hours[j]),
             mean_soc_frac=float(duty.mean_soc[j])))
+        if d.is_existing:
+            out[-1].install_calendar_loss_frac = fade.calendar_loss_frac[:, col].astype(np.float32)
+            out[-1].install_cycle_loss_frac = fade.cycle_loss_frac[:, col].astype(np.float32)
     return out
 
 

@@ -23,6 +23,7 @@ import pandas as pd
 
 from planner.errors import InputError
 from planner.fileio import check_input_file, read_input_bytes
+from planner.study.field_records import FieldData, load_field_data
 from planner.study.schema import (
     NAMED_SECTIONS,
     SECTIONS,
@@ -66,6 +67,8 @@ class Study:
     climates: Mapping[str, Mapping[str, Any]]
     sites: tuple[Site, ...]
     sites_path: Path
+    # capacity tests and battery logs of the packs in service ([field_data]); None: none
+    field_data: FieldData | None = None
 
     @property
     def name(self) -> str:
@@ -101,6 +104,11 @@ class Study:
         """Every file the study reads, with words saying what it is (for output checks)."""
         base = self.path.parent
         files = {self.path: "the study file", self.sites_path: "the study's sites table"}
+        if self.field_data is not None:
+            for path, what in ((self.field_data.tests_path, "the study's capacity-test table"),
+                               (self.field_data.logs_path, "the study's battery log")):
+                if path is not None:
+                    files.setdefault(path, what)
         for name, options in self.climates.items():
             files.setdefault((base / str(options["file"])).resolve(), f"climate file of [climates.{name}]")
         for site in self.sites:
@@ -307,6 +315,7 @@ def load_study(path) -> Study:
     sites = tuple(_validate_sites(raw, sites_path, settings, named))
     _check_regions(sites, named["regions"], source)
     _check_climates(sites, named["climates"], base, sites_path, source)
+    field_data = load_field_data(settings, base, sites)
     return Study(
         path=path.resolve(),
         settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
@@ -315,6 +324,7 @@ def load_study(path) -> Study:
         climates=MappingProxyType(named["climates"]),
         sites=sites,
         sites_path=sites_path,
+        field_data=field_data,
     )
 
 
