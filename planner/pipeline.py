@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from dataclasses import replace
 from functools import partial
+from types import MappingProxyType
 
 import numpy as np
 
@@ -215,6 +216,25 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                              evidence=evidence, test_values=test_values)
     advance(1, "Writing the plan")
     return plan
+
+
+def evidence_only(study: Study, site_ids=None):
+    """Field evidence without a plan (``planner evidence``): the packs in service of the
+    sites with field records (and of ``site_ids``) are simulated, no candidate pack, and
+    their posteriors computed. Returns ``(FleetEvidence or None, {site id: SiteDesigns})``."""
+    data = study.field_data
+    wanted = set(site_ids or ())
+    if data is not None:
+        wanted |= {t.site_id for t in data.tests} | set(data.logs)
+    sites = tuple(s for s in study.sites if s.id in wanted and s.has_existing_pack)
+    if not sites:
+        return update_fleet(replace(study, sites=()), []), {}
+    settings = dict(study.settings)
+    settings["candidates"] = MappingProxyType({**study.settings["candidates"], "chemistries": ()})
+    settings["output"] = MappingProxyType({**study.settings["output"], "sensitivity": False})
+    sub = replace(study, sites=sites, settings=MappingProxyType(settings))
+    designs = evaluate_with_growth(sub, model_sites(sub), _evaluate)
+    return update_fleet(sub, designs), {s.id: d for s, d in zip(sites, designs)}
 
 
 def _compare(chem_problem, **options):

@@ -40,6 +40,7 @@ from planner.evidence.observations import SiteRecords, site_records
 N_DRAWS = 1000
 #: State-of-health band for the report, every quarter year from installation.
 BAND_STEP_YEARS = 0.25
+BAND_YEARS_AHEAD = 15
 
 
 @dataclass
@@ -82,9 +83,9 @@ class SiteEvidence:
         return full[start:start + months]
 
     def band(self, horizon_years: int) -> dict:
-        """State-of-health P10/P50/P90 from installation to the end of the study, with the
-        measured points (corrected to 25 °C), for the report's chart."""
-        end = self.curve.age_years + horizon_years
+        """State-of-health P10/P50/P90 from installation to :data:`BAND_YEARS_AHEAD` years
+        from now (at most the end of the study), for the report's chart."""
+        end = self.curve.age_years + min(horizon_years, BAND_YEARS_AHEAD)
         ages = np.arange(0.0, end + 1e-9, BAND_STEP_YEARS)
         months = np.round(ages * 12).astype(int)
         q = soh_band(self.curve, self.draws_g, self.draws_delta, self.rho, months=months)

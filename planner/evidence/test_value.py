@@ -190,12 +190,12 @@ def _trip_free_years(problem, solution, sites) -> np.ndarray:
 def _test_cost(site, plan, solution, problem, labour: float) -> tuple[float, str]:
     """Marginal cost of one capacity test in year 0 and what it pays for."""
     if plan is not None and 0 in plan.replacement_years:
-        return labour, "labour: the site is visited in year 0 anyway"
+        return labour, "labour (visit planned)"
     months = set(site.access_months)
     if any(t.region == site.region and t.year == 0 and t.month in months for t in solution.trips):
-        return labour + site.site_visit_cost, "labour and a site visit on a year-0 trip of the region"
+        return labour + site.site_visit_cost, "labour and a site visit (trip planned)"
     return (labour + site.site_visit_cost + problem.trip_cost_by_region[site.region],
-            "labour, a site visit and a trip of its own")
+            "labour, a site visit and a trip")
 
 
 # ---------------------------------------------------------------- preposterior analysis

@@ -1,8 +1,8 @@
 """The plan workbook: one sheet per question a planner asks.
 
-Sheets: Summary (fleet overview), Spending by year, Sites at risk, Sites, Capacity fade,
-Fade by year, Visit schedule, Trip list, Cost comparison, Climate, Assumptions and
-sources, Cautions. The input is the plan dict laid out in ``docs/plan-json.md``; optional
+Sheets: Summary (fleet overview), Spending by year, Sites at risk, Field evidence, Sites,
+Capacity fade, Fade by year, Visit schedule, Trip list, Cost comparison, Climate,
+Assumptions and sources, Cautions. The input is the plan dict laid out in ``docs/plan-json.md``; optional
 parts that are missing are left out, never faked. The layout is described in
 ``docs/workbook.md``; each sheet is built in the module named beside it below.
 """
@@ -16,6 +16,7 @@ from openpyxl import Workbook
 
 from planner.fileio import write_atomically
 from planner.report import styles
+from planner.report.evidence_sheet import evidence_sheet
 from planner.report.money_sheets import cost_sheet, spending_sheet
 from planner.report.reference_sheets import assumptions_sheet, cautions_sheet
 from planner.report.risk_sheet import risk_sheet
@@ -29,6 +30,7 @@ SHEETS = (
     ("Summary", lambda ws, plan, fmt, h: summary_sheet(ws, plan, fmt)),
     ("Spending by year", lambda ws, plan, fmt, h: spending_sheet(ws, plan, fmt)),
     ("Sites at risk", lambda ws, plan, fmt, h: risk_sheet(ws, plan, fmt)),
+    ("Field evidence", lambda ws, plan, fmt, h: evidence_sheet(ws, plan, fmt)),
     ("Sites", lambda ws, plan, fmt, h: sites_sheet(ws, plan, fmt)),
     ("Capacity fade", lambda ws, plan, fmt, h: fade_sheet(ws, plan)),
     ("Fade by year", lambda ws, plan, fmt, h: fade_table_sheet(ws, plan, h)),
