@@ -44,10 +44,11 @@ def synthetic_log(*, chemistry: str, capacity_ah: float, series_cells: int, load
     s = soc0
     for k in range(hours):  # a tiny simulator: one pack, hour by hour
         net = pv[k] - load_a
-        if net > 0 and s >= 0.999:
-            net = 0.0  # full: the controller holds the pack, PV only covers the load
-        s = min(1.0, s + (eff * net if net > 0 else net) / capacity_ah)
-        s = max(s, 0.05)
+        if net > 0:  # near full the controller lets in only what the pack can still store
+            net = min(net, (1.0 - s) * capacity_ah / eff)
+        else:  # the low-voltage disconnect holds a reserve of 5 %
+            net = max(net, (0.05 - s) * capacity_ah)
+        s = s + (eff * net if net > 0 else net) / capacity_ah
         soc[k], current[k] = s, net
     if chemistry == "vrla":
         lo, hi = LEAD_ACID_OCV_V

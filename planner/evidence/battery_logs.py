@@ -185,7 +185,10 @@ def capacity_from_log(chemistry: str, charging: str, time_h, voltage_v, current_
     throughput = moved[b] - moved[a]
     sigma_q = CURRENT_GAIN_FRAC * throughput + CURRENT_OFFSET_C_RATE * rated_ah * (t[b] - t[a])
     sigma_soc = math.sqrt(2.0) * VOLTAGE_SIGMA_V_PER_CELL / np.maximum(0.5 * (slope[1:] + slope[:-1]), 1e-3)
-    swing = np.abs(dsoc) >= MIN_SOC_SWING
+    # swings chosen by the charge counted (nearly exact), not by the state of charge read
+    # from the voltage: choosing on the noisy axis would keep the pairs whose reading
+    # overstates the swing and bias the capacity low
+    swing = np.abs(dq) >= MIN_SOC_SWING * rated_ah
     window = np.floor((t[b] - t[0]) / (24.0 * WINDOW_DAYS)).astype(np.int64)
     ages, caps, sigmas, counts = [], [], [], []
     for w in np.unique(window[swing]):  # a few windows per site
