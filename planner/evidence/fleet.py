@@ -159,20 +159,25 @@ def update_fleet(study, designs: list[SiteDesigns]) -> FleetEvidence | None:
     packs = packs_in_service(study, designs)
     sites = study.sites
     staged = []
+    def records(site, outcome, curve, with_table_soh):
+        return site_records(site, outcome.design.chemistry, curve, data.tests_of(site.id),
+                            data.logs.get(site.id), start_year=start_year,
+                            series_cells=outcome.design.pack.series_cells,
+                            lead_acid_rule=settings["lead_acid_correction"], with_table_soh=with_table_soh)
+
     for i, outcome in packs:
-        site = sites[i]
         curve = curve_of(outcome)
-        rec = site_records(site, outcome.design.chemistry, curve, data.tests_of(site.id),
-                           data.logs.get(site.id), start_year=start_year,
-                           series_cells=outcome.design.pack.series_cells,
-                           lead_acid_rule=settings["lead_acid_correction"])
-        staged.append((site, outcome, curve, rec))
+        staged.append((sites[i], outcome, curve, records(sites[i], outcome, curve, False)))
     by_chem: dict[str, list] = {}
     for item in staged:
         by_chem.setdefault(item[1].design.chemistry, []).append(item)
     for chem, items in sorted(by_chem.items()):
         if not any(rec.observations.n > 0 for *_, rec in items):
             continue
+        # a chemistry with records: a measured state of health of the sites table joins
+        # its sites' records too (a reading at the study start)
+        items = [(site, outcome, curve, records(site, outcome, curve, True) if site.existing_soh_frac else rec)
+                 for site, outcome, curve, rec in items]
         hyper = fit_fleet([rec.observations for *_, rec in items])
         out.chemistries[chem] = hyper
         obs = [rec.observations for *_, rec in items]
