@@ -293,12 +293,15 @@ def site_posteriors(hyper: HyperPosterior, obs_list: list[Observations]):
         top = lik.max(axis=1, keepdims=True)
         m = np.maximum(np.exp(lik - top) @ dens, 1e-300)  # (sites, hyper)
         prior = (hyper.weight / m) @ dens.T  # (sites, g)
-        logp = (joint - top[:, :, None] + D_LOG_WEIGHT
-                + np.log(np.maximum(prior / prior.max(axis=1, keepdims=True), 1e-300))[:, :, None])
-        p = np.exp(logp - logp.max(axis=(1, 2), keepdims=True))
-        p /= p.sum(axis=(1, 2), keepdims=True)
+        # in place on the block's grid: log posterior, then its exponential normalised
+        log_prior = np.log(np.maximum(prior / prior.max(axis=1, keepdims=True), 1e-300))
+        joint += D_LOG_WEIGHT
+        joint += log_prior[:, :, None]
+        joint -= joint.max(axis=(1, 2), keepdims=True)
+        np.exp(joint, out=joint)
+        joint /= joint.sum(axis=(1, 2), keepdims=True)
         for k in range(len(block)):
-            yield start + k, p[k]
+            yield start + k, joint[k]
 
 
 def site_posterior_grid(hyper: HyperPosterior, obs: Observations) -> np.ndarray:

@@ -206,9 +206,7 @@ def _site_value(curve, post, rho, cont, c_fail, h, rate):
     and highest year after a test, share of results that change the year)."""
     if not np.isfinite(cont).any():
         return 0.0, None, None, None, 0.0
-    w0 = post.ravel()
-    g = np.repeat(G_GRID, D_GRID.size)
-    d = np.tile(D_GRID, G_GRID.size)
+    w0, g, d = _coarse(post)
     remaining = total_life_years(curve, g, d, rho) - curve.age_years
     loss_now = curve.loss_frac(rho)[min(int(round(curve.age_years * 12)), curve.calendar_loss_frac.size - 1)]
     mean_now = 1.0 + d - np.exp(g) * loss_now
@@ -229,6 +227,26 @@ def _site_value(curve, post, rho, cont, c_fail, h, rate):
             float(np.mean(years != best_now)))
 
 
+#: The belief on a coarser grid for the preposterior loop (cells of COARSE_G x COARSE_D
+#: grid points summed): a test's value needs the decision, not the fine posterior.
+COARSE_G, COARSE_D = 2, 3
+
+
+def _coarse(post):
+    """``(weights, g, δ)`` of the posterior summed into coarse cells (weighted centres)."""
+    kg, kd = COARSE_G, COARSE_D
+    ng, nd = post.shape[0] // kg * kg, post.shape[1] // kd * kd
+    p = post[:ng, :nd]
+    blocks = p.reshape(ng // kg, kg, nd // kd, kd)
+    w = blocks.sum(axis=(1, 3))
+    safe = np.where(w > 0, w, 1.0)
+    g = (blocks.sum(axis=3) * G_GRID[:ng].reshape(-1, kg)[:, :, None]).sum(axis=1) / safe
+    d = (blocks.sum(axis=1) * D_GRID[:nd].reshape(-1, kd)[None, :, :]).sum(axis=2) / safe
+    g = np.where(w > 0, g, G_GRID[:ng].reshape(-1, kg).mean(axis=1)[:, None])
+    d = np.where(w > 0, d, D_GRID[:nd].reshape(-1, kd).mean(axis=1)[None, :])
+    return w.ravel() / w.sum(), g.ravel(), d.ravel()
+
+
 def _predictive_results(mean_now, w0) -> np.ndarray:
     """:data:`N_RESULTS` test readings stratified over the predictive: belief quantiles
     paired with measurement-error quantiles in a fixed Latin-hypercube order."""
@@ -238,8 +256,13 @@ def _predictive_results(mean_now, w0) -> np.ndarray:
     c = np.cumsum(w0[order])
     c /= c[-1]
     m = mean_now[order][np.minimum(np.searchsorted(c, u), order.size - 1)]
+    return m + TEST_SIGMA_FRAC * _ERROR_QUANTILES
+
+
+def _error_quantiles(n: int) -> np.ndarray:
+    """Measurement-error strata of the results, in a fixed order prime to ``n``."""
     v = ((np.arange(n) * 7) % n + 0.5) / n  # 7 is prime to N_RESULTS: a permutation
-    return m + TEST_SIGMA_FRAC * _t4_quantile(v)
+    return _t4_quantile(v)
 
 
 def _t4_quantile(p):
@@ -275,7 +298,7 @@ def _plan_costs(remaining, weights, service_left, cont, c_fail, h, rate):
     pdf = np.diff(f, axis=1)
     risk = np.concatenate([np.zeros((n_b, 1)), np.cumsum(pdf * ec.spv(rate, np.arange(1, h + 1)), axis=1)],
                           axis=1)
-    median_at = np.array([np.searchsorted(cum[b], 0.5) for b in range(n_b)])
+    median_at = (cum < 0.5).sum(axis=1)
     median = r_sorted[np.minimum(median_at, r_sorted.size - 1)]
     latest = np.where(dead, 0.0, np.minimum(np.maximum(median, 0.0), service_left))
     costs = cont[None, :] + c_fail * risk
@@ -283,3 +306,6 @@ def _plan_costs(remaining, weights, service_left, cont, c_fail, h, rate):
     allowed = (years[None, :] <= np.floor(latest[:, None] + 1e-9)) & (years[None, :] < h)
     allowed |= (years[None, :] == h) & (latest[:, None] >= h - 1e-9)
     return np.where(allowed, costs, np.inf), costs
+
+
+_ERROR_QUANTILES = _error_quantiles(N_RESULTS)
