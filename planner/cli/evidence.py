@@ -137,7 +137,7 @@ def _print_site(study, evidence, site, e, start, horizon) -> None:
     click.echo(f"{'age [y]':>8s}{'measured':>10s}{'P10':>8s}{'P50':>8s}{'P90':>8s}{'predicted':>11s}")
     for k, age in enumerate(band["age_years"]):
         if abs(age - round(age)) > 1e-9:
-            continue  # whole years in the terminal; the JSON holds every quarter
+            continue  # whole years in the terminal; the JSON holds every half year
         near = [y for a, y in measured if round(a) == round(age)]
         shown = f"{100 * near[-1]:.1f}%" if near else ""
         click.echo(f"{age:8.0f}{shown:>10s}{100 * band['soh_p10'][k]:7.1f}%{100 * band['soh_p50'][k]:7.1f}%"

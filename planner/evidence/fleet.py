@@ -38,8 +38,8 @@ from planner.evidence.observations import SiteRecords, site_records
 #: Equally weighted belief draws kept per pack (deterministic systematic resampling of
 #: the grid posterior): the plan's lives and bands are read from them.
 N_DRAWS = 1000
-#: State-of-health band for the report, every quarter year from installation.
-BAND_STEP_YEARS = 0.25
+#: State-of-health band for the report, every half year from installation.
+BAND_STEP_YEARS = 0.5
 BAND_YEARS_AHEAD = 15
 
 
