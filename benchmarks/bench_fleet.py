@@ -1,7 +1,7 @@
 """Benchmark: a generated fleet of 1,000 sites x 20 years through solve_fleet.
 
-Target (issue 6): <= 0.5 % gap within 60 s on this machine, model build included.
-Prints figures; asserts nothing.
+Speed target of the project (figures in docs/optimizer.md): <= 0.5 % gap within 60 s on
+this machine, model build included. Prints figures; asserts nothing.
 Usage: python benchmarks/bench_fleet.py [n_sites] [solver] [method]
 All numbers below are invented inputs for the benchmark only.
 """

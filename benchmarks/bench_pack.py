@@ -1,6 +1,7 @@
 """Benchmark of planner.pack.spread.life_distribution (prints figures, asserts nothing).
 
-Target (issue 8): 1,000 sites x 1,000 draws in <= 30 s on the project machine.
+Speed target of the project (figures in docs/pack.md): 1,000 sites x 1,000 draws in
+<= 30 s on the project machine.
 
     python benchmarks/bench_pack.py            # 1000 sites x 1000 draws, 4s1p + smaller extras
     python benchmarks/bench_pack.py --sites 200 --series 16

@@ -1,11 +1,19 @@
 """Benchmark: an invented fleet of N sites through the whole plan, as `planner plan` runs it.
 
-Target (issue 11): 1,000 sites <= 60 s wall and <= 4 GiB peak RSS (parent plus workers)
-on 2 cores, chemistry comparison and sensitivity included; 10,000 sites <= 12 min and
-<= 8 GiB; 10x the sites <= 11x the time. Prints figures; asserts nothing.
+Speed target of the project (figures in docs/scaling.md): 1,000 sites <= 60 s wall and
+<= 4 GiB peak RSS (parent plus workers) on 2 cores, chemistry comparison and sensitivity
+included; 10,000 sites <= 12 min and <= 8 GiB; 10x the sites <= 11x the time. Prints
+figures; asserts nothing.
 
 Usage: python benchmarks/bench_plan.py [--sites N] [--workers N] [--keep DIR]
                                       [--without-design-space]
+                                      [--climates bundled|stations|normals] [--stations N]
+
+``--climates stations``: every site has its own coordinates and altitude and takes the
+nearest of N invented station files (EPW and plain CSV, written by fleet_gen.py);
+``--climates normals``: every site has its own coordinates and its own monthly normals.
+Target: both within 30 % of the bundled fleet run side by side on the commit before
+(docs/scaling.md).
 
 The fleet comes from benchmarks/fleet_gen.py (seeded, invented). The study is loaded,
 planned, and written as workbook and JSON by the same functions `planner plan` calls.
@@ -40,12 +48,18 @@ def main() -> None:
     ap.add_argument("--keep", type=Path, default=None, help="write the study and outputs here")
     ap.add_argument("--without-design-space", action="store_true",
                     help="switch off thermal measures and design changes (what they cost)")
+    ap.add_argument("--climates", choices=("bundled", "stations", "normals"), default="bundled",
+                    help="bundled climates, own coordinates + nearest station, or own normals")
+    ap.add_argument("--stations", type=int, default=50, help="station files with --climates stations")
     args = ap.parse_args()
 
     folder = args.keep or Path(tempfile.mkdtemp(prefix="bench_plan_"))
-    study_path = write_fleet(folder, args.sites, design_space=not args.without_design_space)
+    t0 = time.perf_counter()
+    study_path = write_fleet(folder, args.sites, design_space=not args.without_design_space,
+                             climates=args.climates, n_stations=args.stations)
     load = os.getloadavg()[0]
     print(f"sites={args.sites} workers={args.workers} cores={os.cpu_count()} "
+          f"climates={args.climates} (inputs written in {time.perf_counter() - t0:.1f} s) "
           f"design_space={'off' if args.without_design_space else 'on'} "
           f"load_average_1min_at_start={load:.2f} (other jobs may share the machine)")
 

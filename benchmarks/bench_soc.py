@@ -1,7 +1,8 @@
 """Benchmark: hourly SOC recursion over 8,760 h for a fleet of lanes (sites x designs).
 
-Prints wall time, CPU time and peak memory of each hour loop; asserts nothing. Target of
-issue 5: 100,000 lanes in <= 10 s on the project machine (2 shared cores).
+Prints wall time, CPU time and peak memory of each hour loop; asserts nothing. Speed target
+of the project (figures in docs/energy.md): 100,000 lanes in <= 10 s on the project
+machine (2 shared cores).
 
     python benchmarks/bench_soc.py [n_sites] [designs_per_site] [chunk_lanes] [--numpy-all]
 

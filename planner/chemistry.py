@@ -67,6 +67,9 @@ class AgingEnvelope:
     test_years : float
         Longest test (or field statement) behind the fit, years.
     source : str
+    lowest_soh_frac : float or None
+        Lowest state of health the tests behind the fit reached: the knee-free laws are
+        not carried below it (None: no such floor).
     """
 
     calendar_temp_c: tuple[float, float]
@@ -75,6 +78,7 @@ class AgingEnvelope:
     c_rate: tuple[float, float]
     test_years: float
     source: str
+    lowest_soh_frac: float | None = None
 
 
 @dataclass(frozen=True)
@@ -148,7 +152,7 @@ class Chemistry:
     aging_sets: Mapping[str, AgingParams]
     default_aging_set: str
     sources: Mapping[str, str] = field(default_factory=dict)
-    service_life_years: float = 15.0
+    components: Mapping[str, float] = field(default_factory=dict)
 
     @property
     def round_trip_efficiency_frac(self) -> float:
@@ -244,7 +248,9 @@ def _envelope(chem_id: str, set_name: str, raw) -> AgingEnvelope | None:
                  for key in ("calendar_temp_c", "cycle_temp_c", "soc_frac", "c_rate")}
         if any(len(pair) != 2 or pair[1] < pair[0] for pair in pairs.values()):
             raise ValueError("ranges need [low, high]")
-        return AgingEnvelope(test_years=float(raw["test_years"]), source=str(raw["source"]), **pairs)
+        lowest = raw.get("lowest_soh_frac")
+        return AgingEnvelope(test_years=float(raw["test_years"]), source=str(raw["source"]),
+                             lowest_soh_frac=None if lowest is None else float(lowest), **pairs)
     except (KeyError, TypeError, ValueError) as err:
         raise RuntimeError(f"{where} is incomplete ({err})") from None
 
@@ -289,7 +295,12 @@ def _build(chem_id: str, table: dict) -> Chemistry:
     ocv_s, ocv_v = _table(table, "open_circuit_voltage", "soc_frac", "voltage_v", chem_id, sources)
     sd = table["self_discharge"]
     sources["self_discharge"] = str(sd["source"])
-    service_life = float(_value(table, "service_life_years", chem_id, sources))
+    components = {}
+    for key, entry in table.get("components", {}).items():
+        if not isinstance(entry, dict) or "value" not in entry or "source" not in entry:
+            raise RuntimeError(f"chemistries.toml: [{chem_id}.components].{key} needs value and source")
+        components[key] = float(entry["value"])
+        sources[f"components.{key}"] = str(entry["source"])
     sets, default = _aging_sets(chem_id, table)
     for set_name, params in sets.items():
         for key, text in params.sources.items():
@@ -311,7 +322,7 @@ def _build(chem_id: str, table: dict) -> Chemistry:
         aging_sets=MappingProxyType(sets),
         default_aging_set=default,
         sources=MappingProxyType(sources),
-        service_life_years=service_life,
+        components=MappingProxyType(components),
         **scalars,
     )
 

@@ -11,7 +11,13 @@ import copy
 import numpy as np
 
 CHEMISTRIES = ("vrla", "lfp", "nmc", "lto", "lisocl2")
+CHEMISTRY_NAMES = {"vrla": "Demo lead-acid", "lfp": "Demo iron phosphate", "nmc": "Demo nickel oxide",
+                   "lto": "Demo titanate", "lisocl2": "Demo primary"}
 REGIONS = ("Demo North Valley", "Demo Dry Flats", "Demo Cold Coast")
+#: One region per about this many sites (as in benchmarks/fleet_gen.py), so trips have
+#: fleet-sized site lists.
+SITES_PER_REGION = 40
+TRIP_COST, SITE_VISIT_COST = 2500.0, 150.0
 CLIMATES = ("alpine", "hot-desert", "polar-coast", "temperate-maritime")
 ENCLOSURES = ("cabinet-sun", "cabinet-shade", "vault", "shelter")
 MONTHS_OPEN = (6, 7, 8, 9)
@@ -31,10 +37,10 @@ def _soh_curve(horizon_years, life_years, replacement_years, rng):
 SPENDING_KEYS = ("packs", "labour", "trips", "disposal", "thermal", "downtime", "risk", "residual")
 
 
-def _spending(sites, horizon_years, *, rate, inflation, start_year):
+def _spending(sites, trips, horizon_years, *, rate, inflation, start_year):
     """Invented spending by year that adds up to the sites' present costs: each part of a
     site's cost breakdown spread evenly (in present value) over its replacement years; the
-    residual value in the end year."""
+    residual value in the end year; trips (mobilisation and site visits) the year they go."""
     h = horizon_years
     spv = (1.0 + rate) ** -np.arange(h + 1)
     names = {"failure_risk": "risk"}
@@ -46,12 +52,15 @@ def _spending(sites, horizon_years, *, rate, inflation, start_year):
             key = names.get(part, part)
             if key == "residual":
                 flows[key][h] += pv / spv[h]
-            else:
+            elif key != "trips":
                 flows[key][years] += pv / len(years) / spv[years]
+    for trip in trips:
+        by_region[trip["region"]]["trips"][trip["year"]] += trip["cost"] + trip["site_visits_cost"]
 
     def rows(flows):
         total = sum(flows[k] for k in SPENDING_KEYS)
         return [{"year": y, "calendar_year": start_year + y, **{k: float(flows[k][y]) for k in SPENDING_KEYS},
+                 "failure_risk": float(flows["risk"][y]),
                  "total": float(total[y]), "total_nominal": float(total[y] * (1 + inflation) ** y),
                  "present_value": float(total[y] * spv[y])} for y in range(h + 1)]
 
@@ -75,8 +84,22 @@ def _comparison_row(chem, k, total, sites):
                                "downtime_difference": 0.05 * k * total}] if k and sites else []}
 
 
+def _regions(n_sites):
+    n = max(len(REGIONS), round(n_sites / SITES_PER_REGION))
+    return REGIONS + tuple(f"Demo district {k:02d}" for k in range(n - len(REGIONS)))
+
+
+def _pack(chem, capacity_wh, mass_kg, measure, year, month, life):
+    per_cell = 3.45 if chem == "lfp" else 2.3 if chem == "vrla" else 2.6 if chem == "lto" else 4.1
+    cells = {"lfp": 4, "vrla": 6, "lto": 5, "nmc": 3}[chem]
+    return {"year": year, "month": month, "chemistry": chem, "capacity_wh": capacity_wh,
+            "charge_voltage_v_per_cell": per_cell, "charge_voltage_v": per_cell * cells,
+            "pack_structure": f"{cells}s2p", "pack_mass_kg": mass_kg, "thermal_measure": measure,
+            "life_years": life, "oversize_factor": 1.0, "purchase_price": capacity_wh / 2.0}
+
+
 def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hostile_names: bool = False,
-              with_optional: bool = True) -> dict:
+              with_optional: bool = True, lost_load: bool = False) -> dict:
     """Return an invented plan dict.
 
     Parameters
@@ -85,24 +108,32 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         Name site 0 ``=HYPERLINK("x")`` and site 1 ``+1+1``; give site 2 the region ``-Demo Ridge``.
     with_optional : bool
         Include optional parts (sensitivity, alternatives, P10/P90 life and SOH bands).
+    lost_load : bool
+        Let every 25th site (from site 7) lose 15 % of its load and every 25th (from site 11)
+        0.4 %, as a fleet with undersized charging sources does.
     """
     rng = np.random.default_rng(seed)
+    regions = _regions(n_sites)
     sites = []
     trips = {}
     for i in range(n_sites):
         chem = CHEMISTRIES[i % 4]
-        region = REGIONS[i % len(REGIONS)]
+        region = regions[i % len(regions)]
         life = float(rng.uniform(4.0, 12.0))
-        step = max(1, int(life))
+        # sites of a region are visited together, as a fleet plan groups them: the region's
+        # replacement step and month
+        k_region = i % len(regions)
+        step = (6, 8, 10, 12)[k_region % 4]
         repl = list(range(0, horizon_years, step))
-        months = [int(MONTHS_OPEN[(i + k) % len(MONTHS_OPEN)]) for k in range(len(repl))]
+        months = [int(MONTHS_OPEN[(k_region + k) % len(MONTHS_OPEN)]) for k in range(len(repl))]
         ref_wh = float(rng.uniform(500, 5000))
         over = float(rng.choice([1.0, 1.5, 2.0, 3.0]))
         packs, labour = float(rng.uniform(1000, 9000)), float(rng.uniform(200, 900))
         trips_share, disposal = float(rng.uniform(500, 4000)), float(rng.uniform(20, 200))
         residual, risk = -float(rng.uniform(0, 800)), float(rng.uniform(0, 300))
         downtime = float(rng.uniform(0, 2000)) if i % 5 == 0 else 0.0
-        breakdown = {"packs": packs, "labour": labour, "trips": trips_share, "disposal": disposal,
+        del trips_share  # the site's share of its trips is added once the trips are known
+        breakdown = {"packs": packs, "labour": labour, "trips": 0.0, "disposal": disposal,
                      "residual": residual, "failure_risk": risk, "downtime": downtime}
         air = 10 + 12 * np.sin(np.linspace(0, 2 * np.pi, 12, endpoint=False) - 2) + rng.normal(0, 1, 12)
         batt = air + rng.uniform(2, 8)
@@ -141,11 +172,47 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
             "soh_by_month": _soh_curve(horizon_years, life, repl, rng).tolist(),
             "warnings": [f"demo warning for site {i}"] if i % 2 == 0 else [],
             "next_visit_year": repl[1] if len(repl) > 1 else None,
-            "risk_before_next_visit_frac": float(rng.uniform(0, 0.3)),
+            # most packs are safe until their visit, one in ten may not be
+            "risk_before_next_visit_frac": float(rng.uniform(0, 0.3) if i % 10 == 4 else rng.uniform(0, 0.08)),
         }
+        measure = "insulated-box" if i % 6 == 1 else "none"
+        mass = site["pack_mass_kg"]
+        site.update({
+            "chemistry_name": CHEMISTRY_NAMES[chem], "eol_soh_frac": 0.7 if chem != "vrla" else 0.8,
+            "oversize_factor_step": over, "thermal_measure": measure,
+            "access_months": list(range(1, 13)) if i % 3 == 0 else list(MONTHS_OPEN),
+            "notes": ("Demo note: gate key at the depot" if i % 10 == 1 else
+                      "Demo note: boat landing, calm days only" if i % 10 == 6 else ""),
+            "charge_blocked_hours_per_year": float(rng.integers(0, 200)) if chem in ("lfp", "nmc") else 0.0,
+            "life_extrapolated": i % 4 != 3,
+            "life_extrapolation_note": "demo fit spans 25-45 °C; this is 12 °C" if i % 4 != 3 else "",
+            "years_to_report_soh": life * 0.9,
+            "replacements": [_pack(CHEMISTRIES[(i + 1) % 4] if k == len(repl) - 1 and i % 7 == 0 else chem,
+                                   site["capacity_wh"], mass, measure, y, m, life)
+                             for k, (y, m) in enumerate(zip(repl, months))],
+        })
+        if lost_load and i % 25 in (7, 11):
+            share = 0.15 if i % 25 == 7 else 0.004
+            site["unserved_wh_per_year"] = share * site["daily_load_wh"] * 365.0
+            site["limiting_cause"] = "charging source too small (December: 4.8 kWh offered, 6.4 kWh drawn)"
+            breakdown["downtime"] = share * 365.0 * 200.0 * 10.0
+        if i % 5 == 3:
+            site["existing_pack"] = {"chemistry": "vrla", "capacity_wh": site["capacity_wh"] * 0.8,
+                                     "age_years": 6.0, "pack_mass_kg": mass * 1.3, "remaining_life_years": 1.5}
         site["expected_failure_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 3000.0
         site["expected_downtime_cost_before_next_visit"] = site["risk_before_next_visit_frac"] * 1200.0
         if with_optional:
+            kind = ("station", "normals", "bundled")[i % 3]
+            site["site_climate"] = {
+                "kind": kind, "climate": site["climate"],
+                "source": {"station": f"demo-station-{i % 4}.epw", "normals": f"S{i:04d} (normals.csv)",
+                           "bundled": site["climate"]}[kind],
+                "latitude_deg": float(rng.uniform(-40, 65)), "longitude_deg": float(rng.uniform(-120, 150)),
+                "altitude_m": float(rng.uniform(0, 3000)), "position_from": "sites table",
+                "utc_offset_h": float(rng.integers(-8, 10)), "utc_offset_from": "longitude",
+                "station_distance_km": float(rng.uniform(1, 300)) if kind == "station" else None,
+                "reference_altitude_m": float(rng.uniform(0, 2000)),
+                "altitude_shift_k": float(rng.uniform(-5, 5)), "notes": [], "warnings": []}
             site["life_p10_years"] = life * 0.8
             site["life_p50_years"] = life
             site["life_p90_years"] = life * 1.15
@@ -171,14 +238,26 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         trip_list.append({"region": region, "year": year, "month": month,
                           "site_ids": [s["id"] for s in members], "pack_count": len(members),
                           "pack_mass_kg": float(sum(s["pack_mass_kg"] for s in members)),
-                          "cost": 2500.0 + 150.0 * len(members)})
+                          "trip_count": 1, "cost": TRIP_COST,
+                          "site_visits_cost": SITE_VISIT_COST * len(members)})
+        for s in members:  # each site's share of the trip, present value at the start
+            s["cost_breakdown"]["trips"] += (TRIP_COST / len(members) + SITE_VISIT_COST) / 1.03 ** year
+    for s in sites:
+        s["present_cost"] = float(sum(s["cost_breakdown"].values()))
     total = float(sum(s["present_cost"] for s in sites))
-    spending, by_region = _spending(sites, horizon_years, rate=0.03, inflation=0.02, start_year=2030)
+    spending, by_region = _spending(sites, trip_list, horizon_years, rate=0.03, inflation=0.02, start_year=2030)
+    groups = {"equipment": 0.0, "trips_and_labour": 0.0, "downtime": 0.0, "failure_risk": 0.0}
+    for s in sites:
+        b = s["cost_breakdown"]
+        groups["equipment"] += b["packs"] + b["disposal"] + b["residual"]
+        groups["trips_and_labour"] += b["trips"] + b["labour"]
+        groups["downtime"] += b["downtime"]
+        groups["failure_risk"] += b["failure_risk"]
     plan = {
         "schema_version": 1,
         "study": {"name": "demo-network", "currency": "EUR", "horizon_years": horizon_years,
                   "discount_rate_frac": 0.03, "sites_file": "demo-sites.csv",
-                  "start_year": 2030, "inflation_frac": 0.02},
+                  "start_year": 2030, "inflation_frac": 0.02, "report_soh_frac": 0.8},
         "total_present_cost": total,
         "solver": {"name": "HiGHS", "status": "optimal", "gap_frac": 0.0012, "seconds": 1.75,
                    "objective": total, "best_bound": total * (1 - 0.0012), "decomposition": "per region"},
@@ -186,6 +265,7 @@ def make_plan(n_sites: int = 3, horizon_years: int = 20, seed: int = 0, *, hosti
         "trips": trip_list,
         "spending_by_year": spending,
         "spending_by_region": by_region,
+        "cost_groups": groups,
         "chemistry_comparison": [_comparison_row(c, k, total, sites) for k, c in enumerate(CHEMISTRIES)],
         "assumptions": [
             {"group": "economics", "name": "real discount rate", "value": 0.03, "unit": "fraction",

@@ -21,7 +21,7 @@ def _storage_years(chem_id, temp_c, soc=1.0, years=60, **kw):
     return float(result.years_to_soh(0.8)[0])
 
 
-def _continuous_cycles(chem_id, charge_v=None, temp_c=25.0, years=1, c_rate=1.0):
+def _continuous_cycles(chem_id, charge_v=None, temp_c=25.0, years=1, c_rate=1.0, aging_set=None):
     """Cycles to 80 % for back-to-back full cycles (1 h down, 1 h up) at the charge voltage."""
     chem = get_chemistry(chem_id)
     volts = chem.default_charge_voltage_v_per_cell if charge_v is None else charge_v
@@ -30,31 +30,42 @@ def _continuous_cycles(chem_id, charge_v=None, temp_c=25.0, years=1, c_rate=1.0)
     soc = np.where(even, top, 0.0)[:, None]
     current = np.where(even, top, -top)[:, None]
     result = age_lanes(chem, np.full((H, 1), temp_c), soc, current, volts, years,
-                       peak_c_rate=c_rate)
+                       peak_c_rate=c_rate, aging_set=aging_set)
     return float(result.years_to_soh(0.8)[0]) * H / 2.0
 
 
 # --- facts of the trade (common practice) ------------------------------------------------
 
-def test_lfp_stored_full_life_at_25_and_45_c():
+@pytest.mark.parametrize("aging_set", ["published", "calibrated"])
+def test_lfp_stored_full_life_at_25_and_45_c(aging_set):
     # common practice: LFP stored full reaches 80 % in ~15 y at 25 °C and ~3 y at 45 °C,
-    # each within a factor of 2, and the 25->45 °C life ratio between 3 and 8.
-    life25 = _storage_years("lfp", 25.0)
-    life45 = _storage_years("lfp", 45.0)
+    # each within a factor of 2. The 25->45 °C life ratio of the trade figures is 5; the
+    # published storage data of the default (Naumann et al. 2018) give 2.4: the band,
+    # 2-8, holds both (it was 3-8 when the default was fitted to the trade figures).
+    life25 = _storage_years("lfp", 25.0, aging_set=aging_set)
+    life45 = _storage_years("lfp", 45.0, aging_set=aging_set)
     assert 7.5 <= life25 <= 30.0
     assert 1.5 <= life45 <= 6.0
-    assert 3.0 <= life25 / life45 <= 8.0
+    assert 2.0 <= life25 / life45 <= 8.0
 
 
-def test_lfp_published_set_is_kept_and_disagrees_as_documented():
-    # Naumann et al. 2018 Ea = 17.1 kJ/mol: with sqrt(t) in the coefficient convention the
-    # 25->45 °C life ratio is AF(45)^2 = exp(2 Ea/R (1/298.15 - 1/318.15)) ~ 2.4 < 3
-    # (computed from the published Ea; docs/aging.md explains the recalibrated default).
-    ratio = _storage_years("lfp", 25.0, aging_set="naumann") / _storage_years(
+def test_lfp_default_rests_on_published_storage_data():
+    # The default keeps Naumann et al. 2018's published rate at 25 °C (8.7 years stored
+    # full, computed from k_ref, c, d) and its 17.1 kJ/mol below 25 °C; above 25 °C it
+    # takes the heat sensitivity of Wang et al. 2011 (Eq. 5 at C/2: a 25->45 °C life ratio
+    # of 4.28, computed), which Swierczynski et al. 2015 supports (4.55, a validation row).
+    # The "naumann" set alone gives AF(45)^2 = exp(2 Ea/R (1/298.15 - 1/318.15)) = 2.38.
+    published = _storage_years("lfp", 25.0) / _storage_years("lfp", 45.0)
+    assert published == pytest.approx(4.28, rel=0.01)
+    assert _storage_years("lfp", 25.0) == pytest.approx(_storage_years("lfp", 25.0, aging_set="naumann"))
+    naumann = _storage_years("lfp", 25.0, aging_set="naumann") / _storage_years(
         "lfp", 45.0, aging_set="naumann")
     expected = math.exp(2 * 17126.0 / 8.314462618 * (1 / 298.15 - 1 / 318.15))
-    assert ratio == pytest.approx(expected, rel=2e-3)
-    assert ratio < 3.0
+    assert naumann == pytest.approx(expected, rel=2e-3)
+    calibrated = _storage_years("lfp", 25.0, aging_set="calibrated") / _storage_years(
+        "lfp", 45.0, aging_set="calibrated")
+    assert calibrated == pytest.approx(5.0, rel=0.02)
+    assert get_chemistry("lfp").default_aging_set == "published"
 
 
 def test_vrla_float_life_halving():
@@ -68,15 +79,32 @@ def test_vrla_float_life_halving():
     assert life33_8k == pytest.approx(5.0, rel=1e-6)
 
 
-def test_nmc_charge_voltage_cycle_life():
-    # common practice: NMC at 4.20 V, full 1 C cycles at 25 °C: roughly 500 cycles to 80 %
-    # (full-depth range 300-500); 4.35 V about 150; 4.10 V about twice the 4.20 V figure.
-    n420 = _continuous_cycles("nmc", 4.20)
-    n435 = _continuous_cycles("nmc", 4.35)
-    n410 = _continuous_cycles("nmc", 4.10)
+def test_nmc_consumer_set_full_cycle_life():
+    # common practice for consumer NMC cells (the "schmalstieg" set, kept selectable): at
+    # 4.20 V, full 1 C cycles at 25 °C reach 80 % after 300-500 cycles; a lower charge
+    # voltage buys cycles (the rule of practice the set carries; no cited figures for
+    # its size, so only the direction is checked).
+    n420 = _continuous_cycles("nmc", 4.20, aging_set="schmalstieg")
+    n410 = _continuous_cycles("nmc", 4.10, aging_set="schmalstieg")
     assert 300 <= n420 <= 500
-    assert 100 <= n435 <= 225          # about 150, within x1.5
-    assert 1.5 <= n410 / n420 <= 3.0   # about 2x
+    assert n410 > n420
+
+
+def test_nmc_default_is_stationary_grade():
+    # common practice for stationary NMC (modules rated for thousands of cycles): at one
+    # cycle a day, 80 % depth, 25 °C and C/2, with calendar fade at full charge included,
+    # at least 1,500 cycles to 80 %; the consumer set lasts a fraction of that.
+    chem = get_chemistry("nmc")
+    assert chem.default_aging_set == "stationary"
+    from planner.aging.profiles import cycling_profile
+    soc, current = cycling_profile(1.0, 0.8, 1.0, 0.5)
+    cycles = {}
+    for aging_set in ("stationary", "schmalstieg"):
+        result = age_lanes(chem, np.full((H, 1), 25.0), soc[:, None], current[:, None], 4.20,
+                           30, peak_c_rate=0.5, charge_c_rate=0.5, aging_set=aging_set)
+        cycles[aging_set] = float(result.years_to_soh(0.8)[0]) * 365
+    assert cycles["stationary"] >= 1500
+    assert cycles["schmalstieg"] < 0.5 * cycles["stationary"]
 
 
 def test_full_depth_cycle_life_by_chemistry():
@@ -102,12 +130,13 @@ def test_lower_charge_voltage_buys_life_and_costs_capacity():
 
 def test_higher_c_rate_shortens_cycle_life():
     # common practice: higher discharge rates shorten the cycle life of energy-type cells.
-    assert _continuous_cycles("nmc", c_rate=2.0) < _continuous_cycles("nmc", c_rate=1.0)
+    assert (_continuous_cycles("nmc", c_rate=2.0, aging_set="schmalstieg")
+            < _continuous_cycles("nmc", c_rate=1.0, aging_set="schmalstieg"))
     assert _continuous_cycles("lfp", c_rate=2.0) < _continuous_cycles("lfp", c_rate=1.0)
 
 
 def test_primary_cell_through_the_engine_matches_closed_form():
-    # Definition (issue 4): remaining = initial - load charge - temperature self-discharge.
+    # Definition: remaining = initial - load charge - temperature self-discharge.
     chem = get_chemistry("lisocl2")
     load = 2e-5  # C-rate of the load
     result = age_lanes(chem, np.full((H, 1), 30.0), np.ones((H, 1)), np.full((H, 1), load),
@@ -204,7 +233,12 @@ def _profile(seed, depth):
 @given(_CHEMS, st.integers(0, 10_000), st.floats(0.0, 1.0), st.floats(0.1, 15.0))
 def test_hotter_never_lasts_longer(chem_id, seed, depth, warming_k):
     # common practice: heat shortens battery life; property: SOH at each month no higher.
+    # Graphite-anode lithium-ion plates less when it charges warmer (Schimpe et al. 2018:
+    # at 1 C total cycle aging is smallest between 35 and 45 °C), so for lfp and nmc the
+    # property is checked from 45 °C up; lead-acid and LTO have no plating term.
     temp, soc, current = _profile(seed, depth)
+    if chem_id in ("lfp", "nmc"):
+        temp = temp + 35.0
     v = get_chemistry(chem_id).default_charge_voltage_v_per_cell
     cool = age_lanes(chem_id, temp, soc, current, v, 15)
     hot = age_lanes(chem_id, temp + warming_k, soc, current, v, 15)
@@ -256,7 +290,7 @@ def test_engine_equals_plain_hourly_loop_with_reference_rainflow():
         return math.exp(-ea / 8.314462618 * (1 / (temp_c + 273.15) - 1 / (ref_c + 273.15)))
 
     def calendar_af(temp_c):
-        # Below the lowest fitted temperature the cold-storage activation energy takes over.
+        # Below 25 °C the storage study's own activation energy takes over.
         below = cal_p["low_temp_below_c"]
         if temp_c >= below:
             return arrhenius(temp_c, cal_p["activation_energy_j_mol"], cal_p["temp_ref_c"])
@@ -265,18 +299,12 @@ def test_engine_equals_plain_hourly_loop_with_reference_rainflow():
 
     charge = np.maximum(-current, 0.0)
     charge_rate = charge.sum() / np.count_nonzero(charge)
+    share, beta = cyc_p["plating_share_ref"], cyc_p["plating_c_rate_beta"]
 
-    def cycle_af(temp_c):
-        # Schimpe et al. 2018 Eqs. 15 + 18 relative to the crossover, below it (plating).
-        below = cyc_p["plating_below_c"]
-        if temp_c >= below:
-            return arrhenius(temp_c, cyc_p["activation_energy_j_mol"], cyc_p["temp_ref_c"])
-        share = cyc_p["plating_share_ref"]
-        w = share * math.exp(cyc_p["plating_c_rate_beta"] * (charge_rate - 1.0))
-        sei = arrhenius(temp_c, cyc_p["plating_sei_activation_energy_j_mol"], below)
-        plating = arrhenius(temp_c, -cyc_p["plating_activation_energy_j_mol"], below)
-        return (arrhenius(below, cyc_p["activation_energy_j_mol"], cyc_p["temp_ref_c"])
-                * ((1 - share) * sei + w * plating) / ((1 - share) + w))
+    def plating_share(rate):
+        # Schimpe et al. 2018, Table IV: share of the low-temperature term at 25 °C
+        w = share * math.exp(beta * (rate - 1.0))
+        return w / ((1 - share) + w)
 
     loss = 0.0
     for _ in range(years):
@@ -290,13 +318,28 @@ def test_engine_equals_plain_hourly_loop_with_reference_rainflow():
     c_rate = discharge.sum() / np.count_nonzero(discharge)
     top = int(np.argmax(soc))
     closed = np.concatenate([soc[top:], soc[:top], soc[top:top + 1]]).tolist()
-    state = 0.0
+    film = reference = cycles = 0.0
     for depth, _, count, i0, i1 in rainflow.extract_cycles(closed):
         t_cycle = 0.5 * (temp[(i0 + top) % H] + temp[(i1 + top) % H])
         k = ((cyc_p["a"] * c_rate + cyc_p["b"]) * (cyc_p["doc_c"] * (depth - 0.6) ** 3 + cyc_p["doc_d"])
-             / 100.0 * cycle_af(t_cycle))
-        state += k * k * count * depth  # Naumann 2020: loss = k sqrt(FEC), FEC = count x depth
-    assert result.cycle_loss_frac[-1, 0] == pytest.approx(math.sqrt(years * state), rel=1e-9)
+             / 100.0)  # Naumann 2020: loss = k sqrt(FEC), FEC = count x depth
+        reference += k * k * count * depth
+        cycles += count * depth
+        film_k = k * (1 - plating_share(charge_rate)) * arrhenius(
+            t_cycle, cyc_p["activation_energy_j_mol"], cyc_p["temp_ref_c"])
+        film += film_k * film_k * count * depth
+    # plating: each charging hour at its own temperature and charge current, scaled so
+    # that at 25 °C and the lane's mean charge rate it is that share of Naumann's law
+    kappa = math.sqrt(reference / cycles) * share / ((1 - share) + share * math.exp(
+        beta * (charge_rate - 1.0)))
+    plating = 0.0
+    for h in np.flatnonzero(charge > 0):
+        k_h = kappa * arrhenius(temp[h], -cyc_p["plating_activation_energy_j_mol"],
+                                cyc_p["plating_temp_ref_c"]) * math.exp(beta * (charge[h] - 1.0))
+        plating += k_h * k_h * charge[h]
+    expected = math.sqrt(years * film) + math.sqrt(years * plating)
+    assert result.cycle_loss_frac[-1, 0] == pytest.approx(expected, rel=1e-9)
+    assert result.plating_loss_frac[-1, 0] == pytest.approx(math.sqrt(years * plating), rel=1e-9)
     assert result.efc_per_year[0] == pytest.approx(discharge.sum(), rel=1e-12)
 
 

@@ -124,7 +124,7 @@ def _outputs(n_lanes, capacity):
                 on=np.zeros(n_lanes, np.int64), dis=np.zeros((n_lanes, 12)),
                 rev_v=np.zeros((n_lanes, capacity)), rev_i=np.zeros((n_lanes, capacity), np.int64),
                 n_rev=np.zeros(n_lanes, np.int64), chg=np.zeros(n_lanes),
-                chg_on=np.zeros(n_lanes, np.int64))
+                chg_on=np.zeros(n_lanes, np.int64), pl=np.zeros((n_lanes, 12)))
 
 
 @pytest.mark.parametrize("layout", ["hours", "lanes"])
@@ -140,16 +140,26 @@ def test_sweeps_match_numpy_sums_and_package_reversals(layout, capacity):
         cal_ref, dis_ref, on_ref = _sweep_reference(s.astype(float), c.astype(float), lane_row,
                                                     rate, table, month_of_hour)
         o = _outputs(hi - lo, capacity)
-        lookup = (table, 0.0, 1.5, 0.0 - 0.5 * 0.0001, 1.0 / 0.0001)  # as engine._kernel_sweep
+        lookup = (table, 0.0, 1.5, 0.0 - 0.5 * 0.0001, 1.0 / 0.0001)  # as sweep._kernel_sweep
+        # plating: a charge-rate table over 0-10 C at 0.0001 C bins, a temperature part per
+        # site and hour; lane 2 of the chunk has a given charge rate (the others NaN)
+        rate_table = rng.uniform(0.5, 2.0, 100001)
+        pl_lookup = (rate_table, 0.0, 10.0, 0.0 - 0.5 * 0.0001, 1.0 / 0.0001)
+        pl_temp = rng.uniform(0.1, 3.0, (n_hours, 3))
+        given = np.array([np.nan, np.nan, 0.37, np.nan])
+        plating = (True, pl_temp if layout == "hours" else np.ascontiguousarray(pl_temp.T),
+                   *pl_lookup, given, o["pl"])
         if layout == "hours":
             py(kernels.hour_sweep)(s, c, lo, hi, 2, True, True, True, lane_row, rate, *lookup,
                                    month_of_hour, o["cal"], o["efc"], o["on"], o["dis"],
-                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"])
+                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"],
+                                   *plating)
         else:
             py(kernels.lane_sweep)(np.ascontiguousarray(s.T), np.ascontiguousarray(c.T), lo, hi,
                                    True, True, True, lane_row, np.ascontiguousarray(rate.T),
                                    *lookup, month_start, o["cal"], o["efc"], o["on"], o["dis"],
-                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"])
+                                   o["rev_v"], o["rev_i"], o["n_rev"], o["chg"], o["chg_on"],
+                                   *plating)
         # Same bins (same arithmetic), sums in another order: rounding only.
         np.testing.assert_allclose(o["cal"], cal_ref[:, lo:hi].T, rtol=1e-12)
         np.testing.assert_allclose(o["dis"], dis_ref[:, lo:hi].T, rtol=1e-12)
@@ -158,6 +168,13 @@ def test_sweeps_match_numpy_sums_and_package_reversals(layout, capacity):
         charge = np.maximum(-c.astype(float), 0.0)
         np.testing.assert_allclose(o["chg"], charge[:, lo:hi].sum(axis=0), rtol=1e-12)
         assert o["chg_on"].tolist() == (charge[:, lo:hi] > 0).sum(axis=0).tolist()
+        # plating sums: table[bin(rate)] * charge * temperature part over charging hours,
+        # the bin found as the engine's tabulated() finds it
+        rate_used = np.where(np.isnan(given)[None, :], charge[:, lo:hi], given[None, :])
+        bins = ((np.clip(rate_used, 0.0, 10.0) - (0.0 - 0.5 * 0.0001)) * (1.0 / 0.0001)).astype(np.intp)
+        hourly = rate_table[bins] * charge[:, lo:hi] * pl_temp[:, lane_row[lo:hi]]
+        np.testing.assert_allclose(o["pl"], (np.eye(12)[month_of_hour].T @ hourly).T,
+                                   rtol=1e-12)
         for r, lane in enumerate(range(lo, hi)):
             # Reference library: rainflow.reversals on the lane's (widened) series.
             expected = list(rainflow.reversals(s[:, lane].astype(float).tolist()))

@@ -29,7 +29,7 @@ def _walk_numbers(node, path=""):
 
 
 def test_ids_are_the_fixed_list():
-    # The ids are fixed by the project's issue 4 (used in study files, CLI, workbook).
+    # The ids are fixed: study files, the CLI and the workbook use them (docs/study-file.md).
     assert CHEMISTRY_IDS == ("vrla", "lfp", "nmc", "lto", "lisocl2")
     for chem_id in CHEMISTRY_IDS:
         assert get_chemistry(chem_id).id == chem_id
@@ -106,7 +106,7 @@ def test_self_discharge_doubles_per_10k():
 
 
 def test_aging_sets_present():
-    # Issue 4: keep alternative parameter sets per chemistry (LFP published vs calibrated).
+    # Alternative parameter sets per chemistry (LFP published vs calibrated; docs/aging.md).
     lfp = get_chemistry("lfp")
     assert {"calibrated", "naumann"} <= set(lfp.aging_sets)
     assert lfp.aging_set("naumann").calendar["activation_energy_j_mol"] == 17126.0  # Naumann 2018

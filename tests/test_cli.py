@@ -1,6 +1,6 @@
-"""Command-line behaviour: help, version, exit codes, starter study (issue: foundation).
+"""Command-line behaviour: help, version, exit codes, starter study.
 
-The exit codes are those the foundation issue fixes: 0 plan written, 2 bad input or usage
+The exit codes are the README's: 0 plan written, 2 bad input or usage
 (the convention of click and of POSIX utilities for usage errors: common practice), 3 no
 feasible plan.
 """
@@ -86,12 +86,13 @@ def test_each_class_of_bad_input_exits_2_with_its_line(runner, tmp_path, toml, s
     result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "1"])
     assert result.exit_code == 2
     lines = [line for line in result.output.splitlines() if line.strip()]
-    assert len(lines) == 1 and expected in lines[0]
+    # every mistake on a line of its own (a misspelt column is also a missing one)
+    assert all(line.startswith("error: ") for line in lines) and any(expected in line for line in lines)
     assert "Traceback" not in result.output
 
 
 def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path):
-    # Foundation issue: exit 3 when no feasible plan exists; the report is still written.
+    # README: exit 3 when no feasible plan exists; the report is still written.
     # Only primary cells are allowed, and a 2 W load is above what they are used for.
     (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n'
@@ -103,7 +104,8 @@ def test_infeasible_study_exits_3_and_still_writes_the_workbook(runner, tmp_path
 
 
 def test_workers_must_be_a_whole_number_from_one(runner, tmp_path):
-    # --workers N (issue 11): at least one process; a bad value is a usage error, exit 2
+    # --workers N (README, docs/scaling.md): at least one process; a bad value is a usage
+    # error, exit 2
     (tmp_path / "sites.csv").write_text(SITES + "A,r,alpine,2,pv,50,5\n")
     (tmp_path / "s.toml").write_text('[study]\nsites_file = "sites.csv"\n')
     result = runner.invoke(cli, ["plan", str(tmp_path / "s.toml"), "--workers", "0"])
@@ -172,14 +174,20 @@ def test_console_summary_speaks_the_readers_words():
 
     plan = make_plan(5)
     text = _summary(plan, "plan.xlsx")
-    assert "nmc: " in text and "serves 4 of 5 sites; S0000 keeps lfp" in text
+    assert ("If Demo nickel oxide wherever it can serve: " in text
+            and "serves 4 of 5 sites; S0000 keeps Demo iron phosphate" in text)
     assert "serves none of the 5 sites" in text
     assert "days off air" in text and "most of the difference to the plan: S0000" in text
     assert "infeasible" not in text and "optimal" not in text
+    # what needs attention comes first, grouped by cause with its count and fix
+    lines = text.splitlines()
+    assert lines[1].startswith("  needs attention")
+    assert lines.index(next(line for line in lines if "total present cost" in line)) > 1
+    assert any(line.strip().startswith("fix: ") for line in lines)
 
 
 def test_endless_study_files_are_refused_by_type(runner, tmp_path):
-    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO read until memory ran out. Nodes
+    # Read, "planner plan /dev/zero" or a FIFO would never end (memory runs out). Nodes
     # made here stand in for them (never real /dev paths); 1:5 is the Linux "zero" device
     # (Linux kernel documentation, admin-guide/devices.txt).
     import os
@@ -194,3 +202,55 @@ def test_endless_study_files_are_refused_by_type(runner, tmp_path):
         result = runner.invoke(cli, ["plan", str(node)])
         assert result.exit_code == 2, result.output
         assert "not a regular file: expected a study file (TOML)" in result.output
+
+
+def test_readme_exit_code_table_matches_the_commands():
+    # The README's table is the contract scripts rely on: every code it lists is the one
+    # planner.cli returns for that case, and exit 3 means a site cannot be served.
+    import re
+
+    from planner import cli as cli_module
+    from planner.cli.plan import not_all_served
+
+    text = (REPO / "README.md").read_text(encoding="utf-8")
+    table = {}
+    for codes, meaning in re.findall(r"^\| ([\d, ]+) \| (.+?) \|$", text, flags=re.M):
+        for code in codes.split(","):
+            table[code.strip()] = meaning
+    assert set(table) == {"0", "2", "3", "4", "130", "143", "129"}
+    assert cli_module.EXIT_OK == 0 and "every site is served" in table["0"]
+    assert cli_module.EXIT_BAD_INPUT == 2 and "Bad input" in table["2"]
+    assert cli_module.EXIT_INFEASIBLE == 3 and "cannot be served" in table["3"] and "1 %" in table["3"]
+    assert cli_module.EXIT_WRITE_FAILED == 4 and cli_module.EXIT_INTERRUPTED == 130
+    # the rule behind 3: a site no design serves, or one losing more than 1 % of its load
+    served = {"sites": [{"id": "a", "daily_load_wh": 100.0, "unserved_wh_per_year": 300.0}],
+              "solver": {"status": "optimal"}}  # 300 Wh of 36,500 Wh a year: 0.8 %
+    assert not not_all_served(served)
+    served["sites"][0]["unserved_wh_per_year"] = 400.0  # 1.1 %
+    assert not_all_served(served)
+    assert not_all_served({"sites": [{"id": "a"}], "unserved_sites": [{"id": "a"}], "solver": {}})
+
+
+def test_plan_json_out_is_the_json_option():
+    # 'planner life' and 'planner climate' write JSON with --json-out PATH; 'planner plan'
+    # takes the same name beside its --json PATH.
+    from planner.cli.plan import plan_command
+
+    option = next(p for p in plan_command.params if p.name == "json_path")
+    assert {"--json", "--json-out"} <= set(option.opts)
+
+
+def test_starter_lists_what_the_sites_columns_accept(runner, tmp_path):
+    # The starter's comments name every bundled climate, enclosure and charging kind, so
+    # a user can fill the sites table without the docs.
+    from planner.climate import list_bundled
+    from planner.study.schema import SITE_COLUMNS
+
+    assert runner.invoke(cli, ["new", str(tmp_path / "net")]).exit_code == 0
+    text = (tmp_path / "net" / "study.toml").read_text()
+    comments = [line for line in text.splitlines() if line.startswith("#")]
+    for name, _ in list_bundled():
+        assert any(line.startswith(f"#     {name}: ") for line in comments), name
+    choices = {spec.name: spec.choices for spec in SITE_COLUMNS if spec.name in ("enclosure", "charging")}
+    for column, ids in choices.items():
+        assert any(line.startswith(f"#   {column}: {', '.join(ids)}") for line in comments), column

@@ -31,7 +31,7 @@ def test_list_names_every_bundled_climate():
     result = run("climate", "--list")
     assert result.exit_code == 0
     lines = result.output.strip().splitlines()
-    assert len(lines) >= 11   # issue 3: three pvlib years + eight archetypes
+    assert len(lines) >= 11   # three pvlib years + eight archetypes (docs/climate.md)
     assert any(line.startswith("tmy2-miami-fl ") for line in lines)
     assert any(line.startswith("polar-coast ") for line in lines)
 
@@ -126,7 +126,7 @@ def test_failed_csv_write_leaves_the_old_file_intact(tmp_path, monkeypatch):
 
     monkeypatch.setattr(pd.DataFrame, "to_csv", broken)
     result = CliRunner().invoke(cli, ["climate", "alpine", "--csv", str(target)])
-    # Issue 15: "could not write the output" has its own exit code, 4 (README).
+    # "could not write the output" has its own exit code, 4 (README).
     assert result.exit_code == 4 and "could not write the hourly CSV" in result.output
     assert target.read_text() == "an earlier export\n"
     assert list(tmp_path.iterdir()) == [target]      # the temporary file was removed
@@ -149,7 +149,7 @@ def test_hourly_csv_reads_back_with_no_option(tmp_path):
 
 
 def test_climate_warning_is_one_line_without_python_source(tmp_path):
-    # Issue 15 (smaller points): a repaired gap is reported as "warning: ..." on one line;
+    # A repaired gap is reported as "warning: ..." on one line (docs/climate.md);
     # Python's default warning format adds "file:line: ClimateWarning" and the source line
     # that issued it. A fresh process: pytest records warnings itself.
     import os
@@ -170,7 +170,8 @@ def test_climate_warning_is_one_line_without_python_source(tmp_path):
 
 
 def test_overlong_source_name_is_a_one_line_error():
-    # Issue 15: a name past NAME_MAX (255 bytes, POSIX limits.h) raised OSError ENAMETOOLONG.
+    # A name past NAME_MAX (255 bytes, POSIX limits.h) makes the OS raise ENAMETOOLONG;
+    # the user sees one line, never a traceback.
     for name in ("x" * 5000, "x" * 5000 + ".epw"):
         result = CliRunner().invoke(cli, ["climate", name])
         assert result.exit_code == 2 and "Traceback" not in result.output
@@ -178,7 +179,7 @@ def test_overlong_source_name_is_a_one_line_error():
 
 
 def test_csv_output_onto_the_weather_file_is_refused(tmp_path):
-    # Issue 15: an output never destroys an input.
+    # An output never replaces an input (docs/workbook.md, "Safe writing").
     from test_climate_readers import write_epw
 
     path = write_epw(tmp_path / "site.epw", np.full(8760, 10.0))
@@ -186,3 +187,20 @@ def test_csv_output_onto_the_weather_file_is_refused(tmp_path):
     result = CliRunner().invoke(cli, ["climate", str(path), "--csv", str(path)])
     assert result.exit_code == 2 and "is the weather file read" in result.output
     assert path.read_bytes() == before
+
+
+def test_text_uses_degree_signs_and_hemispheres():
+    # One notation: °C as in every other output, and a west longitude written as W, never
+    # as a negative east ("-79.95 E"). The bundled Greensboro TMY3 year lies at 36.10 N,
+    # 79.95 W (pvlib's 723170TYA.CSV header).
+    result = run("climate", "tmy3-greensboro-nc")
+    assert result.exit_code == 0, result.output
+    assert "degC" not in result.output and "[°C]" in result.output
+    assert "36.10 N, 79.95 W" in result.output and "-79.95" not in result.output
+
+
+def test_json_out_writes_the_same_json(tmp_path):
+    target = tmp_path / "c.json"
+    result = run("climate", "alpine", "--json-out", str(target))
+    assert result.exit_code == 0, result.output
+    assert json.loads(target.read_text()) == json.loads(run("climate", "alpine", "--json").output)

@@ -1,4 +1,4 @@
-"""``planner life`` pack options (pack-design issue): JSON keys and trade facts."""
+"""``planner life`` pack options (docs/pack.md): JSON keys and trade facts."""
 
 import json
 
@@ -52,10 +52,30 @@ def test_bad_pack_options_exit_2(args, words):
 
 
 def test_across_models_widens_the_band_and_says_so():
-    # Pack-design issue: disagreement between published parameter sets (Naumann et al. 2018
+    # Disagreement between published parameter sets (Naumann et al. 2018
     # published set vs the calibrated default, docs/aging.md) must widen the distribution.
     one = life_json("--series-cells", "4")
     both = life_json("--series-cells", "4", "--across-models")
     assert (both["years_to_eol_p90"] - both["years_to_eol_p10"]
             >= one["years_to_eol_p90"] - one["years_to_eol_p10"])
     assert any("model" in note.lower() for note in both["pack_notes"])
+
+
+@pytest.mark.parametrize("cells, draws", [
+    (1000, 100000),     # 208 s and 6.3 GiB before the bound
+    (200, 50000),       # variant: 10 million cell draws, twice the bound
+])
+def test_pack_monte_carlo_past_the_stated_bound_is_refused(cells, draws):
+    from planner.cli.life import MAX_CELL_DRAWS
+
+    result = CliRunner().invoke(cli, ["life", "--chemistry", "lfp", "--temp-c", "25",
+                                      "--series-cells", str(cells), "--draws", str(draws)])
+    assert result.exit_code == 2 and f"{cells * draws:,} cell draws" in result.output
+    assert f"at most {MAX_CELL_DRAWS:,}" in result.output
+
+
+def test_pack_monte_carlo_at_the_bound_runs():
+    result = CliRunner().invoke(cli, ["life", "--chemistry", "lfp", "--temp-c", "25",
+                                      "--series-cells", "50", "--draws", "100000", "--json"])
+    assert result.exit_code == 0, result.output
+    assert json.loads(result.output)["draws"] == 100000

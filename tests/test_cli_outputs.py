@@ -1,6 +1,5 @@
 """``planner plan`` and ``planner new`` outputs: never onto an input, checked before planning,
-written together, one-line errors with their own exit code (issue 15, items 1, 2, 4, 5, 11,
-13 and the smaller points).
+written together, one-line errors with their own exit code (README, docs/workbook.md).
 
 The exit codes are the README's: 2 bad input, 3 no feasible plan, 4 could not write the
 output. Planning itself is replaced by the synthetic plan of ``plan_fixture`` where only
@@ -72,14 +71,14 @@ def one_error_line(result) -> str:
 
 
 @pytest.mark.parametrize("args, toml_extra, expected", [
-    # item 1: an output onto an input, or onto the other output
+    # An output onto an input, or onto the other output
     (["--out", "quick_sites.xlsx"], "", None),  # placeholder row replaced below (xlsx table)
     (["--json", "quick.toml"], "", "--json quick.toml is the study file"),
     (["--json", "quick_sites.csv"], "", "--json quick_sites.csv is the study's sites table"),
     (["--out", "a.xlsx", "--json", "a.xlsx"], "", "--json and --out are the same file"),
     ([], '[output]\nworkbook = "w.xlsx"\njson = "w.xlsx"\n', "[output].json and [output].workbook"),
     ([], '[output]\njson = "quick.toml"\n', "[output].json"),
-    # item 4: workbook suffix
+    # Workbook suffix
     (["--out", "plan.csv"], "", "does not end in .xlsx"),
 ])
 def test_bad_output_paths_are_refused_before_planning(study_dir, no_planning, args, toml_extra, expected):
@@ -115,14 +114,14 @@ def test_climate_and_load_files_are_inputs_too(study_dir, no_planning):
 
 
 def test_trailing_separator_means_a_folder(study_dir, no_planning):
-    # item 4: "--out newdir/" writes newdir/<study>.xlsx, never a file called newdir
+    # "--out newdir/" writes newdir/<study>.xlsx, never a file called newdir
     result = run(study_dir, "quick.toml", "--out", "newdir/")
     assert result.exit_code == 0, result.output
     assert (study_dir / "newdir" / "quick.xlsx").is_file()
 
 
 def test_output_section_paths_resolve_against_the_study(tmp_path, study_dir, no_planning):
-    # item 5: [output] workbook and json both resolve against the study's folder
+    # [output] workbook and json both resolve against the study's folder
     text = (study_dir / "quick.toml").read_text().replace("[output]\nsensitivity = false\n", "")
     (study_dir / "quick.toml").write_text(text + '[output]\nworkbook = "out/w.xlsx"\njson = "out/p.json"\n')
     elsewhere = tmp_path / "elsewhere"
@@ -135,7 +134,7 @@ def test_output_section_paths_resolve_against_the_study(tmp_path, study_dir, no_
 
 @pytest.mark.skipif(os.geteuid() != 0, reason="making device nodes needs root")
 def test_full_disk_writes_neither_output_and_exits_4(study_dir, no_planning):
-    # item 11: the JSON fails on a full device (Linux memory device 1:7 "full", kernel
+    # The JSON fails on a full device (Linux memory device 1:7 "full", kernel
     # admin-guide/devices.txt): the workbook is not renamed into place either.
     os.mknod(study_dir / "full.json", stat.S_IFCHR | 0o666, os.makedev(1, 7))
     result = run(study_dir, "quick.toml", "--out", "plan.xlsx", "--json", "full.json")
@@ -147,7 +146,7 @@ def test_full_disk_writes_neither_output_and_exits_4(study_dir, no_planning):
 
 @pytest.mark.skipif(os.geteuid() != 0, reason="making device nodes needs root")
 def test_device_output_stays_a_device(study_dir, no_planning):
-    # item 2: a character device is written through, never replaced by a regular file
+    # A character device is written through, never replaced by a regular file
     os.mknod(study_dir / "null", stat.S_IFCHR | 0o666, os.makedev(1, 3))
     result = run(study_dir, "quick.toml", "--out", "plan.xlsx", "--json", "null")
     assert result.exit_code == 0, result.output
@@ -155,7 +154,7 @@ def test_device_output_stays_a_device(study_dir, no_planning):
 
 
 def test_json_to_failing_stdout_exits_4_and_keeps_workbook_away(study_dir, no_planning, monkeypatch):
-    # item 11: "--json - > /dev/full"; standard output is written before any rename
+    # "--json - > /dev/full"; standard output is written before any rename
     import sys
 
     class FullStdout:
@@ -175,7 +174,7 @@ def test_json_to_failing_stdout_exits_4_and_keeps_workbook_away(study_dir, no_pl
 
 
 def test_new_into_unwritable_folder_is_one_line_exit_4(tmp_path, monkeypatch):
-    # item 13: root ignores folder permissions, so the folder is made unwritable for the
+    # Root ignores folder permissions, so the folder is made unwritable for the
     # process by failing the temporary file the way a read-only folder does (EACCES).
     import tempfile
 
@@ -220,11 +219,21 @@ def test_json_written_with_the_workbook(study_dir, no_planning):
 @pytest.mark.parametrize("workbook, expected", [
     ("a\\u0000b.xlsx", "a NUL character in the path"),
     ("x" * 300 + ".xlsx", "File name too long"),          # NAME_MAX 255 (POSIX limits.h)
-    ("quick_sites.csv/p.xlsx", "Not a directory"),
 ])
 def test_unusable_output_names_are_refused_before_planning(study_dir, no_planning, workbook, expected):
     text = (study_dir / "quick.toml").read_text().replace("[output]\n", f'[output]\nworkbook = "{workbook}"\n')
     (study_dir / "quick.toml").write_text(text)
     result = run(study_dir, "quick.toml")
     assert result.exit_code == 2 and expected in one_error_line(result)
+    assert no_planning == []
+
+
+@pytest.mark.parametrize("workbook", ["quick_sites.csv/p.xlsx", "quick_sites.csv/deeper/p.xlsx"])
+def test_output_folder_that_cannot_be_created_is_exit_4_before_planning(study_dir, no_planning, workbook):
+    # A folder the file system will not create is a refusal to write (README: exit 4), not
+    # a bad input; it is still found before any planning.
+    text = (study_dir / "quick.toml").read_text().replace("[output]\n", f'[output]\nworkbook = "{workbook}"\n')
+    (study_dir / "quick.toml").write_text(text)
+    result = run(study_dir, "quick.toml")
+    assert result.exit_code == 4 and "Not a directory" in one_error_line(result)
     assert no_planning == []

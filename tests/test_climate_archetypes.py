@@ -15,13 +15,13 @@ KINDS = {"hot-desert", "tropical-humid", "mediterranean", "temperate-maritime",
          "humid-continental", "alpine", "subarctic-continental", "polar-coast"}
 
 
-def test_the_eight_kinds_of_issue_3_are_bundled():
+def test_the_eight_kinds_of_place_are_bundled():
     assert KINDS <= set(NAMES)
 
 
 @pytest.mark.parametrize("name", sorted(KINDS))
 def test_monthly_means_of_daily_extremes_reproduce_the_normals(name):
-    # Issue 3 check: the generated monthly means of daily max and min reproduce the
+    # The generated monthly means of daily max and min reproduce the
     # input normals (the archetype file's values) within 0.3 K.
     definition = archetypes._definitions()[name]
     year = load_climate(name)

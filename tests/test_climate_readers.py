@@ -91,7 +91,7 @@ def test_typical_year_shape_and_times():
 def test_bundled_list_and_cache():
     names = [n for n, _ in list_bundled()]
     assert {"tmy3-sand-point-ak", "tmy3-greensboro-nc", "tmy2-miami-fl"} <= set(names)
-    assert len(names) >= 11  # three real years + at least eight archetypes (issue 3)
+    assert len(names) >= 11  # three real years + at least eight archetypes (docs/climate.md)
     assert load_climate("tmy2-miami-fl") is load_climate("tmy2-miami-fl")
 
 
@@ -207,13 +207,30 @@ def test_csv_time_zone_conversion(tmp_path):
 
 def test_csv_daylight_saving_clock_is_converted(tmp_path):
     # Clock times of a zone with daylight saving: in July, 13:00 on the wall clock is
-    # 12:00 local standard time (US Eastern, UTC-5, daylight +1 h: common practice).
+    # 12:00 local standard time (tz database zone EST5EDT: UTC-5, daylight +1 h; common
+    # practice). A zone named after no place, as in the docs' example (MST7MDT).
     std = hours()
-    clock = std.tz_localize("Etc/GMT+5").tz_convert("America/New_York").tz_localize(None)
+    clock = std.tz_localize("Etc/GMT+5").tz_convert("EST5EDT").tz_localize(None)
+    assert (clock[4500] - std[4500]).total_seconds() == 3600  # early July: one hour ahead
     temps = ramp()
     year = load_climate(str(write_csv(tmp_path / "d.csv", stamps(clock), temps)),
-                        options={**BASE, "utc_offset_h": -5, "time_zone": "America/New_York"})
+                        options={**BASE, "utc_offset_h": -5, "time_zone": "EST5EDT"})
     np.testing.assert_allclose(year.temp_air_c, temps)
+
+
+def test_example_time_zones_name_no_place():
+    # The documented examples of time_zone use a tz-database zone named after no city (the
+    # POSIX-style MST7MDT, which keeps daylight saving), never an Area/City zone.
+    import re
+    from pathlib import Path
+
+    from planner.climate.csv_reader import CSV_OPTIONS
+
+    repo = Path(__file__).resolve().parents[1]
+    texts = [(repo / "docs" / "climate.md").read_text(encoding="utf-8"), CSV_OPTIONS["time_zone"]]
+    for text in texts:
+        assert "MST7MDT" in text
+        assert not re.search(r"\b(Africa|America|Antarctica|Asia|Atlantic|Australia|Europe|Indian|Pacific)/", text)
 
 
 def test_csv_leap_day_dropped(tmp_path):
@@ -267,7 +284,7 @@ def test_csv_short_gap_interpolated_with_warning(tmp_path):
     times = hours()
     temps = ramp()
     keep = np.ones(8760, bool)
-    keep[200:206] = False    # six missing hours: allowed (issue 3: gaps <= 6 h)
+    keep[200:206] = False    # six missing hours: allowed (docs/climate.md: gaps <= 6 h)
     path = write_csv(tmp_path / "g.csv", stamps(times[keep]), temps[keep])
     with pytest.warns(ClimateWarning, match="01-09 08:00-01-09 13:00 \\(6 h\\)"):
         year = load_climate(str(path), options=BASE)
@@ -471,8 +488,8 @@ def test_declarations_at_the_top_of_a_csv_replace_options(tmp_path):
 
 
 def test_fifo_climate_file_is_refused_before_reading(tmp_path):
-    # Issue 15 item 9: "planner plan /dev/zero" or a FIFO as a climate file read without
-    # end; a node made here stands in for them (refused by type, never opened).
+    # "planner plan /dev/zero" or a FIFO as a climate file would be read without end
+    # (docs/climate.md); a node made here stands in for them (refused by type, never opened).
     import os
 
     os.mkfifo(tmp_path / "site.epw")

@@ -108,13 +108,14 @@ def test_read_csv_bad_cell_names_line(tmp_path):
         loads.read_hourly_load_csv(f)
     values[9] = "-3"
     _write(f, values)
-    # Issue 15: the number as the user wrote it, never numpy's repr "np.float64(-3.0)".
+    # The number as the user wrote it, never numpy's repr "np.float64(-3.0)" (one-line
+    # errors name what was found: DEVELOPERS.md).
     with pytest.raises(InputError, match=r"line 11, column 'load_w': found -3 W, expected 0 to"):
         loads.read_hourly_load_csv(f)
 
 
 def test_read_csv_fifo_is_refused_before_reading(tmp_path):
-    # Issue 15 item 9: a FIFO would block the reader; refused by type (no writer needed).
+    # A FIFO would block the reader; refused by type (DEVELOPERS.md; no writer needed).
     import os
 
     os.mkfifo(tmp_path / "load.csv")

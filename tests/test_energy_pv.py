@@ -152,3 +152,32 @@ def test_array_length_and_time_zone_errors():
         pv.pv_dc_power_w(y.times().tz_localize(None), y.ghi_w_m2, y.dni_w_m2, y.dhi_w_m2,
                          y.temp_air_c, y.wind_speed_m_s, latitude_deg=40,
                          longitude_deg=-105, array_wp=50, tilt_deg=40, azimuth_deg=180)
+
+
+def test_many_arrays_at_once_equal_one_at_a_time():
+    # pv_dc_power_many_w runs the same chain on (hours, n) arrays; each column must equal
+    # pv_dc_power_w for that array alone (same sun, weather and orientation).
+    from planner.climate import load_climate
+    from planner.climate.relocation import Place, relocate_years
+    from planner.climate.solar import extra_radiation_many
+    from planner.energy.pv import pv_dc_power_many_w, pv_dc_power_w
+
+    base = load_climate("tmy3-greensboro-nc")
+    places = [Place(-33.0, 151.0, 40.0, 10.0), Place(62.0, 25.0, 100.0, 2.0)]
+    years = relocate_years([base, base], places)
+    tilts, azimuths, snow = [30.0, 60.0], [0.0, 170.0], [(), (12, 1, 2)]
+    stack = lambda name: np.column_stack([getattr(y, name) for y in years])  # noqa: E731
+    many = pv_dc_power_many_w(
+        stack("ghi_w_m2"), stack("dni_w_m2"), stack("dhi_w_m2"), stack("temp_air_c"),
+        stack("wind_speed_m_s"),
+        solar_apparent_zenith_deg=np.column_stack([y.sun.apparent_zenith_deg for y in years]),
+        solar_azimuth_deg=np.column_stack([y.sun.azimuth_deg for y in years]),
+        dni_extra_w_m2=extra_radiation_many([p.utc_offset_h for p in places]),
+        month=years[0].times().month, array_wp=[50.0, 120.0], tilt_deg=tilts,
+        azimuth_deg=azimuths, snow_months=snow, snow_loss_frac=0.5)
+    for j, year in enumerate(years):
+        one = pv_dc_power_w(year, array_wp=[50.0, 120.0][j], tilt_deg=tilts[j],
+                            azimuth_deg=azimuths[j], snow_months=snow[j], snow_loss_frac=0.5,
+                            solar_apparent_zenith_deg=year.sun.apparent_zenith_deg,
+                            solar_azimuth_deg=year.sun.azimuth_deg)
+        np.testing.assert_allclose(many[:, j], one, rtol=1e-12, atol=1e-12)

@@ -1,18 +1,25 @@
-"""Fuzzing the study loader, its validation and the output-path checks (issue 15, Checks).
+"""Fuzzing the study loader, its validation and the output-path checks, and the output
+commit under closed or failing streams and failing renames.
 
 Hypothesis mutates a valid quick-size study (study keys, sites-table cells, output paths)
 and runs it in-process. Every example must end either validated or with the project's own
-one-line error; no input file may change (SHA-256 before and after) and no temporary file
-may be left. A fair share of the examples must pass validation, so the fuzzing reaches
-past the first check. A handful of full plans run on examples that validate.
+errors, one line per mistake; no input file may change (SHA-256 before and after) and no
+temporary file may be left. A fair share of the examples must pass validation, so the
+fuzzing reaches past the first check. A handful of full plans run on examples that
+validate. The last test drives the whole command in-process with closed, full or broken
+standard streams and a rename that fails part-way through the commit: the exit code is the
+documented one and the outputs are both new or both as before.
 """
 
 from __future__ import annotations
 
 import csv
+import errno
 import hashlib
 import io
 import os
+import shutil
+import sys
 import tempfile
 from pathlib import Path
 
@@ -113,6 +120,13 @@ def leftovers(folder: Path) -> list[str]:
     return [p.name for p in folder.rglob("*") if p.name.endswith(".tmp")]
 
 
+def assert_one_line_per_mistake(err) -> None:
+    """Several mistakes come together, each on its own line; at most 20 and a count."""
+    lines = err.lines() if isinstance(err, InputError) else [str(err)]
+    assert str(err) == "\n".join(lines) and len(lines) <= 21
+    assert all(line.strip() and "Traceback" not in line for line in lines)
+
+
 def check_case(folder: Path, case) -> object:
     """Load, validate and check the outputs of one case; the study, or None on InputError."""
     from planner.cli.plan import output_paths
@@ -125,8 +139,8 @@ def check_case(folder: Path, case) -> object:
     try:
         study = load_study(folder / "study.toml")
         workbook, json_target = output_paths(study, out, json_out)
-    except InputError as err:
-        assert "\n" not in str(err)
+    except (InputError, OutputError) as err:
+        assert_one_line_per_mistake(err)
         study = None
     finally:
         os.chdir(cwd)
@@ -178,7 +192,7 @@ def test_a_handful_of_full_plans_leave_inputs_untouched():
             try:
                 write_outputs(run_study(study), workbook, json_target)
             except (InputError, OutputError) as err:
-                assert "\n" not in str(err)
+                assert_one_line_per_mistake(err)
             finally:
                 os.chdir(cwd)
             after = digests(folder)
@@ -189,3 +203,120 @@ def test_a_handful_of_full_plans_leave_inputs_untouched():
 
     one()
     assert plans["done"] >= 3, plans
+
+
+# ---------------------------------------------------------------- streams and the commit
+
+REPO = Path(__file__).resolve().parents[1]
+
+
+class FailingStream(io.TextIOBase):
+    """A standard stream whose writes fail as a full disk or a closed pipe does."""
+
+    def __init__(self, code: int):
+        super().__init__()
+        self.code = code
+
+    encoding, errors = "utf-8", "strict"
+
+    def writable(self):
+        return True
+
+    def write(self, text):
+        if not isinstance(text, str):
+            raise TypeError("str expected")
+        raise OSError(self.code, os.strerror(self.code))
+
+    def isatty(self):
+        return False
+
+
+def stream(kind: str):
+    return {"ok": io.StringIO, "closed": lambda: None, "full": lambda: FailingStream(errno.ENOSPC),
+            "broken": lambda: FailingStream(errno.EPIPE)}[kind]()
+
+
+def test_commit_under_failing_streams_and_renames_keeps_the_promises():
+    from plan_fixture import make_plan
+
+    import planner.pipeline
+    from planner.cli import main, streams
+
+    def fake_run(study, progress=None, **_options):
+        plan = make_plan(3)
+        for row in plan["chemistry_comparison"]:
+            row["sites_unserved"] = []
+        plan["unserved_sites"] = []
+        return plan
+
+    kinds = st.sampled_from(["ok", "closed", "full", "broken"])
+    counts = {"runs": 0, "rolled_back": 0}
+
+    @settings(max_examples=40, deadline=None, derandomize=True, database=None,
+              suppress_health_check=[HealthCheck.too_slow])
+    @given(stdout=kinds, stderr=kinds, json_out=st.sampled_from([None, "-", "p.json", "deep/p.json"]),
+           out=st.sampled_from(["p.xlsx", "link.xlsx", "newdir/"]),
+           fail_at=st.sampled_from([None, None, 0, 1]), earlier=st.booleans())
+    def one(stdout, stderr, json_out, out, fail_at, earlier):
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp)
+            for name in ("quick.toml", "quick_sites.csv"):
+                shutil.copy(REPO / "scenarios" / name, folder / name)
+            (folder / "runs").mkdir()
+            (folder / "link.xlsx").symlink_to(Path("runs") / "real.xlsx")
+            workbook = {"p.xlsx": folder / "p.xlsx", "link.xlsx": folder / "runs" / "real.xlsx",
+                        "newdir/": folder / "newdir" / "quick.xlsx"}[out]
+            data = None if json_out in (None, "-") else folder / json_out
+            targets = [workbook] + ([data] if data else [])
+            if earlier:
+                for path in targets:
+                    path.parent.mkdir(parents=True, exist_ok=True)
+                    path.write_bytes(b"earlier " + path.name.encode())
+            before = {path: path.read_bytes() if path.exists() else None for path in targets}
+            inputs = digests(folder)
+            renames = {"n": 0}
+            real_replace = os.replace
+
+            def replace(src, dst):
+                if str(src).endswith(".tmp") and str(dst).startswith(str(folder.resolve())):
+                    renames["n"] += 1
+                    if fail_at is not None and renames["n"] - 1 == fail_at:
+                        raise OSError(errno.EIO, "Input/output error")
+                return real_replace(src, dst)
+
+            args = ["plan", "quick.toml", "--out", out, "--workers", "1"]
+            args += ["--json", json_out] if json_out else []
+            saved = (sys.stdout, sys.stderr, os.replace, planner.pipeline.run_study,
+                     streams._silence, os.getcwd())
+            sys.stdout, sys.stderr = stream(stdout), stream(stderr)
+            os.replace, planner.pipeline.run_study = replace, fake_run
+            streams._silence = lambda fd: None      # never touch the test runner's descriptors
+            os.chdir(folder)
+            try:
+                main(args)
+                code = 0
+            except SystemExit as done:
+                code = done.code
+            finally:
+                (sys.stdout, sys.stderr, os.replace, planner.pipeline.run_study,
+                 streams._silence, cwd) = saved
+                os.chdir(cwd)
+            counts["runs"] += 1
+            json_lost = json_out == "-" and stdout != "ok"
+            rename_failed = fail_at is not None and fail_at < len(targets) and not json_lost
+            expected = 4 if json_lost or rename_failed else 0
+            assert code == expected, (code, expected, stdout, stderr, json_out, out, fail_at)
+            if expected == 4:
+                # both as before: the promise of README's exit-code table
+                assert {p: p.read_bytes() if p.exists() else None for p in targets} == before
+                counts["rolled_back"] += rename_failed and fail_at == 1
+            else:
+                assert workbook.read_bytes()[:2] == b"PK"
+                if data is not None:
+                    assert data.read_text().startswith("{")
+            after = digests(folder)
+            assert all(after[name] == inputs[name] for name in ("quick.toml", "quick_sites.csv"))
+            assert not [p.name for p in folder.rglob("*") if p.name.endswith((".tmp", ".old"))]
+
+    one()
+    assert counts["rolled_back"] >= 2, counts   # the second rename failed after the first

@@ -12,7 +12,7 @@ def c(design, pack, life, mass=10.0, install=100.0, disposal=20.0, probs=None):
 
 
 def test_dominated_design_is_removed():
-    # definition (issue 6): cheaper and longer-lived on every count dominates
+    # definition (docs/optimizer.md, Candidates): cheaper and longer-lived on every count dominates
     a = c("a", 1000, 6)
     b = c("b", 1200, 5)          # dearer and shorter: dominated by a
     d = c("d", 800, 4)           # cheaper but shorter: kept (trade-off)
@@ -32,7 +32,7 @@ def test_exact_ties_keep_the_first():
 
 
 def test_whole_years_rounds_down():
-    # replacement at or before the predicted life (issue 6), in whole years
+    # replacement at or before the predicted life, in whole years (docs/optimizer.md)
     assert whole_years(4.999) == 4 and whole_years(5.0) == 5 and whole_years(0.7) == 0
 
 

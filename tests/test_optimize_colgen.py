@@ -15,7 +15,7 @@ from test_optimize_bruteforce import fleet_best
 from test_optimize_fleet import ALL_MONTHS, cand, orp, orp_site, small_fleets
 
 from planner.optimize import ExistingPack, FleetProblem, SiteOptions, solve_fleet
-from planner.optimize.colgen import Pricer
+from planner.optimize.pricing import Pricer
 from planner.optimize.schedule import build_graphs
 
 

@@ -111,7 +111,7 @@ def test_failure_risk_cost_is_priced():
 
 def test_existing_pack_sets_first_replacement():
     # the existing pack can carry the site 2.5 more years: the first new pack goes in no
-    # later than year 2 (replacement at or before the predicted life; issue 6)
+    # later than year 2 (replacement at or before the predicted life: docs/optimizer.md)
     site = SiteOptions("x", "A", ALL_MONTHS, [cand("c", 4.0, 1000.0)], existing=ExistingPack(2.5))
     sol = solve_fleet(FleetProblem([site], 8, 0.03, {"A": 500.0}))
     years = sol.sites[0].replacement_years
@@ -121,7 +121,7 @@ def test_existing_pack_sets_first_replacement():
 
 def test_trip_month_is_first_common_access_month():
     # two sites open June-August and July-September travel together in July, the first
-    # month open to both (issue 6: trips only in accessible months)
+    # month open to both (docs/optimizer.md: trips only in accessible months)
     a = SiteOptions("a", "N", (6, 7, 8), [cand("c", 5, 1000)])
     b = SiteOptions("b", "N", (7, 8, 9), [cand("c", 5, 1000)])
     sol = solve_fleet(FleetProblem([a, b], 5, 0.0, {"N": 1000.0}))
@@ -153,7 +153,7 @@ def test_crew_limit_infeasible_names_the_limit():
 
 
 def test_crew_limit_binding_is_met_by_joint_model():
-    # 4 existing packs all due by year 2; crew of 2 site visits per year (issue 6 limit):
+    # 4 existing packs all due by year 2; crew of 2 site visits per year (fleet-wide limit):
     # the joint model must spread the visits over the years
     sites = [SiteOptions(f"s{i}", "A", ALL_MONTHS, [cand("c", 3, 1000)], existing=ExistingPack(2.0))
              for i in range(4)]
@@ -332,8 +332,8 @@ def test_infeasible_dict_has_no_nan():
 
 
 def test_existing_pack_lasting_the_study_needs_nothing():
-    # a pack that carries the site past the horizon: nothing bought, no trip (issue 6:
-    # the plan starts from the existing pack); no failure data -> zero cost
+    # a pack that carries the site past the horizon: nothing bought, no trip (the plan
+    # starts from the existing pack: docs/optimizer.md); no failure data -> zero cost
     site = SiteOptions("x", "A", (), [], existing=ExistingPack(25.0))
     sol = solve_fleet(FleetProblem([site], 20, 0.03, {"A": 5000.0}))
     assert sol.status == "optimal" and not sol.unserved

@@ -42,7 +42,7 @@ def test_small_milp_bound_and_gap():
 
 
 def test_gap_definition_and_solver_choice():
-    assert gap(100.0, 99.5) == pytest.approx(0.005)  # (obj - bound)/|obj|, issue 6
+    assert gap(100.0, 99.5) == pytest.approx(0.005)  # (obj - bound)/|obj|, docs/optimizer.md
     assert pick_solver("cbc") == "cbc"
     assert pick_solver("auto") in ("highs", "cbc")
     with pytest.raises(ValueError):
@@ -59,7 +59,7 @@ def test_column_generation_keeps_stdout_clean(capfd):
 
 
 def test_costs_at_the_money_bound_solve_to_the_scaled_optimum():
-    # Issue 15 item 8: amounts near the schema bound (1e12) must solve like small ones.
+    # Amounts near the schema bound (1e12, docs/study-file.md) must solve like small ones.
     # Check value: research note §5.3 two-site vector (lives 4 and 6, packs 1000 and 1500,
     # shared trip 3000, no discount: 15,000), with every amount times 1e8; a linear
     # objective's optimum scales with its costs.
@@ -78,7 +78,8 @@ def test_costs_at_the_money_bound_solve_to_the_scaled_optimum():
 
 
 def test_non_finite_money_is_refused_before_solving():
-    # Issue 15 item 8: an overflowed amount (1e308 x 1.5 = inf) never reaches the solver.
+    # An overflowed amount (1e308 x 1.5 = inf) never reaches the solver: a non-finite
+    # cost makes the solver search without end.
     from planner.errors import InputError
     from planner.optimize import FleetProblem
     from planner.optimize.solver import objective_scale

@@ -229,7 +229,7 @@ def test_years_to_threshold_linear_curve():
 
 
 def test_one_cell_without_spread_is_the_single_cell_curve():
-    # Check of the issue: zero spread, zero gradient, one cell -> the single-cell result.
+    # Limit check: zero spread, zero gradient, one cell -> the single-cell result.
     d = life_distribution(calendar_loss_frac=CAL, cycle_loss_frac=CYC, eol_soh_frac=0.8,
                           series_cells=1, draws=20, **NO_SPREAD)
     single = 1.0 - CAL - CYC
@@ -382,7 +382,7 @@ def test_hotter_inner_cell_never_lengthens_life(n, dt1, extra, spread, bal, seed
 
 
 def test_feedback_widens_the_spread_over_time():
-    # The issue's premise (common practice; Baumhoefer et al. 2014, J. Power Sources 247,
+    # The premise of the pack model (common practice; Baumhoefer et al. 2014, J. Power Sources 247,
     # 332-338, lifetime differences among equal cells): a weak cell cycles deeper and ages
     # faster, so the P10-P90 SOH band is wider with the depth feedback than without.
     kw = dict(series_cells=8, cell_spread_frac=0.03, self_heating_k=0)
@@ -405,7 +405,7 @@ MIXED = {k: getattr(SPREAD_PRESETS["mixed-lots"], k)
     (dict(series_cells=4, parallel_strings=2, **MIXED), 4000),
 ])
 def test_p50_stable_between_seeds(cfg, draws):
-    # Monte Carlo check of the issue: P50 within 2 % between seeds; the default count
+    # Monte Carlo check: P50 within 2 % between seeds (docs/pack.md); the default count
     # is 1000 draws (one lot; passive or active balancing).
     assert DEFAULT_DRAWS == 1000
     p50 = [run(draws=draws, seed=seed, **cfg).p50_years for seed in (11, 12, 13)]
@@ -467,7 +467,7 @@ def test_bad_life_input_is_one_line_input_error(kw, key):
 
 
 def test_life_fields_fixed_names_and_beyond_horizon():
-    # fixed JSON names (issue 8 / docs/plan-json.md); a life beyond the horizon is null
+    # fixed JSON names (docs/plan-json.md); a life beyond the horizon is null
     d = run(series_cells=2, draws=50)
     rows = life_fields(d, prefix="life")
     assert len(rows) == 3 and set(rows[0]) == {"life_p10_years", "life_p50_years", "life_p90_years"}
@@ -480,7 +480,7 @@ def test_life_fields_fixed_names_and_beyond_horizon():
 
 
 def test_life_summary_from_fade_result_is_one_call():
-    # wiring helper: a FadeResult-like object in, fixed JSON fields out (issue 8 names)
+    # wiring helper: a FadeResult-like object in, fixed JSON fields out (docs/plan-json.md names)
     class Fade:
         calendar_loss_frac = CAL
         cycle_loss_frac = CYC

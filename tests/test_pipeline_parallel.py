@@ -3,7 +3,7 @@
 The fleet is invented (benchmarks/fleet_gen.py, seeded); the checks compare the planner
 with itself: the same study planned serially and over two worker processes, and the
 warming sensitivity case against a full plan of the warmed study. Only the solver's
-timing fields may differ (issue 11).
+timing fields may differ (docs/scaling.md).
 """
 
 import importlib.util

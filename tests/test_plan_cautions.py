@@ -15,7 +15,7 @@ from planner.plan.cautions import (
 
 def test_standard_cautions_cover_the_usual_hazards():
     # The hazards practitioners name for battery work (../shared/notes/sizing-economics.md §7.1;
-    # issue 7 list): hydrogen from lead-acid, Li-ion thermal runaway, no cold charging,
+    # README, safety): hydrogen from lead-acid, Li-ion thermal runaway, no cold charging,
     # lithium transport (UN 38.3), heavy lifting, DC arc.
     text = " ".join(f"{c.topic} {c.text} {c.defer_to}" for c in STANDARD_CAUTIONS).lower()
     for needle in ("hydrogen", "thermal runaway", "0 °c", "un 38.3", "lift", "arc"):
@@ -25,7 +25,8 @@ def test_standard_cautions_cover_the_usual_hazards():
 
 
 def test_defer_instruction_names_codes_and_licensed_practice():
-    # Issue 7: defer to local codes, standards (e.g. NFPA 855, IEC 62485-2, IEC 62619), licensed practice.
+    # README, safety: defer to local codes, standards (e.g. NFPA 855, IEC 62485-2, IEC 62619),
+    # licensed practice.
     for needle in ("local codes", "NFPA 855", "IEC 62485-2", "IEC 62619", "licensed practice"):
         assert needle in DEFER_INSTRUCTION
 

@@ -79,8 +79,19 @@ def test_days_off_air_apart_from_the_pack_price_keep_the_same_total():
     assert cost.packs == pytest.approx(4500.0 * spv)
     assert cost.residual == pytest.approx(-4500.0 * 0.5 * float(ec.spv(0.03, 20)))
     assert cost.downtime == pytest.approx(1000.0 * spv - 1000.0 * 0.5 * float(ec.spv(0.03, 20)))
+    # Days off air fall in the years they happen: 1,000 is the present value at installation
+    # of a uniform yearly cost over the 8-year life, so 1,000 / UPV(3 %, 8) = 142.46 a year
+    # (NIST HB 135 App. D: UPV(3 %, 8) = 7.0197) from the year after each installation.
+    yearly = 1000.0 / float(ec.upv(0.03, 8))
+    assert yearly == pytest.approx(142.46, abs=0.01)
     by_year = {r["year"]: r for r in rows}
-    assert by_year[8]["downtime"] == pytest.approx(1000.0) and by_year[20]["downtime"] == pytest.approx(-500.0)
+    assert by_year[0]["downtime"] == 0.0
+    for year in range(1, 20):
+        assert by_year[year]["downtime"] == pytest.approx(yearly, rel=1e-12), year
+    # the end year balances the linear residual share against the amounts booked (the
+    # optimizer's price is unchanged): the present values of the column equal cost.downtime
+    pv = sum(r["downtime"] * float(ec.spv(0.03, r["year"])) for r in rows)
+    assert pv == pytest.approx(cost.downtime, rel=1e-12)
 
 
 def test_regions_split_the_fleet_without_loss():
@@ -136,7 +147,10 @@ def test_design_change_price_trend_and_measure_add_up_year_by_year():
     assert [x.design_id for x in solution.sites[0].installations] == ["A", "C"]
     rows = {r["year"]: r for r in spending_by_year(problem, solution, start_year=2030)}
     assert rows[0]["packs"] == pytest.approx(300.0) and rows[1]["packs"] == pytest.approx(200.0)
-    assert rows[0]["thermal"] == pytest.approx(335.0) and rows[1]["thermal"] == 0.0
+    # the measure's price is a thermal-measure cost, its 85 of fitting labour installation
+    # labour, as the optimizer's cost groups count them
+    assert rows[0]["thermal"] == pytest.approx(250.0) and rows[1]["thermal"] == 0.0
+    assert rows[0]["labour"] == pytest.approx(85.0)
     # 300 + 335 + 100 + (200 + 100) / 1.1 (arithmetic)
     assert solution.objective == pytest.approx(735.0 + 300.0 / 1.1, rel=1e-12)
     assert sum(r["present_value"] for r in rows.values()) == pytest.approx(solution.objective, rel=1e-12)

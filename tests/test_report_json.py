@@ -16,7 +16,7 @@ from plan_fixture import make_plan
 from planner.report import plan_to_json_text, write_json
 from planner.report.plan_json import round_significant
 
-# Fixed keys of the plan JSON (docs/plan-json.md, "fixed" marks; issue 6 "Outputs of this stage").
+# Fixed keys of the plan JSON (docs/plan-json.md, "fixed" marks): scripts read them.
 FIXED_TOP = ("total_present_cost", "solver", "sites", "trips", "chemistry_comparison")
 FIXED_SOLVER = ("name", "status", "gap_frac", "seconds")
 FIXED_SITE = ("id", "chemistry", "oversize_factor", "charge_voltage_v", "capacity_wh", "replacement_years",

@@ -1,7 +1,7 @@
 """The reader's wording: coverage, drivers and plan status, with no solver vocabulary.
 
-Expected sentences are the wording the plan's readers asked for (issue text: "serves 15
-of 16 sites; DP-05 keeps lisocl2" rather than a solver status), checked literally.
+Expected sentences are the wording of docs/workbook.md ("serves 15 of 16 sites; DP-05
+keeps lisocl2" rather than a solver status), checked literally.
 """
 
 import math
@@ -33,7 +33,12 @@ def test_plan_status_has_no_solver_words_and_tolerates_nan():
     plan = {"sites": [{"id": "a"}, {"id": "b"}], "unserved_sites": [{"id": "b"}],
             "solver": {"status": "infeasible", "gap_frac": 0.0}}
     text = plan_status_text(plan)
-    assert text == "1 of 2 sites served; 1 cannot be (see Cautions); cost within 0.00% of the lowest possible"
+    assert text == "1 of 2 sites served; 1 not (see Needs attention); cost within 0.00% of the lowest possible"
+    # a site that loses more than 1 % of its load is not served either (planner.plan.attention)
+    lossy = {"sites": [{"id": "a", "daily_load_wh": 100.0, "unserved_wh_per_year": 0.02 * 36500.0},
+                       {"id": "b", "daily_load_wh": 100.0, "unserved_wh_per_year": 0.005 * 36500.0}],
+             "solver": {"status": "optimal", "gap_frac": 0.0}}
+    assert plan_status_text(lossy).startswith("1 of 2 sites served; 1 not (see Needs attention)")
     plan["solver"]["gap_frac"] = math.nan
     assert "nan" not in plan_status_text(plan)
     stopped = {"sites": [{"id": "a"}], "solver": {"status": "feasible", "gap_frac": 0.031}}

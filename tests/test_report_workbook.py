@@ -23,9 +23,10 @@ from hypothesis import strategies as st
 from openpyxl.utils import range_boundaries
 from plan_fixture import make_plan
 
+from planner.plan.attention import sites_not_served
 from planner.report import SHEET_NAMES, neutralise_text, write_json, write_workbook
 
-N_SITES = 22  # more than the 20 fade charts, so the "most expensive 20" choice is exercised
+N_SITES = 22  # more than the 16 fade charts, so the "most expensive 16" choice is exercised
 # Numbers in an xlsx keep 15-16 significant digits (Excel specifications and limits: number
 # precision 15 digits; openpyxl writes "%.16g"), so "equal" means within 1e-15 relative.
 XL = 1e-15
@@ -82,12 +83,16 @@ def test_summary_numbers_equal_plan_and_json(written, book):
     facts = {f["Item"]: f["Value"] for f in facts}
     assert facts["Total present cost [EUR]"] == pytest.approx(plan["total_present_cost"], rel=XL)
     assert facts["Total present cost [EUR]"] == pytest.approx(js["total_present_cost"], rel=5e-6)
-    assert facts["Optimality gap [%]"] == plan["solver"]["gap_frac"] == js["solver"]["gap_frac"]
     assert facts["Real discount rate [%]"] == plan["study"]["discount_rate_frac"]
-    assert facts["Solve time [s]"] == plan["solver"]["seconds"]
     assert facts["Plan status"] == f"all {N_SITES} sites served; cost within 0.12% of the lowest possible"
     assert facts["Sites planned"] == N_SITES
-    assert facts["Pack replacements over the horizon"] == sum(len(s["replacement_years"]) for s in plan["sites"])
+    # the first packs are not replacements: the two counts add up to every pack put in
+    assert facts["First packs put in"] == N_SITES
+    assert facts["First packs put in"] + facts["Replacements after the first pack"] == sum(
+        len(s["replacement_years"]) for s in plan["sites"])
+    # solver figures live on Assumptions and sources, not on the Summary
+    assert not any("gap" in str(k).lower() or "bound" in str(k).lower() or "solver" in str(k).lower()
+                   for k in facts)
 
     # The ten most expensive sites, largest first, equal to the plan's values.
     _, rows = _table(ws, "Site id")
@@ -98,13 +103,21 @@ def test_summary_numbers_equal_plan_and_json(written, book):
         assert row["Present cost [EUR]"] == pytest.approx(site["present_cost"], rel=XL)
         assert _years(row["Replacement years"]) == site["replacement_years"]
 
-    _, comp = _table(ws, "Chemistry")
-    for row, ref in zip(comp, plan["chemistry_comparison"]):
-        assert row["Chemistry"] == ref["chemistry"]
-        assert row["Fleet present cost, others keep their best [EUR]"] == pytest.approx(
-            ref["total_with_others_present_cost"], rel=XL)
-        groups = ("Equipment [EUR]", "Trips and labour [EUR]", "Days off air [EUR]", "Failure risk [EUR]")
-        assert sum(row[g] for g in groups) == pytest.approx(row["Fleet present cost, others keep their best [EUR]"])
+    _, comp = _table(ws, "Case")
+    groups = ("Equipment [EUR]", "Trips and labour [EUR]", "Days off air [EUR]", "Expected failure cost [EUR]")
+    # the first row is this plan, with the plan's own cost groups adding up to its total
+    assert comp[0]["Case"] == "This plan"
+    assert comp[0]["Fleet present cost [EUR]"] == pytest.approx(plan["total_present_cost"], rel=XL)
+    assert sum(comp[0][g] for g in groups) == pytest.approx(plan["total_present_cost"], rel=1e-12)
+    assert comp[0]["Days off air [EUR]"] == pytest.approx(plan["cost_groups"]["downtime"], rel=XL)
+    names = {"vrla": "Demo lead-acid", "lfp": "Demo iron phosphate", "nmc": "Demo nickel oxide",
+             "lto": "Demo titanate"}
+    for row, ref in zip(comp[1:], plan["chemistry_comparison"]):
+        name = names.get(ref["chemistry"])
+        if name:  # the chemistry's full name, worded as a case (one name everywhere)
+            assert row["Case"] == f"If {name} wherever it can serve"
+        assert row["Fleet present cost [EUR]"] == pytest.approx(ref["total_with_others_present_cost"], rel=XL)
+        assert sum(row[g] for g in groups) == pytest.approx(row["Fleet present cost [EUR]"])
         assert row["Days off air share [%]"] == pytest.approx(ref["downtime"] / ref["total_with_others_present_cost"])
 
 
@@ -115,11 +128,13 @@ def test_summary_speaks_no_solver_words_for_partial_coverage(written, book):
     text = " ".join(str(c.value) for row in book["Summary"].iter_rows() for c in row if c.value is not None)
     for word in ("infeasible", "optimal", "feasible"):
         assert not re.search(rf"\b{word}\b", text.lower()), word
-    _, comp = _table(book["Summary"], "Chemistry")
-    coverage = {r["Chemistry"]: r["Coverage"] for r in comp}
-    assert coverage["nmc"] == f"serves {N_SITES - 1} of {N_SITES} sites; S0000 keeps lfp"
-    assert coverage["lisocl2"] == f"serves none of the {N_SITES} sites"
-    assert coverage["vrla"] == f"serves all {N_SITES} sites"
+    _, comp = _table(book["Summary"], "Case")
+    coverage = {r["Case"]: r["Coverage"] for r in comp}
+    assert coverage["If Demo nickel oxide wherever it can serve"] == (
+        f"serves {N_SITES - 1} of {N_SITES} sites; S0000 keeps Demo iron phosphate")
+    assert coverage["If Primary lithium thionyl chloride (Li-SOCl2, bobbin) wherever it can serve"] == (
+        f"serves none of the {N_SITES} sites")
+    assert coverage["If Demo lead-acid wherever it can serve"] == f"serves all {N_SITES} sites"
     assert [r["status"] for r in js["chemistry_comparison"]][2] == "infeasible"
 
 
@@ -159,8 +174,10 @@ SITES_MAP = {
     "Aging factor [-]": ("reference_factors", "aging_factor"),
     "Design margin [-]": ("reference_factors", "design_margin"),
     "Design temperature [°C]": ("reference_factors", "design_temp_c"),
-    "Oversize factor [x]": ("oversize_factor",), "Charge voltage [V]": ("charge_voltage_v",),
+    "Pack over the 1x size [x]": ("oversize_factor",), "Oversize step of the study [x]": ("oversize_factor_step",),
+    "Charge voltage of the pack [V]": ("charge_voltage_v",),
     "Charge voltage per cell [V]": ("charge_voltage_v_per_cell",), "System voltage [V]": ("system_voltage_v",),
+    "End of life at SOH [%]": ("eol_soh_frac",), "Years to 80% SOH [years]": ("years_to_report_soh",),
     "Pack size [Wh]": ("capacity_wh",), "Capacity [Ah]": ("capacity_ah",), "Pack mass [kg]": ("pack_mass_kg",),
     "Life [years]": ("life_years",), "Life P10 [years]": ("life_p10_years",),
     "Life P50 [years]": ("life_p50_years",), "Life P90 [years]": ("life_p90_years",),
@@ -169,13 +186,13 @@ SITES_MAP = {
     "Present cost [EUR]": ("present_cost",), "Packs [EUR]": ("cost_breakdown", "packs"),
     "Labour [EUR]": ("cost_breakdown", "labour"), "Trips share [EUR]": ("cost_breakdown", "trips"),
     "Disposal [EUR]": ("cost_breakdown", "disposal"), "Residual value [EUR]": ("cost_breakdown", "residual"),
-    "Failure risk [EUR]": ("cost_breakdown", "failure_risk"),
+    "Expected failure cost [EUR]": ("cost_breakdown", "failure_risk"),
     "Days off air [EUR]": ("cost_breakdown", "downtime"),
     "Risk before the next visit [%]": ("risk_before_next_visit_frac",),
 }
 SITES_TEXT = {"Site id": "id", "Region": "region", "Climate": "climate", "Enclosure": "enclosure",
-              "Charging source": "charging", "Chemistry": "chemistry", "Pack structure": "pack_structure",
-              "Limiting cause": "limiting_cause"}
+              "Charging source": "charging", "Chemistry of the first new pack": "chemistry_name",
+              "Pack structure": "pack_structure", "Limiting cause": "limiting_cause"}
 
 
 def _dig(d, path):
@@ -231,8 +248,9 @@ def test_other_sheets_numbers_equal_json(written, book):
     for _, row in grid.iterrows():
         site = sites[row["Site id"]]
         for year, month in zip(site["replacement_years"], site["replacement_months"]):
-            # Year 0 is the study's start year (docs/plan-json.md: years count from the start).
-            assert row[f"Year {year} ({js['study']['start_year'] + year})"] == months[month - 1]
+            # Year 0 is the study's start year (docs/plan-json.md: years count from the start);
+            # the cell starts with the month, then what the visit installs
+            assert row[f"Year {year} ({js['study']['start_year'] + year})"].split()[0] == months[month - 1]
         visited = [c for c in grid.columns if c.startswith("Year ") and isinstance(row[c], str)]
         assert len(visited) == len(site["replacement_years"])
 
@@ -241,8 +259,10 @@ def test_other_sheets_numbers_equal_json(written, book):
         site = sites[row["Site id"]]
         assert row["Chosen present cost [EUR]"] == pytest.approx(site["present_cost"], rel=5e-6)
         for alt in site["alternatives"]:
-            assert row[f"{alt['chemistry']} present cost [EUR]"] == pytest.approx(alt["present_cost"], rel=5e-6)
-            assert row[f"{alt['chemistry']} life [years]"] == pytest.approx(alt["life_years"], rel=5e-6)
+            name = {"vrla": "Demo lead-acid", "lfp": "Demo iron phosphate", "nmc": "Demo nickel oxide",
+                    "lto": "Demo titanate"}[alt["chemistry"]]
+            assert row[f"{name}: present cost [EUR]"] == pytest.approx(alt["present_cost"], rel=5e-6)
+            assert row[f"{name}: life [years]"] == pytest.approx(alt["life_years"], rel=5e-6)
     sens = {r["Sensitivity case"]: r for _, r in cost.dropna(subset=["Sensitivity case"]).iterrows()}
     for case in js["sensitivity"]:
         assert sens[case["case"]]["Change [%]"] == pytest.approx(case["change_frac"], rel=5e-6)
@@ -273,9 +293,10 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
     wb = book
     with zipfile.ZipFile(xlsx) as zf:
         charts = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
-        # 3 bar charts (Summary: cost groups per chemistry, cost by chemistry; Spending by
-        # year) + 20 fade charts (20 most expensive of 22) + climate charts (<= 4).
-        assert 3 + 20 + 1 <= len(charts) <= 3 + 20 + 4
+        # 4 bar charts (Summary: cost groups per case, days off air per case, cost by
+        # chemistry; Spending by year) + 16 fade charts (16 most expensive of 22) + climate
+        # charts (<= 4) + the two scatter charts of Site map.
+        assert 4 + 16 + 1 + 2 <= len(charts) <= 4 + 16 + 4 + 2
         kinds = {"barChart": 0, "scatterChart": 0, "lineChart": 0}
         for name in charts:
             xml = zf.read(name)
@@ -293,12 +314,12 @@ def test_chart_parts_reference_non_empty_ranges(written, book):
                     values = [c for row in ws.iter_rows(min_row=min_row, max_row=max_row, min_col=min_col,
                                                         max_col=max_col, values_only=True) for c in row]
                     assert any(isinstance(v, (int, float)) for v in values), (name, ref)
-        assert kinds["barChart"] == 3 and kinds["scatterChart"] == 20 and kinds["lineChart"] >= 1
+        assert kinds["barChart"] == 4 and kinds["scatterChart"] == 18 and kinds["lineChart"] >= 1
 
 
 def test_fade_charts_are_the_most_expensive_sites(written):
     plan, xlsx, _ = written
-    expected = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:20]
+    expected = sorted(plan["sites"], key=lambda s: -s["present_cost"])[:16]
     with zipfile.ZipFile(xlsx) as zf:
         titles = " ".join(zf.read(n).decode() for n in zf.namelist() if n.startswith("xl/charts/chart"))
     for site in expected:
@@ -315,8 +336,9 @@ def test_formula_injection_comes_back_as_text(written, book):
             for cell in row:
                 assert cell.data_type != "f", (ws.title, cell.coordinate, cell.value)
                 if isinstance(cell.value, str) and cell.value in (*HOSTILE, "-Demo Ridge"):
-                    # Issue 15: shown as typed (no apostrophe), kept text by the cell's type,
-                    # its text number format and the quote-prefix flag.
+                    # docs/workbook.md, "Text can never become a formula": shown as typed
+                    # (no apostrophe), kept text by the cell's type, its text number
+                    # format and the quote-prefix flag.
                     assert cell.data_type == "s"
                     assert cell.number_format == "@" and cell.quotePrefix
                     found[cell.value] = True
@@ -384,14 +406,19 @@ def test_page_setup_landscape_fit_width_and_frozen_headers(written, book):
     # landscape + fit to width; crews print the visit schedule with repeated headers.
     _, xlsx, _ = written
     wb = book
+    fixed_scale = {"Crew trips": 100, "Visit schedule": 75}  # print at a known size, not fitted
     for ws in wb.worksheets:
         assert ws.page_setup.orientation == "landscape", ws.title
-        assert ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
-        assert int(ws.page_setup.fitToHeight) == 0, ws.title
         assert ws.freeze_panes, ws.title
+        if ws.title in fixed_scale:
+            assert not ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+            assert int(ws.page_setup.scale) == fixed_scale[ws.title], ws.title
+        else:
+            assert ws.sheet_properties.pageSetUpPr.fitToPage, ws.title
+            assert int(ws.page_setup.fitToHeight) == 0, ws.title
     for name in ("Visit schedule", "Trip list"):
         assert wb[name].print_title_rows == "$1:$1" and wb[name].print_area
-        assert int(wb[name].page_setup.fitToWidth) == 1
+    assert int(wb["Trip list"].page_setup.fitToWidth) == 1
 
 
 def test_number_formats_and_units(written, book):
@@ -407,7 +434,7 @@ def test_cautions_sheet_lists_standard_cautions_and_site_warnings(written, book)
     plan, xlsx, _ = written
     text = " ".join(str(c.value) for row in book["Cautions"].iter_rows() for c in row
                     if c.value is not None)
-    # The usual cautions of the trade (issue 7; ../shared/notes/sizing-economics.md §7).
+    # The usual cautions of the trade (README, safety; ../shared/notes/sizing-economics.md §7).
     for needle in ("hydrogen", "thermal runaway", "0 °C", "UN 38.3", "lift", "arc", "NFPA 855", "IEC 62485-2",
                    "IEC 62619", "licensed practice"):
         assert needle.lower() in text.lower(), needle
@@ -452,7 +479,7 @@ def test_libreoffice_renders_pdf_and_keeps_names_literal(tmp_path):
 
 
 def test_each_site_missing_a_different_key_still_writes(tmp_path):
-    # Tolerance (issue 7 brief): a missing optional key leaves that cell blank, never crashes.
+    # Tolerance (docs/workbook.md): a missing optional key leaves that cell blank, never crashes.
     # Every site loses a different key, so one write covers every key of the fixture.
     keys = sorted(make_plan(1)["sites"][0])
     plan = make_plan(len(keys), seed=5)
@@ -519,7 +546,7 @@ def test_spending_sheet_matches_json_and_adds_up(written, book):
     assert len(rows) == len(js["spending_by_year"]) == plan["study"]["horizon_years"] + 1
     keys = {"Packs [EUR]": "packs", "Installation labour [EUR]": "labour", "Trips [EUR]": "trips",
             "Disposal [EUR]": "disposal", "Thermal measures [EUR]": "thermal",
-            "Days off air (expected) [EUR]": "downtime", "Failure risk (expected) [EUR]": "risk",
+            "Days off air [EUR]": "downtime", "Expected failure cost [EUR]": "risk",
             "Residual value [EUR]": "residual", "Total [EUR]": "total",
             "Total, money of the year [EUR]": "total_nominal", "Present value [EUR]": "present_value"}
     for row, ref in zip(rows, js["spending_by_year"]):
@@ -562,17 +589,191 @@ def test_fleet_overview_at_1000_sites(tmp_path):
             row["kept_by_other"] = {s["id"]: ("lfp" if k < 300 else "vrla") for k, s in enumerate(plan["sites"][:400])}
     book = openpyxl.load_workbook(write_workbook(plan, tmp_path / "fleet.xlsx"))
     ws = book["Summary"]
-    assert ws.max_row < 80  # a few printed pages, not one row per site
+    # a few printed pages, not one row per site (a row per region: one region per 40 sites)
+    assert ws.max_row < 150
     _, top = _table(ws, "Site id")
     assert len(top) == 10
     _, by_region = _table(ws, "Region")
     assert sum(r["Sites"] for r in by_region) == 1000
     assert sum(r["Present cost [EUR]"] for r in by_region) == pytest.approx(plan["total_present_cost"], rel=1e-12)
     assert sum(r["Replacements"] for r in by_region) == sum(len(s["replacement_years"]) for s in plan["sites"])
-    _, by_chem = _table(ws, "Chemistry")  # the comparison comes first, then the overview
-    coverage = {r["Chemistry"]: r["Coverage"] for r in by_chem if r.get("Coverage")}
-    assert coverage["nmc"] == "serves 600 of 1,000 sites; the other 400 keep another chemistry (lfp 300, vrla 100)"
+    _, by_case = _table(ws, "Case")  # the comparison comes first, then the overview
+    coverage = {r["Case"]: r["Coverage"] for r in by_case if r.get("Coverage")}
+    assert coverage["If Demo nickel oxide wherever it can serve"] == (
+        "serves 600 of 1,000 sites; the other 400 keep another chemistry (Demo iron phosphate 300, "
+        "Demo lead-acid 100)")
     longest = max(len(str(c.value)) for row in ws.iter_rows() for c in row if c.value is not None)
     assert longest < 300  # no cell lists hundreds of ids
     text = [c.value for row in ws.iter_rows() for c in row if isinstance(c.value, str)]
-    assert any("250 sites cannot be served by any design" in t and "Cautions" in t for t in text)
+    assert any("250 sites are not served" in t and "Needs attention" in t for t in text)
+
+
+# ---------------------------------------------------------------- one name for one thing
+NAMES = {"vrla": "Demo lead-acid", "lfp": "Demo iron phosphate", "nmc": "Demo nickel oxide",
+         "lto": "Demo titanate"}
+
+
+def test_one_cost_one_name_expected_failure_cost(written, book):
+    # The expected cost of failures is money, not a probability: one name on every sheet
+    # (the JSON keeps failure_risk / risk for scripts).
+    text = {ws.title: " ".join(str(c.value) for row in ws.iter_rows() for c in row if c.value is not None)
+            for ws in book.worksheets}
+    for title in ("Summary", "Spending by year", "Sites", "Sites at risk"):
+        assert "Expected failure cost" in text[title], title
+    assert not any("Failure risk" in t for t in text.values())
+
+
+def test_chemistries_by_their_full_name_everywhere(written, book):
+    plan = written[0]
+    columns = {"Summary": "Chemistry", "Sites": "Chemistry of the first new pack", "Sites at risk": "Chemistry",
+               "Cost comparison": "Chosen chemistry", "Fade by year": "Chemistry"}
+    for title, header in columns.items():
+        ws = book[title]
+        found = [c for row in ws.iter_rows() for c in row if c.value == header]
+        assert found, (title, header)
+        values = {ws.cell(row=r, column=found[0].column).value
+                  for r in range(found[0].row + 1, found[0].row + 11)} - {None}
+        assert values and values <= set(NAMES.values()), (title, values)
+    xlsx = written[1]
+    with zipfile.ZipFile(xlsx) as zf:
+        xml = " ".join(zf.read(n).decode() for n in zf.namelist() if n.startswith("xl/charts/chart"))
+    assert "chosen: Demo" in xml and "chosen: lfp" not in xml and "best lfp" not in xml
+    assert len(plan["chemistry_comparison"]) == 5
+
+
+def _fade_series_colours(xlsx):
+    """(series label, line colour, dashed) of every fade chart, from the chart XML."""
+    out = []
+    with zipfile.ZipFile(xlsx) as zf:
+        for name in sorted(n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)):
+            root = ET.fromstring(zf.read(name))
+            text = "".join(t.text or "" for t in root.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}t"))
+            if not any(True for _ in root.iter(f"{C}scatterChart")) or "State of health" not in text:
+                continue  # the Site map's scatter charts are not fade charts
+            mins = [float(m.get("val")) for m in root.iter(f"{C}min")]
+            for ser in root.iter(f"{C}ser"):
+                label = "".join(t.text or "" for t in ser.iter(f"{C}v"))
+                colour = next((c.get("val") for c in ser.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}srgbClr")), None)
+                dash = any(True for _ in ser.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}prstDash"))
+                out.append((name, label, colour, dash, tuple(mins)))
+    return out
+
+
+def test_fade_charts_colour_per_chemistry_replace_line_and_one_range(written):
+    series = _fade_series_colours(written[1])
+    colour_of: dict[str, set] = {}
+    for _, label, colour, _, _ in series:
+        for chem_name in NAMES.values():
+            if label.endswith(chem_name):
+                colour_of.setdefault(chem_name, set()).add(colour)
+    # one colour per chemistry across every chart, and different chemistries differ
+    assert all(len(c) == 1 for c in colour_of.values()), colour_of
+    assert len({next(iter(c)) for c in colour_of.values()}) == len(colour_of)
+    # every chart draws the state of health at which its pack is replaced (eol_soh_frac)
+    charts = {name for name, *_ in series}
+    replace = {name for name, label, *_ in series if label.startswith("replace at ")}
+    assert replace == charts
+    # one y range for the family: the same lowest value on every chart (x min is 0)
+    assert len({mins for *_, mins in series}) == 1
+
+
+def test_extrapolation_mark_is_explained_once(written, book):
+    note = book["Capacity fade"]["A2"].value
+    assert note.count("*") == 1 and "outside the conditions it was fitted on" in note
+    with zipfile.ZipFile(written[1]) as zf:
+        xml = " ".join(zf.read(n).decode() for n in zf.namelist() if n.startswith("xl/charts/chart"))
+    assert "(life extrapolated)" not in xml
+
+
+def test_sub_cent_amounts_show_as_zero(tmp_path):
+    # A computed 1e-245 is no spending: it shows as 0 (a dash), never as "0 EUR" beside "-".
+    plan = make_plan(3, seed=1)
+    plan["spending_by_year"][4]["risk"] = 1e-245
+    plan["spending_by_year"][5]["downtime"] = -3e-9
+    ws = openpyxl.load_workbook(write_workbook(plan, tmp_path / "p.xlsx"))["Spending by year"]
+    headers, rows = _table(ws, "Year")
+    by_year = {r["Year"]: r for r in rows if isinstance(r["Year"], int)}
+    assert by_year[4]["Expected failure cost [EUR]"] == 0 and by_year[5]["Days off air [EUR]"] == 0
+
+
+def test_sites_show_every_pack_and_no_charge_voltage_for_primary_cells(tmp_path):
+    plan = make_plan(4, seed=2)
+    primary = plan["sites"][3]
+    primary.update(chemistry="lisocl2", chemistry_name="Demo primary", charge_voltage_v=3.6,
+                   charge_voltage_v_per_cell=3.6)
+    df = pd.read_excel(write_workbook(plan, tmp_path / "p.xlsx"), sheet_name="Sites")
+    assert pd.isna(df.loc[3, "Charge voltage of the pack [V]"])
+    assert pd.isna(df.loc[3, "Charge voltage per cell [V]"])
+    site = plan["sites"][0]
+    every = df.loc[0, "Every new pack"]
+    assert every.count("year ") == len(site["replacements"])
+    assert every.startswith(f"year 0: {NAMES[site['replacements'][0]['chemistry']]}")
+
+
+def test_crew_pages_say_what_to_install_program_bring_and_remove(written, book):
+    # One block per trip of the first three years; per site: the pack by its full name, the
+    # charger setting per cell and per pack, a thermal kit only at the visit that fits it,
+    # what comes out, and how the site is reached.
+    plan = written[0]
+    ws = book["Crew trips"]
+    rows = [[c.value for c in row] for row in ws.iter_rows()]
+    site_rows = {r[1].split()[0]: r for r in rows if isinstance(r[0], int)}
+    trips = [t for t in plan["trips"] if t["year"] < 3]
+    assert len(site_rows) == len({i for t in trips for i in t["site_ids"]})
+    headings = [str(r[0]) for r in rows if str(r[0]).startswith("Trip ")]
+    assert len(headings) == len(trips)
+    for site in plan["sites"]:
+        row = site_rows.get(site["id"])
+        if row is None:
+            continue
+        pack = site["replacements"][0]
+        assert row[2].startswith(NAMES[pack["chemistry"]]) and f"{pack['pack_mass_kg']:.1f} kg" in row[2]
+        assert row[3] == (f"{pack['charge_voltage_v_per_cell']:.2f} V per cell\n"
+                          f"{pack['charge_voltage_v']:.2f} V per pack")
+        assert (row[4] == "NEW insulated box") == (site["thermal_measure"] == "insulated-box")
+        assert row[5].startswith("Demo lead-acid") if site.get("existing_pack") else row[5] == "nothing (first pack)"
+        months = "any month" if len(site["access_months"]) == 12 else "Jun-Sep"
+        assert row[6].startswith(months)
+
+
+def test_site_map_has_a_series_per_chemistry_and_per_attention_status(written, book):
+    # Native scatter charts (ECMA-376 c:scatterChart): one series per chosen chemistry and one
+    # per attention status, each pointing at the longitude/latitude cells of its own sites.
+    plan, xlsx, _ = written
+    ws = book["Site map"]
+    chems = {s["chemistry_name"] for s in plan["sites"]}  # full names, as everywhere
+    with zipfile.ZipFile(xlsx) as zf:
+        names = [n for n in zf.namelist() if re.fullmatch(r"xl/charts/chart\d+\.xml", n)]
+        maps = []
+        for name in names:
+            root = ET.fromstring(zf.read(name))
+            heading = root.find(f"{C}chart/{C}title")
+            title = "" if heading is None else "".join(
+                t.text or "" for t in heading.iter("{http://schemas.openxmlformats.org/drawingml/2006/main}t"))
+            if title.startswith("Sites by"):
+                labels = [v.text for ser in root.iter(f"{C}ser") for v in ser.findall(f"{C}tx/{C}v")]
+                maps.append((title, labels, _series_ranges(zf.read(name))))
+    assert {t for t, _, _ in maps} == {"Sites by chosen chemistry", "Sites by attention status"}
+    by_title = {t: (labels, refs) for t, labels, refs in maps}
+    labels, refs = by_title["Sites by chosen chemistry"]
+    assert set(labels) == chems
+    points = 0
+    for (y_ref,) in refs:
+        _, cells = y_ref.rsplit("!", 1)
+        min_col, min_row, _, max_row = range_boundaries(cells.replace("$", ""))
+        points += max_row - min_row + 1
+    assert points == len(plan["sites"])
+    labels, _ = by_title["Sites by attention status"]
+    # not served as on Needs attention (no design, or more than 1 % of the load lost)
+    assert "not served" not in labels or plan["unserved_sites"] or sites_not_served(plan)
+    assert ws.freeze_panes
+
+
+def test_attention_status_comes_from_the_plan_when_it_has_one():
+    from planner.report.map_sheet import attention_status
+
+    assert attention_status({"id": "A", "attention_status": "check enclosure"}, set()) == "check enclosure"
+    assert attention_status({"id": "A"}, {"A"}) == "not served"
+    assert attention_status({"id": "B", "risk_before_next_visit_frac": 0.5}, set()).startswith("risk")
+    assert attention_status({"id": "B", "warnings": ["x"]}, set()) == "warnings"
+    assert attention_status({"id": "B", "warnings": []}, set()) == "no flag"

@@ -1,12 +1,14 @@
-"""Service-life caps (chemistries.toml, overridden per study) and how the plan shows them.
+"""Service limits besides cell fade: component lives (chemistries.toml [<id>.components])
+under the study's [service_life] ceiling, and how the plan shows them.
 
-Check values: the caps of the chemistry library (common practice: 15-20 year design life
-of stationary lithium-ion products; Eurobat 10-12 year class for VRLA, from memory) and
-the behaviour the planner promises (issue 12, point 5): a shorter cap plans more
-replacements.
+Check values: the sources of the component parameters (common practice: 15-20 year design
+life of stationary lithium-ion products, battery-management electronics included; the
+10-degree rule of electrolytic capacitors; from memory: seals by condensation class) and
+the behaviour the planner promises: a shorter ceiling plans more replacements.
 """
 
 import json
+import math
 import shutil
 from pathlib import Path
 
@@ -19,13 +21,18 @@ from planner.designs.candidates import max_service_years
 REPO = Path(__file__).resolve().parents[1]
 
 
-def test_caps_come_from_the_library_with_a_source():
-    # common practice: lithium-ion 15-20 years; from memory: VRLA 10-12 years.
-    assert 15.0 <= max_service_years("lfp") <= 20.0
-    assert 10.0 <= max_service_years("vrla") <= 12.0
+def test_component_lives_come_from_the_library_with_a_source():
+    # every component parameter carries its source; there is no flat cap per chemistry
+    # any more: without [service_life] the ceiling is none
     for chem_id in CHEMISTRY_IDS:
-        assert get_chemistry(chem_id).sources["service_life_years"]
+        chem = get_chemistry(chem_id)
+        assert chem.components, chem_id
+        for key in chem.components:
+            assert chem.sources[f"components.{key}"], (chem_id, key)
+    assert math.isinf(max_service_years("lfp"))
     assert max_service_years("lfp", 10.0) == 10.0
+    # common practice: 15-20 year design life of stationary lithium-ion electronics at 25 °C
+    assert 15.0 <= get_chemistry("lfp").components["electronics_life_years_ref"] <= 20.0
 
 
 def _plan(tmp_path, extra: str) -> dict:
@@ -41,8 +48,8 @@ def _plan(tmp_path, extra: str) -> dict:
 
 
 def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
-    # Issue 12, point 5: a vendor's 10-year design life in the study must bring the
-    # replacements forward (quick study, 15-year horizon, LFP only).
+    # A vendor's 10-year design life in the study ([service_life], the user's ceiling)
+    # must bring the replacements forward (quick study, 15-year horizon, LFP only).
     (tmp_path / "base").mkdir()
     (tmp_path / "capped").mkdir()
     base = _plan(tmp_path / "base", "")
@@ -53,20 +60,32 @@ def test_a_ten_year_lfp_cap_plans_more_replacements(tmp_path):
     assert count(capped) > count(base)
     assert all(site["life_years"] <= 10.0 + 1e-9 for site in capped["sites"])
     assert capped["service_life_limited_sites"] >= 1
-    rows = [r for r in capped["assumptions"] if r["name"] == "service-life limit lfp"]
+    assert capped["ceiling_limited_sites"] >= 1
+    limited = [site for site in capped["sites"] if site["life_limit_kind"] == "ceiling"]
+    assert all(site["life_limited_by"] == "service-life ceiling ([service_life])"
+               and site["limiting_cause"] == "service-life limit" for site in limited)
+    rows = [r for r in capped["assumptions"] if r["name"] == "service-life ceiling lfp"]
     assert rows and rows[0]["value"] == 10.0 and rows[0]["source"] == "study file [service_life]"
+    # every site says what limits its life, and the counts add up
+    assert all(site["life_limited_by"] for site in base["sites"])
+    assert sum(row["sites"] for row in base["life_limited_by_counts"]) == len(base["sites"])
 
 
 def test_workbook_shows_the_cap_count_and_extrapolated_lives(tmp_path):
-    # Issue 12: the Summary says how many sites the cap decides; the Sites sheet marks
+    # The workbook says how many sites the cap decides (docs/workbook.md: Needs attention, as a
+    # cause with its count; Assumptions, under how the plan was found); the Sites sheet marks
     # lives that lean on extrapolated laws (plan keys of docs/plan-json.md).
     import openpyxl
 
     plan = _plan(tmp_path, "\n[service_life]\nlfp = 10\n")
     book = openpyxl.load_workbook(tmp_path / "p.xlsx")
-    summary = {row[0]: row[1] for row in book["Summary"].iter_rows(min_col=1, max_col=2,
-                                                                      values_only=True)}
-    assert summary["Sites whose life the service-life limit decides"] == \
+    causes = {}  # the first table: one row per cause with its count
+    for cause, count in book["Needs attention"].iter_rows(min_col=1, max_col=2, values_only=True):
+        causes.setdefault(cause, count)
+    assert causes["Life set by a service limit (a component or the ceiling), not by fade"] == plan["service_life_limited_sites"]
+    found = {row[1]: row[2] for row in book["Assumptions and sources"].iter_rows(values_only=True)
+             if row[0] == "how the plan was found"}
+    assert found["sites whose pack life a service limit sets (not fade)"] == \
         plan["service_life_limited_sites"]
     sites = book["Sites"]
     header = [c.value for c in sites[1]]

@@ -8,7 +8,7 @@ from planner.study.loading import load_study
 
 
 def test_load_terms_add_and_scale_by_month(tmp_path):
-    # Definition of the load model (energy issue): P[h] = m[month] x (constant + schedule[hour]
+    # Definition of the load model (docs/energy.md): P[h] = m[month] x (constant + schedule[hour]
     # + file[h] + burst duty x burst power). Here: 1 W + 2 W for 12 h a day + 1.5 W from the
     # file, x1.5 in December -> mean 3.5 W, 1.5 x 3.5 W in December.
     (tmp_path / "load.csv").write_text("load_w\n" + "1.5\n" * 8760)

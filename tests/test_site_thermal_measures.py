@@ -109,14 +109,12 @@ def test_measures_switched_off_and_bad_ids(tmp_path):
     study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,\n",
                            '[thermal]\nmeasures = ["none"]\n')
     assert offered_measures(study, models) == []
-    study, models = _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,heated-blanket\n")
-    with pytest.raises(InputError, match="row .*thermal_measures.*heated-blanket"):
-        offered_measures(study, models)
-    # the plan checks every site's ids before modelling any site (a 10,000-site fleet
-    # would otherwise fail pieces into the run)
-    from planner.pipeline import run_study
+    # the study loader checks every site's ids with the study's other mistakes, before
+    # any site is modelled (a 10,000-site fleet would otherwise fail pieces into the run)
     with pytest.raises(InputError, match="row 2, column thermal_measures.*heated-blanket"):
-        run_study(study)
+        _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,heated-blanket\n")
+    with pytest.raises(InputError, match="row 2, column thermal_measures: 'none' together with vault"):
+        _study(tmp_path, "A-1,r,alpine,cabinet-sun,2,pv,80,5,,none;vault\n")
 
 
 def test_measure_evaluated_only_for_chemistries_it_can_help(tmp_path):
@@ -133,7 +131,9 @@ def test_measure_evaluated_only_for_chemistries_it_can_help(tmp_path):
     assert model.design_temp_c < 0.0
 
     def outcome(chem, blocked, cause):
-        return NS(design=NS(chemistry=chem), charge_blocked_hours=blocked, limiting_cause=cause)
+        return NS(design=NS(chemistry=chem), charge_blocked_hours=blocked,
+                  charge_blocked_cold_hours=blocked, charge_blocked_hot_hours=0.0,
+                  limiting_cause=cause)
 
     box = catalogue(study)["heater-box"]
     capped = NS(excluded={}, outcomes=[outcome("lfp", 0.0, "service-life limit"),
@@ -160,7 +160,9 @@ def test_warming_helps_aging_only_where_cold_speeds_it(tmp_path):
                            '[thermal]\nmeasures = ["heater-box"]\n')
     study = with_chemistries(study, ("vrla", "lfp"))
     model = models[0]
-    aging = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0, limiting_cause="calendar")
+    aging = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0,
+                                         charge_blocked_cold_hours=0.0,
+                                         charge_blocked_hot_hours=0.0, limiting_cause="calendar")
                                       for c in ("vrla", "lfp")])
     warmer = NS(design_temp_c=model.design_temp_c + 10.0, heater_power_w=np.ones(10),
                 temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 2.0))
@@ -172,7 +174,33 @@ def test_warming_helps_aging_only_where_cold_speeds_it(tmp_path):
     # a box around today's heater cuts its energy: every chemistry's energy balance gains
     heated = dataclasses.replace(model, heater_power_w=np.full(8760, 5.0))
     boxed = NS(design_temp_c=model.design_temp_c, heater_power_w=np.full(8760, 2.0),
-               temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 1.0))
+               temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c + 1.0,
+                               battery_max_c=model.temperatures.battery_max_c))
     capped = NS(excluded={}, outcomes=[NS(design=NS(chemistry=c), charge_blocked_hours=0.0,
+                                          charge_blocked_cold_hours=0.0,
+                                          charge_blocked_hot_hours=0.0,
                                           limiting_cause="service-life limit") for c in ("vrla", "lfp")])
     assert helped_chemistries(study, capped, catalogue(study)["insulated-box"], heated, boxed) == ("vrla", "lfp")
+
+
+def test_heat_blocked_charging_is_helped_by_a_measure_that_cools(tmp_path):
+    # A battery management system stops charging above the maximum charge temperature
+    # (45 °C for lithium-ion, common practice): a sun shield that lowers the hottest
+    # battery hour can win back that charge, whatever limits the pack's life; a heater
+    # cannot.
+    from types import SimpleNamespace as NS
+
+    from planner.site.thermal_measures import helped_chemistries
+
+    study, models = _study(tmp_path, "D-1,r,hot-desert,cabinet-sun,3,pv,60,5,,\n")
+    model = models[0]
+    hot = NS(excluded={}, outcomes=[NS(design=NS(chemistry="lfp"), charge_blocked_hours=300.0,
+                                       charge_blocked_cold_hours=0.0,
+                                       charge_blocked_hot_hours=300.0,
+                                       limiting_cause="service-life limit")])
+    shaded = NS(design_temp_c=model.design_temp_c, heater_power_w=np.zeros(8760),
+                temperatures=NS(effective_temp_c=model.temperatures.effective_temp_c,
+                                battery_max_c=model.temperatures.battery_max_c - 6.0))
+    shield = catalogue(study)["sun-shield"]
+    assert "lfp" in helped_chemistries(study, hot, shield, model, shaded)
+    assert "lfp" not in helped_chemistries(study, hot, catalogue(study)["heater-box"], model)

@@ -220,3 +220,28 @@ def test_compiled_hour_loops_give_the_numpy_loops_bits(monkeypatch):
         for a, b in zip(dataclasses.astuple(got), dataclasses.astuple(want)):
             np.testing.assert_array_equal(a, b)
     assert np.any(compiled[0].heater_w > 0) and np.any(compiled[0].cool_w > 0)
+
+
+def test_enclosure_irradiance_of_many_sites_equals_the_per_surface_transposition():
+    # Closed form for four walls at right angles (sum of max(cos AOI, 0) over the four
+    # azimuths = |cos dA| + |sin dA| for vertical walls; Liu & Jordan isotropic sky) against
+    # pvlib's get_total_irradiance surface by surface (surface_irradiance_w_m2).
+    import dataclasses
+
+    from planner.climate import load_climate
+    from planner.climate.relocation import Place, relocate_years
+    from planner.thermal.battery import enclosure_flux_many_w, surface_irradiance_w_m2
+    from planner.thermal.enclosures import get_enclosure
+
+    base = load_climate("tmy3-greensboro-nc")
+    years = relocate_years([base, base], [Place(-30.0, 20.0, 100.0, 1.0), Place(60.0, 10.0, 0.0, 1.0)])
+    kinds = [dataclasses.replace(get_enclosure("cabinet-sun"), azimuth_deg=35.0),
+             get_enclosure("cabinet-shade")]
+    many = enclosure_flux_many_w(years, kinds)
+    for j, (year, e) in enumerate(zip(years, kinds)):
+        kw = dict(beam_shading_frac=e.beam_shading_frac, sky_view_frac=e.sky_view_frac)
+        one = e.area_top_m2 * surface_irradiance_w_m2(year, 0.0, 180.0, **kw)
+        for turn in (0.0, 90.0, 180.0, 270.0):
+            one = one + e.area_wall_m2 * surface_irradiance_w_m2(
+                year, 90.0, (e.azimuth_deg + turn) % 360.0, **kw)
+        np.testing.assert_allclose(many[:, j], one, rtol=1e-9, atol=1e-9)

@@ -10,8 +10,10 @@ Public interface (other stages depend on these names):
 Modules: :mod:`~planner.aging.calendar` (calendar laws), :mod:`~planner.aging.cycle`
 (cycle laws, Wöhler/Palmgren-Miner), :mod:`~planner.aging.rainflow` (vectorised ASTM
 E1049 counting), :mod:`~planner.aging.superposition` (equivalent time, repeated year),
-:mod:`~planner.aging.engine` (orchestration), :mod:`~planner.aging.kernels` (the same
-hot path as one-pass loops, compiled with numba when it is installed).
+:mod:`~planner.aging.engine` (orchestration, one named step each),
+:mod:`~planner.aging.sweep` (one pass over a chunk's hourly year),
+:mod:`~planner.aging.kernels` (the same hot path as one-pass loops, compiled with numba
+when it is installed).
 """
 
 from planner.aging.engine import AgingState, FadeResult, age_lanes, years_to_soh

@@ -4,21 +4,24 @@
 and current per lane and returns the state of health month by month over the horizon,
 with the calendar and cycle parts kept apart.
 
-How it works (see docs/aging.md):
+How it works (see docs/aging.md), one named step each:
 
-* Calendar fade: each law ``Q = k(T, SOC) t**z`` is superposed hour by hour by
-  equivalent time (:mod:`planner.aging.superposition`). The hourly increment is a
-  temperature part times a SOC part; the temperature part is evaluated once per
+* :func:`_check_lanes`: the inputs checked and shaped (:class:`_Lanes`).
+* :func:`_calendar_rates`: each calendar law ``Q = k(T, SOC) t**z`` is superposed hour
+  by hour by equivalent time (:mod:`planner.aging.superposition`). The hourly increment
+  is a temperature part times a SOC part; the temperature part is evaluated once per
   *site* (lanes of one site share its temperature column, ``lane_site``), both parts
   through lookup tables at fine bins (0.01 K, 0.0001 SOC by default): exact to the bin
   and far cheaper than an ``exp`` per hour and lane.
-* Cycle fade: the hourly SOC of each lane is rainflow-counted (ASTM E1049, vectorised,
-  :mod:`planner.aging.rainflow`) as one period of a repeating year; each cycle adds to
-  the cycle state by its depth, mean SOC, temperature (mean of the two reversal hours),
-  C-rate and charge voltage (:func:`planner.aging.cycle.cycle_state_increment`).
-* The year repeats: both states grow by the same amount each year, so month ``m`` of
-  year ``y`` is ``S0 + y * dS_year + dS[m]`` (exact for the laws used).
-* Calendar and cycle losses add; ``SOH = 1 - calendar loss - cycle loss`` (>= 0).
+* :func:`_one_year`: the hourly year of each chunk of lanes is swept once
+  (:func:`planner.aging.sweep.sweep_chunk`): monthly calendar sums, throughput, and
+  the rainflow count of the SOC (ASTM E1049, one period of a repeating year); then
+  :func:`_cycle_increments` adds each cycle to the cycle state by its depth, mean SOC,
+  temperature (mean of the two reversal hours), C-rate and charge voltage
+  (:func:`planner.aging.cycle.cycle_state_increment`).
+* :func:`_over_horizon`: the year repeats; both states grow by the same amount each
+  year, so month ``m`` of year ``y`` is ``S0 + y * dS_year + dS[m]`` (exact for the
+  laws used). Calendar and cycle losses add; ``SOH = 1 - calendar - cycle`` (>= 0).
 
 Lanes are processed in chunks so no temporary exceeds ``(8760, chunk_lanes)``; the
 engine never builds an hours x sites x designs array.
@@ -39,19 +42,37 @@ import numpy as np
 from planner import HOURS_PER_YEAR
 from planner.aging import kernels
 from planner.aging.calendar import calendar_rate_parts
-from planner.aging.cycle import cycle_exponent, cycle_state_increment
-from planner.aging.rainflow import Cycles, extract_cycles_lanes
+from planner.aging.cycle import cycle_exponent, cycle_increments
+from planner.aging.plating import (
+    has_plating,
+    plating_rate_factor,
+    plating_state_scale,
+    plating_temperature_factor,
+)
 from planner.aging.superposition import loss_from_state, repeat_year, state_from_loss
+from planner.aging.sweep import (
+    CHARGE_RATE_TABLE,
+    MONTH_MATRIX,
+    MONTH_OF_HOUR,  # noqa: F401  (re-exported: month of each hour of the typical year)
+    MONTH_START_H,
+    SOC_TABLE,
+    TEMP_TABLE_C,
+    CalendarRates,
+    ChunkSweep,
+    PlatingRates,
+    block_in_parent,
+    lookup_table,
+    sweep_chunk,
+    tabulated,
+)
 from planner.chemistry import AgingParams, Chemistry, get_chemistry
 
-_DAYS_PER_MONTH = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
-MONTH_START_H = np.concatenate([[0], np.cumsum(_DAYS_PER_MONTH)[:-1]]) * 24
-"""Hour index at which each month of the typical year starts (leap day dropped)."""
-MONTH_OF_HOUR = np.repeat(np.arange(12), _DAYS_PER_MONTH * 24)
 _MONTH_START_YEAR_FRAC = MONTH_START_H / HOURS_PER_YEAR
-# Hour -> month indicator: monthly sums as one matrix product (BLAS) instead of reduceat.
-_MONTH_MATRIX = np.zeros((HOURS_PER_YEAR, 12))
-_MONTH_MATRIX[np.arange(HOURS_PER_YEAR), MONTH_OF_HOUR] = 1.0
+PLATING_EXPONENT = 0.5
+"""The plating term is a square-root law in charge throughput (Schimpe et al. 2018)."""
+CHARGE_RATE_BIN = 0.0001
+"""Bin of the charge C-rate lookup of the plating term, 1/h (exp(2 beta C) moves by
+2.6e-4 relative per bin at beta = 2.64 h)."""
 
 
 def row_years(rows):
@@ -61,9 +82,6 @@ def row_years(rows):
     """
     rows = np.asarray(rows)
     return rows // 12 + _MONTH_START_YEAR_FRAC[rows % 12]
-
-_TEMP_TABLE_C = (-90.0, 110.0)
-_SOC_TABLE = (0.0, 1.5)
 
 
 @dataclass(frozen=True)
@@ -78,6 +96,9 @@ class AgingState:
         Exponents of the laws that produced the states.
     age_years : ndarray, shape (n_lanes,)
         Years aged so far.
+    plating_state : ndarray, shape (n_lanes,), or None
+        State of the plating term (square-root law in charge throughput,
+        :mod:`planner.aging.plating`); None: no plating loss.
     """
 
     calendar_state: np.ndarray
@@ -85,6 +106,7 @@ class AgingState:
     calendar_exponent: float
     cycle_exponent: float
     age_years: np.ndarray
+    plating_state: np.ndarray | None = None
 
     @property
     def calendar_loss_frac(self) -> np.ndarray:
@@ -92,11 +114,19 @@ class AgingState:
 
     @property
     def cycle_loss_frac(self) -> np.ndarray:
+        """Loss of the counted cycles (the plating term apart: :attr:`plating_loss_frac`)."""
         return loss_from_state(self.cycle_state, self.cycle_exponent)
 
     @property
+    def plating_loss_frac(self) -> np.ndarray:
+        if self.plating_state is None:
+            return np.zeros_like(np.asarray(self.cycle_state, dtype=float))
+        return loss_from_state(self.plating_state, PLATING_EXPONENT)
+
+    @property
     def soh_frac(self) -> np.ndarray:
-        return np.maximum(1.0 - self.calendar_loss_frac - self.cycle_loss_frac, 0.0)
+        return np.maximum(1.0 - self.calendar_loss_frac - self.cycle_loss_frac
+                          - self.plating_loss_frac, 0.0)
 
     @classmethod
     def from_losses(cls, calendar_loss_frac, cycle_loss_frac, *, age_years=0.0,
@@ -122,14 +152,18 @@ class FadeResult:
     soh_monthly : ndarray, shape (12 * horizon_years + 1, n_lanes)
         State of health (remaining / rated capacity); row 0 is the start.
     calendar_loss_frac, cycle_loss_frac : ndarray, same shape
-        The two parts of the loss (they add). For primary lithium: self-discharge and
-        load charge drawn.
+        The two parts of the loss (they add). ``cycle_loss_frac`` holds all of cycling,
+        the plating term included. For primary lithium: self-discharge and load charge
+        drawn.
     efc_per_year : ndarray, shape (n_lanes,)
         Equivalent full cycles per year (discharged charge / rated capacity).
     state : AgingState
         State at the end of the horizon, to continue from.
     chemistry_id, aging_set : str
         Chemistry and aging parameter set used.
+    plating_loss_frac : ndarray, same shape as ``soh_monthly``, or None
+        The part of ``cycle_loss_frac`` lost to lithium plating while charging
+        (:mod:`planner.aging.plating`); None for a set without that term.
     """
 
     soh_monthly: np.ndarray
@@ -139,6 +173,7 @@ class FadeResult:
     state: AgingState
     chemistry_id: str
     aging_set: str
+    plating_loss_frac: np.ndarray | None = None
 
     def end_of_life(self, threshold_frac: float):
         """Years until SOH reaches ``threshold_frac`` and the loss parts at that moment.
@@ -160,14 +195,22 @@ class FadeResult:
         first = np.where(reached, np.argmax(below, axis=0), soh.shape[0] - 1)
         prev = np.maximum(first - 1, 0)
         z_cal, z_cyc = self.state.calendar_exponent, self.state.cycle_exponent
+        plating = (np.zeros_like(self.cycle_loss_frac) if self.plating_loss_frac is None
+                   else self.plating_loss_frac)
+        film = self.cycle_loss_frac - plating
         cal0 = state_from_loss(self.calendar_loss_frac[prev, lanes], z_cal)
         cal1 = state_from_loss(self.calendar_loss_frac[first, lanes], z_cal)
-        cyc0 = state_from_loss(self.cycle_loss_frac[prev, lanes], z_cyc)
-        cyc1 = state_from_loss(self.cycle_loss_frac[first, lanes], z_cyc)
+        cyc0 = state_from_loss(np.maximum(film[prev, lanes], 0.0), z_cyc)
+        cyc1 = state_from_loss(np.maximum(film[first, lanes], 0.0), z_cyc)
+        pl0 = state_from_loss(plating[prev, lanes], PLATING_EXPONENT)
+        pl1 = state_from_loss(plating[first, lanes], PLATING_EXPONENT)
+
+        def cycling_at(theta):
+            return (loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
+                    + loss_from_state(pl0 + theta * (pl1 - pl0), PLATING_EXPONENT))
 
         def soh_at(theta):
-            return (1.0 - loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
-                    - loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc))
+            return 1.0 - loss_from_state(cal0 + theta * (cal1 - cal0), z_cal) - cycling_at(theta)
 
         lo, hi = np.zeros(lanes.size), np.ones(lanes.size)
         for _ in range(60):  # SOH falls monotonically in theta: bisection to ~1e-18 of a month
@@ -178,8 +221,7 @@ class FadeResult:
         t_prev, t_first = row_years(prev), row_years(first)
         years = np.where(reached, t_prev + theta * (t_first - t_prev), np.inf)
         cal = loss_from_state(cal0 + theta * (cal1 - cal0), z_cal)
-        cyc = loss_from_state(cyc0 + theta * (cyc1 - cyc0), z_cyc)
-        return years, cal, cyc
+        return years, cal, cycling_at(theta)
 
     def years_to_soh(self, threshold_frac: float) -> np.ndarray:
         """Years until SOH first reaches ``threshold_frac`` (np.inf if never), see end_of_life."""
@@ -235,41 +277,6 @@ def _params(chem: Chemistry, aging_set, overrides) -> AgingParams:
                    cycle=MappingProxyType(parts["cycle"]))
 
 
-def _tabulated(func, x, bounds, step):
-    """``func(x)`` exactly (step None) or from a table at bins of ``step`` (nearest bin)."""
-    if step is None:
-        return func(x)
-    lo, hi = bounds
-    size = int(round((hi - lo) / step)) + 1
-    table = func(lo + step * np.arange(size))
-    # Nearest bin by truncation of x/step + 0.5 (all indices are >= 0 after clipping x).
-    scaled = np.clip(x, lo, hi)
-    scaled -= lo - 0.5 * step
-    scaled *= 1.0 / step
-    return table[scaled.astype(np.intp)]
-
-
-def _lookup_table(func, bounds, step):
-    """``func`` at the bin centres ``lo + step * i`` of a lookup table over ``bounds``."""
-    lo, hi = bounds
-    size = int(round((hi - lo) / step)) + 1
-    return np.asarray(func(lo + step * np.arange(size)), dtype=float)
-
-
-def _calendar_numpy(cal_monthly, ch, soc_by_lane, soc_part, soc_bin_frac, rate_row, temp_rate_site):
-    """Monthly calendar state increments of the lanes ``ch`` (numpy path), in place."""
-    rate = _tabulated(soc_part, soc_by_lane, _SOC_TABLE, soc_bin_frac)
-    # sum_h soc_part * temp_part * [month]: the temperature part goes into a per-site
-    # (8760, 12) weight matrix, so each site's lanes need one matrix product and no
-    # elementwise pass over the hourly array.
-    for row in np.unique(rate_row):
-        lanes = np.flatnonzero(rate_row == row)
-        weights = temp_rate_site[row][:, None] * _MONTH_MATRIX
-        contiguous = lanes[-1] - lanes[0] + 1 == lanes.size
-        block = rate[lanes[0]:lanes[-1] + 1] if contiguous else rate[lanes]
-        cal_monthly[:, ch.start + lanes] = (block @ weights).T
-
-
 ENGINES = ("auto", "numba", "numpy", "python")
 """Engines of :func:`age_lanes`: "auto" (numba when installed, else numpy), "numba",
 "numpy" (vectorised array passes) and "python" (the numba kernels run uncompiled, for
@@ -285,120 +292,35 @@ def _use_kernel(engine):
 
 
 @dataclass(frozen=True)
-class _Sweep:
-    cal_monthly: np.ndarray
-    efc: np.ndarray
-    hours_on: np.ndarray
-    charged: np.ndarray
-    hours_charging: np.ndarray
-    discharge_monthly: np.ndarray
-    cycles: Cycles | None
-    cycle_temp_c: np.ndarray | None
-    cycle_month: np.ndarray | None
+class _Lanes:
+    """The checked inputs of one :func:`age_lanes` call.
 
+    ``soc`` and ``current`` are (8760, n_lanes) (``current`` None or one shared column),
+    ``temp`` is (8760, n_sites) with ``lane_site`` each lane's column; the per-lane
+    settings are (n_lanes,) arrays (``peak`` and ``charge_rate`` None when not given).
+    """
 
-def _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table, soc_bin_frac,
-                  do_cycles, compiled, temp, lane_site):
-    """The kernels of :mod:`planner.aging.kernels` on the lanes ``ch``."""
-    fn = (lambda k: k) if compiled else kernels.python_function
-    n_chunk = ch.stop - ch.start
-    has_current = current is not None
-    cur = current if has_current else np.zeros((1, 1))
-    if soc_table is None:
-        table, lo, hi, offset, inv = np.zeros(1), 0.0, 0.0, 0.0, 0.0
-    else:
-        lo, hi = _SOC_TABLE
-        # The same arithmetic as _tabulated, so each hour falls in the same bin.
-        table, offset, inv = soc_table, lo - 0.5 * soc_bin_frac, 1.0 / soc_bin_frac
-    capacity = kernels.REVERSAL_CAPACITY if do_cycles else 0
-    cal, dis = np.zeros((n_chunk, 12)), np.zeros((n_chunk, 12))
-    efc, hours_on = np.zeros(n_chunk), np.zeros(n_chunk, np.int64)
-    charged, hours_charging = np.zeros(n_chunk), np.zeros(n_chunk, np.int64)
-    rev_v, rev_i = np.empty((n_chunk, capacity)), np.empty((n_chunk, capacity), np.int64)
-    n_rev = np.zeros(n_chunk, np.int64)
-    rate_hourly = np.ascontiguousarray(temp_rate_site.T)
-    if soc.flags.f_contiguous and not soc.flags.c_contiguous:
-        # Stored lane by lane: sweep each lane along its own contiguous year.
-        cur_t = np.ascontiguousarray(cur.T)
-        fn(kernels.lane_sweep)(
-            soc.T, cur_t, ch.start, ch.stop, has_current, soc_table is not None, do_cycles,
-            rate_row, temp_rate_site, table, lo, hi, offset, inv,
-            np.append(MONTH_START_H, HOURS_PER_YEAR).astype(np.int64), cal, efc,
-            hours_on, dis, rev_v, rev_i, n_rev, charged, hours_charging)
-    else:
-        # Stored hour by hour (as the SOC simulation writes it): sweep hour rows.
-        n_groups = min(kernels.thread_count(), n_chunk) if compiled else 1
-        soc_rows, cur_rows, shift, rows_of_lane = _block_in_parent(soc, cur, rate_row) or (
-            np.ascontiguousarray(soc), np.ascontiguousarray(cur), 0, rate_row)
-        fn(kernels.hour_sweep)(
-            soc_rows, cur_rows, ch.start + shift, ch.stop + shift, n_groups,
-            has_current, soc_table is not None, do_cycles, rows_of_lane, rate_hourly, table, lo, hi,
-            offset, inv, MONTH_OF_HOUR, cal, efc, hours_on, dis, rev_v, rev_i, n_rev, charged,
-            hours_charging)
-    if do_cycles:
-        # Room for n_rev + 1 cycles per lane (a periodic count emits at most that many).
-        stored = np.where(n_rev <= capacity, n_rev + 1, 0)
-        offsets = np.cumsum(stored) - stored
-        total = int(stored.sum())
-        flat = (np.empty(total), np.empty(total), np.empty(total), np.empty(total, np.int64),
-                np.empty(total, np.int64))
-        n_cycles = np.zeros(n_chunk, np.int64)
-        fn(kernels.cycles_pass)(rev_v, rev_i, n_rev, True, offsets, *flat, n_cycles)
-        del rev_v, rev_i
-        kept = int(n_cycles.sum())
-        packed = (np.empty(kept), np.empty(kept), np.empty(kept), np.empty(kept, np.int64),
-                  np.empty(kept, np.int64), np.empty(kept), np.empty(kept, np.int64))
-        fn(kernels.compact_cycles)(offsets, n_cycles, np.cumsum(n_cycles) - n_cycles, *flat,
-                                   ch.start, lane_site, temp, MONTH_OF_HOUR, *packed)
-        del flat
-        parts = [(np.repeat(np.arange(n_chunk), n_cycles),) + packed]
-        for r in np.flatnonzero(n_rev > capacity):
-            # Rare: more reversals than the sweep stored; count this lane on its own column.
-            one = fn(kernels.lane_cycles)(np.ascontiguousarray(soc[:, ch.start + r], dtype=float),
-                                          True)
-            site = lane_site[ch.start + r]
-            parts.append((np.full(one[0].size, r),) + tuple(one)
-                         + (0.5 * (temp[one[3], site] + temp[one[4], site]), MONTH_OF_HOUR[one[4]]))
-        joined = [np.concatenate([p[k] for p in parts]) for k in range(8)]
-        return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, Cycles(*joined[:6]),
-                      joined[6], joined[7])
-    return _Sweep(cal, efc, hours_on, charged, hours_charging, dis, None, None, None)
+    chem: Chemistry
+    params: AgingParams
+    horizon: int
+    use_kernel: bool
+    compiled: bool
+    soc: np.ndarray
+    current: np.ndarray | None
+    temp: np.ndarray
+    lane_site: np.ndarray
+    charge_v: np.ndarray
+    peak: np.ndarray | None
+    charge_rate: np.ndarray | None
 
+    @property
+    def n_lanes(self) -> int:
+        return self.soc.shape[1]
 
-def _column_offset(arr):
-    """``(parent, k)`` when ``arr`` is the block of columns ``k:k + n`` of a C-contiguous
-    2-D ``parent`` (so ``arr[h, j] is parent[h, k + j]``), else ``None``."""
-    parent = arr.base
-    if (not isinstance(parent, np.ndarray) or parent.ndim != 2 or arr.ndim != 2
-            or not parent.flags.c_contiguous or parent.dtype != arr.dtype
-            or parent.shape[0] != arr.shape[0] or arr.strides != parent.strides):
-        return None
-    skip = arr.ctypes.data - parent.ctypes.data
-    k = skip // arr.itemsize
-    if skip % arr.itemsize or k < 0 or k + arr.shape[1] > parent.shape[1]:
-        return None
-    return parent, k
-
-
-def _block_in_parent(soc, cur, rate_row):
-    """Inputs of the hour sweep, which reads contiguous hour rows, for ``soc`` (and
-    ``cur``) a block of columns of a larger array (one chemistry's lanes of a SOC run):
-    ``(parent soc, parent current, k, rate rows)`` with lane ``j`` read in place at column
-    ``j + k``, or ``None`` when they are not such a block."""
-    soc_block = None if soc.flags.c_contiguous else _column_offset(soc)
-    if soc_block is None:
-        return None
-    parent, k = soc_block
-    if cur.shape[1] == 1 and cur.flags.c_contiguous:
-        cur_parent = cur                      # one current column shared by every lane
-    else:
-        cur_block = _column_offset(cur)
-        if cur_block is None or cur_block[1] != k:
-            return None
-        cur_parent = cur_block[0]
-    rows = np.zeros(k + rate_row.size, dtype=rate_row.dtype)
-    rows[k:] = rate_row
-    return parent, cur_parent, k, rows
+    @property
+    def primary(self) -> bool:
+        """A primary cell: the load draws charge, nothing is recharged or cycled."""
+        return self.params.cycle_model == "primary_load_charge"
 
 
 def _as_lanes(name, values, n_hours, n_lanes=None, keep_float32=False):
@@ -463,6 +385,20 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     -------
     FadeResult
     """
+    lanes = _check_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate,
+                         charge_voltage_v_per_cell, horizon_years, peak_c_rate=peak_c_rate,
+                         charge_c_rate=charge_c_rate, lane_site=lane_site, aging_set=aging_set,
+                         overrides=overrides, engine=engine)
+    rates = _calendar_rates(lanes, rate_bin_k, soc_bin_frac)
+    plating = _plating_rates(lanes, rates, rate_bin_k)
+    year = _one_year(lanes, rates, plating, max(int(chunk_lanes), 1))
+    return _over_horizon(lanes, year, initial_state)
+
+
+def _check_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltage_v_per_cell,
+                 horizon_years, *, peak_c_rate, charge_c_rate, lane_site, aging_set, overrides,
+                 engine) -> _Lanes:
+    """The inputs of :func:`age_lanes` checked and shaped (:class:`_Lanes`)."""
     chem = chemistry if isinstance(chemistry, Chemistry) else get_chemistry(chemistry)
     params = _params(chem, aging_set, overrides)
     horizon = int(horizon_years)
@@ -472,115 +408,170 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
     soc = _as_lanes("soc_frac", soc_frac, HOURS_PER_YEAR, keep_float32=use_kernel)
     n_lanes = soc.shape[1]
     temp = _as_lanes("temp_battery_c", temp_battery_c, HOURS_PER_YEAR)
-    if lane_site is None:
-        if temp.shape[1] not in (1, n_lanes):
-            raise ValueError("temp_battery_c needs one column per lane, one column, or lane_site")
-        lane_site = np.zeros(n_lanes, np.intp) if temp.shape[1] == 1 else np.arange(n_lanes)
-    lane_site = np.asarray(lane_site, dtype=np.intp)
-    if lane_site.shape != (n_lanes,) or lane_site.min() < 0 or lane_site.max() >= temp.shape[1]:
-        raise ValueError("lane_site must hold one valid temperature column per lane")
+    lane_site = _lane_sites(lane_site, temp.shape[1], n_lanes)
     current = None if current_c_rate is None else _as_lanes(
         "current_c_rate", current_c_rate, HOURS_PER_YEAR, n_lanes, keep_float32=use_kernel)
     if use_kernel and not (soc.flags.f_contiguous and not soc.flags.c_contiguous) and \
-            _block_in_parent(soc, np.zeros((1, 1)) if current is None else current,
-                             np.zeros(0, np.intp)) is None:
+            block_in_parent(soc, np.zeros((1, 1)) if current is None else current,
+                            np.zeros(0, np.intp)) is None:
         # The hour sweep reads contiguous hour rows (a block of columns in place from its
-        # parent, see _block_in_parent): copy anything else once here, not once per chunk.
+        # parent, see block_in_parent): copy anything else once here, not once per chunk.
         soc = np.ascontiguousarray(soc)
         current = None if current is None else np.ascontiguousarray(current)
-    charge_v = np.broadcast_to(np.asarray(charge_voltage_v_per_cell, dtype=float), (n_lanes,))
-    peak = None if peak_c_rate is None else np.broadcast_to(
-        np.asarray(peak_c_rate, dtype=float), (n_lanes,))
-    given_charge_rate = None if charge_c_rate is None else np.broadcast_to(
-        np.asarray(charge_c_rate, dtype=float), (n_lanes,))
 
-    temp_part, soc_part, cal_exp = calendar_rate_parts(params.calendar_model, params.calendar, chem)
-    # Temperature part once per site that has lanes here (lanes of a site share it), as
-    # rows: sites x hours; ``rate_row`` is each lane's row.
-    used_sites, rate_row = np.unique(lane_site, return_inverse=True)
+    def per_lane(values):
+        return None if values is None else np.broadcast_to(
+            np.asarray(values, dtype=float), (n_lanes,))
+
+    return _Lanes(chem=chem, params=params, horizon=horizon, use_kernel=use_kernel,
+                  compiled=engine != "python", soc=soc, current=current, temp=temp,
+                  lane_site=lane_site, charge_v=per_lane(charge_voltage_v_per_cell),
+                  peak=per_lane(peak_c_rate), charge_rate=per_lane(charge_c_rate))
+
+
+def _lane_sites(lane_site, n_columns, n_lanes) -> np.ndarray:
+    """Each lane's column of the temperature array, checked."""
+    if lane_site is None:
+        if n_columns not in (1, n_lanes):
+            raise ValueError("temp_battery_c needs one column per lane, one column, or lane_site")
+        lane_site = np.zeros(n_lanes, np.intp) if n_columns == 1 else np.arange(n_lanes)
+    lane_site = np.asarray(lane_site, dtype=np.intp)
+    if lane_site.shape != (n_lanes,) or lane_site.min() < 0 or lane_site.max() >= n_columns:
+        raise ValueError("lane_site must hold one valid temperature column per lane")
+    return lane_site
+
+
+def _calendar_rates(lanes: _Lanes, rate_bin_k, soc_bin_frac) -> CalendarRates:
+    """The calendar law split into its temperature part (once per site that has lanes,
+    as rows: sites x hours) and its state-of-charge part, binned as asked."""
+    temp_part, soc_part, exponent = calendar_rate_parts(
+        lanes.params.calendar_model, lanes.params.calendar, lanes.chem)
+    used_sites, rate_row = np.unique(lanes.lane_site, return_inverse=True)
     temp_rate_site = np.ascontiguousarray(
-        _tabulated(temp_part, temp[:, used_sites], _TEMP_TABLE_C, rate_bin_k).T)
-    rate_row = rate_row.astype(np.intp)
+        tabulated(temp_part, lanes.temp[:, used_sites], TEMP_TABLE_C, rate_bin_k).T)
+    soc_table = None
+    if lanes.use_kernel and soc_part is not None and soc_bin_frac is not None:
+        soc_table = lookup_table(soc_part, SOC_TABLE, soc_bin_frac)
+    return CalendarRates(temp_rate_site=temp_rate_site, rate_row=rate_row.astype(np.intp),
+                         soc_part=soc_part, soc_table=soc_table, soc_bin_frac=soc_bin_frac,
+                         exponent=exponent)
+
+
+def _plating_rates(lanes: _Lanes, rates: CalendarRates, rate_bin_k) -> PlatingRates | None:
+    """The plating term's temperature part per site and hour (``AF_pl**2``) and its
+    charge-rate part (``exp(2 beta (C - 1))``), binned as the calendar parts are; None
+    for a set without the term (:mod:`planner.aging.plating`)."""
+    p = lanes.params.cycle
+    if lanes.primary or lanes.current is None or not has_plating(p):
+        return None
+
+    def temp_part(temp_c):
+        af = plating_temperature_factor(temp_c, **p)
+        return af * af
+
+    def rate_part(charge_c_rate):
+        f = plating_rate_factor(charge_c_rate, **p)
+        return f * f
+
+    used_sites = np.unique(lanes.lane_site)
+    temp_site = np.ascontiguousarray(
+        tabulated(temp_part, lanes.temp[:, used_sites], TEMP_TABLE_C, rate_bin_k).T)
+    # binned with the temperature part (exact evaluation runs the numpy path)
+    rate_bin = CHARGE_RATE_BIN if rate_bin_k is not None else None
+    table = lookup_table(rate_part, CHARGE_RATE_TABLE, CHARGE_RATE_BIN) if rate_bin else None
+    return PlatingRates(temp_site=temp_site, rate_part=rate_part, rate_table=table,
+                        rate_bin=rate_bin, charge_rate=lanes.charge_rate)
+
+
+@dataclass(frozen=True)
+class _Year:
+    """One typical year of every lane: monthly state increments (12, n_lanes) of the
+    calendar law, the counted cycles and the plating term, and the discharged charge per
+    year (n_lanes,)."""
+
+    cal_monthly: np.ndarray
+    cyc_monthly: np.ndarray
+    plating_monthly: np.ndarray
+    efc: np.ndarray
+
+
+def _one_year(lanes: _Lanes, rates: CalendarRates, plating: PlatingRates | None,
+              step: int) -> _Year:
+    """Sweep every chunk of ``step`` lanes once and turn its year into state increments."""
+    n_lanes = lanes.n_lanes
     cal_monthly = np.empty((12, n_lanes))
     cyc_monthly = np.zeros((12, n_lanes))
+    plating_monthly = np.zeros((12, n_lanes))
     efc = np.zeros(n_lanes)
-    if soc_part is None:
-        cal_monthly[:] = (temp_rate_site @ _MONTH_MATRIX)[rate_row].T
-    cyc_exp = cycle_exponent(params.cycle_model)
-    compiled = engine != "python"
-    soc_table = None
-    if use_kernel and soc_part is not None and soc_bin_frac is not None:
-        soc_table = _lookup_table(soc_part, _SOC_TABLE, soc_bin_frac)
-    primary = params.cycle_model == "primary_load_charge"
-    step = max(int(chunk_lanes), 1)
+    if rates.soc_part is None:
+        cal_monthly[:] = (rates.temp_rate_site @ MONTH_MATRIX)[rates.rate_row].T
     for start in range(0, n_lanes, step):
         ch = slice(start, min(start + step, n_lanes))
-        n_chunk = ch.stop - ch.start
-        discharge_monthly = None
-        if use_kernel:
-            sweep = _kernel_sweep(soc, current, ch, rate_row, temp_rate_site, soc_table,
-                                  soc_bin_frac, not primary, compiled, temp, lane_site)
-            if soc_table is not None:
-                cal_monthly[:, ch] = sweep.cal_monthly.T
-            elif soc_part is not None:
-                _calendar_numpy(cal_monthly, ch, np.ascontiguousarray(soc[:, ch].T), soc_part,
-                                soc_bin_frac, rate_row[ch], temp_rate_site)
-            efc[ch] = sweep.efc
-            hours_on = sweep.hours_on
-            charged, hours_charging = sweep.charged, sweep.hours_charging
-            discharge_monthly = sweep.discharge_monthly
-            cycles, cycle_temp, cycle_month = sweep.cycles, sweep.cycle_temp_c, sweep.cycle_month
-        else:
-            # Lanes x hours, contiguous in time: one copy serves the rate and the rainflow.
-            soc_by_lane = np.ascontiguousarray(soc[:, ch].T)
-            if soc_part is not None:
-                _calendar_numpy(cal_monthly, ch, soc_by_lane, soc_part, soc_bin_frac,
-                                rate_row[ch], temp_rate_site)
-            hours_on = None
-            if current is not None:
-                cur = current[:, ch] if current.shape[1] > 1 else np.broadcast_to(
-                    current, (HOURS_PER_YEAR, n_chunk))
-                discharge = np.maximum(cur, 0.0)
-                efc[ch] = discharge.sum(axis=0)
-                hours_on = np.count_nonzero(discharge, axis=0)
-                if not primary:
-                    charge = np.maximum(-cur, 0.0)
-                    charged = charge.sum(axis=0)
-                    hours_charging = np.count_nonzero(charge, axis=0)
-                    del charge
-                if primary:
-                    discharge_monthly = (_MONTH_MATRIX.T @ discharge).T
-            cycles = None if primary else extract_cycles_lanes(soc_by_lane, periodic=True,
-                                                               time_axis=1)
-            del soc_by_lane
-        if primary:
+        sweep = sweep_chunk(lanes.soc, lanes.current, lanes.temp, lanes.lane_site, ch, rates,
+                            plating, do_cycles=not lanes.primary, use_kernel=lanes.use_kernel,
+                            compiled=lanes.compiled)
+        if sweep.cal_monthly is not None:
+            cal_monthly[:, ch] = sweep.cal_monthly.T
+        efc[ch] = sweep.efc
+        if lanes.primary:
             # Primary cell: the load draws charge hour by hour; nothing is recharged.
-            if current is not None:
-                cyc_monthly[:, ch] = discharge_monthly.T
+            if lanes.current is not None:
+                cyc_monthly[:, ch] = sweep.discharge_monthly.T
             continue
-        if current is not None:
-            c_rate = efc[ch] / np.maximum(hours_on, 1)
-            charge_rate = charged / np.maximum(hours_charging, 1)
-        else:
-            c_rate = np.zeros(n_chunk)
-            charge_rate = np.zeros(n_chunk)
-        if peak is not None:
-            c_rate = np.maximum(c_rate, peak[ch])
-        if given_charge_rate is not None:
-            charge_rate = given_charge_rate[ch]
-        if cycles.lane.size == 0:
-            continue
-        if not use_kernel:
-            site_of_cycle = lane_site[ch][cycles.lane]
-            cycle_temp = 0.5 * (temp[cycles.i_start, site_of_cycle] + temp[cycles.i_end, site_of_cycle])
-            cycle_month = MONTH_OF_HOUR[cycles.i_end]
-        inc, _ = cycle_state_increment(
-            params.cycle_model, params.cycle, chem, cycles.range_, cycles.mean, cycles.count,
-            cycle_temp, c_rate[cycles.lane], charge_v[ch][cycles.lane],
-            charge_c_rate=charge_rate[cycles.lane])
-        key = cycles.lane * 12 + cycle_month
-        cyc_monthly[:, ch] = np.bincount(key, weights=inc, minlength=12 * n_chunk).reshape(n_chunk, 12).T
+        cyc_monthly[:, ch], plating_monthly[:, ch] = _cycle_increments(lanes, ch, sweep)
+    return _Year(cal_monthly, cyc_monthly, plating_monthly, efc)
 
+
+def _cycle_increments(lanes: _Lanes, ch: slice, sweep: ChunkSweep):
+    """Monthly state increments ``(12, n_chunk)`` of the chunk's counted cycles and of its
+    plating term.
+
+    Each cycle takes its lane's mean discharge C-rate (or the burst rate when larger,
+    which is conservative: bursts are charged to the whole cycle) and mean charge C-rate
+    over the hours that charge (or the given charge rate); it is booked in the month it
+    closes. The plating term scales the lane's hourly plating sums by its cycle law at the
+    reference temperature per full equivalent cycle (:mod:`planner.aging.plating`).
+    """
+    n_chunk = ch.stop - ch.start
+    if lanes.current is not None:
+        c_rate = sweep.efc / np.maximum(sweep.hours_on, 1)
+        charge_rate = sweep.charged / np.maximum(sweep.hours_charging, 1)
+    else:
+        c_rate = np.zeros(n_chunk)
+        charge_rate = np.zeros(n_chunk)
+    if lanes.peak is not None:
+        c_rate = np.maximum(c_rate, lanes.peak[ch])
+    if lanes.charge_rate is not None:
+        charge_rate = lanes.charge_rate[ch]
+    cycles = sweep.cycles
+    if cycles.lane.size == 0:
+        return np.zeros((12, n_chunk)), np.zeros((12, n_chunk))
+    inc = cycle_increments(
+        lanes.params.cycle_model, lanes.params.cycle, lanes.chem, cycles.range_, cycles.mean,
+        cycles.count, sweep.cycle_temp_c, c_rate[cycles.lane], lanes.charge_v[ch][cycles.lane],
+        charge_c_rate=charge_rate[cycles.lane])
+    key = cycles.lane * 12 + sweep.cycle_month
+    film = np.bincount(key, weights=inc.total, minlength=12 * n_chunk).reshape(n_chunk, 12).T
+    if sweep.plating_monthly is None:
+        return film, np.zeros((12, n_chunk))
+    cycles_done = np.bincount(cycles.lane, weights=cycles.range_ * cycles.count,
+                              minlength=n_chunk)
+    reference = np.bincount(cycles.lane, weights=inc.reference, minlength=n_chunk)
+    per_cycle = np.divide(reference, cycles_done, out=np.zeros(n_chunk), where=cycles_done > 0)
+    z = cycle_exponent(lanes.params.cycle_model, lanes.params.cycle)
+    if z != 0.5:   # the reference is k**(1/z) per cycle; the plating law is in k**2
+        per_cycle = per_cycle ** (2.0 * z)
+    scale = plating_state_scale(per_cycle, charge_rate, **lanes.params.cycle)
+    return film, (sweep.plating_monthly * scale[:, None]).T
+
+
+def _over_horizon(lanes: _Lanes, year: _Year, initial_state: AgingState | None) -> FadeResult:
+    """The typical year repeated over the horizon from the initial state (exact for every
+    law here: each year adds the same state increment)."""
+    n_lanes = lanes.n_lanes
+    cal_exp = calendar_rate_parts(lanes.params.calendar_model, lanes.params.calendar,
+                                  lanes.chem)[2]
+    cyc_exp = cycle_exponent(lanes.params.cycle_model, lanes.params.cycle)
     if initial_state is None:
         cal0, cyc0, age0 = np.zeros(n_lanes), np.zeros(n_lanes), np.zeros(n_lanes)
     else:
@@ -588,12 +579,18 @@ def age_lanes(chemistry, temp_battery_c, soc_frac, current_c_rate, charge_voltag
         cal0 = np.broadcast_to(state_from_loss(initial_state.calendar_loss_frac, cal_exp), (n_lanes,))
         cyc0 = np.broadcast_to(state_from_loss(initial_state.cycle_loss_frac, cyc_exp), (n_lanes,))
         age0 = np.broadcast_to(initial_state.age_years, (n_lanes,))
-    cal_states = repeat_year(cal0, cal_monthly, horizon)
-    cyc_states = repeat_year(cyc0, cyc_monthly, horizon)
+    pl0 = np.zeros(n_lanes) if initial_state is None else np.broadcast_to(
+        state_from_loss(initial_state.plating_loss_frac, PLATING_EXPONENT), (n_lanes,))
+    cal_states = repeat_year(cal0, year.cal_monthly, lanes.horizon)
+    cyc_states = repeat_year(cyc0, year.cyc_monthly, lanes.horizon)
+    pl_states = repeat_year(pl0, year.plating_monthly, lanes.horizon)
     cal_loss = loss_from_state(cal_states, cal_exp)
-    cyc_loss = loss_from_state(cyc_states, cyc_exp)
+    pl_loss = loss_from_state(pl_states, PLATING_EXPONENT)
+    cyc_loss = loss_from_state(cyc_states, cyc_exp) + pl_loss
     soh = np.maximum(1.0 - cal_loss - cyc_loss, 0.0)
     state = AgingState(cal_states[-1].copy(), cyc_states[-1].copy(), cal_exp, cyc_exp,
-                       np.asarray(age0, dtype=float) + horizon)
+                       np.asarray(age0, dtype=float) + lanes.horizon, pl_states[-1].copy())
     return FadeResult(soh_monthly=soh, calendar_loss_frac=cal_loss, cycle_loss_frac=cyc_loss,
-                      efc_per_year=efc, state=state, chemistry_id=chem.id, aging_set=params.name)
+                      efc_per_year=year.efc, state=state, chemistry_id=lanes.chem.id,
+                      aging_set=lanes.params.name,
+                      plating_loss_frac=pl_loss if has_plating(lanes.params.cycle) else None)

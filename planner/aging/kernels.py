@@ -225,7 +225,9 @@ def _flush(stage_v, stage_i, fill, q, rev_v, rev_i, n_rev, r):
 def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calendar, do_cycles,
                lane_rate_row, temp_rate_hourly, soc_table, soc_lo, soc_hi, soc_offset,
                soc_inv_step, month_of_hour, cal_monthly, efc, hours_on, discharge_monthly,
-               rev_v, rev_i, n_rev, charged, hours_charging):
+               rev_v, rev_i, n_rev, charged, hours_charging, do_plating, plating_temp_hourly,
+               plating_table, rate_lo, rate_hi, rate_offset, rate_inv_step, charge_rate,
+               plating_monthly):
     """One pass over the hours of lanes ``lane_lo:lane_hi`` (output row r = lane lane_lo + r).
 
     Hour by hour, lane by lane within the hour: each hour's row of the (hours x lanes)
@@ -258,8 +260,20 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
     n_rev : ndarray of int, shape (n_chunk,)
         Out: each lane's number of reversals (above ``capacity``: row incomplete).
     charged, hours_charging : ndarray, shape (n_chunk,), zeros
-        Out: charge taken per year (C-rate x h) and hours with charge (the charge C-rate
-        of the lithium-plating term).
+        Out: charge taken per year (C-rate x h) and hours with charge (the mean charge
+        C-rate of the lithium-plating share).
+    do_plating : bool
+        Sum the plating term over the charging hours (:mod:`planner.aging.plating`).
+    plating_temp_hourly : ndarray, shape (n_hours, n_rows)
+        ``AF_pl(T)**2`` per hour and site (rows as ``temp_rate_hourly``).
+    plating_table, rate_lo, rate_hi, rate_offset, rate_inv_step
+        ``exp(2 beta (C - 1))`` at the bins of the charge C-rate, with the arithmetic of
+        the SOC lookup.
+    charge_rate : ndarray, shape (n_chunk,)
+        A given charge C-rate per lane, NaN for each hour's own charge current.
+    plating_monthly : ndarray, shape (n_chunk, 12), zeros
+        Out (added to): ``sum AF_pl**2 exp(2 beta (C - 1)) C`` over each month's
+        charging hours.
     """
     n_hours = soc.shape[0]
     n_chunk = lane_hi - lane_lo
@@ -276,6 +290,7 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
         on = np.zeros(w, dtype=np.int64)
         chg = np.zeros(w)
         chg_on = np.zeros(w, dtype=np.int64)
+        pl = np.zeros((12, w))
         rows = lane_rate_row[first:first + w]
         # rainflow.reversals for all lanes of the group, hour by hour. The package's "last
         # distinct point" always equals the previous hour's value (a zero step leaves it
@@ -322,6 +337,17 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
                         on[q] += 1 if d > 0.0 else 0
                         chg[q] += -d if d < 0.0 else 0.0
                         chg_on[q] += 1 if d < 0.0 else 0
+                if do_plating:
+                    p_acc = pl[month]
+                    p_temp = plating_temp_hourly[h]
+                    for q in range(w):
+                        d = float(current[h, 0]) if shared_current else float(current[h, first + q])
+                        if d < 0.0:
+                            given = charge_rate[r0 + q]
+                            v = -d if given != given else given  # NaN: the hour's own rate
+                            v = min(max(v, rate_lo), rate_hi)
+                            p_acc[q] += (plating_table[int((v - rate_offset) * rate_inv_step)]
+                                         * -d * p_temp[rows[q]])
             if do_cycles and h >= 2:
                 p_row = soc[h - 1, first:first + w]
                 turns = 0
@@ -369,19 +395,24 @@ def hour_sweep(soc, current, lane_lo, lane_hi, n_groups, has_current, do_calenda
             hours_on[r0 + q] = on[q]
             charged[r0 + q] = chg[q]
             hours_charging[r0 + q] = chg_on[q]
+            for month in range(12):
+                plating_monthly[r0 + q, month] = pl[month, q]
 
 
 def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_calendar,
                do_cycles, lane_rate_row, temp_rate_site, soc_table, soc_lo, soc_hi, soc_offset,
                soc_inv_step, month_start_h, cal_monthly, efc, hours_on, discharge_monthly,
-               rev_v, rev_i, n_rev, charged, hours_charging):
+               rev_v, rev_i, n_rev, charged, hours_charging, do_plating, plating_temp_site,
+               plating_table, rate_lo, rate_hi, rate_offset, rate_inv_step, charge_rate,
+               plating_monthly):
     """:func:`hour_sweep` for inputs stored lane by lane (lanes x hours, each lane contiguous).
 
     Same outputs from the same arithmetic; used when the caller's hourly arrays are
     column-major (Fortran order), where reading hour rows would jump a lane's length per value.
     ``current_by_lane`` is (n_lanes, n_hours) or (1, n_hours) (shared by every lane);
     ``month_start_h`` (13,) holds each month's first hour and the year's length;
-    ``temp_rate_site`` is (n_rows, n_hours), the transpose of ``temp_rate_hourly``.
+    ``temp_rate_site`` and ``plating_temp_site`` are (n_rows, n_hours), the transposes of
+    ``temp_rate_hourly`` and ``plating_temp_hourly``.
     """
     n_hours = soc_by_lane.shape[1]
     shared_current = current_by_lane.shape[0] == 1
@@ -416,6 +447,19 @@ def lane_sweep(soc_by_lane, current_by_lane, lane_lo, lane_hi, has_current, do_c
             hours_on[r] = on
             charged[r] = chg
             hours_charging[r] = chg_on
+            if do_plating:
+                p_temp = plating_temp_site[lane_rate_row[lane]]
+                given = charge_rate[r]
+                for month in range(12):
+                    acc = 0.0
+                    for h in range(month_start_h[month], month_start_h[month + 1]):
+                        d = float(c[h])
+                        if d < 0.0:
+                            v = -d if given != given else given  # NaN: the hour's own rate
+                            v = min(max(v, rate_lo), rate_hi)
+                            acc += (plating_table[int((v - rate_offset) * rate_inv_step)]
+                                    * -d * p_temp[h])
+                    plating_monthly[r, month] = acc
         if do_cycles:
             n_rev[r] = reversals_into(x, n_hours, rev_v[r], rev_i[r])
 

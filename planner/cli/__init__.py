@@ -18,6 +18,7 @@ import traceback
 import click
 
 from planner import __version__
+from planner.cli.streams import finish_output, guarded_streams
 from planner.cli.terminal import Stopped, console_warnings, printable, stop_on_signals
 from planner.errors import InputError, OutputError
 
@@ -76,7 +77,8 @@ class _LazyGroup(click.Group):
         except (InputError, OutputError) as err:
             if ctx.obj and ctx.obj.get("debug"):
                 traceback.print_exc()
-            click.echo(f"error: {printable(err)}", err=True)
+            for line in err.lines() if isinstance(err, InputError) else [str(err)]:
+                click.echo(f"error: {printable(line)}", err=True)
             ctx.exit(EXIT_BAD_INPUT if isinstance(err, InputError) else EXIT_WRITE_FAILED)
         except KeyboardInterrupt:
             click.echo("interrupted; unfinished outputs were removed", err=True)
@@ -105,9 +107,21 @@ def cli(ctx, quiet, debug):
 
 
 def main(argv=None):
-    """Console entry point."""
-    with stop_on_signals(), console_warnings():
-        return cli.main(args=argv, prog_name="planner")
+    """Console entry point: the command, then its exit code (see README's table).
+
+    Closed or failing standard streams keep the documented codes (planner.cli.streams).
+    """
+    with guarded_streams(), stop_on_signals(), console_warnings():
+        try:
+            cli.main(args=argv, prog_name="planner")
+            code = EXIT_OK
+        except SystemExit as done:
+            code = done.code
+        except OutputError as err:  # standard output failing outside a command (--help)
+            click.echo(f"error: {printable(err)}", err=True)
+            code = EXIT_WRITE_FAILED
+        code = finish_output(code)
+    sys.exit(code)
 
 
 def options(ctx: click.Context) -> dict:
@@ -119,3 +133,6 @@ def options(ctx: click.Context) -> dict:
 def progress_enabled(ctx: click.Context) -> bool:
     """A progress bar only on a terminal and without --quiet."""
     return not options(ctx).get("quiet") and sys.stderr.isatty()
+
+
+__all__ = ["main"]

@@ -10,9 +10,15 @@ import numpy as np
 
 from planner import HOURS_PER_YEAR
 from planner.aging.profiles import cycling_profile
+from planner.cli.params import Number
 from planner.errors import InputError
 
 DAYS_PER_YEAR = 365
+#: Largest pack Monte Carlo the command runs: cells in series x draws. Memory and time
+#: grow with the product (about 100 bytes and 2 microseconds per cell draw here, measured
+#: with 1,000 cells: 0.25 GiB at 1 million); 1,000 cells at 5,000 draws, or 50 cells at
+#: 100,000, stay near half a gibibyte.
+MAX_CELL_DRAWS = 5_000_000
 
 
 def _temperature(temp_c, climate, enclosure):
@@ -34,7 +40,8 @@ def _print_list():
         click.echo(f"{chem.id:8s} {chem.name}")
         click.echo(f"         charge voltages [V/cell]: {settings} "
                    f"(default {chem.default_charge_voltage_v_per_cell:.2f})")
-        click.echo(f"         service-life limit in plans: {chem.service_life_years:g} years")
+        lives = ", ".join(f"{key} {value:g}" for key, value in chem.components.items())
+        click.echo(f"         component lives in plans (planner.pack.components): {lives}")
         for name, params in chem.aging_sets.items():
             mark = "default" if name == chem.default_aging_set else "alternative"
             click.echo(f"         aging set {name} ({mark}): {params.description}")
@@ -55,38 +62,49 @@ def _print_list():
 @click.command("life", context_settings={"help_option_names": ["-h", "--help"]})
 @click.option("--chemistry", "chem_id", default=None, metavar="ID",
               help="Chemistry id: vrla, lfp, nmc, lto or lisocl2 (see --list).")
-@click.option("--temp-c", "temp_c", type=float, default=None,
-              help="Constant battery temperature, degC.")
+@click.option("--temp-c", "temp_c", type=Number(minimum=-60.0, maximum=90.0), default=None,
+              help="Constant battery temperature, °C.")
 @click.option("--climate", "climate", default=None, metavar="SOURCE",
               help="Bundled climate name or weather file (see 'planner climate --list').")
 @click.option("--enclosure", "enclosure", default="cabinet-sun", show_default=True,
               type=click.Choice(("cabinet-sun", "cabinet-shade", "vault", "shelter")),
               help="Enclosure kind, with --climate.")
-@click.option("--soc-frac", "soc_frac", type=float, default=None,
+@click.option("--soc-frac", "soc_frac", type=Number(minimum=0.0, maximum=1.0), default=None,
               help="Storage state of charge, fraction of rated capacity (default: full at "
                    "the charge voltage). Used when not cycling.")
-@click.option("--charge-voltage-v", "charge_voltage_v", type=float, default=None,
-              help="Charge voltage PER CELL, V (default: the chemistry's default setting).")
-@click.option("--dod-frac", "dod_frac", type=float, default=None,
+@click.option("--charge-voltage-v-per-cell", "--charge-voltage-v", "charge_voltage_v",
+              type=Number(exclusive_minimum=True, minimum=0.0), default=None,
+              help="Charge voltage per cell, V (default: the chemistry's default setting). "
+                   "--charge-voltage-v is the older name of the same option.")
+@click.option("--dod-frac", "dod_frac", type=Number(exclusive_minimum=True, minimum=0.0, maximum=1.0),
+              default=None,
               help="Depth of each cycle, fraction of rated capacity (with --cycles-per-day).")
-@click.option("--cycles-per-day", "cycles_per_day", type=float, default=None,
+@click.option("--cycles-per-day", "cycles_per_day", type=Number(exclusive_minimum=True, minimum=0.0,
+              maximum=12.0), default=None,
               help="Cycles per day (with --dod-frac), at most 12.")
-@click.option("--c-rate", "c_rate", type=float, default=0.2, show_default=True,
+@click.option("--c-rate", "c_rate", type=Number(exclusive_minimum=True, minimum=0.0, maximum=10.0),
+              default=0.2, show_default=True,
               help="Discharge and charge C-rate of the cycles (for primary cells: the "
                    "constant load as a C-rate).")
-@click.option("--eol-soh", "eol_soh", type=float, default=0.8, show_default=True,
-              help="End of life: state of health (remaining/rated capacity) fraction.")
-@click.option("--years", "years", type=int, default=40, show_default=True,
+@click.option("--eol-soh-frac", "--eol-soh", "eol_soh",
+              type=Number(exclusive_minimum=True, minimum=0.0, maximum=0.999), default=0.8, show_default=True,
+              help="End of life: state of health (remaining/rated capacity) fraction. --eol-soh is "
+                   "the older name of the same option.")
+@click.option("--years", "years", type=Number(minimum=1, maximum=200, integer=True), default=40,
+              show_default=True,
               help="Horizon in years.")
-@click.option("--series-cells", "series_cells", type=int, default=None,
+@click.option("--series-cells", "series_cells", type=Number(minimum=1, maximum=1000, integer=True),
+              default=None,
               help="Cells in series in the pack: adds a Monte Carlo over cell-to-cell spread "
                    "and the P10/P50/P90 life (default 1 when another pack option is given).")
-@click.option("--cell-spread-frac", "cell_spread_frac", type=float, default=None,
+@click.option("--cell-spread-frac", "cell_spread_frac", type=Number(minimum=0.0, maximum=0.3),
+              default=None,
               help="Coefficient of variation of the cells' initial capacity (default: one "
                    "production lot, see docs/pack.md).")
 @click.option("--balancing", "balancing", type=click.Choice(("none", "passive", "active")),
               default=None, help="Cell balancing of the pack (default passive).")
-@click.option("--draws", "draws", type=int, default=None,
+@click.option("--draws", "draws", type=Number(minimum=10, maximum=100000, integer=True),
+              default=None,
               help="Monte Carlo draws (default 1000; 4000 without balancing or with a cell "
                    "spread of 2 % or more, where 1000 draws do not hold the median to 2 %).")
 @click.option("--across-models", "across_models", is_flag=True,
@@ -95,21 +113,25 @@ def _print_list():
 @click.option("--aging-set", "aging_set", default=None, metavar="ID",
               help="Aging parameter set of the chemistry (default: its default set; see --list).")
 @click.option("--json", "as_json", is_flag=True, help="Print the result as JSON on stdout.")
+@click.option("--json-out", "json_out", type=str, default=None, metavar="PATH",
+              help="Write the result as JSON to PATH ('-' for standard output), as in "
+                   "'planner plan --json-out'.")
 @click.option("--list", "list_only", is_flag=True, help="List chemistries and their sources.")
 def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v, dod_frac,
                  cycles_per_day, c_rate, eol_soh, years, series_cells, cell_spread_frac,
-                 balancing, draws, across_models, aging_set, as_json, list_only):
+                 balancing, draws, across_models, aging_set, as_json, json_out, list_only):
     """Predict the life of a battery stored or cycled at a temperature or in a climate.
 
     Without --dod-frac/--cycles-per-day the pack is stored (float) at --soc-frac.
-    --charge-voltage-v is per cell (e.g. 4.10 for NMC, 3.45 for LFP, 2.40 for VRLA).
+    --charge-voltage-v-per-cell is per cell (e.g. 4.10 for NMC, 3.45 for LFP, 2.40 for
+    VRLA); primary cells are not charged and take none.
 
     \b
     Examples:
       planner life --list
       planner life --chemistry lfp --temp-c 25
       planner life --chemistry lfp --temp-c 5 --aging-set naumann
-      planner life --chemistry nmc --temp-c 25 --charge-voltage-v 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
+      planner life --chemistry nmc --temp-c 25 --charge-voltage-v-per-cell 4.1 --dod-frac 0.8 --cycles-per-day 1 --json
       planner life --chemistry vrla --climate hot-desert --enclosure cabinet-sun
       planner life --chemistry lfp --temp-c 35 --series-cells 16 --balancing passive --json
     """
@@ -128,22 +150,25 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     if (temp_c is None) == (climate is None):
         raise InputError("give exactly one of --temp-c T or --climate SOURCE", source="life")
     if temp_c is not None and not -60.0 <= temp_c <= 90.0:
-        raise InputError(f"--temp-c is {temp_c:g}; expected -60 to 90 degC", source="life")
+        raise InputError(f"--temp-c is {temp_c:g}; expected -60 to 90 °C", source="life")
     if (dod_frac is None) != (cycles_per_day is None):
         raise InputError("--dod-frac and --cycles-per-day go together; give both or neither",
                          source="life")
     if not 0.0 < eol_soh < 1.0:
-        raise InputError(f"--eol-soh is {eol_soh:g}; expected a fraction between 0 and 1",
+        raise InputError(f"--eol-soh-frac is {eol_soh:g}; expected a fraction between 0 and 1",
                          source="life")
     if not 1 <= years <= 200:
         raise InputError(f"--years is {years}; expected 1 to 200", source="life")
     if not c_rate > 0.0 or c_rate > 10.0:
         raise InputError(f"--c-rate is {c_rate:g}; expected more than 0 and at most 10",
                          source="life")
+    if charge_voltage_v is not None and not chem.rechargeable:
+        raise InputError(f"--charge-voltage-v-per-cell is {charge_voltage_v:g}; {chem.id} is not "
+                         "rechargeable: expected no charge voltage", source="life")
     volts = chem.default_charge_voltage_v_per_cell if charge_voltage_v is None else charge_voltage_v
     low, high = chem.usable_table_v[0], chem.usable_table_v[-1]
     if not low - 1e-9 <= volts <= high + 1e-9:
-        raise InputError(f"--charge-voltage-v is {volts:g} V per cell; expected {low:g} to "
+        raise InputError(f"--charge-voltage-v-per-cell is {volts:g} V per cell; expected {low:g} to "
                          f"{high:g} V per cell for {chem.id}", source="life")
     top = float(chem.usable_fraction(volts))
     cycling = dod_frac is not None
@@ -159,6 +184,8 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         if not 0.0 < cycles_per_day <= max_per_day:
             raise InputError(f"--cycles-per-day is {cycles_per_day:g}; expected more than 0 and "
                              f"at most {max_per_day:g} at this depth and C-rate", source="life")
+        if temp_c is not None:
+            _refuse_blocked_charging(chem, temp_c)
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
         peak = charge_rate = c_rate
     else:
@@ -174,17 +201,28 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     temp, temp_text = _temperature(temp_c, climate, enclosure)
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
                        peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=params.name)
-    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(eol_soh))
+    # The knee-free laws are not carried below the lowest state of health their tests
+    # reached (aging set envelope): a lower --eol-soh is raised to it and said.
+    floor = params.envelope.lowest_soh_frac if params.envelope is not None else None
+    applied = max(eol_soh, floor) if floor is not None else eol_soh
+    eol_years, cal, cyc = (float(v[0]) for v in result.end_of_life(applied))
     reached = math.isfinite(eol_years)
     out = {
         "chemistry": chem.id,
+        "chemistry_name": chem.name,
+        "rechargeable": chem.rechargeable,
         "aging_set": result.aging_set,
         "battery_temperature": temp_text,
         "battery_mean_temp_c": round(float(temp.mean()), 3),
+        # for primary cells the nominal voltage: they are not charged
         "charge_voltage_v_per_cell": volts,
         "usable_fraction": top,
         "eol_soh": eol_soh,
+        "eol_soh_frac": eol_soh,  # the plan's name for eol_soh
+        "eol_soh_applied": applied,
+        "life_knee_floor": applied > eol_soh,
         "years_to_eol": eol_years if reached else None,
+        "life_years": eol_years if reached else None,  # the plan's name for years_to_eol
         "calendar_loss_frac": cal,
         "cycle_loss_frac": cyc,
         "equivalent_full_cycles_per_year": float(result.efc_per_year[0]),
@@ -197,6 +235,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         soc_frac=None if cycling else float(soc[0]))
     out["life_extrapolated"] = bool(notes)
     out["extrapolation_notes"] = notes
+    blocked = _blocked_charging_hours(chem, temp, current) if cycling else None
+    if blocked is not None:
+        out["charge_blocked_hours_per_year"] = blocked[0] + blocked[1]
+        out["charge_blocked_cold_hours_per_year"] = blocked[0]
+        out["charge_blocked_hot_hours_per_year"] = blocked[1]
     pack_options = (series_cells, cell_spread_frac, balancing, draws)
     if any(option is not None for option in pack_options) or across_models:
         model_sets = None
@@ -204,8 +247,11 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
             model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
                                     years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
                           for name in chem.aging_sets]
-        out.update(_pack_percentiles(chem, result, eol_soh, float(temp.mean()), *pack_options,
+        out.update(_pack_percentiles(chem, result, applied, float(temp.mean()), *pack_options,
                                      model_sets=model_sets))
+        for p in ("p10", "p50", "p90"):  # the plan's names beside years_to_eol_pNN
+            if f"years_to_eol_{p}" in out:
+                out[f"life_{p}_years"] = out[f"years_to_eol_{p}"]
     if cycling:
         out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
         out["dod_frac"] = dod_frac
@@ -213,26 +259,65 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         out["c_rate"] = c_rate
     else:
         out["soc_frac"] = float(soc[0])
-    if as_json:
+    if json_out and json_out != "-":
+        _write_json(json_out, out)
+    if as_json or json_out == "-":
         click.echo(json.dumps(out, indent=2))
         return
     click.echo(f"{chem.name}, aging set {result.aging_set}")
     click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
-    click.echo(f"charge voltage {volts:.2f} V/cell, usable fraction {top:.2f}")
+    if chem.rechargeable:
+        click.echo(f"charge voltage {volts:.2f} V per cell, usable fraction {top:.2f}")
+    else:
+        click.echo(f"nominal voltage {volts:.2f} V per cell (primary cells are not charged)")
+    if applied > eol_soh:
+        click.echo(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests behind "
+                   f"aging set {params.name} end there, and the laws have no knee below it")
     if reached:
         extra = f", {out['cycles_to_eol']:.0f} cycles" if cycling else ""
-        click.echo(f"reaches {eol_soh:.0%} SOH after {eol_years:.1f} years{extra}")
+        click.echo(f"reaches {applied:.0%} SOH after {eol_years:.1f} years{extra}")
     else:
-        click.echo(f"stays above {eol_soh:.0%} SOH for the {years} years computed")
-    click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+        click.echo(f"stays above {applied:.0%} SOH for the {years} years computed")
+    if chem.rechargeable:
+        click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+    else:
+        click.echo(f"capacity gone then: self-discharge {cal:.1%}, drawn by the load {cyc:.1%}")
     for note in notes:
         click.echo(f"extrapolated: {note}")
+    if blocked is not None and blocked[0] + blocked[1] > 0:
+        click.echo(f"charging blocked: {blocked[0]:.0f} h of the profile's charging hours fall "
+                   f"below {chem.charge_temp_min_c:g} °C and {blocked[1]:.0f} h above "
+                   f"{chem.charge_temp_max_c:g} °C; a plan does not charge then (planner plan), "
+                   "the cycles above still count them")
     if "years_to_eol_p50" in out:
         def shown(value):
             return f"{value:.1f}" if value is not None else f">{years}"
         click.echo(f"pack of {out['series_cells']} cells in series, {out['balancing']} balancing, "
                    f"{out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
                    f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} years")
+
+
+def _refuse_blocked_charging(chem, temp_c: float) -> None:
+    """Cycling at a constant temperature outside the chemistry's charge window would
+    report a life the battery management system never lets the pack reach: refuse it."""
+    if temp_c < chem.charge_temp_min_c:
+        why = f"below {chem.charge_temp_min_c:g} °C (lithium plating)" if chem.id != "vrla" \
+            else f"below {chem.charge_temp_min_c:g} °C"
+    elif temp_c > chem.charge_temp_max_c:
+        why = f"above {chem.charge_temp_max_c:g} °C (the charge over-temperature stop)"
+    else:
+        return
+    raise InputError(f"charging {chem.id} is blocked {why}, as in plans: a pack cycled at "
+                     f"{temp_c:g} °C is never recharged; give --temp-c from "
+                     f"{chem.charge_temp_min_c:g} to {chem.charge_temp_max_c:g} or drop "
+                     "--dod-frac/--cycles-per-day to store it", source="life")
+
+
+def _blocked_charging_hours(chem, temp, current) -> tuple[float, float]:
+    """Charging hours of the profile below and above the charge window (cold, hot)."""
+    charging = current < 0.0
+    return (float(np.count_nonzero(charging & (temp < chem.charge_temp_min_c))),
+            float(np.count_nonzero(charging & (temp > chem.charge_temp_max_c))))
 
 
 def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spread_frac,
@@ -251,6 +336,11 @@ def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spr
         draws = 4 * DEFAULT_DRAWS if wide else DEFAULT_DRAWS
     if not 10 <= draws <= 100000:
         raise InputError(f"--draws is {draws}; expected 10 to 100000", source="life")
+    if series_cells * draws > MAX_CELL_DRAWS:
+        raise InputError(f"--series-cells {series_cells} x --draws {draws} is "
+                         f"{series_cells * draws:,} cell draws; expected at most "
+                         f"{MAX_CELL_DRAWS:,} (memory grows with the product: fewer draws or "
+                         "cells)", source="life")
     options = {"series_cells": series_cells, "balancing": balancing or "passive", "draws": draws,
                "eol_soh_frac": eol_soh, "seed": 0, "reference_temp_c": mean_temp_c}
     if cell_spread_frac is not None:
@@ -264,6 +354,16 @@ def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spr
     rows, dist = life_summary(result, prefix="years_to_eol", **options)
     return {**rows[0], "series_cells": series_cells, "balancing": options["balancing"],
             "draws": dist.draws, "pack_notes": list(dist.notes)}
+
+
+def _write_json(path: str, data: dict) -> None:
+    """The result as JSON at ``path``, written atomically (planner.fileio)."""
+    from pathlib import Path
+
+    from planner.fileio import atomic_path
+
+    with atomic_path(Path(path), what="life JSON") as tmp:
+        Path(tmp).write_text(json.dumps(data, indent=2) + "\n", encoding="utf-8")
 
 
 def _given(name: str) -> bool:

@@ -97,10 +97,29 @@ def _comment(spec: Field) -> str:
     return "  # " + " ".join(parts)
 
 
+def sites_guide() -> list[str]:
+    """Comment lines naming what the sites table's climate, enclosure and charging
+    columns accept (the bundled climates with their one-line descriptions)."""
+    from planner.climate import list_bundled
+
+    columns = {spec.name: spec for spec in SITE_COLUMNS}
+    out = ["# The sites table (sites.csv), one row per site; its columns are described in",
+           "# docs/study-file.md. What three of them accept:",
+           "#   climate: a bundled climate, a [climates.<name>] entry (end of this file) or an",
+           "#            EPW/TMY3/TMY2/CSV weather file beside this study. Bundled climates:"]
+    for name, text in list_bundled():
+        out.append(f"#     {name}: {' '.join(text.split())}")
+    for column in ("enclosure", "charging"):
+        spec = columns[column]
+        out.append(f"#   {column}: {', '.join(spec.choices)} (default {spec.default}); {spec.doc}")
+    return out + [""]
+
+
 def starter_study_toml() -> str:
     """A commented study file listing every key with its default."""
     out = ["# Starter study written by `planner new`. Every key is shown with its default;",
-           "# delete what you do not need. Costs are illustrative placeholders.", ""]
+           "# delete what you do not need. Costs are illustrative placeholders.", "",
+           *sites_guide()]
     for section, specs in SECTIONS.items():
         out.append(f"[{section}]")
         if section == "field_data":

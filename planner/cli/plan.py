@@ -10,10 +10,17 @@ from pathlib import Path
 import click
 
 from planner.cli import EXIT_INFEASIBLE, options, progress_enabled
+from planner.cli.params import Number
 from planner.cli.terminal import printable
 from planner.energy.balance import SHORTFALL_CAUSE
 from planner.errors import InputError, OutputError
-from planner.fileio import OutputBatch, is_char_device, prepare_target, same_file
+from planner.fileio import (
+    OutputBatch,
+    is_char_device,
+    prepare_target,
+    resolve_path,
+    same_file,
+)
 
 
 @click.command("plan")
@@ -21,9 +28,10 @@ from planner.fileio import OutputBatch, is_char_device, prepare_target, same_fil
 @click.option("--out", "out_path", type=str, default=None,
               help="Workbook (.xlsx) to write, or a folder ending in '/' "
                    "(default output/<study name>.xlsx).")
-@click.option("--json", "json_path", type=str, default=None,
-              help="Also write the plan as JSON to this path ('-' for standard output).")
-@click.option("--workers", type=click.IntRange(min=1), default=None,
+@click.option("--json", "--json-out", "json_path", type=str, default=None, metavar="PATH",
+              help="Also write the plan as JSON to PATH ('-' for standard output). --json-out "
+                   "is the same option under the name 'planner life' and 'planner climate' use.")
+@click.option("--workers", type=Number(minimum=1, maximum=4096, integer=True), default=None,
               help="Processes that share the per-site stages and the re-solves "
                    "(default: all cores). The plan does not depend on it.")
 @click.pass_context
@@ -31,8 +39,10 @@ def plan_command(ctx, study, out_path, json_path, workers):
     """Validate STUDY, model every site and candidate pack, optimise the fleet's
     replacements and trips, and write the plan workbook (and JSON).
 
-    Exit codes: 0 a plan was written; 2 bad input or usage; 3 no feasible plan
-    (the workbook explaining why is still written); 4 an output could not be written.
+    Exit codes: 0 a plan was written and every site is served; 2 bad input or usage;
+    3 some site cannot be served (no design serves it, or it loses more than 1 % of its
+    load; the plan for the others and the workbook explaining why are still written);
+    4 an output could not be written.
 
     \b
     Example:
@@ -54,21 +64,38 @@ def plan_command(ctx, study, out_path, json_path, workers):
 
     if not quiet:
         click.echo(_summary(plan, out), err=True)
-    if plan.get("unserved_sites") or plan["solver"]["status"] == "infeasible":
+    if not_all_served(plan):
         ctx.exit(EXIT_INFEASIBLE)
+
+
+def not_all_served(plan) -> bool:
+    """Whether some site cannot be served (exit code 3): no design serves it, it loses more
+    than the stated share of its load (planner.plan.attention), or no plan was found."""
+    from planner.plan.attention import sites_not_served
+
+    return bool(plan.get("unserved_sites") or sites_not_served(plan)
+                or (plan.get("solver") or {}).get("status") == "infeasible")
 
 
 def output_paths(study, out_option: str | None, json_option: str | None):
     """The workbook path and the JSON target (a path, "-" or None), checked before planning.
 
     Command-line paths are taken from the current folder, ``[output]`` paths from the
-    study's folder. A path ending in a separator (or naming a folder) means a folder: the
-    workbook is ``<study name>.xlsx`` in it. Refused (exit 2): a workbook not named
-    ``.xlsx``; an output that is one of the study's inputs or the other output; a folder
-    or special file other than a character device (written straight through).
+    study's folder (the real one: see planner.study.loading). A path ending in a separator
+    (or naming a folder) means a folder: the workbook is ``<study name>.xlsx`` in it.
+    ``-`` as the JSON path, on the command line or in ``[output].json``, is standard output.
+    A path that is a symbolic link is written through (the file it points to is replaced;
+    the link stays). Refused (exit 2): an empty path; a workbook not named ``.xlsx``; an
+    output that is one of the study's inputs or the other output; a folder or special
+    file other than a character device (written straight through). A folder that cannot
+    be created: exit 4.
     """
     configured = study.settings["output"]
     base = study.path.parent
+    for option, value in (("--out", out_option), ("--json", json_option)):
+        if value is not None and not value.strip():
+            raise InputError(f"{option} is empty; expected a file name (or leave the option out)",
+                             source="plan")
     if out_option:
         workbook, source = _as_file(Path(out_option), out_option, study), "--out"
     elif configured["workbook"]:
@@ -76,13 +103,14 @@ def output_paths(study, out_option: str | None, json_option: str | None):
         source = "[output].workbook"
     else:
         workbook, source = Path("output") / f"{study.stem}.xlsx", "default workbook"
-    if workbook.suffix.lower() != ".xlsx" and not is_char_device(workbook):
+    if "\x00" not in str(workbook) and workbook.suffix.lower() != ".xlsx" \
+            and not is_char_device(workbook):
         raise InputError(f"{source} {printable(workbook)} does not end in .xlsx; expected a "
                          "workbook name like plan.xlsx (or a folder ending in '/')", source="plan")
-    json_target = json_option or None
-    json_source = "--json"
+    json_target, json_source = json_option, "--json"
     if json_target is None and configured["json"]:
-        json_target, json_source = str(base / configured["json"]), "[output].json"
+        json_source = "[output].json"
+        json_target = "-" if configured["json"].strip() == "-" else str(base / configured["json"])
     outputs = [(workbook, source, "plan workbook")]
     if json_target and json_target != "-":
         if json_target.endswith(("/", os.sep)) or os.path.isdir(json_target):
@@ -90,17 +118,20 @@ def output_paths(study, out_option: str | None, json_option: str | None):
                              "file name such as plan.json", source="plan")
         json_target = Path(json_target)
         outputs.append((json_target, json_source, "plan JSON"))
+    real = []
+    for path, where, what in outputs:
+        try:
+            real.append(resolve_path(path, what=f"the {what}"))
+        except InputError as err:
+            raise InputError(f"{where} {printable(path)}: {err}", source="plan") from None
     inputs = study.input_files()
     for index, (path, where, _what) in enumerate(outputs):
-        if "\x00" in str(path):
-            raise InputError(f"{where} {printable(path)} holds a NUL character in the path; "
-                             "expected a file name", source="plan")
         for known, words in inputs.items():
-            if same_file(path, known):
+            if same_file(real[index], known):
                 raise InputError(f"{where} {printable(path)} is {words}; expected an output path "
                                  "that is none of the study's inputs", source="plan")
-        for other, other_where, _ in outputs[:index]:
-            if same_file(path, other) and not is_char_device(path):
+        for other_index, (_, other_where, _) in enumerate(outputs[:index]):
+            if same_file(real[index], real[other_index]) and not is_char_device(path):
                 raise InputError(f"{where} and {other_where} are the same file "
                                  f"{printable(path)}; expected two different outputs", source="plan")
     for path, _, what in outputs:
@@ -110,14 +141,22 @@ def output_paths(study, out_option: str | None, json_option: str | None):
 
 def _as_file(path: Path, text: str, study) -> Path:
     """A folder (trailing separator or existing folder) becomes <folder>/<study>.xlsx."""
-    if text.endswith(("/", os.sep)) or os.path.isdir(path):
+    if text.endswith(("/", os.sep)) or _is_dir(path):
         return path / f"{study.stem}.xlsx"
     return path
 
 
+def _is_dir(path: Path) -> bool:
+    try:
+        return os.path.isdir(path)
+    except ValueError:  # a NUL in the name: the resolver says so
+        return False
+
+
 def write_outputs(plan, workbook: Path, json_target) -> None:
-    """Write the workbook and the JSON together: both are renamed into place only when
-    both were written (standard output, for ``-``, is written before the renames)."""
+    """Write the workbook and the JSON as a pair (planner.fileio.OutputBatch): both new
+    or, if anything fails, both as they were. JSON for standard output (``-``) is written
+    before the files are renamed; it cannot be taken back."""
     from planner.report import build_workbook, plan_to_json_text
 
     with OutputBatch() as batch:
@@ -127,8 +166,7 @@ def write_outputs(plan, workbook: Path, json_target) -> None:
             if json_target == "-":
                 _write_stdout(text)
             else:
-                batch.add(json_target, lambda tmp: Path(tmp).write_text(text, encoding="utf-8"),
-                          what="plan JSON")
+                batch.add(json_target, text.encode("utf-8"), what="plan JSON")
         batch.commit()
 
 
@@ -136,8 +174,11 @@ def _write_stdout(text: str) -> None:
     try:
         sys.stdout.write(text)
         sys.stdout.flush()
-    except OSError as err:
-        raise OutputError(f"could not write the plan JSON: {err.strerror or err}",
+    except OutputError:
+        raise
+    except (OSError, AttributeError) as err:  # AttributeError: no stream at all
+        reason = getattr(err, "strerror", None) or "it is closed"
+        raise OutputError(f"could not write the plan JSON: {reason}",
                           source="standard output") from None
 
 
@@ -173,42 +214,93 @@ class _progress:
 MAX_UNSERVED_LINES = 10
 
 
+def _attention_lines(plan, currency) -> list[str]:
+    """The needs-attention groups, first on the console: count, cost, fix, a few cases."""
+    from planner.plan.attention import attention_of
+
+    groups = [g for g in attention_of(plan).get("groups") or [] if isinstance(g, dict)]
+    if not groups:
+        return ["  needs attention: nothing (every site served, none likely to fail before its visit)"]
+    lines = ["  needs attention (every case on the workbook's Needs attention sheet):"]
+    for group in groups:
+        count = group.get("count", 0)
+        noun = "trips" if group.get("cause") == "heavy_trip" else "sites"
+        cost = group.get("cost")
+        money = (f"; {group.get('cost_meaning')} {cost:,.0f} {currency}".rstrip()
+                 if isinstance(cost, int | float) and math.isfinite(cost) else "")
+        lines.append(f"    {printable(group.get('title'))}: {count:,} {noun}{printable(money)}")
+        lines.append(f"      fix: {printable(group.get('fix'))}")
+        shown = group.get("examples", 3)
+        items = group.get("items") or []
+        for item in items[:shown]:
+            lines.append(f"      {printable(item.get('id'))}: {printable(item.get('detail'))}")
+        if shown and len(items) > shown:
+            lines.append(f"      ... and {len(items) - shown:,} more")
+    return lines
+
+
+def _climate_lines(sites) -> list[str]:
+    """Warnings about where a site's climate comes from (far station, altitude, normals)."""
+    found = [(site["id"], w) for site in sites
+             for w in ((site.get("site_climate") or {}).get("warnings") or [])]
+    lines = [f"  CLIMATE {printable(site_id)}: {printable(w)}"
+             for site_id, w in found[:MAX_UNSERVED_LINES]]
+    if len(found) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(found) - MAX_UNSERVED_LINES:,} more climate warnings "
+                     "(all listed on the workbook's Cautions sheet)")
+    return lines
+
+
 def _summary(plan, out) -> str:
-    from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
+    from planner.report.wording import (
+        chemistry_names,
+        comparison_label,
+        coverage_text,
+        downtime_share,
+        drivers_text,
+        plan_status_text,
+    )
 
     currency = printable(plan["study"]["currency"])
     total = plan["total_present_cost"]
     total_text = (f"{total:,.0f} {currency}" if total is not None and math.isfinite(total)
                   else "none (no feasible plan)")
     n_sites = len(plan["sites"])
+    names = chemistry_names(plan)
     lines = [
         f"Plan for {printable(plan['study']['name'])}: {n_sites} sites, "
         f"{plan['study']['horizon_years']} years",
+        *_attention_lines(plan, currency),
         f"  total present cost: {total_text} ({plan_status_text(plan)})",
         "  fleet cost with each chemistry wherever it can serve (other sites keep their best design):",
     ]
     for row in plan.get("chemistry_comparison", []):
         served = row.get("sites_served") or 0
         cost = (f"{row['total_with_others_present_cost']:,.0f} {currency}, " if served else "")
-        lines.append(f"    {row['chemistry']}: {cost}{printable(coverage_text(row, n_sites))}")
+        lines.append(f"    {printable(comparison_label(row, names))}: {cost}"
+                     f"{printable(coverage_text(row, n_sites, names))}")
         share = downtime_share(row)
         if served and share is not None:
             lines.append(f"      equipment {row['equipment']:,.0f}, trips and labour "
                          f"{row['trips_and_labour']:,.0f}, days off air {row['downtime']:,.0f} "
-                         f"({share:.0%}), failure risk {row['failure_risk']:,.0f}")
+                         f"({share:.0%}), expected failure cost {row['failure_risk']:,.0f}")
         drivers = drivers_text(row, currency)
         if served and drivers:
             lines.append(f"      most of the difference to the plan: {printable(drivers)}")
-    for site in plan["sites"]:
-        for warning in site.get("warnings") or []:
-            if str(warning).startswith(SHORTFALL_CAUSE):
-                lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
+    short = [(site, w) for site in plan["sites"] for w in site.get("warnings") or []
+             if str(w).startswith(SHORTFALL_CAUSE)]
+    for site, warning in short[:MAX_UNSERVED_LINES]:
+        lines.append(f"  CHARGING SHORT {printable(site['id'])}: {printable(warning)}")
+    if len(short) > MAX_UNSERVED_LINES:
+        lines.append(f"  ... and {len(short) - MAX_UNSERVED_LINES:,} more sites whose charging source is "
+                     "too small (all on the workbook's Needs attention sheet)")
+    lines += _climate_lines(plan["sites"])
     unserved = plan.get("unserved_sites", [])
     for item in unserved[:MAX_UNSERVED_LINES]:
         lines.append(f"  NOT SERVED {printable(item['id'])}: {printable(item['reason'])}")
     if len(unserved) > MAX_UNSERVED_LINES:
-        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites not served "
-                     "(all listed on the workbook's Cautions sheet)")
+        lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites no design can serve "
+                     "(all on the workbook's Needs attention sheet)")
     lines += _field_lines(plan, currency)
     lines.append(f"  workbook: {printable(out)}")
     return "\n".join(lines)

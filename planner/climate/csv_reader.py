@@ -10,6 +10,7 @@ reader only *extracts* columns and timestamps into a
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
 import re
 import warnings
@@ -19,7 +20,10 @@ import numpy as np
 import pandas as pd
 
 from planner.climate.normalise import DEFAULT_CLEARNESS_FRAC, RawSeries, first_line
-from planner.errors import InputError
+from planner.errors import InputError, one_line
+from planner.fileio import read_input_bytes
+from planner.inputs.numbers import NumberError, number_input, parse_number, shown
+from planner.inputs.tables import read_table
 
 #: Option keys a plain CSV climate file accepts (documented in docs/climate.md).
 CSV_OPTIONS = {
@@ -30,7 +34,7 @@ CSV_OPTIONS = {
     "longitude_deg": "degrees east, west negative (required)",
     "altitude_m": "metres above sea level (default 0)",
     "time_zone": "zone of timestamps without an offset: 'local-standard' (default), 'UTC', "
-                 "hours like 2 or -5, or a zone name like 'America/Denver'",
+                 "hours like 2 or -5, or a tz-database zone with daylight saving like 'MST7MDT'",
     "time_column": "timestamp column (default 'time')",
     "time_format": "strftime format of the timestamps (default: ISO 8601)",
     "temperature_column": "air temperature column (default 'temp_air_c', the column "
@@ -72,32 +76,24 @@ _DECLARATION_RE = re.compile(r"^#\s*([A-Za-z_][A-Za-z0-9_]*)\s*=\s*(.*?)\s*$")
 def file_declarations(path: Path) -> tuple[dict, int]:
     """Declarations (``# key = value`` lines) at the top of a plain CSV file.
 
-    Returns the options they declare (numbers as int or float) and the number of leading
-    ``#`` lines to skip before the header. ``planner climate --csv`` writes them, so its
-    output reads back with no option; options given by the user take precedence.
+    Returns the options they declare (values as text: the declaration checks read the
+    numbers) and the number of leading ``#`` lines to skip before the header. A byte-order
+    mark before the first line is not part of it. ``planner climate --csv`` writes them,
+    so its output reads back with no option; options given by the user take precedence.
     """
     declared, n_lines = {}, 0
     try:
-        with open(path, encoding="utf-8", errors="replace") as fh:
+        with open(path, encoding="utf-8-sig", errors="replace") as fh:
             for line in fh:
                 if not line.startswith("#"):
                     break
                 n_lines += 1
                 match = _DECLARATION_RE.match(line.rstrip("\r\n"))
                 if match:
-                    declared[match.group(1)] = _declared_value(match.group(2))
+                    declared[match.group(1)] = match.group(2)
     except OSError as err:
         raise InputError(f"cannot be read ({err.strerror})", source=str(path)) from None
     return declared, n_lines
-
-
-def _declared_value(text: str):
-    for convert in (int, float):
-        try:
-            return convert(text)
-        except ValueError:
-            continue
-    return text
 
 
 def _required(options: dict, key: str, where: str):
@@ -106,21 +102,35 @@ def _required(options: dict, key: str, where: str):
     return options[key]
 
 
-def _number_option(options: dict, key: str, where: str, lo: float, hi: float, default=None):
+def _number_option(options: dict, key: str, where: str, lo: float, hi: float, default=None,
+                   integer: bool = False):
     value = options.get(key, default) if default is not None else _required(options, key, where)
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        number = float("nan")
-    if isinstance(value, bool) or not (lo <= number <= hi):
-        raise InputError(f"option '{key}' is {value!r}; expected a number from {lo:g} to {hi:g}",
-                         source=where)
-    return number
+    return number_input(value, name=f"option '{key}'", source=where, minimum=lo, maximum=hi,
+                        integer=integer)
 
 
-def read_plain_csv(path: Path, options: dict, skip_lines: int = 0) -> RawSeries:
-    """Read a plain CSV climate file with its declared ``options`` into a RawSeries."""
-    where = str(path)
+@dataclasses.dataclass(frozen=True)
+class CsvDeclarations:
+    """What a plain CSV climate file declares, checked (units and ranges)."""
+
+    temp_unit: str
+    marks: str
+    utc_offset_h: float
+    latitude_deg: float
+    longitude_deg: float
+    altitude_m: float
+    clearness_frac: float
+    multi_year: str | int | None
+    delimiter: str
+    time_zone: str | float
+    columns: dict
+
+
+def check_csv_declarations(options: dict, where: str) -> CsvDeclarations:
+    """Check a plain CSV's declarations (file lines and options merged) without reading
+    its data: the required ones are there, numbers are numbers in range (the one number
+    parser, :mod:`planner.inputs.numbers`), choices are among theirs."""
+    check_option_keys(options, CSV_OPTIONS, where)
     unit = str(_required(options, "temperature_unit", where)).strip().upper().replace("°", "")
     unit = {"DEGC": "C", "DEGF": "F"}.get(unit, unit)
     if unit not in ("C", "F"):
@@ -130,106 +140,123 @@ def read_plain_csv(path: Path, options: dict, skip_lines: int = 0) -> RawSeries:
     if marks not in ("start", "end"):
         raise InputError(f"option 'timestamp_marks' is {options['timestamp_marks']!r}; "
                          "expected 'start' or 'end'", source=where)
-    utc_offset_h = _number_option(options, "utc_offset_h", where, -12.0, 14.0)
-    latitude = _number_option(options, "latitude_deg", where, -90.0, 90.0)
-    longitude = _number_option(options, "longitude_deg", where, -180.0, 180.0)
-    altitude = _number_option(options, "altitude_m", where, -500.0, 9000.0, default=0.0)
-    clearness = _number_option(options, "clearness_frac", where, 0.05, 1.0,
-                               default=DEFAULT_CLEARNESS_FRAC)
     multi_year = options.get("multi_year")
-    if multi_year is not None and not (multi_year in ("typical-month", "mean") or (
-            isinstance(multi_year, int) and not isinstance(multi_year, bool))):
-        raise InputError(f"option 'multi_year' is {multi_year!r}; expected 'typical-month', "
-                         "'mean' or a calendar year such as 2019", source=where)
+    if multi_year is not None and str(multi_year).strip() not in ("typical-month", "mean"):
+        try:
+            multi_year = parse_number(multi_year, minimum=1800, maximum=2200, integer=True)
+        except NumberError:
+            raise InputError(f"option 'multi_year' is {shown(multi_year)}; expected "
+                             "'typical-month', 'mean' or a calendar year such as 2019",
+                             source=where) from None
+    elif multi_year is not None:
+        multi_year = str(multi_year).strip()
     delimiter = str(options.get("delimiter", ","))
-    if len(delimiter) != 1:
+    if len(delimiter) != 1 or delimiter in "\"\r\n":
         raise InputError(f"option 'delimiter' is {delimiter!r}; expected one character",
                          source=where)
+    zone = options.get("time_zone", "local-standard")
     try:
-        frame = pd.read_csv(path, sep=delimiter, dtype=str, keep_default_na=False,
-                            skipinitialspace=True, skiprows=skip_lines)
-    except OSError as err:
-        raise InputError(f"cannot be read ({err.strerror})", source=where) from None
-    except Exception as err:  # pandas raises several parser/decoding error types
-        raise InputError(f"is not a readable CSV table ({type(err).__name__}: "
-                         f"{first_line(err)}); expected a header row and one row per "
-                         "timestamp", source=where) from None
-    frame.columns = [str(c).strip() for c in frame.columns]
-    if len(frame) == 0:
+        zone = parse_number(zone, exponent=True)
+    except NumberError:
+        zone = str(zone).strip()
+    else:
+        if not -12 <= zone <= 14:
+            raise InputError(f"option 'time_zone' is {shown(options['time_zone'])}; expected "
+                             "hours from -12 to 14", source=where)
+    return CsvDeclarations(
+        temp_unit=unit, marks=marks,
+        utc_offset_h=_number_option(options, "utc_offset_h", where, -12.0, 14.0),
+        latitude_deg=_number_option(options, "latitude_deg", where, -90.0, 90.0),
+        longitude_deg=_number_option(options, "longitude_deg", where, -180.0, 180.0),
+        altitude_m=_number_option(options, "altitude_m", where, -500.0, 9000.0, default=0.0),
+        clearness_frac=_number_option(options, "clearness_frac", where, 0.05, 1.0,
+                                      default=DEFAULT_CLEARNESS_FRAC),
+        multi_year=multi_year, delimiter=delimiter, time_zone=zone,
+        columns={key: str(options[key]) for key in (
+            "time_column", "temperature_column", "ghi_column", "dni_column", "dhi_column",
+            "wind_column") if options.get(key) not in (None, "")})
+
+
+def read_plain_csv(path: Path, options: dict, skip_lines: int = 0) -> RawSeries:
+    """Read a plain CSV climate file with its declared ``options`` into a RawSeries.
+
+    Rows are numbered as a spreadsheet or an editor shows them (declaration lines and
+    blank lines counted; :mod:`planner.inputs.tables`).
+    """
+    where = str(path)
+    declared = check_csv_declarations(options, where)
+    data = read_input_bytes(path, what="a CSV climate file")
+    table = read_table(data, source=where, kind="csv", what="the climate file",
+                       delimiter=declared.delimiter, skip_lines=skip_lines)
+    if len(table) == 0:
         raise InputError("has a header but no data rows; expected one row per timestamp",
                          source=where)
+    names = declared.columns
 
     def column(key, default=None):
-        name = options.get(key, default)
+        name = names.get(key, default)
         if name is None:
             return None
-        if name not in frame.columns:
+        if not table.has(name):
             raise InputError(f"column '{name}' (option '{key}') not found; the header has "
-                             f"{', '.join(repr(c) for c in frame.columns)}", source=where)
-        return frame[name]
+                             f"{', '.join(repr(c) for c in table.columns)}", source=where)
+        return name
 
-    rows = np.arange(len(frame)) + 2 + skip_lines  # the header follows the declarations
-    times = _parse_times(column("time_column", "time"), options.get("time_format"), rows, where)
-    temp = _parse_numbers(column("temperature_column", DEFAULT_TEMPERATURE_COLUMN), rows, where,
-                          options.get("temperature_column", DEFAULT_TEMPERATURE_COLUMN))
+    rows = np.array([row.number for row in table.rows])
+    time_name = column("time_column", "time")
+    times = _parse_times(table, time_name, options.get("time_format"), rows, where)
+    temp_name = column("temperature_column", DEFAULT_TEMPERATURE_COLUMN)
+    temp = _parse_numbers(table, temp_name)
     extra = {}
     for key, field in (("ghi_column", "ghi"), ("dni_column", "dni"), ("dhi_column", "dhi"),
                        ("wind_column", "wind")):
-        col = column(key)
-        extra[field] = None if col is None else _parse_numbers(col, rows, where, options[key])
+        name = column(key)
+        extra[field] = None if name is None else _parse_numbers(table, name)
     if (extra["dni"] is not None or extra["dhi"] is not None) and extra["ghi"] is None:
         raise InputError("option 'dni_column'/'dhi_column' given without 'ghi_column'; "
                          "expected ghi_column as well", source=where)
-    time_zone = options.get("time_zone", "local-standard")
     return RawSeries(
         file=where, name=str(options.get("name", path.stem)),
         description=f"CSV file {path.name} (user data; trust as its provider)",
-        times=times, rows=rows, marks=marks, temp=temp, temp_unit=unit,
-        latitude_deg=latitude, longitude_deg=longitude, altitude_m=altitude,
-        utc_offset_h=utc_offset_h, time_zone=time_zone, clearness_frac=clearness,
-        multi_year=multi_year, **extra)
+        times=times, rows=rows, marks=declared.marks, temp=temp, temp_unit=declared.temp_unit,
+        latitude_deg=declared.latitude_deg, longitude_deg=declared.longitude_deg,
+        altitude_m=declared.altitude_m, utc_offset_h=declared.utc_offset_h,
+        time_zone=declared.time_zone, clearness_frac=declared.clearness_frac,
+        multi_year=declared.multi_year, **extra)
 
 
 _OFFSET_RE = re.compile(r"(?:Z|[+-]\d\d:?\d\d)$")
 
 
-def _parse_times(col: pd.Series, time_format, rows, where) -> pd.DatetimeIndex:
-    text = col.astype(str).str.strip()
+def _parse_times(table, name: str, time_format, rows, where) -> pd.DatetimeIndex:
+    text = pd.Series(table.column(name), dtype=object)
     empty = (text == "").to_numpy()
     if empty.any():
-        row = rows[np.argmax(empty)]
-        raise InputError(f"row {row}, column '{col.name}': empty timestamp; expected a date "
+        row = table.rows[int(np.argmax(empty))].where()
+        raise InputError(f"{row}, column '{name}': empty timestamp; expected a date "
                          "and time", source=where)
     has_offset = text.str.contains(_OFFSET_RE).to_numpy()
     if has_offset.any() and not has_offset.all():
-        row = rows[np.argmax(has_offset != has_offset[0])]
-        raise InputError(f"row {row}, column '{col.name}': timestamps mix with and without a "
+        row = table.rows[int(np.argmax(has_offset != has_offset[0]))].where()
+        raise InputError(f"{row}, column '{name}': timestamps mix with and without a "
                          "UTC offset; expected all with or all without", source=where)
     fmt = time_format if time_format else "ISO8601"
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             parsed = pd.to_datetime(text, format=fmt, errors="coerce", utc=bool(has_offset[0]))
-    except (ValueError, TypeError) as err:
-        raise InputError(f"column '{col.name}': timestamps cannot be parsed with format "
+    except (ValueError, TypeError, OverflowError) as err:
+        raise InputError(f"column '{name}': timestamps cannot be parsed with format "
                          f"{fmt!r} ({first_line(err)})", source=where) from None
     bad = parsed.isna().to_numpy()
     if bad.any():
-        row = rows[np.argmax(bad)]
-        raise InputError(f"row {row}, column '{col.name}': '{text.iloc[np.argmax(bad)][:40]}' "
+        i = int(np.argmax(bad))
+        shown_text = one_line(str(text.iloc[i])[:40])
+        raise InputError(f"{table.rows[i].where()}, column '{name}': '{shown_text}' "
                          f"is not a timestamp; expected {fmt} (e.g. 2023-01-01 13:00)",
                          source=where)
     return pd.DatetimeIndex(parsed)
 
 
-def _parse_numbers(col: pd.Series, rows, where, name) -> np.ndarray:
-    text = col.astype(str).str.strip()
-    values = pd.to_numeric(text.where(text != ""), errors="coerce").to_numpy(float)
-    bad = np.isnan(values) & (text != "").to_numpy()
-    bad |= np.isinf(values)
-    if bad.any():
-        i = int(np.argmax(bad))
-        raise InputError(f"row {rows[i]}, column '{name}': '{text.iloc[i][:40]}' is not a "
-                         "number; expected a number (leave the cell empty if missing)",
-                         source=where)
-    return values
+def _parse_numbers(table, name: str) -> np.ndarray:
+    return table.numbers(name, what="a number (leave the cell empty if missing)")

@@ -17,9 +17,11 @@ import zoneinfo
 import numpy as np
 import pandas as pd
 
-from planner.climate import HOURS_PER_YEAR, ClimateWarning, TypicalYear, hour_starts
+from planner import HOURS_PER_YEAR
 from planner.climate.solar import clear_sky_ghi, split_ghi
+from planner.climate.typical_year import ClimateWarning, TypicalYear, hour_starts
 from planner.errors import InputError
+from planner.inputs.numbers import NumberError, parse_number, shown
 
 #: Plausible hourly air temperature, degC (beyond the recorded world extremes of about
 #: -89 and +57 degC, common practice).
@@ -65,6 +67,7 @@ class RawSeries:
     dhi: np.ndarray | None = None
     wind: np.ndarray | None = None
     wind_scale: float = 1.0
+    dew: np.ndarray | None = None     # dew point, in temp_unit (optional)
     clearness_frac: float = DEFAULT_CLEARNESS_FRAC
     multi_year: str | int | None = None
     typical: bool = False           # a typical-year file: calendar years are meaningless
@@ -124,8 +127,30 @@ def _check_range(values, rows, lo, hi, what, where):
                          "expected a plausible value (check the unit)", source=where)
 
 
+#: Where a weather file's header may put a station, checked before any computation:
+#: latitude and longitude by definition, UTC offsets in use run from -12 to +14 h, and
+#: ground stations lie between the Dead Sea shore (about -430 m) and 9,000 m (common practice).
+LOCATION_RANGES = {"latitude_deg": (-90.0, 90.0, "latitude"),
+                   "longitude_deg": (-180.0, 180.0, "longitude"),
+                   "altitude_m": (-500.0, 9000.0, "altitude (m)"),
+                   "utc_offset_h": (-12.0, 14.0, "UTC offset (h)")}
+
+
+def _check_location(raw: RawSeries) -> None:
+    """The station's position and time zone, as the file's header gives them, are
+    possible ones (an EPW header may say latitude 999)."""
+    for key, (lo, hi, words) in LOCATION_RANGES.items():
+        try:
+            parse_number(getattr(raw, key), minimum=lo, maximum=hi, exponent=True)
+        except NumberError:
+            raise InputError(f"the header gives {words} {shown(getattr(raw, key))}; expected "
+                             f"a number from {lo:g} to {hi:g}", source=raw.file) from None
+
+
 def _interval(starts_or_ends: np.ndarray, raw: RawSeries) -> np.timedelta64:
-    """The data interval: the most common spacing of consecutive timestamps."""
+    """The data interval: the most common spacing of consecutive timestamps; data coarser
+    than hourly is refused (a typical year is hour by hour: interpolating 2-hourly
+    readings would invent the hours between)."""
     if len(starts_or_ends) < 2:
         return np.timedelta64(3600, "s")
     diffs = np.diff(np.sort(starts_or_ends)).astype("timedelta64[s]").astype(np.int64)
@@ -143,7 +168,8 @@ def _interval(starts_or_ends: np.ndarray, raw: RawSeries) -> np.timedelta64:
 def normalise(raw: RawSeries) -> TypicalYear:
     """Turn what a reader found into an hour-start, local-standard, degC typical year.
 
-    Steps, in order: convert time zone to local standard time; move hour-ending labels
+    Steps, in order: check the station's position and UTC offset (an EPW header may say
+    latitude 999); convert time zone to local standard time; move hour-ending labels
     to interval starts; reject duplicate timestamps; drop 29 February; convert units;
     check plausibility ranges; average sub-hourly records into hours; condense
     several years (``multi_year``); interpolate gaps of at most 6 h (with a
@@ -151,10 +177,12 @@ def normalise(raw: RawSeries) -> TypicalYear:
     (clear-sky scaled GHI, Erbs decomposition).
     """
     where = raw.file
+    _check_location(raw)
     times = _to_local_standard(raw).to_numpy().astype("datetime64[s]")
     rows = np.asarray(raw.rows)
+    step = _interval(times, raw)
     if raw.marks == "end":
-        times = times - _interval(times, raw)
+        times = times - step
     order = np.argsort(times, kind="stable")
     sorted_times = times[order]
     dup = np.nonzero(sorted_times[1:] == sorted_times[:-1])[0]
@@ -178,6 +206,11 @@ def normalise(raw: RawSeries) -> TypicalYear:
         wind = np.asarray(raw.wind, float) * raw.wind_scale
         _check_range(wind, rows, *WIND_RANGE_M_S, "wind speed (m/s)", where)
         series["wind"] = wind
+    if raw.dew is not None:
+        dew = np.asarray(raw.dew, float)
+        dew = {"C": dew, "F": (dew - 32.0) * 5.0 / 9.0, "0.1C": dew * 0.1}[raw.temp_unit]
+        # optional: an implausible dew point is dropped rather than refused
+        series["dew"] = np.where((dew >= TEMP_RANGE_C[0]) & (dew <= TEMP_RANGE_C[1]), dew, np.nan)
 
     stamp = pd.DatetimeIndex(times)
     month, day = stamp.month.to_numpy(), stamp.day.to_numpy()
@@ -246,6 +279,13 @@ def normalise(raw: RawSeries) -> TypicalYear:
     filled = {}
     repaired = []
     for key, values in grids.items():
+        if key == "dew":
+            # optional: a dew point with long gaps is left out, not an error
+            try:
+                filled[key], _ = _fill_gaps(values, key, first_row, where)
+            except InputError:
+                pass
+            continue
         filled[key], gaps = _fill_gaps(values, key, first_row, where)
         if key == "temp":
             repaired = gaps
@@ -267,7 +307,7 @@ def normalise(raw: RawSeries) -> TypicalYear:
         name=raw.name, source=source_note, latitude_deg=raw.latitude_deg,
         longitude_deg=raw.longitude_deg, altitude_m=raw.altitude_m,
         utc_offset_h=raw.utc_offset_h, temp_air_c=filled["temp"], ghi_w_m2=ghi, dni_w_m2=dni,
-        dhi_w_m2=dhi, wind_speed_m_s=wind)
+        dhi_w_m2=dhi, wind_speed_m_s=wind, temp_dew_c=filled.get("dew"))
 
 
 def _typical_months(temp_grid: np.ndarray) -> np.ndarray:

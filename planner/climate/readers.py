@@ -22,14 +22,15 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from planner.climate import REFERENCE_YEAR, TypicalYear
 from planner.climate.csv_reader import (
     CSV_OPTIONS,
+    check_csv_declarations,
     check_option_keys,
     file_declarations,
     read_plain_csv,
 )
 from planner.climate.normalise import RawSeries, first_line, normalise
+from planner.climate.typical_year import REFERENCE_YEAR, TypicalYear
 from planner.errors import InputError
 from planner.fileio import check_input_file
 
@@ -76,25 +77,67 @@ def load_pvlib_bundled(name: str) -> TypicalYear:
 
 # --------------------------------------------------------------------------- dispatch
 
-def read_climate_file(path: Path, *, options: dict | None = None) -> TypicalYear:
-    """Read an EPW, TMY3, TMY2 or plain CSV file into a :class:`TypicalYear`.
+def canonical_id(name: str) -> str:
+    """A bundled climate id as it is called now: an id of an earlier release gives its
+    new name with a :class:`~planner.climate.ClimateWarning` (the same words wherever it
+    is used: ``planner climate``, a sites table); any other name comes back unchanged."""
+    if name not in DEPRECATED_IDS:
+        return name
+    import warnings
 
-    The format is chosen by extension (``.epw``, ``.tm2``) and, for ``.csv``, by the
-    TMY3 header (first line: station number and six metadata fields, second line
-    starting ``Date (MM/DD/YYYY)``); any other CSV is a plain CSV needing ``options``.
-    """
-    path = Path(path)
-    where = str(path)
-    # By type and size before any reader opens it: a FIFO or device would never end.
-    check_input_file(path, what="an EPW, TMY3, TMY2 or CSV climate file")
-    options = dict(options or {})
+    from planner.climate.typical_year import ClimateWarning
+
+    new = DEPRECATED_IDS[name]
+    warnings.warn(f"climate '{name}' is now called '{new}'; the old name is accepted in this "
+                  "release only, please use the new one", ClimateWarning, stacklevel=3)
+    return new
+
+
+def file_kind(path: Path) -> str:
+    """``"epw"``, ``"tmy3"``, ``"tmy2"`` or ``"csv"`` by extension (and, for ``.csv``, by
+    the TMY3 header: first line with seven fields, second starting ``Date (MM/DD/YYYY)``)."""
     suffix = path.suffix.lower()
     kind = {".epw": "epw", ".tm2": "tmy2"}.get(suffix)
     if kind is None and suffix in (".csv", ".txt"):
         kind = "tmy3" if _looks_like_tmy3(path) else "csv"
     if kind is None:
         raise InputError(f"file extension '{path.suffix}' is not a climate format; expected "
-                         ".epw, .csv (TMY3 or plain CSV) or .tm2", source=where)
+                         ".epw, .csv (TMY3 or plain CSV) or .tm2", source=str(path))
+    return kind
+
+
+def check_climate_options(path: Path, options: dict | None, where: str | None = None) -> str:
+    """Check the options given for a climate file against what the file is, without
+    reading its data: a plain CSV's declarations (its ``#`` lines merged with the options)
+    are complete and in range; an EPW/TMY file takes only ``name``. Returns the kind."""
+    path = Path(path)
+    where = where or str(path)
+    check_input_file(path, what="an EPW, TMY3, TMY2 or CSV climate file")
+    kind = file_kind(path)
+    options = dict(options or {})
+    if kind == "csv":
+        declared, _ = file_declarations(path)
+        check_option_keys(declared, CSV_OPTIONS, str(path))
+        check_option_keys(options, CSV_OPTIONS, where)
+        check_csv_declarations({**declared, **options}, where)
+    else:
+        check_option_keys(options, {k: CSV_OPTIONS[k] for k in FILE_OPTIONS}, where,
+                          note=f" (a {kind.upper()} file carries its own location and units)")
+    return kind
+
+
+def read_climate_file(path: Path, *, options: dict | None = None) -> TypicalYear:
+    """Read an EPW, TMY3, TMY2 or plain CSV file into a :class:`TypicalYear`.
+
+    The format is chosen by :func:`file_kind`; a plain CSV needs ``options`` (or its
+    ``# key = value`` declarations).
+    """
+    path = Path(path)
+    where = str(path)
+    # By type and size before any reader opens it: a FIFO or device would never end.
+    check_input_file(path, what="an EPW, TMY3, TMY2 or CSV climate file")
+    options = dict(options or {})
+    kind = file_kind(path)
     if kind == "csv":
         declared, n_lines = file_declarations(path)
         check_option_keys(declared, CSV_OPTIONS, where)
@@ -118,7 +161,7 @@ def read_climate_file(path: Path, *, options: dict | None = None) -> TypicalYear
 
 def _looks_like_tmy3(path: Path) -> bool:
     try:
-        with open(path, encoding="utf-8", errors="replace") as fh:
+        with open(path, encoding="utf-8-sig", errors="replace") as fh:
             first, second = fh.readline(), fh.readline()
     except OSError as err:
         raise InputError(f"cannot be read ({err.strerror})", source=str(path)) from None
@@ -143,6 +186,7 @@ def _read_tmy3(path: Path) -> RawSeries:
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=data["ghi"].to_numpy(float), dni=data["dni"].to_numpy(float),
         dhi=data["dhi"].to_numpy(float), wind=data["wind_speed"].to_numpy(float),
+        dew=data["temp_dew"].to_numpy(float) if "temp_dew" in data else None,
         typical=True)
 
 
@@ -174,7 +218,8 @@ def _read_tmy2(path: Path) -> RawSeries:
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=data["GHI"].to_numpy(float)[keep], dni=data["DNI"].to_numpy(float)[keep],
         dhi=data["DHI"].to_numpy(float)[keep], wind=data["Wspd"].to_numpy(float)[keep],
-        wind_scale=0.1, typical=True)
+        wind_scale=0.1, typical=True,
+        dew=data["DewPoint"].to_numpy(float)[keep] if "DewPoint" in data else None)
 
 
 def _read_epw(path: Path) -> RawSeries:
@@ -197,4 +242,5 @@ def _read_epw(path: Path) -> RawSeries:
         latitude_deg=float(meta["latitude"]), longitude_deg=float(meta["longitude"]),
         altitude_m=float(meta["altitude"]), utc_offset_h=float(meta["TZ"]),
         ghi=col("ghi", 9999), dni=col("dni", 9999), dhi=col("dhi", 9999),
-        wind=col("wind_speed", 999), typical=True)
+        wind=col("wind_speed", 999), typical=True,
+        dew=col("temp_dew", 99.9) if "temp_dew" in data else None)

@@ -13,13 +13,15 @@ where ``window = usable_fraction(V) - (1 - max_dod)`` is the part of rated capac
 between the charge-voltage ceiling and the low-voltage reserve. The SOH at which the
 inequality turns is the design's end-of-life threshold; it is higher (earlier) for a
 smaller pack, a lower charge voltage or a colder site. Whatever the threshold, a pack is
-not kept below its chemistry's worn-out SOH nor beyond its service life (both here).
+not kept below its chemistry's worn-out SOH (here) nor beyond what its other components
+and the study's ceiling allow (:mod:`planner.designs.service`).
 """
 
 from __future__ import annotations
 
 import copy
 import functools
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -58,9 +60,13 @@ class Design:
     reference: ReferenceSize | None
     existing_age_years: float | None = None
     measured_soh_frac: float | None = None
-    service_life_years: float | None = None  # the study's cap; None: the library's
+    service_life_years: float | None = None  # the study's ceiling ([service_life]); None: none
     thermal_measure: str = ""   # the thermal measure installed with it (planner.site.thermal_measures)
     install_years: tuple[int, int] | None = None  # its load step's install window (planner.designs.load_growth)
+    # the study's candidate size that gave this pack (an oversize factor, or years of load for
+    # primary cells); ``oversize_factor`` is the pack actually built over the 1x size, after
+    # rounding to whole cells
+    oversize_step: float | None = None
 
     @property
     def is_existing(self) -> bool:
@@ -89,7 +95,7 @@ class Outcome:
     cycle_loss_frac: np.ndarray
     efc_per_year: float
     unserved_wh_per_year: float
-    charge_blocked_hours: float
+    charge_blocked_hours: float       # cold + hot
     mean_soc_frac: float
     life_p10_years: float = float("nan")
     life_p50_years: float = float("nan")
@@ -98,8 +104,15 @@ class Outcome:
     soh_p10_monthly: np.ndarray | None = None
     soh_p90_monthly: np.ndarray | None = None
     nominal_life_years: float = float("inf")
+    knee_floor: bool = False                 # the end of life is the knee floor, not the load
+    service_limit_years: float = float("inf")  # components and ceiling (planner.designs.service)
+    component_lives: dict = field(default_factory=dict)   # component -> years (inf: never)
+    imbalance_frac_per_year: float = 0.0     # capacity lost to cell imbalance each year
+    condensation: str = ""                   # the site's condensation class
     dominated: bool = False
     far_from_best: bool = False
+    charge_blocked_cold_hours: float = 0.0   # below the minimum charge temperature
+    charge_blocked_hot_hours: float = 0.0    # above the maximum charge temperature
     # the pack in service only: calendar and cycle loss by month from its installation
     # (float32), which field records scale (planner.evidence)
     install_calendar_loss_frac: np.ndarray | None = None
@@ -218,9 +231,23 @@ def _ladder_pack(system_voltage_v, chem_id, cell_capacity_ah, cell_voltage_v,
                           mass_kg_per_kwh=mass_kg_per_kwh, volume_l_per_kwh=volume_l_per_kwh)
 
 
+#: Start of the reason a chemistry is left out when one of its cells is above the bus.
+VOLTAGE_EXCLUSION = "system voltage"
+
+
+def ruled_out_by_voltage(excluded: dict[str, str]) -> dict[str, str]:
+    """The chemistries of ``excluded`` (id -> reason) left out for the system voltage."""
+    return {chem: why for chem, why in excluded.items() if why.startswith(VOLTAGE_EXCLUSION)}
+
+
 def _exclusion(model: SiteModel, chem: Chemistry) -> str:
     """Why a chemistry cannot serve a site at all, or an empty string."""
     site = model.site
+    if site.system_voltage_v < chem.cell_voltage_v:
+        # One cell alone is above the bus: no whole-cell pack fits (planner.study rejects
+        # a system voltage below every candidate's cell).
+        return (f"{VOLTAGE_EXCLUSION} {site.system_voltage_v:g} V is below one {chem.id} cell "
+                f"({chem.cell_voltage_v:g} V)")
     if chem.rechargeable and site.charging == "none":
         return "no charging source on site, and the pack is rechargeable"
     if not chem.rechargeable and model.daily_load_wh > PRIMARY_MAX_DAILY_LOAD_WH:
@@ -255,7 +282,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
             steps = [(y, reference.capacity_wh * y) for y in PRIMARY_YEARS_OF_LOAD]
         references[chem_id] = reference
         seen = set()
-        for _factor, capacity in steps:
+        for step, capacity in steps:
             pack = _pack(model, chem, capacity)
             if pack.label in seen:  # whole cells: two factors can give the same pack
                 continue
@@ -266,7 +293,7 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
                 designs.append(Design(index, chem_id, pack.capacity_wh / reference.capacity_wh,
                                       float(volts), pack, reference,
                                       service_life_years=caps.get(chem_id),
-                                      thermal_measure=model.thermal_measure))
+                                      thermal_measure=model.thermal_measure, oversize_step=float(step)))
     site = model.site
     if site.has_existing_pack and not model.thermal_measure:  # today's pack sits in today's enclosure
         chem = get_chemistry(site.existing_chemistry)
@@ -284,18 +311,37 @@ def enumerate_site_designs(study: Study, index: int, model: SiteModel):
 
 # Below these SOH values a pack is worn out whatever its size: lead-acid loses capacity
 # abruptly after 80 % (the IEEE 450 / IEEE 1188 replacement criterion, from memory) and
-# lithium-ion cells reach a knee of accelerating fade near 70-80 % that the fitted laws do
-# not describe (common practice). Primary cells run down to their reserve.
+# lithium-ion cells reach a knee of accelerating fade, typically between about 80 and 70 %
+# (review: Attia et al. 2022, J. Electrochem. Soc. 169, 060517), that the fitted laws do
+# not describe. Primary cells run down to their reserve.
 WORN_OUT_SOH = {"vrla": 0.80, "lfp": 0.70, "nmc": 0.70, "lto": 0.70, "lisocl2": 0.0}
 
 
 def worn_out_soh_frac(chemistry: str) -> float:
-    """SOH below which a pack of this chemistry is not kept in service."""
-    return WORN_OUT_SOH.get(chemistry, 0.8)
+    """SOH below which a pack of this chemistry is not kept in service: the chemistry's
+    worn-out floor, or the lowest state of health the tests behind its default aging set
+    reached when that is higher (:func:`knee_floor_soh_frac`)."""
+    return max(WORN_OUT_SOH.get(chemistry, 0.8), knee_floor_soh_frac(chemistry))
+
+
+def knee_floor_soh_frac(chemistry: str) -> float:
+    """Lowest state of health the tests behind the chemistry's default aging set reached
+    (``envelope.lowest_soh_frac``; 0 when none is recorded).
+
+    The fitted square-root laws have no knee; published aging trajectories of lithium-ion
+    cells show one, typically between about 80 % and 70 % (Attia et al. 2022). Rather than
+    carry a knee-free law below the data it was fitted on, a pack's life ends there at
+    the latest; a life this floor decides is flagged (it leans on the rule).
+    """
+    envelope = get_chemistry(chemistry).aging.envelope
+    if envelope is None or envelope.lowest_soh_frac is None:
+        return 0.0
+    return float(envelope.lowest_soh_frac)
 
 
 def max_service_years(chemistry: str, override: float | None = None) -> float:
-    """Longest service planned for a pack whatever the fade laws say (seals, dry-out,
-    electronics and corrosion are not in them): the study's ``override`` ([service_life])
-    or the chemistry library's ``service_life_years`` with its source."""
-    return float(override) if override is not None else get_chemistry(chemistry).service_life_years
+    """The user's ceiling on a pack's service: the study's ``override`` ([service_life]),
+    else none (``inf``). What else ends a pack besides fade (electronics, seals,
+    imbalance, standby drain) depends on the site and the design:
+    :mod:`planner.designs.service`."""
+    return float(override) if override is not None else math.inf

@@ -23,18 +23,20 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.aging import age_lanes
+from planner.aging.measured import health_from_today
 from planner.chemistry import get_chemistry
 from planner.designs.candidates import (
+    WORN_OUT_SOH,
     Outcome,
     SiteDesigns,
     enumerate_site_designs,
-    max_service_years,
+    knee_floor_soh_frac,
     requirement_wh,
     usable_fraction,
     window_frac,
-    worn_out_soh_frac,
 )
 from planner.designs.screening import mark_dominated, mark_far_from_best
+from planner.designs.service import SERVICE_CAUSES, ChunkService
 from planner.energy.soc import iter_soc_chunks
 from planner.pack.spread import life_distribution
 from planner.pack.structure import stress_parameters
@@ -144,7 +146,8 @@ def _evaluate_chunk(models, hourly, designs, lanes, horizon, price_of, cost_boun
     results, deferred = _simulate(lanes_of, hourly, np.flatnonzero(first))
     rest = np.flatnonzero(~first)
     if rest.size:
-        rest = _not_beaten_by_capped(chunk, rest, [o for _, o in results], price_of)
+        rest = _not_beaten_by_capped(chunk, rest, [o for _, o in results], price_of,
+                                     lanes_of.service)
         more, more_deferred = _simulate(lanes_of, hourly, rest)
         results, deferred = results + more, deferred + more_deferred
     results.sort(key=lambda jo: jo[0])  # design order, as the per-site marks expect
@@ -182,8 +185,13 @@ class _ChunkLanes:
         self.available = np.array([cold[d.site_index, d.chemistry] for d in chunk])
         window = np.array([window_frac(self.chems[d.chemistry], d.charge_voltage_v_per_cell)
                            for d in chunk])
-        self.eol = np.maximum(required / (self.capacity * window * self.available),
-                              np.array([worn_out_soh_frac(d.chemistry) for d in chunk]))
+        need = required / (self.capacity * window * self.available)
+        floor = np.array([WORN_OUT_SOH.get(d.chemistry, 0.8) for d in chunk])
+        knee = np.array([knee_floor_soh_frac(d.chemistry) for d in chunk])
+        self.eol = np.maximum(need, np.maximum(floor, knee))
+        # the knee floor, not the load or the worn-out floor, sets the end of life
+        self.knee_floor = (knee > np.maximum(need, floor)) & (need < 1.0)
+        self.service = ChunkService(models, chunk, self.chems)
 
 
 def _smallest_packs(chunk) -> np.ndarray:
@@ -197,18 +205,20 @@ def _smallest_packs(chunk) -> np.ndarray:
                      for d in chunk])
 
 
-def _not_beaten_by_capped(chunk, lanes, simulated: list[Outcome], price_of) -> np.ndarray:
+def _not_beaten_by_capped(chunk, lanes, simulated: list[Outcome], price_of,
+                          service: ChunkService) -> np.ndarray:
     """``lanes`` less those a simulated design of the same site and chemistry dominates
-    whatever their own simulation would give: a new pack lasting to its service limit
-    (the longest life any pack of the chemistry can be given) with no load unserved,
-    no dearer and no heavier, and cheaper or lighter. :func:`mark_dominated` would flag
-    such a lane; it would not be offered, and nothing else reads it."""
+    whatever their own simulation would give: a new pack lasting as long as any pack of
+    the chemistry can at that site (the design-independent component lives there and the
+    study's ceiling: a bound for every design, whatever its charge voltage) with no load
+    unserved, no dearer and no heavier, and cheaper or lighter. :func:`mark_dominated`
+    would flag such a lane; it would not be offered, and nothing else reads it."""
     capped: dict[tuple[int, str], list[tuple[float, float]]] = {}
     for o in simulated:
         d = o.design
+        bound = service.site_bound(d.site_index, d.chemistry, d.service_life_years)
         if (not d.is_existing and o.eol_soh_frac < 1.0 and o.unserved_wh_per_year <= 0.0
-                and o.limiting_cause == "service-life limit"
-                and o.life_years >= max_service_years(d.chemistry, d.service_life_years)):
+                and o.limiting_cause in SERVICE_CAUSES and o.life_years >= bound - 1e-9):
             capped.setdefault((d.site_index, d.chemistry), []).append(
                 (price_of(d.chemistry, d.pack.capacity_wh), d.pack.mass_kg))
     keep = []
@@ -240,7 +250,8 @@ def _simulate(lanes_of: _ChunkLanes, hourly, sel: np.ndarray):
         # columns instead of gathering them (lanes are independent, order is free).
         idx = np.flatnonzero(recharge)
         idx = idx[np.argsort([chunk[j].chemistry for j in idx], kind="stable")]
-        inputs = _SocInputs(hourly, chems, [chunk[j] for j in idx])
+        inputs = _SocInputs(hourly, chems, [chunk[j] for j in idx],
+                            lanes_of.service.floor_thresholds(idx, lanes_of.available))
         # The first year, new pack: what the plan reports (unserved load, cycles).
         duty.put(idx, _duty(inputs, capacity[idx], np.ones(idx.size), series=False))
         # Capacity feedback: an old pack cycles deeper. The aging is driven by the year
@@ -254,7 +265,8 @@ def _simulate(lanes_of: _ChunkLanes, hourly, sel: np.ndarray):
         # A primary pack is never recharged: the load draws its C-rate hour by hour.
         current = hourly.load_w[:, lanes_of.site_idx[idx]] / capacity[idx]
         drain = _Duty(np.ones_like(current), current, np.zeros(idx.size), np.zeros(idx.size),
-                      np.ones(idx.size), np.zeros(idx.size))
+                      np.zeros(idx.size), np.ones(idx.size), np.zeros(idx.size),
+                      np.zeros(idx.size))
         fades.update(_age_by_chemistry(chems, chunk, idx, hourly, drain, volts, peak_c,
                                        lanes_of.years))
     results, deferred = [], []
@@ -269,30 +281,54 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
     """One Outcome per lane of ``members`` (one chemistry) from its fade and duty."""
     chunk, eol, ages = lanes_of.chunk, lanes_of.eol, lanes_of.ages
     months = 12 * lanes_of.horizon + 1
-    life_total = _years_to(fade.soh_monthly, eol[members])
+    life_fade = _years_to(fade.soh_monthly, eol[members])
+    imbalance = lanes_of.service.imbalance[members]
+    life_cells = life_fade
+    if np.any(imbalance > 0.0):
+        # cell imbalance strands capacity on top of fade (planner.pack.components)
+        years = np.arange(fade.soh_monthly.shape[0]) / 12.0
+        life_cells = _years_to(fade.soh_monthly - imbalance[None, :] * years[:, None],
+                               eol[members])
     out = []
     for col, j in enumerate(members):
         d = chunk[j]
         start = int(round(float(ages[j]) * 12))  # a Python float: numpy's round is slow
         soh_col = fade.soh_monthly[:, col]
-        if d.measured_soh_frac and np.any(soh_col <= d.measured_soh_frac):
-            start = int(np.argmax(soh_col <= d.measured_soh_frac))
-        cap = max_service_years(chem.id, d.service_life_years)
-        cause = _cause(eol[j], lanes_of.available[j], fade, life_total[col], col, chem)
-        if life_total[col] > cap and eol[j] < 1.0:
-            cause = "service-life limit"
+        service = lanes_of.service.lane(j, float(duty.days_at_floor[j]))
+        cause = _cause(eol[j], lanes_of.available[j], fade, life_fade[col], col, chem)
+        if life_cells[col] < life_fade[col] - 1e-9 and eol[j] < 1.0:
+            cause = "cell imbalance"
+        life_from_start = life_cells[col] - start / 12.0
+        soh_today = soh_col[start:start + months]
+        if d.measured_soh_frac:
+            # From the day measured, the pack's health is never above the measurement.
+            health = health_from_today(soh_col, age_months=start,
+                                       measured_soh_frac=d.measured_soh_frac)
+            start, soh_today = health.start_month, health.months(months)
+            life_from_start = health.years_to(float(eol[j]))
+            if not health.on_model_curve:  # faded beyond the laws: its own end of life
+                cause = _cause(eol[j], lanes_of.available[j], fade,
+                               life_from_start + start / 12.0, col, chem)
         age = start / 12.0 if not d.measured_soh_frac else float(d.existing_age_years or 0.0)
-        life = min(life_total[col] - start / 12.0, cap - age)
+        if life_from_start > service.years - age and eol[j] < 1.0:
+            cause = service.name
+        life = min(life_from_start, service.years - age)
         out.append(Outcome(
             design=d, eol_soh_frac=float(eol[j]), life_years=float(max(life, 0.0)),
-            limiting_cause=cause,
-            soh_monthly=soh_col[start:start + months],
+            limiting_cause=cause, service_limit_years=float(service.years - age),
+            component_lives={k: float(v - age) for k, v in service.lives.items()},
+            imbalance_frac_per_year=service.imbalance_frac_per_year,
+            condensation=service.condensation,
+            soh_monthly=soh_today,
             calendar_loss_frac=fade.calendar_loss_frac[start:start + months, col],
             cycle_loss_frac=fade.cycle_loss_frac[start:start + months, col],
             efc_per_year=float(duty.efc[j] if chem.rechargeable else fade.efc_per_year[col]),
-            nominal_life_years=float(life_total[col] - start / 12.0),
+            nominal_life_years=float(life_from_start),
+            knee_floor=bool(lanes_of.knee_floor[j]),
             unserved_wh_per_year=float(duty.unserved_wh[j]),
-            charge_blocked_hours=float(duty.blocked_hours[j]),
+            charge_blocked_hours=float(duty.blocked_cold[j] + duty.blocked_hot[j]),
+            charge_blocked_cold_hours=float(duty.blocked_cold[j]),
+            charge_blocked_hot_hours=float(duty.blocked_hot[j]),
             mean_soc_frac=float(duty.mean_soc[j])))
         if d.is_existing:
             out[-1].install_calendar_loss_frac = fade.calendar_loss_frac[:, col].astype(np.float32)
@@ -307,19 +343,24 @@ class _Duty:
     soc: np.ndarray
     current: np.ndarray
     unserved_wh: np.ndarray
-    blocked_hours: np.ndarray
+    blocked_cold: np.ndarray
+    blocked_hot: np.ndarray
     mean_soc: np.ndarray
     efc: np.ndarray
+    days_at_floor: np.ndarray     # longest run of days at the low-voltage disconnect
 
     @classmethod
     def empty(cls, n):
-        return cls(None, None, np.zeros(n), np.zeros(n), np.ones(n), np.zeros(n))
+        return cls(None, None, np.zeros(n), np.zeros(n), np.zeros(n), np.ones(n), np.zeros(n),
+                   np.zeros(n))
 
     def put(self, idx, other):
         self.unserved_wh[idx] = other.unserved_wh
-        self.blocked_hours[idx] = other.blocked_hours
+        self.blocked_cold[idx] = other.blocked_cold
+        self.blocked_hot[idx] = other.blocked_hot
         self.mean_soc[idx] = other.mean_soc
         self.efc[idx] = other.efc
+        self.days_at_floor[idx] = other.days_at_floor
 
 
 class _SocInputs:
@@ -331,7 +372,7 @@ class _SocInputs:
     lane's chemistry and charge voltage.
     """
 
-    def __init__(self, hourly: _SiteHourly, chems, chunk):
+    def __init__(self, hourly: _SiteHourly, chems, chunk, floor_threshold):
         pairs = sorted({(d.site_index, d.chemistry) for d in chunk})
         column = {pair: i for i, pair in enumerate(pairs)}
         cols_site = np.array([site for site, _ in pairs], dtype=np.intp)
@@ -356,7 +397,10 @@ class _SocInputs:
             self_discharge_frac_per_h=self_discharge,
             max_charge_c_rate=per_lane("max_charge_c_rate"),
             charge_temp_min_c=per_lane("charge_temp_min_c"),
+            charge_temp_max_c=per_lane("charge_temp_max_c"),
             heater_on=hourly.heater_on[:, cols_site], min_soc_frac=1.0 - per_lane("max_dod_frac"),
+            # days whose highest state of charge stays at the disconnect: a dark spell at it
+            low_soc_threshold_frac=floor_threshold,
             available_capacity_frac=available,
             lane_site_index=np.array([column[(d.site_index, d.chemistry)] for d in chunk],
                                      dtype=np.intp),
@@ -371,14 +415,15 @@ def _duty(inputs: _SocInputs, capacity, soh, series=True) -> _Duty:
                                **{**inputs.options, "series": series}))
     s = sim.summary
     if not series:
-        return _Duty(None, None, s.unserved_wh, s.charge_blocked_hours, s.mean_soc_frac,
-                     s.equivalent_full_cycles_per_year * soh)
+        return _Duty(None, None, s.unserved_wh, s.charge_blocked_cold_hours,
+                     s.charge_blocked_hot_hours, s.mean_soc_frac,
+                     s.equivalent_full_cycles_per_year * soh, s.longest_low_soc_days)
     # SOC stays relative to the faded capacity (it sets the voltage, hence calendar stress,
     # and an old pack cycles deeper); current is re-expressed against rated capacity.
     np.multiply(sim.current_c_rate, soh.astype(np.float32), out=sim.current_c_rate)
     return _Duty(sim.soc_frac, sim.current_c_rate, s.unserved_wh,
-                 s.charge_blocked_hours, s.mean_soc_frac,
-                 s.equivalent_full_cycles_per_year * soh)
+                 s.charge_blocked_cold_hours, s.charge_blocked_hot_hours, s.mean_soc_frac,
+                 s.equivalent_full_cycles_per_year * soh, s.longest_low_soc_days)
 
 
 def _age_by_chemistry(chems, chunk, idx, hourly, duty, volts, peak_c, years):
@@ -433,12 +478,12 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     """Pack Monte Carlo (cell spread, gradients, balancing): P10/P50/P90 and the
     probability of failing before each age, for the failure-risk cost."""
     laws = stress_parameters(chem.aging_sets[chem.default_aging_set])
-    cap = max_service_years(chem.id, designs[0].service_life_years if designs else None)
     groups: dict[int, list[int]] = {}
     for j, d in enumerate(designs):
         if eol[j] >= 1.0 or d.is_existing or not chem.rechargeable or outcomes[j].dominated \
                 or outcomes[j].far_from_best:
             continue
+        cap = outcomes[j].service_limit_years   # this design's components and ceiling
         if outcomes[j].life_years >= cap and outcomes[j].nominal_life_years >= SPREAD_SKIP_FACTOR * cap:
             # Nominal life far beyond the service limit: cell spread cannot bring the
             # end of life before the planned replacement (the spreads move P10 by well
@@ -454,14 +499,18 @@ def _add_life_spread(models, chem, designs, outcomes, fade, eol, horizon):
     # One call per series count: string counts vary per lane (strings as units).
     for series, lanes in groups.items():
         ref_temp = [models[designs[j].site_index].temperatures.effective_temp_c for j in lanes]
+        # cell imbalance strands capacity linearly in time: carried with the calendar part
+        stranded = (np.array([outcomes[j].imbalance_frac_per_year for j in lanes])[None, :]
+                    * (np.arange(rows.stop) / 12.0)[:, None])
         dist = life_distribution(
-            calendar_loss_frac=fade.calendar_loss_frac[rows, lanes],
+            calendar_loss_frac=fade.calendar_loss_frac[rows, lanes] + stranded,
             cycle_loss_frac=fade.cycle_loss_frac[rows, lanes], eol_soh_frac=eol[lanes],
             series_cells=series, parallel_strings=[designs[j].pack.parallel_strings for j in lanes],
             draws=PLAN_DRAWS, seed=0, step_months=PLAN_STEP_MONTHS,
             reference_temp_c=np.array(ref_temp), **laws)
         for k, j in enumerate(lanes):
             o = outcomes[j]
+            cap = o.service_limit_years
             o.life_p10_years = float(min(dist.p10_years[k], cap))
             o.life_p50_years = float(min(dist.p50_years[k], cap))
             o.life_p90_years = float(min(dist.p90_years[k], cap))

@@ -1,6 +1,10 @@
 """Energy balance of a remote site: loads, charging sources, hourly state of charge,
 the 1x reference pack size and lead-acid freezing.
 
+Public entry: :func:`planner.energy.soc.simulate_soc` / :func:`~planner.energy.soc.iter_soc_chunks`
+(hourly state of charge of many lanes) and :func:`planner.energy.sizing.reference_capacity`
+(the 1x pack); :func:`planner.energy.pv.pv_dc_power_w` (PV power on the battery bus).
+
 Modules (one physical concept each):
 
 - :mod:`planner.energy.loads`: hourly mean load and burst peak power.

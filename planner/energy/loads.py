@@ -12,8 +12,6 @@ non-leap typical year (8,760 hours).
 
 from __future__ import annotations
 
-import csv
-import io
 import math
 import os
 
@@ -22,6 +20,7 @@ import numpy as np
 from planner import HOURS_PER_YEAR
 from planner.errors import InputError
 from planner.fileio import read_input_bytes
+from planner.inputs.tables import read_table
 
 #: Upper bound accepted for any load power (W). Remote unattended sites (telemetry,
 #: repeaters, monitors) draw from about a watt to a few kilowatts; a value above this
@@ -194,7 +193,8 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
     named ``column`` holds the hourly mean power in W; one data row per hour starting
     1 January 00:00 local standard time; exactly 8,760 data rows, or 8,784 for a leap
     year, in which case the 24 rows of 29 February (data rows 1,417-1,440) are dropped.
-    Blank lines are ignored. Every value must be a finite number from 0 to
+    Blank lines are skipped (and counted in the line numbers of messages). Every value
+    must be a finite number (:mod:`planner.inputs.numbers`) from 0 to
     ``MAX_LOAD_W``.
 
     Parameters
@@ -217,36 +217,20 @@ def read_hourly_load_csv(path, *, column: str = "load_w") -> np.ndarray:
     """
     src = os.fspath(path)
     data = read_input_bytes(src, what="a CSV of hourly load")
-    try:
-        text = data.decode("utf-8-sig")
-        rows = [r for r in csv.reader(io.StringIO(text, newline="")) if any(c.strip() for c in r)]
-    except (UnicodeDecodeError, csv.Error) as exc:
-        raise InputError(f"cannot read ({type(exc).__name__}), expected a UTF-8 CSV",
-                         source=src) from None
-    if not rows:
-        raise InputError("file is empty, expected a header row and 8760 rows", source=src)
-    header = [h.strip() for h in rows[0]]
-    if column not in header:
-        raise InputError(f"header: found columns {header}, expected a column '{column}'",
-                         source=src)
-    col = header.index(column)
-    data = rows[1:]
-    if len(data) not in (HOURS_PER_YEAR, HOURS_PER_YEAR + 24):
-        raise InputError(f"found {len(data)} data rows, expected 8760 (or 8784 for a leap "
+    # Lines are numbered as an editor shows them, blank lines counted (planner.inputs.tables).
+    table = read_table(data, source=src, kind="csv", what="a CSV of hourly load")
+    if not table.has(column):
+        raise InputError(f"header: found columns {list(table.columns)}, expected a column "
+                         f"'{column}'", source=src)
+    if len(table) not in (HOURS_PER_YEAR, HOURS_PER_YEAR + 24):
+        raise InputError(f"found {len(table)} data rows, expected 8760 (or 8784 for a leap "
                          "year)", source=src)
-    values = np.empty(len(data))
-    for i, row in enumerate(data):
-        # line numbers count the header as line 1 (as a spreadsheet shows them)
-        cell = row[col].strip() if col < len(row) else ""
-        try:
-            values[i] = float(cell)
-        except ValueError:
-            raise InputError(f"line {i + 2}, column '{column}': found {cell!r}, expected a "
-                             "number of watts", source=src) from None
-    bad = ~np.isfinite(values) | (values < 0) | (values > MAX_LOAD_W)
+    values = table.numbers(column, what="a number of watts", allow_blank=False, label="line")
+    bad = (values < 0) | (values > MAX_LOAD_W)
     if np.any(bad):
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"line {i + 2}, column '{column}': found {values[i]:g} W, expected "
+        where = table.rows[i].where("line")
+        raise InputError(f"{where}, column '{column}': found {values[i]:g} W, expected "
                          f"0 to {MAX_LOAD_W:g} W", source=src)
     if values.size == HOURS_PER_YEAR + 24:
         values = np.delete(values, np.s_[_LEAP_DAY_START_H:_LEAP_DAY_START_H + 24])

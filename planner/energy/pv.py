@@ -102,7 +102,8 @@ def pv_dc_power_w(times, ghi_w_m2=None, dni_w_m2=None, dhi_w_m2=None, temp_air_c
                   snow_months=(), snow_loss_frac: float = 1.0,
                   controller_efficiency_frac: float = DEFAULT_CONTROLLER_EFFICIENCY_FRAC,
                   albedo: float = DEFAULT_ALBEDO,
-                  mounting: str = DEFAULT_MOUNTING) -> np.ndarray:
+                  mounting: str = DEFAULT_MOUNTING, solar_apparent_zenith_deg=None,
+                  solar_azimuth_deg=None) -> np.ndarray:
     """Hourly PV power offered to the battery bus (W, hourly mean).
 
     ``P = pvwatts_dc(E_poa, T_cell, array_wp, gamma) * (1 - system_loss_frac)
@@ -154,6 +155,9 @@ def pv_dc_power_w(times, ghi_w_m2=None, dni_w_m2=None, dhi_w_m2=None, temp_air_c
         Ground reflectance (0-1).
     mounting : str
         Key of ``pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS['sapm']``.
+    solar_apparent_zenith_deg, solar_azimuth_deg : array, optional
+        The sun at mid-hour, when already computed for this place (the same NREL SPA
+        values); otherwise computed here.
 
     Returns
     -------
@@ -185,18 +189,9 @@ def pv_dc_power_w(times, ghi_w_m2=None, dni_w_m2=None, dhi_w_m2=None, temp_air_c
     lat = _check_range(latitude_deg, "latitude_deg", -90.0, 90.0, "degrees")
     lon = _check_range(longitude_deg, "longitude_deg", -180.0, 180.0, "degrees")
     alt = _check_range(altitude_m, "altitude_m", -500.0, 9000.0, "m")
-    gamma = _check_range(gamma_pdc_per_c, "gamma_pdc_per_c", -0.02, 0.0, "1/K")
-    loss = _check_range(system_loss_frac, "system_loss_frac", 0.0, 0.99, "(fraction)")
-    snow_loss = _check_range(snow_loss_frac, "snow_loss_frac", 0.0, 1.0, "(fraction)")
-    eta = _check_range(controller_efficiency_frac, "controller_efficiency_frac", 0.01, 1.0,
-                       "(fraction)")
-    rho = _check_range(albedo, "albedo", 0.0, 1.0, "(fraction)")
-    sapm = pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]
-    if mounting not in sapm:
-        raise InputError(f"mounting: found {mounting!r}, expected one of {sorted(sapm)}")
-    months = sorted(set(snow_months))
-    if any(not isinstance(m, (int, np.integer)) or not 1 <= m <= 12 for m in months):
-        raise InputError(f"snow_months: found {list(snow_months)!r}, expected months 1-12")
+    losses = _checked_losses(gamma_pdc_per_c, system_loss_frac, snow_loss_frac,
+                             controller_efficiency_frac, albedo, mounting)
+    months = _checked_months(snow_months)
 
     idx = _localized(times, utc_offset_h)
     n = len(idx)
@@ -210,16 +205,121 @@ def pv_dc_power_w(times, ghi_w_m2=None, dni_w_m2=None, dhi_w_m2=None, temp_air_c
 
     # hour-start labels: the hour's mean sun is closest to its middle
     mid = idx + pd.Timedelta(minutes=30)
-    sun = pvlib.solarposition.get_solarposition(mid, lat, lon, altitude=alt)
+    if solar_apparent_zenith_deg is None or solar_azimuth_deg is None:
+        sun = pvlib.solarposition.get_solarposition(mid, lat, lon, altitude=alt)
+        solar_apparent_zenith_deg = sun["apparent_zenith"].to_numpy()
+        solar_azimuth_deg = sun["azimuth"].to_numpy()
     dni_extra = pvlib.irradiance.get_extra_radiation(mid).to_numpy()
-    poa = pvlib.irradiance.get_total_irradiance(
-        tilt, azimuth, sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy(),
-        dni, ghi, dhi, dni_extra=dni_extra, albedo=rho, model="haydavies")
-    poa_global = np.nan_to_num(np.asarray(poa["poa_global"], dtype=float), nan=0.0)
-    poa_global = np.maximum(poa_global, 0.0)
-    temp_cell = pvlib.temperature.sapm_cell(poa_global, temp_air, wind, **sapm[mounting])
-    pdc = pvlib.pvsystem.pvwatts_dc(poa_global, temp_cell, pdc0=array_wp, gamma_pdc=gamma)
-    factor = np.full(n, (1.0 - loss) * eta)
+    poa_global = _poa_global(tilt, azimuth, _hourly(solar_apparent_zenith_deg, "solar zenith", n),
+                             _hourly(solar_azimuth_deg, "solar azimuth", n), dni, ghi, dhi,
+                             dni_extra, losses["albedo"])
+    factor = np.full(n, losses["kept_frac"])
     if months:
-        factor[np.isin(idx.month, months)] *= 1.0 - snow_loss
-    return np.maximum(np.nan_to_num(np.asarray(pdc, dtype=float), nan=0.0), 0.0) * factor
+        factor[np.isin(idx.month, months)] *= losses["snow_kept_frac"]
+    return _bus_power(poa_global, temp_air, wind, array_wp, losses) * factor
+
+
+def pv_dc_power_many_w(ghi_w_m2, dni_w_m2, dhi_w_m2, temp_air_c, wind_speed_m_s, *,
+                       solar_apparent_zenith_deg, solar_azimuth_deg, dni_extra_w_m2,
+                       month, array_wp, tilt_deg, azimuth_deg, snow_months=None,
+                       gamma_pdc_per_c: float = -0.004,
+                       system_loss_frac: float = DEFAULT_SYSTEM_LOSS_FRAC,
+                       snow_loss_frac: float = 1.0,
+                       controller_efficiency_frac: float = DEFAULT_CONTROLLER_EFFICIENCY_FRAC,
+                       albedo: float = DEFAULT_ALBEDO,
+                       mounting: str = DEFAULT_MOUNTING) -> np.ndarray:
+    """Hourly PV power at the battery bus of n arrays at once, (hours, n), W.
+
+    The chain of :func:`pv_dc_power_w` (Hay-Davies POA, SAPM cell temperature, PVWatts
+    DC, losses) on arrays shaped (hours, n), one column per array with its own sky,
+    weather, sun and orientation; the sun is given (e.g. from
+    :func:`planner.climate.solar.sun_paths`).
+
+    Parameters
+    ----------
+    ghi_w_m2, dni_w_m2, dhi_w_m2, temp_air_c, wind_speed_m_s : (hours, n) arrays
+    solar_apparent_zenith_deg, solar_azimuth_deg : (hours, n) arrays
+        The sun at mid-hour at each array.
+    dni_extra_w_m2 : (hours,) or (hours, n) array
+        Extraterrestrial normal irradiance at mid-hour (Hay-Davies anisotropy index).
+    month : (hours,) ints 1-12
+        Month of each hour (for snow months).
+    array_wp, tilt_deg, azimuth_deg : (n,) arrays
+    snow_months : sequence of n sequences of months, optional
+
+    Returns
+    -------
+    (hours, n) array of W, >= 0.
+    """
+    import pvlib  # noqa: F401  (heavy import kept out of module import time)
+
+    ghi = np.asarray(ghi_w_m2, float)
+    hours, n = ghi.shape
+    wp = np.broadcast_to(np.asarray(array_wp, float), (n,))
+    tilt = np.broadcast_to(np.asarray(tilt_deg, float), (n,))
+    azimuth = np.broadcast_to(np.asarray(azimuth_deg, float), (n,))
+    for name, values, lo, hi in (("array_wp", wp, 0.0, 1e7), ("tilt_deg", tilt, 0.0, 90.0),
+                                 ("azimuth_deg", azimuth, 0.0, 360.0)):
+        for v in values:
+            _check_range(v, name, lo, hi, "")
+    losses = _checked_losses(gamma_pdc_per_c, system_loss_frac, snow_loss_frac,
+                             controller_efficiency_frac, albedo, mounting)
+    extra = np.asarray(dni_extra_w_m2, float)
+    poa_global = _poa_global(tilt[None, :], azimuth[None, :], solar_apparent_zenith_deg,
+                             solar_azimuth_deg, np.asarray(dni_w_m2, float), ghi,
+                             np.asarray(dhi_w_m2, float), extra if extra.ndim == 2 else extra[:, None],
+                             losses["albedo"])
+    power = _bus_power(poa_global, np.asarray(temp_air_c, float), np.asarray(wind_speed_m_s, float),
+                       wp[None, :], losses)
+    power *= losses["kept_frac"]
+    if snow_months is not None:
+        month = np.asarray(month)
+        for j, months in enumerate(snow_months):
+            months = _checked_months(months)
+            if months:
+                power[np.isin(month, months), j] *= losses["snow_kept_frac"]
+    return power
+
+
+def _checked_losses(gamma_pdc_per_c, system_loss_frac, snow_loss_frac, controller_efficiency_frac,
+                    albedo, mounting) -> dict:
+    import pvlib
+
+    gamma = _check_range(gamma_pdc_per_c, "gamma_pdc_per_c", -0.02, 0.0, "1/K")
+    loss = _check_range(system_loss_frac, "system_loss_frac", 0.0, 0.99, "(fraction)")
+    snow_loss = _check_range(snow_loss_frac, "snow_loss_frac", 0.0, 1.0, "(fraction)")
+    eta = _check_range(controller_efficiency_frac, "controller_efficiency_frac", 0.01, 1.0,
+                       "(fraction)")
+    rho = _check_range(albedo, "albedo", 0.0, 1.0, "(fraction)")
+    sapm = pvlib.temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]
+    if mounting not in sapm:
+        raise InputError(f"mounting: found {mounting!r}, expected one of {sorted(sapm)}")
+    return {"gamma": gamma, "kept_frac": (1.0 - loss) * eta, "snow_kept_frac": 1.0 - snow_loss,
+            "albedo": rho, "sapm": sapm[mounting]}
+
+
+def _checked_months(snow_months) -> list:
+    months = sorted(set(snow_months))
+    if any(not isinstance(m, (int, np.integer)) or not 1 <= m <= 12 for m in months):
+        raise InputError(f"snow_months: found {list(snow_months)!r}, expected months 1-12")
+    return months
+
+
+def _poa_global(tilt, azimuth, apparent_zenith, sun_azimuth, dni, ghi, dhi, dni_extra, albedo):
+    """Plane-of-array global irradiance, Hay-Davies sky (pvlib), >= 0, W/m2."""
+    import pvlib
+
+    poa = pvlib.irradiance.get_total_irradiance(
+        tilt, azimuth, apparent_zenith, sun_azimuth, dni, ghi, dhi, dni_extra=dni_extra,
+        albedo=albedo, model="haydavies")
+    poa_global = np.nan_to_num(np.asarray(poa["poa_global"], dtype=float), nan=0.0)
+    return np.maximum(poa_global, 0.0)
+
+
+def _bus_power(poa_global, temp_air, wind, array_wp, losses):
+    """PVWatts DC power at the SAPM cell temperature, >= 0, W (before the loss factors)."""
+    import pvlib
+
+    temp_cell = pvlib.temperature.sapm_cell(poa_global, temp_air, wind, **losses["sapm"])
+    pdc = pvlib.pvsystem.pvwatts_dc(poa_global, temp_cell, pdc0=array_wp, gamma_pdc=losses["gamma"])
+    return np.maximum(np.nan_to_num(np.asarray(pdc, dtype=float), nan=0.0), 0.0)

@@ -150,7 +150,7 @@ def compensated_charge_voltage_v_per_cell(charge_voltage_v_per_cell, temp_batter
 def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
                     usable_fraction, charge_efficiency_frac, discharge_efficiency_frac,
                     self_discharge_frac_per_h=0.0, max_charge_c_rate=np.inf,
-                    charge_temp_min_c=-np.inf, heater_on=None, min_soc_frac=0.0,
+                    charge_temp_min_c=-np.inf, charge_temp_max_c=np.inf, heater_on=None, min_soc_frac=0.0,
                     available_capacity_frac=None, initial_soc_frac=1.0,
                     low_soc_threshold_frac=0.5, lane_site_index=None,
                     chunk_lanes: int = DEFAULT_CHUNK_LANES,
@@ -172,8 +172,8 @@ def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *
     """
     p = _prepare(charge_power_w, load_power_w, capacity_wh, temp_battery_c,
                  usable_fraction, charge_efficiency_frac, discharge_efficiency_frac,
-                 self_discharge_frac_per_h, max_charge_c_rate, charge_temp_min_c, heater_on,
-                 min_soc_frac, available_capacity_frac, initial_soc_frac,
+                 self_discharge_frac_per_h, max_charge_c_rate, charge_temp_min_c, charge_temp_max_c,
+                 heater_on, min_soc_frac, available_capacity_frac, initial_soc_frac,
                  low_soc_threshold_frac, lane_site_index)
     if not isinstance(chunk_lanes, (int, np.integer)) or chunk_lanes < 1:
         raise InputError(f"chunk_lanes: found {chunk_lanes!r}, expected an integer >= 1")
@@ -195,7 +195,7 @@ def iter_soc_chunks(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *
 
 def _prepare(charge_power_w, load_power_w, capacity_wh, temp_battery_c, usable_fraction,
              charge_efficiency_frac, discharge_efficiency_frac, self_discharge_frac_per_h,
-             max_charge_c_rate, charge_temp_min_c, heater_on, min_soc_frac,
+             max_charge_c_rate, charge_temp_min_c, charge_temp_max_c, heater_on, min_soc_frac,
              available_capacity_frac, initial_soc_frac, low_soc_threshold_frac,
              lane_site_index) -> dict:
     """Validate every input once and return them as arrays (hourly ones wrapped)."""
@@ -215,12 +215,15 @@ def _prepare(charge_power_w, load_power_w, capacity_wh, temp_battery_c, usable_f
         "soc0": _lane_param(initial_soc_frac, "initial_soc_frac", n, 0.0, 1.0),
         "low": _lane_param(low_soc_threshold_frac, "low_soc_threshold_frac", n, 0.0, 1.0),
     }
-    t_min = np.asarray(charge_temp_min_c, dtype=float)
-    t_min = np.full(n, float(t_min)) if t_min.ndim == 0 else t_min
-    if t_min.shape != (n,) or np.any(np.isnan(t_min)):
-        raise InputError(f"charge_temp_min_c: found shape {t_min.shape}, expected a scalar "
-                         f"or ({n},) temperatures in degC (-inf for no limit)")
-    p["t_min"] = t_min
+    for key, name, none in (("t_min", "charge_temp_min_c", "-inf"),
+                            ("t_max", "charge_temp_max_c", "inf")):
+        limit = np.asarray(charge_temp_min_c if key == "t_min" else charge_temp_max_c,
+                           dtype=float)
+        limit = np.full(n, float(limit)) if limit.ndim == 0 else limit
+        if limit.shape != (n,) or np.any(np.isnan(limit)):
+            raise InputError(f"{name}: found shape {limit.shape}, expected a scalar "
+                             f"or ({n},) temperatures in degC ({none} for no limit)")
+        p[key] = limit
     if np.any(p["soc_min"] >= p["usable"]):
         i = int(np.flatnonzero(p["soc_min"] >= p["usable"])[0])
         raise InputError(f"min_soc_frac[{i}]: found {p['soc_min'][i]!r}, expected below "
@@ -287,7 +290,7 @@ def _run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
 def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
                  usable_fraction, charge_efficiency_frac, discharge_efficiency_frac,
                  self_discharge_frac_per_h=0.0, max_charge_c_rate=np.inf,
-                 charge_temp_min_c=-np.inf, heater_on=None, min_soc_frac=0.0,
+                 charge_temp_min_c=-np.inf, charge_temp_max_c=np.inf, heater_on=None, min_soc_frac=0.0,
                  available_capacity_frac=None, initial_soc_frac=1.0,
                  low_soc_threshold_frac=0.5, lane_site_index=None, keep_series_for=None,
                  chunk_lanes: int = DEFAULT_CHUNK_LANES, engine: str = "auto") -> SocResult:
@@ -324,6 +327,9 @@ def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
     charge_temp_min_c : scalar or (n,)
         Below this battery temperature no charge is accepted unless ``heater_on``
         (lithium-ion plating rule); ``-inf`` for no limit.
+    charge_temp_max_c : scalar or (n,)
+        Above this battery temperature no charge is accepted, heater or not (the
+        battery management system's charge over-temperature stop); ``inf`` for no limit.
     heater_on : hourly bool, optional
         Hours when a battery heater keeps the cells warm enough to charge.
     min_soc_frac : scalar or (n,)
@@ -369,6 +375,7 @@ def simulate_soc(charge_power_w, load_power_w, capacity_wh, temp_battery_c, *,
             discharge_efficiency_frac=discharge_efficiency_frac,
             self_discharge_frac_per_h=self_discharge_frac_per_h,
             max_charge_c_rate=max_charge_c_rate, charge_temp_min_c=charge_temp_min_c,
+            charge_temp_max_c=charge_temp_max_c,
             heater_on=heater_on, min_soc_frac=min_soc_frac,
             available_capacity_frac=available_capacity_frac,
             initial_soc_frac=initial_soc_frac, low_soc_threshold_frac=low_soc_threshold_frac,

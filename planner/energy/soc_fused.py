@@ -52,7 +52,8 @@ def run_chunk(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     n_hours, n_columns = p["n_hours"], p["n_columns"]
     lane = slice(start, stop)
     cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
-    eta_c, eta_d, t_min = p["eta_c"][lane], p["eta_d"][lane], p["t_min"][lane]
+    eta_c, eta_d = p["eta_c"][lane], p["eta_d"][lane]
+    t_min, t_max = p["t_min"][lane], p["t_max"][lane]
     col = (np.arange(start, stop) if p["site_idx"] is None
            else p["site_idx"][lane]).astype(np.int64)
     e_start = np.minimum(p["soc0"][lane], usable) * cap
@@ -63,7 +64,8 @@ def run_chunk(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
         month_end[-1] = True
     month_rows = np.flatnonzero(month_end)
     snap_dr, snap_dfc = np.zeros((month_rows.size, k)), np.zeros((month_rows.size, k))
-    sum_sur, sum_dfc, blk = np.zeros(k), np.zeros(k), np.zeros(k, dtype=np.int64)
+    sum_sur, sum_dfc = np.zeros(k), np.zeros(k)
+    blk_cold, blk_hot = np.zeros(k, dtype=np.int64), np.zeros(k, dtype=np.int64)
     series_col = np.full(k, -1, dtype=np.int64)
     if keep is not None:
         picked = np.arange(k)[keep]
@@ -89,22 +91,24 @@ def run_chunk(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
     state = _kernels.initial_state(e_start)
     sd = _kernels.readonly(_dense(p["sd"], n_hours, n_columns, float, 0.0))
     avail = _kernels.readonly(_dense(p["avail"], n_hours, n_columns, float, 1.0))
-    n_groups = groups(col, eta_c, eta_d, t_min)[0].size
+    n_groups = groups(col, eta_c, eta_d, t_min, t_max).size
     piece = k if n_groups <= _KERNEL_GROUPS else max(4, k * _KERNEL_GROUPS // n_groups)
     for a in range(0, k, piece):
         b = min(k, a + piece)
-        gcol, g_eta_c, g_eta_d, g_t_min, ginv = groups(col[a:b], eta_c[a:b], eta_d[a:b],
-                                                       t_min[a:b])
-        sur, dfc, cold, offer = group_offers(p, 0, n_hours, gcol, g_eta_c, g_eta_d,
-                                             g_t_min)
+        g = groups(col[a:b], eta_c[a:b], eta_d[a:b], t_min[a:b], t_max[a:b])
+        ginv = g.of_lane
+        offers = group_offers(p, 0, n_hours, g)
+        sur, dfc, offer = offers.surplus_w, offers.deficit_w, offers.offer_wh
         # running sums in hour order (cumsum adds in order, like the numpy loop)
         cum_dfc = np.cumsum(dfc, axis=0)
         sum_sur[a:b] = np.cumsum(sur, axis=0)[-1][ginv]
         sum_dfc[a:b] = cum_dfc[-1][ginv]
         snap_dfc[:, a:b] = cum_dfc[month_rows][:, ginv]
-        if cold is not None:
-            blk[a:b] = cold.sum(axis=0)[ginv]
-        del sur, dfc, cold, cum_dfc
+        if offers.cold is not None:
+            blk_cold[a:b] = offers.cold.sum(axis=0)[ginv]
+        if offers.hot is not None:
+            blk_hot[a:b] = offers.hot.sum(axis=0)[ginv]
+        del sur, dfc, cum_dfc, offers
         kernel(_kernels.readonly(offer), sd, avail, ginv.astype(np.int64), col[a:b],
                par[a:b], state[a:b], series_col[a:b], soc_s, cr_s, month_end,
                snap_dr[:, a:b], _kernels.block_lanes(b - a, _threads()))
@@ -112,7 +116,7 @@ def run_chunk(p: dict, start: int, stop: int, keep, kernel) -> SocChunk:
           for name in ("E", "ACC", "D", "SD", "SOC", "MIN_SOC", "MAX_CR", "LONGEST", "UNS")}
     n_uns = st["UNS"].astype(np.int64)
     return finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, st["E"], e_start,
-                        st["ACC"], st["ACC"] - st["D"], st["SD"], n_uns, blk, sum_sur,
+                        st["ACC"], st["ACC"] - st["D"], st["SD"], n_uns, blk_cold, blk_hot, sum_sur,
                         sum_dfc,
                         monthly_unserved(list(snap_dr), list(snap_dfc), None, eta_d, n_uns),
                         st["SOC"] / n_hours, st["MIN_SOC"], st["MAX_CR"], st["LONGEST"],

@@ -9,6 +9,8 @@ depends only on a site column and the chemistry is computed once per *group* of 
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 from planner.energy.soc_results import HOURS_PER_YEAR, SocChunk, finish_chunk, monthly_unserved
@@ -53,38 +55,78 @@ def _hour_block(h, t0: int, t1: int, cols: np.ndarray) -> np.ndarray | None:
     return h.arr[t0:t1, cols]
 
 
-def groups(col, eta_c, eta_d, t_min):
-    """Lanes that read the same column with the same efficiencies and charge limit.
+@dataclass(frozen=True)
+class Groups:
+    """Lanes that read the same column with the same efficiencies and charge window.
 
-    Returns the groups' column, charge and discharge efficiency and minimum charge
-    temperature, ``(m,)`` each, and each lane's group, ``(k,)``.
+    Each attribute but ``of_lane`` is ``(m,)``, one value per group: its site column,
+    charge and discharge efficiency, and minimum and maximum charge temperature;
+    ``of_lane`` is each lane's group, ``(k,)``.
     """
-    keys = np.stack([np.asarray(col, dtype=float), eta_c, eta_d, t_min], axis=1)
+
+    col: np.ndarray
+    eta_c: np.ndarray
+    eta_d: np.ndarray
+    t_min: np.ndarray
+    t_max: np.ndarray
+    of_lane: np.ndarray
+
+    @property
+    def size(self) -> int:
+        return self.col.size
+
+
+def groups(col, eta_c, eta_d, t_min, t_max) -> Groups:
+    """The :class:`Groups` of lanes sharing a column, efficiencies and charge window."""
+    keys = np.stack([np.asarray(col, dtype=float), eta_c, eta_d, t_min, t_max], axis=1)
     keys_g, ginv = np.unique(keys, axis=0, return_inverse=True)
-    return (keys_g[:, 0].astype(np.intp), keys_g[:, 1], keys_g[:, 2], keys_g[:, 3],
-            ginv.reshape(-1))
+    return Groups(keys_g[:, 0].astype(np.intp), keys_g[:, 1], keys_g[:, 2], keys_g[:, 3],
+                  keys_g[:, 4], ginv.reshape(-1))
 
 
-def group_offers(p, t0, t1, gcol, g_eta_c, g_eta_d, g_t_min):
-    """Hours ``t0:t1`` of every group: surplus, deficit, cold block and offer to the store.
+@dataclass(frozen=True)
+class GroupOffers:
+    """Hours ``t0:t1`` of every group, each ``(t1 - t0, m)``: the source's surplus and
+    deficit (W), the hours whose surplus the cold and the heat block (bool, ``None``
+    when no group has that limit), and the offer to the store (Wh)."""
 
-    The source serves the load first; the store is offered ``eta_c * surplus`` (zero
-    while the battery is below its minimum charge temperature with the heater off) minus
-    ``deficit / eta_d``. Returns ``(surplus_w, deficit_w, cold, offer_wh)``, each
-    ``(t1 - t0, m)``; ``cold`` is ``None`` when no group has a charge-temperature limit.
+    surplus_w: np.ndarray
+    deficit_w: np.ndarray
+    cold: np.ndarray | None
+    hot: np.ndarray | None
+    offer_wh: np.ndarray
+
+
+def group_offers(p, t0, t1, g: Groups) -> GroupOffers:
+    """Hours ``t0:t1`` of every group: surplus, deficit, charge blocks and offer to the store.
+
+    The source serves the load first; the store is offered ``eta_c * surplus`` minus
+    ``deficit / eta_d``. The surplus is not taken while the battery is below its minimum
+    charge temperature with the heater off (lithium plating) or above its maximum charge
+    temperature (a battery management system stops charging a hot pack; a heater does
+    not help there).
     """
-    net = _hour_block(p["charge"], t0, t1, gcol) - _hour_block(p["load"], t0, t1, gcol)
+    net = _hour_block(p["charge"], t0, t1, g.col) - _hour_block(p["load"], t0, t1, g.col)
     sur = np.maximum(net, 0.0)
     dfc = sur - net
-    cold = None
+    cold = hot = None
     charged = sur
-    if np.any(np.isfinite(g_t_min)):
-        ok = _hour_block(p["temp"], t0, t1, gcol) >= g_t_min
-        if p["heater"] is not None:
-            ok = ok | _hour_block(p["heater"], t0, t1, gcol)
-        cold = (sur > 0.0) & ~ok
+    limited_low, limited_high = np.any(np.isfinite(g.t_min)), np.any(np.isfinite(g.t_max))
+    if limited_low or limited_high:
+        temp = _hour_block(p["temp"], t0, t1, g.col)
+        ok = np.ones(sur.shape, dtype=bool)
+        if limited_low:
+            warm = temp >= g.t_min
+            if p["heater"] is not None:
+                warm = warm | _hour_block(p["heater"], t0, t1, g.col)
+            cold = (sur > 0.0) & ~warm
+            ok &= warm
+        if limited_high:
+            cool = temp <= g.t_max
+            hot = (sur > 0.0) & ~cool
+            ok &= cool
         charged = sur * ok
-    return sur, dfc, cold, charged * g_eta_c - dfc / g_eta_d
+    return GroupOffers(sur, dfc, cold, hot, charged * g.eta_c - dfc / g.eta_d)
 
 
 def run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
@@ -110,10 +152,10 @@ def run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     n_hours = p["n_hours"]
     lane = slice(start, stop)
     cap, usable, soc_min = p["cap"][lane], p["usable"][lane], p["soc_min"][lane]
-    eta_c, eta_d, t_min = p["eta_c"][lane], p["eta_d"][lane], p["t_min"][lane]
+    eta_c, eta_d = p["eta_c"][lane], p["eta_d"][lane]
     col = np.arange(start, stop) if p["site_idx"] is None else p["site_idx"][lane]
-    gcol, g_eta_c, g_eta_d, g_t_min, ginv = groups(col, eta_c, eta_d, t_min)
-    m = gcol.size
+    g = groups(col, eta_c, eta_d, p["t_min"][lane], p["t_max"][lane])
+    m, ginv = g.size, g.of_lane
     sd, avail = p["sd"], p["avail"]
     with_sd = not sd.is_constant(0.0)
     c_limited = bool(np.any(np.isfinite(p["c_max"][lane])))
@@ -131,7 +173,7 @@ def run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     snap_dr, snap_dfc = [], []
 
     sum_sur_g, sum_dfc_g = np.zeros(m), np.zeros(m)
-    blk_g = np.zeros(m, dtype=np.int64)
+    cold_g, hot_g = np.zeros(m, dtype=np.int64), np.zeros(m, dtype=np.int64)
     y, d, lo, tmp = (np.empty(k) for _ in range(4))
     flag = np.empty(k, dtype=bool)
     sum_acc, sum_d, sum_sd = np.zeros(k), np.zeros(k), np.zeros(k)
@@ -152,13 +194,16 @@ def run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
     for t0 in range(0, n_hours, block_h):
         t1 = min(n_hours, t0 + block_h)
         # --- group level, whole block
-        sur, dfc, cold, x_g = group_offers(p, t0, t1, gcol, g_eta_c, g_eta_d, g_t_min)
+        offers = group_offers(p, t0, t1, g)
+        sur, dfc, x_g = offers.surplus_w, offers.deficit_w, offers.offer_wh
         # running sums continued hour by hour (cumsum adds in order, like a loop would)
         cum_sur = np.cumsum(np.vstack([sum_sur_g, sur]), axis=0)[1:]
         cum_dfc = np.cumsum(np.vstack([sum_dfc_g, dfc]), axis=0)[1:]
         sum_sur_g, sum_dfc_g = cum_sur[-1].copy(), cum_dfc[-1].copy()
-        if cold is not None:
-            blk_g += cold.sum(axis=0)
+        if offers.cold is not None:
+            cold_g += offers.cold.sum(axis=0)
+        if offers.hot is not None:
+            hot_g += offers.hot.sum(axis=0)
         if per_hour:
             # wide chunks: gather each hour into buffers that stay in cache
             sd_c = _hour_block(sd, t0, t1, ucol) if with_sd else None
@@ -212,7 +257,7 @@ def run_chunk(p: dict, start: int, stop: int, keep) -> SocChunk:
 
     stats = _series_summaries(soc_s, flow_s, cap, eta_c, eta_d, p["low"][lane])
     return finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
-                        sum_acc - sum_d, sum_sd, n_uns, blk_g[ginv], sum_sur_g[ginv],
+                        sum_acc - sum_d, sum_sd, n_uns, cold_g[ginv], hot_g[ginv], sum_sur_g[ginv],
                         sum_dfc_g[ginv],
                         monthly_unserved(snap_dr, snap_dfc, ginv, eta_d, n_uns), *stats,
                         soc_s, flow_s)

@@ -41,7 +41,10 @@ class SocResult:
     self_discharge_wh : the self-discharge part of ``losses_wh`` (Wh).
     delta_stored_wh : stored energy at the end minus at the start (Wh).
     curtailed_wh : surplus charging energy the battery did not accept (Wh).
-    charge_blocked_hours : hours with surplus power while charging was blocked by cold.
+    charge_blocked_hours : hours with surplus power while charging was blocked, by cold
+        or heat (the sum of the next two).
+    charge_blocked_cold_hours : of those, hours below the minimum charge temperature.
+    charge_blocked_hot_hours : of those, hours above the maximum charge temperature.
     unserved_wh_by_month : unserved load per calendar month, shape ``(n_lanes, 12)`` (Wh);
         for a run that is not 8,760 hours long, everything is put in column 0.
     series_lanes : lane indices whose hourly series are kept, shape ``(k,)``.
@@ -67,6 +70,8 @@ class SocResult:
     curtailed_wh: np.ndarray
     charge_blocked_hours: np.ndarray
     unserved_wh_by_month: np.ndarray
+    charge_blocked_cold_hours: np.ndarray
+    charge_blocked_hot_hours: np.ndarray
     series_lanes: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.intp))
     soc_frac_series: np.ndarray | None = None
     current_c_rate_series: np.ndarray | None = None
@@ -116,7 +121,7 @@ def monthly_unserved(snap_dr, snap_dfc, inv, eta_d, n_uns) -> np.ndarray:
 
 
 def finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_acc,
-                 sum_dr, sum_sd, n_uns, blocked, sum_surplus_wh, sum_deficit_wh,
+                 sum_dr, sum_sd, n_uns, blocked_cold, blocked_hot, sum_surplus_wh, sum_deficit_wh,
                  unserved_by_month, mean_soc, min_soc, max_c_rate, longest_days,
                  soc_series, c_rate_series) -> SocChunk:
     """Turn the chunk's accumulators into per-lane summaries and the kept series."""
@@ -142,8 +147,10 @@ def finish_chunk(start, stop, keep, n_hours, cap, eta_c, eta_d, e, e_start, sum_
         self_discharge_wh=sum_sd,
         delta_stored_wh=e - e_start,
         curtailed_wh=curtailed,
-        charge_blocked_hours=blocked,
+        charge_blocked_hours=blocked_cold + blocked_hot,
         unserved_wh_by_month=unserved_by_month,
+        charge_blocked_cold_hours=blocked_cold,
+        charge_blocked_hot_hours=blocked_hot,
         n_hours=n_hours,
     )
     if keep is None:

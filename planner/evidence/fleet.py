@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.designs.candidates import Outcome, SiteDesigns, max_service_years, worn_out_soh_frac
+from planner.designs.candidates import Outcome, SiteDesigns
 from planner.evidence.hierarchy import (
     D_GRID,
     G_GRID,
@@ -125,23 +125,30 @@ class FleetEvidence:
 
 
 def curve_of(outcome: Outcome) -> PackCurve:
-    """The laws' prediction for the pack in service of ``outcome``."""
+    """The laws' prediction for the pack in service of ``outcome``.
+
+    Its end-of-life state of health is the outcome's (the site's requirement, the
+    worn-out floor, the knee floor); it rises with a growing load (the requirement's share
+    of rated capacity times ``(1 + g)^(t - lag)``, :mod:`planner.designs.load_growth`) and
+    with the capacity cell imbalance strands each year (:mod:`planner.pack.components`),
+    neither of which a fade factor scales. The service limit is the outcome's
+    (components and the study's ceiling), counted from installation.
+    """
     d = outcome.design
     cal = np.asarray(outcome.install_calendar_loss_frac, dtype=float)
     age = float(d.existing_age_years or 0.0)
-    threshold = None
+    years = np.arange(cal.size) / 12.0
+    threshold = np.full(cal.size, float(outcome.eol_soh_frac))
     if outcome.requirement_growth is not None:
-        # the load grows: the requirement's share of rated capacity rises as (1 + g)^(t - lag)
-        # from ``lag`` years after the study start (planner.designs.load_growth)
         share, growth, lag = outcome.requirement_growth
-        years_from_now = np.arange(cal.size) / 12.0 - age
-        threshold = np.maximum(worn_out_soh_frac(d.chemistry),
-                               share * np.maximum(1.0, (1.0 + growth) ** (years_from_now - lag)))
+        threshold = np.maximum(threshold, share * np.maximum(1.0, (1.0 + growth) ** (years - age - lag)))
+    threshold = threshold + float(outcome.imbalance_frac_per_year) * years
+    rising = outcome.requirement_growth is not None or outcome.imbalance_frac_per_year > 0.0
     return PackCurve(
         calendar_loss_frac=cal, cycle_loss_frac=np.asarray(outcome.install_cycle_loss_frac, dtype=float),
         age_years=age, eol_soh_frac=float(outcome.eol_soh_frac),
-        service_limit_years=max_service_years(d.chemistry, d.service_life_years),
-        eol_soh_by_month=threshold)
+        service_limit_years=float(outcome.service_limit_years) + age,
+        eol_soh_by_month=threshold if rising else None)
 
 
 def packs_in_service(study, designs: list[SiteDesigns]) -> list[tuple[int, Outcome]]:

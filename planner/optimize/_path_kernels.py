@@ -1,5 +1,5 @@
 """Compiled shortest paths over years for the column-generation pricer
-(:meth:`planner.optimize.colgen.Pricer.values`).
+(:meth:`planner.optimize.pricing.Pricer.values`).
 
 :func:`year_sweep` is the pricer's dynamic programme written as plain loops: for every
 year ``t2`` and design pair, the cheapest arc into ``t2`` from any earlier year, then

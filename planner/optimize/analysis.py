@@ -146,6 +146,14 @@ def sensitivity_problems(problem: FleetProblem, *,
     return [
         ("trip cost x0.5", scale_trip_costs(problem, 0.5)),
         ("trip cost x2", scale_trip_costs(problem, 2.0)),
-        ("discount rate -2 points", replace(problem, discount_rate_frac=max(0.0, problem.discount_rate_frac - 0.02))),
+        ("discount rate -2 points", replace(problem, discount_rate_frac=_lower_rate(problem.discount_rate_frac))),
         ("discount rate +2 points", replace(problem, discount_rate_frac=problem.discount_rate_frac + 0.02)),
     ]
+
+
+def _lower_rate(rate: float) -> float:
+    """Two points below ``rate``, not below 0 (nor, for a rate already negative, below the
+    lowest real rate a study may use: planner.economics.MIN_REAL_RATE_FRAC)."""
+    from planner.economics import MIN_REAL_RATE_FRAC
+
+    return max(MIN_REAL_RATE_FRAC if rate < 0.0 else 0.0, rate - 0.02)

@@ -1,189 +1,311 @@
 """Column generation for the fleet plan: site schedules priced per trip group, then an
 integer problem over the generated schedules.
 
-The pricer, the master LP and the trip-year local search live in
-:mod:`planner.optimize.colgen`; this module runs them over the trip groups (one master
-per group, or one over all groups when fleet-wide limits bind them) and reads the plans.
+The master LP and the trip-year local search live in :mod:`planner.optimize.colgen`,
+the pricer in :mod:`planner.optimize.pricing`; this module runs them over the trip
+groups (one master per group, or one over all groups when fleet-wide limits bind them)
+and reads the plans.
 """
 
 from __future__ import annotations
 
 import math
 import time
-from dataclasses import replace
+from dataclasses import dataclass, field, replace
+from typing import NamedTuple
 
 import numpy as np
 
 from planner import economics as ec
 from planner.optimize.colgen import (
-    Pricer,
+    MasterResult,
     column_coefficients,
     generate_columns,
     group_costs,
     polish_trip_years,
 )
 from planner.optimize.path_model import fleet_limit_texts
-from planner.optimize.problem import Unserved
-from planner.optimize.schedule import build_graphs
-from planner.optimize.solver import gap, solve_milp
-from planner.optimize.trip_plans import plans_and_trips, trip_groups
+from planner.optimize.pricing import Column, Pricer
+from planner.optimize.problem import MethodAnswer, SitePlan, Trip, Unserved
+from planner.optimize.schedule import SiteGraphs, build_graphs
+from planner.optimize.solver import SolveReport, gap, solve_milp
+from planner.optimize.trip_plans import TripGroup, plans_and_trips, trip_groups
+
+JOINT_MASTER = "column generation with one master over all trip groups and the fleet-wide rows"
 
 
-def solve_columns(problem, served, cands, deadline):
+class PlansAndTrips(NamedTuple):
+    """Site plans and trips read from chosen paths, group after group."""
+
+    plans: list[SitePlan]
+    trips: list[Trip]
+
+
+@dataclass(frozen=True)
+class _Block:
+    """Trip groups solved together: the time graphs of their sites and their trips."""
+
+    groups: list[TripGroup]
+    graphs: SiteGraphs
+    site_group: np.ndarray  # block-local trip group of each site of ``graphs``
+    trip_cost: np.ndarray  # one trip of each group
+    is_open: np.ndarray  # False for groups that never travel (sites needing no visit)
+
+
+class _WeakGroup(NamedTuple):
+    """A trip group the integer step left above the gap, with its trip years."""
+
+    group: TripGroup
+    trip_years: np.ndarray
+
+
+@dataclass
+class _Tally:
+    """What the blocks solved so far add up to (filled block by block)."""
+
+    status: str = "optimal"
+    bound: float = 0.0
+    plans: list[SitePlan] = field(default_factory=list)
+    trips: list[Trip] = field(default_factory=list)
+    build_seconds: float = 0.0
+    rounds: int = 0
+    n_cols: int = 0
+    converged: bool = True
+    stops: set[str] = field(default_factory=set)  # why pricing stopped early in some block
+    weak: list[_WeakGroup] = field(default_factory=list)
+    lost: list[Unserved] = field(default_factory=list)
+    rounded: int = 0  # blocks settled by the rounded LP trip years
+
+    def count_pricing(self, mr: MasterResult) -> None:
+        self.rounds = max(self.rounds, mr.iterations)
+        self.n_cols += len(mr.columns)
+        self.converged &= mr.converged
+        if not mr.converged:
+            self.stops.add(mr.stop)
+
+    def add(self, found: PlansAndTrips) -> None:
+        self.plans += found.plans
+        self.trips += found.trips
+
+
+def _fleet_rows(problem) -> bool:
+    """Crew or budget limits: rows that bind every trip group together."""
+    return problem.crew_site_visits_per_year is not None or problem.annual_budget is not None
+
+
+def _side_rows(problem) -> bool:
+    """Rows beside the visit rows (fleet-wide or payload): a site's cheapest path given
+    the trip years is then not necessarily its best schedule."""
+    return _fleet_rows(problem) or problem.payload_kg_per_trip is not None
+
+
+def solve_columns(problem, served, cands, deadline) -> MethodAnswer:
     """Column generation, then integer problems over the generated schedules.
 
     Without fleet-wide limits every trip group has its own master LP and integer step
     (many small LPs re-solved warm are cheaper than one block-diagonal LP: measured
     0.4 s against 0.8 s per pricing round for 300 sites). With crew or budget limits
     one master holds every group and the fleet-wide rows, so their prices reach every
-    site. Returns ``(status, bound, plans, trips, decomposition, binding, build_seconds)``.
+    site.
     """
-    h = int(problem.horizon_years)
-    rate = float(problem.discount_rate_frac)
-    crew, budget = problem.crew_site_visits_per_year, problem.annual_budget
-    fleet_rows = crew is not None or budget is not None
-    side = fleet_rows or problem.payload_kg_per_trip is not None
-    tg = trip_groups(served)
-    blocks = [list(range(len(tg)))] if fleet_rows else [[k] for k in range(len(tg))]
-    status = "optimal"
-    bound = 0.0
-    plans, trips = [], []
-    build_seconds = 0.0
-    rounds = n_cols = 0
-    converged = True
-    stops = set()  # why pricing stopped early in some block
-    weak = []
-    lost = []
-    rounded = 0
+    groups = trip_groups(served)
+    blocks = [groups] if _fleet_rows(problem) else [[g] for g in groups]
+    tally = _Tally()
     # Each block is solved to the end (columns, then its integer step) before the next is
     # built, so memory holds one block's time graph, columns and integer matrix at a time
     # (a 10,000-site fleet has some 250 trip groups of about 10 MB each).
-    for bi, block in enumerate(blocks):
+    for bi, block_groups in enumerate(blocks):
+        blocks_left = len(blocks) - bi
         t_build = time.perf_counter()
-        sites = [served[i] for k in block for i in tg[k][2]]
-        site_group = np.concatenate([np.full(len(tg[k][2]), j) for j, k in enumerate(block)]).astype(np.int64)
-        gr = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
-                          residual_value=problem.residual_value, design_changes=problem.design_changes)
-        trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in block])
-        is_open = np.array([tg[k][1] != 0 for k in block], dtype=bool)
-        build_seconds += time.perf_counter() - t_build
-        # column generation may use 80 % of the time left (its bound is what proves the
-        # gap; the integer step is often a rounding), less a reserve for each block still
-        # to come: an even share per block (0.19 s at 10,000 sites and a 60 s limit, the
-        # 0.5 s floor) stopped pricing in some groups and made the plan depend on the
-        # machine's speed, although the whole solve ended well within the limit
-        share = _time_share(0.8 * (deadline - time.perf_counter()), len(blocks) - bi, 0.5)
-        mr = generate_columns(gr, site_group, trip_cost, is_open, rate=rate,
-                              payload_kg=problem.payload_kg_per_trip, crew=crew, budget=budget,
-                              time_limit_s=share, bound_gap_frac=0.2 * problem.gap_rel_frac)
-        rounds = max(rounds, mr.iterations)
-        n_cols += len(mr.columns)
-        converged &= mr.converged
-        if not mr.converged:
-            stops.add(mr.stop)
+        block = _build_block(problem, served, cands, block_groups)
+        tally.build_seconds += time.perf_counter() - t_build
+        mr = _price_block(problem, block, deadline, blocks_left)
+        tally.count_pricing(mr)
         if mr.infeasible:
-            # phase 1 proved that no LP solution, so no plan, meets the fleet-wide rows
-            text = (f"column generation with one master over all trip groups and the fleet-wide rows: "
-                    f"phase 1 proves after {mr.iterations} pricing round(s) that the fleet-wide limits "
-                    f"cannot be met, even in the LP relaxation")
-            return ("infeasible", float("nan"), [], [], text,
-                    _diagnose(problem, gr, site_group, trip_cost, is_open, deadline), build_seconds)
-        bound += mr.lower_bound
-        # integer step per block (measured: one block-diagonal model over 14 groups took
-        # 24 s in HiGHS against 5 s for the 14 models one by one)
-        cols = mr.columns
-        if not side and mr.y_lp is not None:
-            # the master LP's trip years, rounded, often prove the gap already: then no MIP
-            y = (mr.y_lp > 0.5).astype(float)
-            cost = group_costs(Pricer(gr), site_group, y, trip_cost, rate)
-            if np.all(np.isfinite(cost)) and gap(float(cost.sum()), mr.lower_bound) <= problem.gap_rel_frac:
-                allowed = y[site_group[gr.arc_site], gr.arc_t1] > 0.5
-                _, chosen = Pricer(gr).price(np.where(allowed, 0.0, np.inf), np.zeros(gr.ex_cost.size), per_site=1)
-                for j, k in enumerate(block):
-                    mine = [c for c in chosen if site_group[c.site] == j]
-                    p, t = plans_and_trips(gr, [c.site for c in mine], [(c.pair, c.years, c.arcs, c.ex) for c in mine],
-                                            y[j], tg[k][0], tg[k][1], float(trip_cost[j]), rate)
-                    plans += p
-                    trips += t
-                rounded += 1
-                continue
-        m = _column_matrix(gr, cols, np.arange(len(sites)), site_group, np.arange(len(block)),
-                           trip_cost, is_open, problem)
-        rep = solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
-                         solver=problem.solver,
-                         time_limit_s=_time_share(deadline - time.perf_counter(), len(blocks) - bi, 1.0),
-                         gap_rel_frac=problem.gap_rel_frac)
-        build_seconds += rep.build_seconds
-        if rep.values is None and rep.status == "infeasible" and fleet_rows and mr.lp_feasible:
-            # the LP relaxation meets the fleet-wide rows but no integer choice among the
-            # generated schedules does: not a proof (price-and-branch prices at the root only)
-            limits = " and the ".join(text for _, text in fleet_limit_texts(problem))
-            text = (f"column generation with one master over all trip groups and the fleet-wide rows: "
-                    f"{len(cols)} schedules, {mr.iterations} pricing round(s); the integer problem over "
-                    f"them is infeasible")
-            return ("infeasible", float("nan"), [], [], text,
-                    [f"no plan over the generated schedules meets the {limits} (the LP relaxation does; "
-                     f"method 'path' decides it exactly)"], build_seconds)
-        if rep.values is None:
-            # no integer plan in time for this block: its sites are reported, not dropped
-            lost += [Unserved(s.site_id, f"site {s.site_id}: no plan found for trip group {tg[k][0]} "
-                              f"within the time limit", "time_limit") for k in block for s in
-                     (served[i] for i in tg[k][2])]
-            status = "infeasible"
-            bound = float("nan")
-            continue
-        if rep.status == "feasible" and status == "optimal":
-            status = "feasible"
-        xv = rep.values
-        y = np.rint(xv[len(cols):]).reshape(len(block), h)
-        if side:
-            chosen = [cols[j] for j in np.nonzero(xv[:len(cols)] > 0.5)[0]]
-        else:
-            # trips fixed: every site takes its exact cheapest path over its group's trip
-            # years in its full time graph (never worse than the columns the MIP saw)
-            allowed = y[site_group[gr.arc_site], gr.arc_t1] > 0.5
-            _, chosen = Pricer(gr).price(np.where(allowed, 0.0, np.inf), np.zeros(gr.ex_cost.size), per_site=1)
-        group_plans = []
-        for j, k in enumerate(block):
-            mine = [c for c in chosen if site_group[c.site] == j]
-            paths = [(c.pair, c.years, c.arcs, c.ex) for c in mine]
-            group_plans.append(plans_and_trips(gr, [c.site for c in mine], paths, y[j], tg[k][0], tg[k][1],
-                                                float(trip_cost[j]), rate))
-        block_cost = sum(p.present_cost for pl, _ in group_plans for p in pl)
-        if not side and gap(block_cost, mr.lower_bound) > problem.gap_rel_frac:
-            weak.append((block[0], y[0], mr.lower_bound))  # improved below by local search
-            continue
-        for p, t in group_plans:
-            plans += p
-            trips += t
-    if weak:
+            return _limits_unmet(problem, block, mr, deadline, tally.build_seconds)
+        tally.bound += mr.lower_bound
+        ended = _settle_block(problem, block, mr, deadline, blocks_left, tally)
+        if ended is not None:
+            return ended
+    if tally.weak:
         # groups the integer step over columns left above the gap: local search on their
         # trip years, all such groups at once
-        ks = [k for k, _, _ in weak]
-        sites = [served[i] for k in ks for i in tg[k][2]]
-        site_group = np.concatenate([np.full(len(tg[k][2]), j) for j, k in enumerate(ks)]).astype(np.int64)
-        gr = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=h, rate=rate,
-                          residual_value=problem.residual_value, design_changes=problem.design_changes)
-        trip_cost = np.array([float(problem.trip_cost_by_region[tg[k][0]]) for k in ks])
-        y = polish_trip_years(gr, site_group, np.array([yk for _, yk, _ in weak]), trip_cost, rate,
-                              deadline=deadline)
-        allowed = y[site_group[gr.arc_site], gr.arc_t1] > 0.5
-        _, chosen = Pricer(gr).price(np.where(allowed, 0.0, np.inf), np.zeros(gr.ex_cost.size), per_site=1)
-        for j, k in enumerate(ks):
-            mine = [c for c in chosen if site_group[c.site] == j]
-            paths = [(c.pair, c.years, c.arcs, c.ex) for c in mine]
-            p, t = plans_and_trips(gr, [c.site for c in mine], paths, y[j], tg[k][0], tg[k][1],
-                                    float(trip_cost[j]), rate)
-            plans += p
-            trips += t
+        tally.add(_polish_weak_groups(problem, served, cands, tally.weak, deadline))
+    return _answer(problem, tally, len(groups))
+
+
+def _build_block(problem, served, cands, groups: list[TripGroup]) -> _Block:
+    """Time graphs of the sites of ``groups`` and each group's trip cost."""
+    sites = [served[i] for g in groups for i in g.members]
+    site_group = np.concatenate([np.full(len(g.members), j) for j, g in enumerate(groups)]).astype(np.int64)
+    graphs = build_graphs(sites, [cands[s.site_id] for s in sites], horizon_years=int(problem.horizon_years),
+                          rate=float(problem.discount_rate_frac), residual_value=problem.residual_value,
+                          design_changes=problem.design_changes)
+    trip_cost = np.array([float(problem.trip_cost_by_region[g.region]) for g in groups])
+    is_open = np.array([g.month != 0 for g in groups], dtype=bool)
+    return _Block(groups, graphs, site_group, trip_cost, is_open)
+
+
+def _price_block(problem, block: _Block, deadline: float, blocks_left: int) -> MasterResult:
+    """Column generation over one block within its share of the time left."""
+    # column generation may use 80 % of the time left (its bound is what proves the
+    # gap; the integer step is often a rounding), less a reserve for each block still
+    # to come: an even share per block (0.19 s at 10,000 sites and a 60 s limit, the
+    # 0.5 s floor) stopped pricing in some groups and made the plan depend on the
+    # machine's speed, although the whole solve ended well within the limit
+    share = _time_share(0.8 * (deadline - time.perf_counter()), blocks_left, 0.5)
+    return generate_columns(block.graphs, block.site_group, block.trip_cost, block.is_open,
+                            rate=float(problem.discount_rate_frac), payload_kg=problem.payload_kg_per_trip,
+                            crew=problem.crew_site_visits_per_year, budget=problem.annual_budget,
+                            time_limit_s=share, bound_gap_frac=0.2 * problem.gap_rel_frac)
+
+
+def _settle_block(problem, block: _Block, mr: MasterResult, deadline: float, blocks_left: int,
+                  tally: _Tally) -> MethodAnswer | None:
+    """Plans of one block from its columns, added to ``tally``: the rounded LP trip
+    years when they prove the gap, else an integer problem over the columns. Returns
+    the answer instead when no integer plan over the columns meets the fleet rows."""
+    side = _side_rows(problem)
+    if not side and mr.y_lp is not None:
+        found = _rounded_lp_plans(problem, block, mr)
+        if found is not None:
+            tally.add(found)
+            tally.rounded += 1
+            return None
+    rep = _solve_integer(problem, block, mr.columns, deadline, blocks_left)
+    tally.build_seconds += rep.build_seconds
+    if rep.values is None and rep.status == "infeasible" and _fleet_rows(problem) and mr.lp_feasible:
+        return _integer_infeasible(problem, mr, tally.build_seconds)
+    if rep.values is None:
+        # no integer plan in time for this block: its sites are reported, not dropped
+        region = [g.region for g in block.groups]
+        tally.lost += [Unserved(s.site_id, f"site {s.site_id}: no plan found for trip group {region[j]} "
+                                f"within the time limit", "time_limit")
+                       for s, j in zip(block.graphs.sites, block.site_group)]
+        tally.status = "infeasible"
+        tally.bound = float("nan")
+        return None
+    if rep.status == "feasible" and tally.status == "optimal":
+        tally.status = "feasible"
+    y, found = _integer_plans(problem, block, mr.columns, rep.values, side)
+    if not side and gap(sum(p.present_cost for p in found.plans), mr.lower_bound) > problem.gap_rel_frac:
+        tally.weak.append(_WeakGroup(block.groups[0], y[0]))  # improved by local search
+        return None
+    tally.add(found)
+    return None
+
+
+def _rounded_lp_plans(problem, block: _Block, mr: MasterResult) -> PlansAndTrips | None:
+    """The master LP's trip years, rounded, often prove the gap already: then the plans
+    they give, with no integer problem; None when they do not."""
+    rate = float(problem.discount_rate_frac)
+    y = (mr.y_lp > 0.5).astype(float)
+    pricer = Pricer(block.graphs)
+    cost = group_costs(pricer, block.site_group, y, block.trip_cost, rate)
+    if not (np.all(np.isfinite(cost)) and gap(float(cost.sum()), mr.lower_bound) <= problem.gap_rel_frac):
+        return None
+    return _plans_for_trip_years(block, y, rate, pricer)
+
+
+def _solve_integer(problem, block: _Block, cols: list[Column], deadline: float,
+                   blocks_left: int) -> SolveReport:
+    """Integer problem over one block's columns (measured: one block-diagonal model over
+    14 groups took 24 s in HiGHS against 5 s for the 14 models one by one)."""
+    m = _column_matrix(block.graphs, cols, np.arange(len(block.graphs.sites)), block.site_group,
+                       np.arange(len(block.groups)), block.trip_cost, block.is_open, problem)
+    return solve_milp(m["c"], m["rows"], m["cols"], m["vals"], m["lo"], m["hi"], m["col_ub"], m["integer"],
+                      solver=problem.solver,
+                      time_limit_s=_time_share(deadline - time.perf_counter(), blocks_left, 1.0),
+                      gap_rel_frac=problem.gap_rel_frac)
+
+
+def _integer_plans(problem, block: _Block, cols: list[Column], values: np.ndarray,
+                   side: bool) -> tuple[np.ndarray, PlansAndTrips]:
+    """Trip years (groups x years) and plans of an integer solution over the columns."""
+    rate = float(problem.discount_rate_frac)
+    y = np.rint(values[len(cols):]).reshape(len(block.groups), int(problem.horizon_years))
+    if side:
+        chosen = [cols[j] for j in np.nonzero(values[:len(cols)] > 0.5)[0]]
+        return y, _read_plans(block, chosen, y, rate)
+    # trips fixed: every site takes its exact cheapest path over its group's trip
+    # years in its full time graph (never worse than the columns the MIP saw)
+    return y, _plans_for_trip_years(block, y, rate)
+
+
+def _plans_for_trip_years(block: _Block, y: np.ndarray, rate: float,
+                          pricer: Pricer | None = None) -> PlansAndTrips:
+    """Plans and trips once the trip years ``y`` (groups x years) are fixed: every site
+    takes its cheapest path that visits only in its group's trip years."""
+    gr = block.graphs
+    allowed = y[block.site_group[gr.arc_site], gr.arc_t1] > 0.5
+    _, chosen = (pricer or Pricer(gr)).price(np.where(allowed, 0.0, np.inf), np.zeros(gr.ex_cost.size),
+                                              per_site=1)
+    return _read_plans(block, chosen, y, rate)
+
+
+def _read_plans(block: _Block, chosen: list[Column], y: np.ndarray, rate: float) -> PlansAndTrips:
+    """Site plans and trips of each group of the block from the chosen columns."""
+    plans, trips = [], []
+    for j, g in enumerate(block.groups):
+        mine = [c for c in chosen if block.site_group[c.site] == j]
+        p, t = plans_and_trips(block.graphs, [c.site for c in mine], [(c.pair, c.years, c.arcs, c.ex) for c in mine],
+                               y[j], g.region, g.month, float(block.trip_cost[j]), rate)
+        plans += p
+        trips += t
+    return PlansAndTrips(plans, trips)
+
+
+def _polish_weak_groups(problem, served, cands, weak: list[_WeakGroup], deadline: float) -> PlansAndTrips:
+    """Local search on the trip years of the groups left above the gap, then their plans."""
+    rate = float(problem.discount_rate_frac)
+    block = _build_block(problem, served, cands, [w.group for w in weak])
+    y = polish_trip_years(block.graphs, block.site_group, np.array([w.trip_years for w in weak]),
+                          block.trip_cost, rate, deadline=deadline)
+    return _plans_for_trip_years(block, y, rate)
+
+
+def _limits_unmet(problem, block: _Block, mr: MasterResult, deadline: float,
+                  build_seconds: float) -> MethodAnswer:
+    """Phase 1 proved that no LP solution, so no plan, meets the fleet-wide rows."""
+    text = (f"{JOINT_MASTER}: phase 1 proves after {mr.iterations} pricing round(s) that the fleet-wide "
+            f"limits cannot be met, even in the LP relaxation")
+    binding = _diagnose(problem, block.graphs, block.site_group, block.trip_cost, block.is_open, deadline)
+    return _columns_answer("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
+
+
+def _integer_infeasible(problem, mr: MasterResult, build_seconds: float) -> MethodAnswer:
+    """The LP relaxation meets the fleet-wide rows but no integer choice among the
+    generated schedules does: not a proof (price-and-branch prices at the root only)."""
+    limits = " and the ".join(text for _, text in fleet_limit_texts(problem))
+    text = (f"{JOINT_MASTER}: {len(mr.columns)} schedules, {mr.iterations} pricing round(s); the integer "
+            f"problem over them is infeasible")
+    binding = [f"no plan over the generated schedules meets the {limits} (the LP relaxation does; "
+               f"method 'path' decides it exactly)"]
+    return _columns_answer("infeasible", float("nan"), [], [], text, binding, [], build_seconds)
+
+
+def _answer(problem, tally: _Tally, n_groups: int) -> MethodAnswer:
+    """The plans of every block, the bound, and how they were found, in words."""
     how = ("one master and one integer problem over all trip groups with the fleet-wide crew/budget rows"
-           if fleet_rows else f"one master and integer step per trip group ({len(tg)} groups, region x access month)")
-    text = (f"column generation (price-and-branch), {how}: up to {rounds} pricing rounds, {n_cols} schedules, "
-            f"{'converged' if converged else _stopped(stops)}; {rounded} group(s) settled by the "
-            f"rounded LP trip years, the rest by an integer problem; bound = sum of Lagrangian bounds")
-    if status == "optimal" and gap(sum(p.present_cost for p in plans), bound) > problem.gap_rel_frac + 1e-12:
+           if _fleet_rows(problem)
+           else f"one master and integer step per trip group ({n_groups} groups, region x access month)")
+    text = (f"column generation (price-and-branch), {how}: up to {tally.rounds} pricing rounds, "
+            f"{tally.n_cols} schedules, {'converged' if tally.converged else _stopped(tally.stops)}; "
+            f"{tally.rounded} group(s) settled by the rounded LP trip years, the rest by an integer "
+            f"problem; bound = sum of Lagrangian bounds")
+    status = tally.status
+    if status == "optimal" and gap(sum(p.present_cost for p in tally.plans), tally.bound) > problem.gap_rel_frac + 1e-12:
         status = "feasible"  # the integer step over generated columns is not proved within the gap
-    return status, bound, plans, trips, text, lost, build_seconds
+    return _columns_answer(status, tally.bound, tally.plans, tally.trips, text, [], tally.lost,
+                           tally.build_seconds)
+
+
+def _columns_answer(status, bound, plans, trips, text, binding, unserved, build_seconds) -> MethodAnswer:
+    """The answer priced: the plans' cost is the objective, and no bound above it."""
+    objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
+    if math.isfinite(objective) and math.isfinite(bound):
+        bound = min(bound, objective)
+    return MethodAnswer(status, objective, bound, plans, trips, text, binding, unserved, build_seconds)
 
 
 def _stopped(stops) -> str:

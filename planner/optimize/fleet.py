@@ -17,7 +17,13 @@ from planner.errors import InputError
 from planner.optimize.candidates import screen_site, whole_years
 from planner.optimize.column_plan import solve_columns
 from planner.optimize.path_model import solve_paths
-from planner.optimize.problem import FleetProblem, FleetSolution, SiteOptions, Unserved
+from planner.optimize.problem import (
+    FleetProblem,
+    FleetSolution,
+    MethodAnswer,
+    SiteOptions,
+    Unserved,
+)
 from planner.optimize.solver import gap, highs_available, pick_solver
 
 # above this many arcs in the whole fleet, "auto" switches from the full path model to
@@ -110,29 +116,21 @@ def solve_fleet(problem: FleetProblem) -> FleetSolution:
         method = "path"  # the pricing master needs highspy; the path model runs on CBC too
     deadline = t0 + float(problem.time_limit_s)
     if method == "columns" and served:
-        status, bound, plans, trips, decomposition, extra, build_seconds = solve_columns(
-            problem, served, cands, deadline)
-        binding = [x for x in extra if isinstance(x, str)]
-        unserved += [x for x in extra if not isinstance(x, str)]
-        objective = float(sum(p.present_cost for p in plans)) if plans else float("nan")
-        if math.isfinite(objective) and math.isfinite(bound):
-            bound = min(bound, objective)
-        return _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved,
-                         binding, decomposition, build_seconds, gap_without_plans=float("nan"))
-
-    status, objective, bound, plans, trips, lost, binding, decomposition, build_seconds = solve_paths(
-        problem, served, cands, deadline)
-    unserved += lost
-    return _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved,
-                     binding, decomposition, build_seconds,
-                     gap_without_plans=0.0 if not unserved else float("nan"))
+        found = solve_columns(problem, served, cands, deadline)
+        gap_without_plans = float("nan")
+    else:
+        found = solve_paths(problem, served, cands, deadline)
+        gap_without_plans = 0.0 if not (unserved or found.unserved) else float("nan")
+    return _solution(problem, t0, solver_name, found, unserved + found.unserved,
+                     gap_without_plans=gap_without_plans)
 
 
-def _solution(problem, t0, solver_name, status, objective, bound, plans, trips, unserved, binding,
-              decomposition, build_seconds, *, gap_without_plans) -> FleetSolution:
+def _solution(problem, t0, solver_name, found: MethodAnswer, unserved, *,
+              gap_without_plans) -> FleetSolution:
     """The answer of either method: fleet-wide gap status, unserved sites make it
     infeasible, trips and plans in a stable order."""
-    status = _within_gap(status, objective, bound, problem.gap_rel_frac)
+    objective, bound, plans, trips = found.objective, found.bound, found.plans, found.trips
+    status = _within_gap(found.status, objective, bound, problem.gap_rel_frac)
     if unserved:
         status = "infeasible"
     trips.sort(key=lambda t: (t.year, t.region, t.month))
@@ -141,8 +139,9 @@ def _solution(problem, t0, solver_name, status, objective, bound, plans, trips, 
     return FleetSolution(status=status, objective=objective, best_bound=bound,
                          gap_frac=gap(objective, bound) if plans else gap_without_plans,
                          solver_name=solver_name, seconds=time.perf_counter() - t0,
-                         decomposition=decomposition, sites=plans, trips=trips, unserved=unserved,
-                         binding_limits=binding, build_seconds=build_seconds)
+                         decomposition=found.decomposition, sites=plans, trips=trips,
+                         unserved=unserved, binding_limits=found.binding,
+                         build_seconds=found.build_seconds)
 
 
 def _within_gap(status: str, objective: float, bound: float, gap_rel_frac: float) -> str:

@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner import economics as ec
-from planner.optimize.problem import FleetProblem, Unserved
+from planner.optimize.problem import FleetProblem, MethodAnswer, Unserved
 from planner.optimize.schedule import SiteGraphs, build_graphs, trace_paths
 from planner.optimize.solver import solve_milp
 from planner.optimize.trip_plans import annual_spend, plans_and_trips, trip_groups
@@ -46,12 +46,11 @@ class _Group:
     graphs: SiteGraphs
 
 
-def solve_paths(problem: FleetProblem, served, cands, deadline: float):
+def solve_paths(problem: FleetProblem, served, cands, deadline: float) -> MethodAnswer:
     """The path model, one model per trip group, and one joint model when their combined
     plan breaks a fleet-wide limit.
 
-    Returns ``(status, objective, bound, plans, trips, lost, binding, decomposition,
-    build_seconds)``; ``lost`` lists the sites of groups left without a plan in time.
+    Sites of groups left without a plan in time are the answer's ``unserved``.
     """
     h = int(problem.horizon_years)
     rate = float(problem.discount_rate_frac)
@@ -115,7 +114,8 @@ def solve_paths(problem: FleetProblem, served, cands, deadline: float):
     if plans or not fleet or status != "infeasible":
         objective = float(sum(p.present_cost for p in plans))
         bound = min(bound, objective) if math.isfinite(bound) else bound
-    return status, objective, bound, plans, trips, lost, binding, decomposition, build_seconds
+    return MethodAnswer(status, objective, bound, plans, trips, decomposition, binding, lost,
+                        build_seconds)
 
 
 def _group_matrix(g: _Group, rate: float, payload: float | None, integer_flows: bool):

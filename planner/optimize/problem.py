@@ -263,3 +263,23 @@ class FleetSolution:
             ],
             "binding_limits": list(self.binding_limits),
         }
+
+
+@dataclass(frozen=True)
+class MethodAnswer:
+    """What a solution method (the path model or column generation) gives the fleet solve.
+
+    ``objective`` is the plans' present cost (NaN where a method found no plan to price),
+    ``bound`` the best bound proved; ``binding`` words the fleet-wide limits no plan
+    meets; ``unserved`` holds the sites of trip groups left without a plan in time.
+    """
+
+    status: str
+    objective: float
+    bound: float
+    plans: list
+    trips: list
+    decomposition: str
+    binding: list[str]
+    unserved: list
+    build_seconds: float

@@ -8,6 +8,8 @@ plan spends per year.
 
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numpy as np
 
 from planner import economics as ec
@@ -15,7 +17,16 @@ from planner.optimize.problem import SiteOptions, SitePlan, Trip
 from planner.optimize.schedule import COST_PARTS, SiteGraphs
 
 
-def trip_groups(sites: list[SiteOptions]) -> list[tuple[str, int, list[int]]]:
+class TripGroup(NamedTuple):
+    """Sites of one region that one trip a year can serve: ``members`` index the site
+    list given to :func:`trip_groups`; ``month`` is 0 for sites that need no visit."""
+
+    region: str
+    month: int
+    members: list[int]
+
+
+def trip_groups(sites: list[SiteOptions]) -> list[TripGroup]:
     """Split each region's sites into trip groups that can travel in one month.
 
     Greedy: the month open to most of the region's remaining sites (earliest on ties)
@@ -33,10 +44,10 @@ def trip_groups(sites: list[SiteOptions]) -> list[tuple[str, int, list[int]]]:
                 counts[sorted(set(int(m) for m in sites[i].access_months))] += 1
             month = int(np.argmax(counts))
             members = [i for i in left if month in sites[i].access_months]
-            out.append((region, month, members))
+            out.append(TripGroup(region, month, members))
             left = [i for i in left if month not in sites[i].access_months]
         if no_visit:
-            out.append((region, 0, no_visit))
+            out.append(TripGroup(region, 0, no_visit))
     return out
 
 

@@ -164,7 +164,7 @@ PARAMETER_SOURCES = {
         "et al. 2018); pass the site's effective battery temperature"
     ),
     "eol_soh_frac": (
-        "0.8: common practice for reporting life (DESIGN.md); the planner passes the "
+        "0.8: common practice for reporting life; the planner passes the "
         "site's requirement-based threshold"
     ),
     "temperature_profile": (
@@ -549,7 +549,7 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
 
     try:
         z_cal = float(calendar_rate_parts(aging_params.calendar_model, aging_params.calendar, None)[2])
-        z_cyc = float(cycle_exponent(aging_params.cycle_model))
+        z_cyc = float(cycle_exponent(aging_params.cycle_model, aging_params.cycle))
     except (ValueError, KeyError, AttributeError) as err:
         raise InputError(f"aging set: found an unknown law ({err}), expected one of the aging "
                          "engine's calendar and cycle models", source="life") from None

@@ -21,12 +21,15 @@ from planner.designs.candidates import (
     Outcome,
     SiteDesigns,
     max_service_years,
+    ruled_out_by_voltage,
     worn_out_soh_frac,
 )
+from planner.designs.service import SERVICE_CAUSES
 from planner.energy.freezing import lead_acid_freezing_point_c
 from planner.optimize import FleetProblem, FleetSolution
 from planner.pack.structure import PARAMETER_SOURCES as PACK_SOURCES
-from planner.plan.comparison import comparison_rows
+from planner.plan.attention import needs_attention
+from planner.plan.comparison import comparison_rows, cost_groups, fleet_cost
 from planner.plan.costing import pack_price
 from planner.plan.field_evidence import (
     field_assumption_rows,
@@ -92,9 +95,12 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         "replacement_months": list(plan.replacement_months) if plan else [],
         "present_cost": plan.present_cost if plan else None,
         "cost_breakdown": plan.cost.to_dict() if plan else None,
-        "warnings": list(model.warnings),
+        "warnings": list(model.warnings) + [
+            f"{chem} is not offered: {why}"
+            for chem, why in sorted(ruled_out_by_voltage(designs.excluded).items())],
         "thermal_measure": measure,
         "heater_energy_wh_per_year": model.heater_energy_wh_per_year,
+        "site_climate": model.site_climate.to_dict() if model.site_climate else None,
         **risk_before_next_visit(plan, options, horizon),
     }
     if shown is not None:
@@ -104,12 +110,15 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         entry.update({
             "design_id": d.design_id, "chemistry": d.chemistry,
             "oversize_factor": round(d.oversize_factor, 4) if not d.is_existing else None,
+            "oversize_factor_step": d.oversize_step,
             "charge_voltage_v_per_cell": d.charge_voltage_v_per_cell,
             "charge_voltage_v": round(d.charge_voltage_v_per_cell * d.pack.series_cells, 4),
             "capacity_wh": d.pack.capacity_wh, "capacity_ah": d.pack.capacity_ah,
             "pack_structure": d.pack.label, "pack_mass_kg": d.pack.mass_kg,
             "life_years": _finite(shown.life_years), "limiting_cause": shown.limiting_cause,
             "eol_soh_frac": shown.eol_soh_frac,
+            "years_to_report_soh": years_to_soh(shown.soh_monthly,
+                                                study.settings["study"]["report_soh_frac"]),
             "life_p10_years": _finite(shown.life_p10_years),
             "life_p50_years": _finite(shown.life_p50_years),
             "life_p90_years": _finite(shown.life_p90_years),
@@ -117,6 +126,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             "equivalent_full_cycles_per_year": shown.efc_per_year,
             "mean_soc_frac": shown.mean_soc_frac,
             "charge_blocked_hours_per_year": shown.charge_blocked_hours,
+            "charge_blocked_cold_hours_per_year": shown.charge_blocked_cold_hours,
+            "charge_blocked_hot_hours_per_year": shown.charge_blocked_hot_hours,
             "reference_capacity_wh": reference.capacity_wh if reference else None,
             "reference_factors": _reference_factors(reference, model),
             "chemistry_name": chem.name,
@@ -135,6 +146,11 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             entry["soh_p90_by_month"] = sawtooth(horizon, replacements,
                                                  [o.soh_p90_monthly for o in installed], existing_curve)
         notes = _extrapolation(model, shown)
+        entry["life_knee_floor"] = bool(shown.knee_floor)
+        if shown.knee_floor:
+            notes.append(f"life ends at {shown.eol_soh_frac:.0%} state of health, the lowest "
+                         "the aging tests behind the laws reached: the knee-free laws are not "
+                         "carried below it")
         entry["life_extrapolated"] = bool(notes)
         entry["life_extrapolation_note"] = "; ".join(notes)
         entry["warnings"] += _design_warnings(model, shown)
@@ -146,6 +162,7 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
+            "pack_mass_kg": existing.design.pack.mass_kg,
             "remaining_life_years": _finite(remaining),
             "remaining_life_years_predicted": _finite(existing.life_years)}
     entry["field_evidence"] = site_field_evidence(evidence, site.id, study.settings["study"]["start_year"])
@@ -155,9 +172,48 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
         # The source, not the pack, limits this site: say it first, with the two numbers.
         entry["warnings"].insert(0, shortfall.warning())
         entry["limiting_cause"] = shortfall.cause()
+    entry.update(_life_limit(shown, entry.get("limiting_cause"), shortfall is not None))
     entry["alternatives"] = _alternatives(study, site.id, designs, by_chemistry,
                                           candidate.chemistry if candidate else None, existing)
     return entry
+
+
+#: Limiting causes that are cell fade (planner.designs.evaluation._cause).
+_FADE_CAUSES = ("calendar", "cycling", "calendar (cold derating)", "cycling (cold derating)",
+                "none within the horizon")
+
+
+def _life_limit(shown: Outcome | None, cause: str | None, source_limited: bool) -> dict:
+    """What ends the pack in service first at a site, for the plan's readers:
+    ``life_limited_by`` (the limiting cause in words), ``life_limit_kind`` ("cell fade",
+    "component", "ceiling", "energy", "size" or "charging source"), the component lives
+    and the service limit they and the ceiling set."""
+    if shown is None:
+        return {}
+    if source_limited:
+        kind = "charging source"
+    elif cause == "service-life limit":
+        kind = "ceiling"
+    elif cause in SERVICE_CAUSES:
+        kind = "component"
+    elif cause in _FADE_CAUSES:
+        kind = "cell fade"
+    elif cause in ("energy drawn", "self-discharge"):
+        kind = "energy"
+    else:
+        kind = "size"
+    words = {"calendar": "cell fade (calendar)", "cycling": "cell fade (cycling)",
+             "service-life limit": "service-life ceiling ([service_life])"}
+    # the charging source's cause carries its own figures: one name for the counts
+    name = "charging source too small" if source_limited else words.get(cause, cause)
+    if kind == "cell fade" and shown.knee_floor:
+        name += " to the knee floor"
+    return {"life_limited_by": name, "life_limit_kind": kind,
+            "component_lives_years": {_component_id(k): _finite(v)
+                                      for k, v in sorted(shown.component_lives.items())},
+            "service_limit_years": _finite(shown.service_limit_years),
+            "imbalance_loss_frac_per_year": shown.imbalance_frac_per_year,
+            "condensation_class": shown.condensation}
 
 
 def _replacements(designs: SiteDesigns, plan) -> list[dict]:
@@ -169,6 +225,8 @@ def _replacements(designs: SiteDesigns, plan) -> list[dict]:
         out.append({
             "year": int(year), "month": int(month), "design_id": c.design_id, "chemistry": c.chemistry,
             "oversize_factor": c.oversize_factor, "capacity_wh": c.capacity_wh,
+            "oversize_factor_step": outcome.design.oversize_step if outcome else None,
+            "pack_structure": outcome.design.pack.label if outcome else None,
             "charge_voltage_v_per_cell": c.charge_voltage_v_per_cell,
             "charge_voltage_v": round(c.charge_voltage_v_per_cell * cells, 4) if cells else None,
             "pack_mass_kg": c.mass_kg, "life_years": _finite(c.life_years),
@@ -222,9 +280,13 @@ def _design_warnings(model: SiteModel, outcome: Outcome) -> list[str]:
     if outcome.unserved_wh_per_year > 0:
         out.append(f"{outcome.unserved_wh_per_year:.0f} Wh of load a year not served with this "
                    "pack: the charging source is too small for the site's darkest or coldest weeks")
-    if outcome.charge_blocked_hours > 0 and chem.rechargeable:
-        out.append(f"charging blocked by cold for {outcome.charge_blocked_hours:.0f} h a year "
+    if outcome.charge_blocked_cold_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by cold for {outcome.charge_blocked_cold_hours:.0f} h a year "
                    f"(below {chem.charge_temp_min_c:g} °C); a battery heater would recover it")
+    if outcome.charge_blocked_hot_hours > 0 and chem.rechargeable:
+        out.append(f"charging blocked by heat for {outcome.charge_blocked_hot_hours:.0f} h a year "
+                   f"(above {chem.charge_temp_max_c:g} °C, the battery management system's stop); "
+                   "shade, a vault or a lighter enclosure would recover it")
     if d.chemistry == "vrla":
         lowest_soc = 1.0 - chem.max_dod_frac
         freezing = float(lead_acid_freezing_point_c(lowest_soc))
@@ -247,6 +309,18 @@ def _extrapolation(model: SiteModel, outcome: Outcome) -> list[str]:
 
 def _finite(value):
     return float(value) if value is not None and math.isfinite(value) else None
+
+
+def years_to_soh(soh_monthly, soh_frac: float) -> float | None:
+    """Years from installation until a monthly SOH curve first falls below ``soh_frac``
+    (None when it stays above it over the curve).
+
+    >>> years_to_soh([1.0, 0.95, 0.9, 0.85, 0.79], 0.8)
+    0.3333333333333333
+    """
+    curve = np.asarray(soh_monthly if soh_monthly is not None else [], dtype=float)
+    below = np.flatnonzero(curve < soh_frac)
+    return float(below[0]) / 12.0 if below.size else None
 
 
 def _assumptions(study: Study) -> list[dict]:
@@ -315,15 +389,23 @@ def _design_rule_rows(study: Study) -> list[dict]:
         rows.append({"group": "design rules", "name": f"worn-out SOH {chem_id}",
                      "value": worn_out_soh_frac(chem_id), "unit": "fraction",
                      "source": "IEEE 450 / IEEE 1188 80 % replacement criterion for lead-acid "
-                               "(from memory); lithium-ion knee near 70-80 % (common practice)"})
+                               "(from memory); lithium-ion: no lower than the lowest state of "
+                               "health the tests behind the aging set reached (a knee typically "
+                               "lies between 80 and 70 %, Attia et al. 2022, J. Electrochem. Soc. "
+                               "169, 060517)"})
         rows.append({"group": "design rules", "name": f"cell sizes {chem_id}",
                      "value": _plain(CELL_LADDER_AH.get(chem_id, ())), "unit": "Ah",
                      "source": "catalogue ladders of cells and monoblocs (common practice)"})
         override = study.settings.get("service_life", {}).get(chem_id)
-        rows.append({"group": "design rules", "name": f"service-life limit {chem_id}",
-                     "value": max_service_years(chem_id, override), "unit": "years",
-                     "source": "study file [service_life]" if override is not None
-                     else get_chemistry(chem_id).sources["service_life_years"]})
+        if override is not None:
+            rows.append({"group": "design rules", "name": f"service-life ceiling {chem_id}",
+                         "value": max_service_years(chem_id, override), "unit": "years",
+                         "source": "study file [service_life]"})
+        chem = get_chemistry(chem_id)
+        for key, value in chem.components.items():
+            rows.append({"group": "component lives", "name": f"{chem_id} {key}", "value": value,
+                         "unit": _component_unit(key),
+                         "source": chem.sources[f"components.{key}"]})
     rows.append({"group": "design rules", "name": "primary cells up to", "value":
                  PRIMARY_MAX_DAILY_LOAD_WH, "unit": "Wh/day",
                  "source": "common practice: bobbin Li-SOCl2 packs serve loads up to about 0.1 W"})
@@ -340,6 +422,29 @@ def _chem_value(chem, name):
     if callable(value) or value is None:
         return "table (see chemistries.toml)"
     return value
+
+
+def _component_id(name: str) -> str:
+    """A component's JSON key: its name in snake case ("seals and terminals" ->
+    "seals_and_terminals")."""
+    return name.replace("-", "_").replace(" ", "_")
+
+
+def _component_unit(key: str) -> str:
+    for ending, unit in (("_years", "years"), ("_years_ref", "years"), ("_c", "°C"), ("_k", "K"),
+                         ("_v_per_cell", "V per cell"), ("_per_year_ref", "fraction/year"),
+                         ("_per_month", "fraction/month")):
+        if key.endswith(ending):
+            return unit
+    return "years" if "_years_" in key else ""
+
+
+def _counts(values) -> dict:
+    out: dict[str, int] = {}
+    for value in values:
+        if value:
+            out[value] = out.get(value, 0) + 1
+    return dict(sorted(out.items()))
 
 
 def _plain(value):
@@ -365,26 +470,39 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
              for m, d in zip(models, designs)]
     s = study.settings["study"]
     spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
-    return {
+    visit_cost = {o.site_id: o.site_visit_cost for o in problem.sites}
+    plan = {
         "schema_version": 1,
         "study": {"name": study.name, "currency": s["currency"], "horizon_years": s["horizon_years"],
                   "discount_rate_frac": study.discount_rate_frac, "start_year": s["start_year"],
-                  "inflation_frac": s["inflation_frac"],
+                  "inflation_frac": s["inflation_frac"], "report_soh_frac": s["report_soh_frac"],
+                  "payload_kg_per_trip": study.settings["limits"]["payload_kg_per_trip"] or None,
                   "sites_file": study.sites_path.name, "planner_version": __version__},
-        "total_present_cost": solution.objective,
+        # no site served: there is no plan whose cost could be given (docs/plan-json.md)
+        "total_present_cost": solution.objective if solution.sites else None,
         "solver": {"name": solution.solver_name, "status": solution.status,
                    "gap_frac": solution.gap_frac, "seconds": int(solution.seconds),
                    "objective": solution.objective, "best_bound": solution.best_bound,
                    "decomposition": solution.decomposition},
         "sites": sites,
+        # sites whose life a service limit (a component or the [service_life] ceiling),
+        # not cell fade, decides; and the same split by kind and by what limits life
         "service_life_limited_sites": sum(
-            1 for site in sites if site.get("limiting_cause") == "service-life limit"),
+            1 for site in sites if site.get("life_limit_kind") in ("component", "ceiling")),
+        "component_limited_sites": sum(
+            1 for site in sites if site.get("life_limit_kind") == "component"),
+        "ceiling_limited_sites": sum(
+            1 for site in sites if site.get("life_limit_kind") == "ceiling"),
+        "life_limited_by_counts": [{"life_limited_by": name, "sites": n} for name, n in
+                                   _counts(site.get("life_limited_by") for site in sites).items()],
         "trips": [{"region": t.region, "year": t.year, "month": t.month,
                    "site_ids": list(t.site_ids), "pack_count": t.pack_count,
-                   "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost}
+                   "pack_mass_kg": t.pack_mass_kg, "trip_count": t.count, "cost": t.cost,
+                   "site_visits_cost": sum(visit_cost.get(i, 0.0) for i in t.site_ids)}
                   for t in solution.trips],
         "spending_by_year": spending_by_year(problem, solution, **spend),
         "spending_by_region": spending_by_region(problem, solution, **spend),
+        "cost_groups": cost_groups(fleet_cost(solution)),
         "chemistry_comparison": comparison_rows(solution, comparison),
         "sensitivity": [{"case": c.case, "total_present_cost": c.total_present_cost,
                          "change_frac": c.change_frac, "designs_changed": c.designs_changed,
@@ -396,3 +514,5 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
         "binding_limits": list(solution.binding_limits),
         "field_data": field_data_section(study, evidence, list(test_values), s["horizon_years"]),
     }
+    plan["needs_attention"] = needs_attention(plan)
+    return plan

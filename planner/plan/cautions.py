@@ -192,3 +192,64 @@ def derived_site_warnings(site: dict) -> list[str]:
         if text not in out:
             out.append(text)
     return out
+
+
+@dataclass(frozen=True)
+class WarningKind:
+    """A kind of per-site warning, how to recognise it and what to do about it.
+
+    Attributes
+    ----------
+    title : str
+        The kind in a few words (the Cautions sheet groups warnings by it).
+    action : str
+        What a planner or crew should do.
+    phrases : tuple of str
+        Lower-case phrases of the warnings of this kind (the first kind that matches wins).
+    """
+
+    title: str
+    action: str
+    phrases: tuple[str, ...]
+
+
+#: Kinds of per-site warnings, the ones to act on first. Add a kind here.
+WARNING_KINDS: tuple[WarningKind, ...] = (
+    WarningKind("No design can serve the site",
+                "Change the site (thermal measure, charging source, load): see sheet Needs attention.",
+                ("no design can serve",)),
+    WarningKind("Charging source too small",
+                "Enlarge the charging source or reduce the load; no pack size fixes it.",
+                ("charging source too small",)),
+    WarningKind("Load not served",
+                "A larger charging source for the darkest or coldest weeks, or accept the days off air.",
+                ("of load a year not served",)),
+    WarningKind("Pack in service at the end of its life",
+                "Replace it at the first visit; carry a spare on the first trip.", ("end of its life",)),
+    WarningKind("Lead-acid may freeze",
+                "Keep the pack charged and warm (insulated box or heater), or choose another chemistry.",
+                ("may freeze",)),
+    WarningKind("Charging blocked by cold",
+                "A battery heater or insulated box; lithium-ion must not be charged below its minimum "
+                "charge temperature.", ("charging blocked by cold", "minimum charge temperature")),
+    WarningKind("Battery too hot",
+                "Shade, ventilate or bury the enclosure; check the cell datasheet's limit.",
+                ("battery above", "(p99), above")),
+    WarningKind("Heavy pack",
+                "Split the pack into modules, or plan a team lift or a lifting aid.", ("niosh",)),
+    WarningKind("Battery heater energy",
+                "None: the heater's energy is in the load the pack is sized for.", ("battery heater",)),
+    WarningKind("Life extrapolated",
+                "Check the life against capacity tests or field data before relying on the visit year.",
+                ("extrapolated",)),
+    WarningKind("Other", "Read the warning.", ()),
+)
+
+
+def warning_kind(text: str) -> WarningKind:
+    """The :data:`WARNING_KINDS` entry a per-site warning belongs to ("Other" when none)."""
+    lowered = str(text).lower()
+    for kind in WARNING_KINDS:
+        if any(phrase in lowered for phrase in kind.phrases):
+            return kind
+    return WARNING_KINDS[-1]

@@ -23,7 +23,8 @@ def cost_groups(cost: CostBreakdown) -> dict[str, float]:
             "downtime": cost.downtime, "failure_risk": cost.failure_risk}
 
 
-def _fleet_cost(solution: FleetSolution) -> CostBreakdown:
+def fleet_cost(solution: FleetSolution) -> CostBreakdown:
+    """The cost breakdown of a whole fleet solution (the sum over its sites)."""
     total = CostBreakdown()
     for plan in solution.sites:
         total = total + plan.cost
@@ -68,7 +69,7 @@ def comparison_rows(solution: FleetSolution, comparison) -> list[dict]:
             "total_with_others_present_cost": r.total_with_others_present_cost,
             "status": r.status, "sites_served": r.sites_served, "sites_unserved": unserved,
             "kept_by_other": {i: chem_at[i] for i in unserved if i in chem_at},
-            **cost_groups(_fleet_cost(full)),
+            **cost_groups(fleet_cost(full)),
             "driving_sites": driving_sites(solution, full),
         })
     return rows

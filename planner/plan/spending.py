@@ -9,14 +9,18 @@ money, real rate, end-of-year convention):
 * packs, installation labour, the site-visit part of a trip: the year a pack goes in;
 * trips: each trip's mobilisation the year it is flown;
 * disposal: the year a pack comes out;
-* days off air (``downtime``): the present value, at installation, of a pack's expected
-  days without power over its service, booked the year it goes in (that is how the
-  optimizer prices it); the share beyond the horizon is returned in the end year;
+* days off air (``downtime``): the yearly cost of each pack's expected days without power,
+  in each year of the service the optimizer prices (``min(life, horizon)`` years from
+  installation, end-of-year amounts, so a pack put in at year t pays from row t + 1); the
+  end year also holds the difference between that price (with its linear share beyond the
+  horizon returned, as for pack prices) and the amounts booked up to the horizon, so the
+  present values still add up to the optimizer's total (its pricing is unchanged);
 * failure risk: ``(F(a) - F(a-1)) x`` the cost of one failure in year ``start + a`` of
   each pack's service;
 * residual value: a credit (negative) in the end year ``H`` for the packs still in service;
-* thermal measures: a measure's price and fitting labour, the year the site's first new
-  pack goes in (:func:`thermal_cash_flows`);
+* thermal measures: a measure's price, the year the site's first new pack goes in
+  (:func:`thermal_cash_flows`); its fitting labour is installation labour that year, as the
+  optimizer counts it;
 * each pack at the price of the year it is bought (its chemistry's price trend), and each
   replacement's own pack when the design changes at a replacement.
 
@@ -48,22 +52,52 @@ def _risk_by_year(flows: np.ndarray, start: int, n_years: int, probs, cost: floa
     flows[start + ages] += np.diff(np.concatenate(([0.0], cdf))) * cost
 
 
-def thermal_cash_flows(plan: SitePlan, horizon_years: int) -> np.ndarray:
+def thermal_cash_flows(plan: SitePlan, horizon_years: int, *, labour: bool = True) -> np.ndarray:
     """Money spent on thermal measures (heater, box, shade, vault) by year: the measure
-    of the first new pack, paid once the year it goes in (its energy is in the load)."""
+    of the first new pack, paid once the year it goes in (its energy is in the load).
+    ``labour=False`` leaves out its fitting labour (booked as installation labour)."""
     out = np.zeros(horizon_years + 1)
     if plan.installations and plan.replacement_years:
         first = plan.installations[0]
-        out[int(plan.replacement_years[0])] += first.measure_price + first.measure_labour_cost
+        out[int(plan.replacement_years[0])] += first.measure_price + (
+            first.measure_labour_cost if labour else 0.0)
     return out
 
 
+def _measure_labour(plan: SitePlan, horizon_years: int) -> np.ndarray:
+    return thermal_cash_flows(plan, horizon_years) - thermal_cash_flows(plan, horizon_years, labour=False)
+
+
+def _downtime_by_year(out: np.ndarray, candidate, start: int, horizon_years: int, rate: float) -> None:
+    """Add one pack's days off air to ``out`` in the years they happen (in place).
+
+    The optimizer prices them as ``downtime_cost``, the present value at installation of a
+    uniform yearly cost over ``min(life, horizon)`` years (NIST Handbook 135 UPV): that
+    yearly cost is booked at the end of each service year up to the horizon, the part of a
+    last, fractional year in proportion.
+    """
+    priced = float(candidate.downtime_cost)
+    if priced == 0.0:
+        return
+    years = min(float(candidate.life_years), float(horizon_years))
+    yearly = priced / float(ec.upv(rate, years))
+    whole = int(np.floor(years + 1e-9))
+    last = min(start + whole, horizon_years)
+    out[start + 1:last + 1] += yearly
+    part = years - whole
+    if part > 1e-9 and start + whole + 1 <= horizon_years:
+        # the fractional year's share of the uniform series, paid at the end of that year
+        share = float(ec.upv(rate, years) - ec.upv(rate, whole)) * (1.0 + rate) ** (whole + 1)
+        out[start + whole + 1] += yearly * share
+
+
 def site_cash_flows(plan: SitePlan, site: SiteOptions, *, horizon_years: int,
-                    residual_value: bool = True) -> dict[str, np.ndarray]:
+                    residual_value: bool = True, rate: float = 0.0) -> dict[str, np.ndarray]:
     """Constant money by year (index 0..H) of one site's plan, one array per part.
 
     The site's share of trip mobilisation is not included (see :func:`spending_by_year`,
-    which books each trip once in the year it is flown).
+    which books each trip once in the year it is flown). ``rate`` is the real discount
+    rate the optimizer priced days off air with: they are laid out by year with it.
     """
     h = int(horizon_years)
     out = {k: np.zeros(h + 1) for k in SPENDING_PARTS}
@@ -76,24 +110,30 @@ def site_cash_flows(plan: SitePlan, site: SiteOptions, *, horizon_years: int,
         if years:
             out["disposal"][first] += existing.disposal_cost
         _risk_by_year(out["risk"], 0, first, existing.failure_prob_by_age, fail)
-    out["thermal"] += thermal_cash_flows(plan, h)
+    out["thermal"] += thermal_cash_flows(plan, h, labour=False)
+    out["labour"] += _measure_labour(plan, h)
     if c is None or not years:
         return out
     ends = years[1:] + [h]
     packs = plan.installations or (c,) * len(years)
+    priced_downtime = 0.0  # present value the optimizer priced, to balance in the end year
     for t1, t2, c in zip(years, ends, packs):
         out["packs"][t1] += float(c.pack_cost_in(t1))
         out["labour"][t1] += c.install_cost
         out["trips"][t1] += site.site_visit_cost
-        out["downtime"][t1] += c.downtime_cost
+        _downtime_by_year(out["downtime"], c, t1, h, rate)
+        priced_downtime += c.downtime_cost * float(ec.spv(rate, t1))
         if t2 < h:
             out["disposal"][t2] += c.disposal_cost
         _risk_by_year(out["risk"], t1, t2 - t1, c.failure_prob_by_age, fail)
+    last = packs[-1]
     if residual_value:
-        last = packs[-1]
         left = float(ec.residual_fraction(h - years[-1], last.life_years))
         out["residual"][h] -= float(last.pack_cost_in(years[-1])) * left
-        out["downtime"][h] -= last.downtime_cost * left
+        priced_downtime -= last.downtime_cost * left * float(ec.spv(rate, h))
+    if priced_downtime:
+        booked = float(np.dot(out["downtime"], ec.spv(rate, np.arange(h + 1))))
+        out["downtime"][h] += (priced_downtime - booked) / float(ec.spv(rate, h))
     return out
 
 
@@ -143,7 +183,7 @@ def _part_totals(problem: FleetProblem, solution: FleetSolution, bucket_of) -> d
         if mine is None:
             continue
         flows = site_cash_flows(plan, sites[plan.site_id], horizon_years=h,
-                                residual_value=problem.residual_value)
+                                residual_value=problem.residual_value, rate=problem.discount_rate_frac)
         for k in SPENDING_PARTS:
             mine[k] += flows[k]
     for trip in solution.trips:
@@ -165,6 +205,9 @@ def spending_rows(parts: dict[str, np.ndarray], *, rate: float, start_year: int,
     for y in range(n):
         row = {"year": int(y), "calendar_year": int(start_year) + int(y)}
         row.update({k: float(parts[k][y]) for k in SPENDING_PARTS})
+        # the same expected failure cost under the name cost_breakdown and the chemistry
+        # comparison use (docs/plan-json.md); not a part of its own
+        row["failure_risk"] = row["risk"]
         row.update({"total": float(total[y]), "total_nominal": float(nominal[y]),
                     "present_value": float(present[y])})
         rows.append(row)

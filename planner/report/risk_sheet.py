@@ -11,12 +11,23 @@ from __future__ import annotations
 from openpyxl.styles import Font, PatternFill
 from openpyxl.utils import get_column_letter
 
+from planner.plan.attention import AT_RISK_FRAC
 from planner.report import styles
 from planner.report.cells import cell_value
-from planner.report.tables import Column, field_of, plan_sites, study_start_year, title, write_table
+from planner.report.tables import (
+    PRINT_FIRST_ROWS,
+    Column,
+    field_of,
+    long_table_print_area,
+    plan_sites,
+    study_start_year,
+    title,
+    write_table,
+)
+from planner.report.wording import chemistry_name
 
-#: Sites above this probability are highlighted (the same threshold as planner.plan.visit_risk).
-AT_RISK_FRAC = 0.10
+#: Rows printed below the highlighted ones when the list is long (the next most at risk).
+PRINT_BELOW_HIGHLIGHT = 10
 AT_RISK_FILL = PatternFill("solid", fgColor="F6DDCC")
 AT_RISK_FONT = Font(name=styles.FONT_NAME, bold=True, color="7A2E0E")
 
@@ -39,14 +50,14 @@ def risk_sheet(ws, plan, fmt) -> None:
     cols = [Column("Site id", field_of("id"), width=12),
             Column("Site name", field_of("name")),
             Column("Region", field_of("region"), optional=True),
-            Column("Chemistry", field_of("chemistry"), width=10),
+            Column("Chemistry", lambda s: chemistry_name(s.get("chemistry"), fmt["chemistry_names"]), width=22),
             Column("Risk before the next visit [%]", _risk, styles.PERCENT, width=11),
             Column("Next visit [year]", field_of("next_visit_year"), styles.INTEGER, width=8),
             Column("Next visit [calendar year]",
                    lambda s: start + s["next_visit_year"]
                    if start and isinstance(s.get("next_visit_year"), int) else None,
                    "0", optional=True, width=9),
-            Column(f"Expected failure cost before the visit [{cur}]",
+            Column(f"Expected failure cost before the next visit [{cur}]",
                    field_of("expected_failure_cost_before_next_visit"), money, width=13),
             Column(f"of which days off air [{cur}]",
                    field_of("expected_downtime_cost_before_next_visit"), money, width=12),
@@ -67,3 +78,5 @@ def risk_sheet(ws, plan, fmt) -> None:
     if last > top:
         ws.auto_filter.ref = f"A{top}:{get_column_letter(len(kept))}{last}"
     styles.landscape_fit_width(ws, title_rows=f"{top}:{top}")
+    long_table_print_area(ws, 1, top, last, len(kept), "sites",
+                          first_rows=max(PRINT_FIRST_ROWS, n_at_risk + PRINT_BELOW_HIGHLIGHT))

@@ -28,6 +28,37 @@ YEAR_BORDER = Border(top=Side(style="thin", color="7A8B9C"))
 
 #: Chart series colours: muted, distinguishable, of our own choosing.
 SERIES_COLOURS = ("2F5D8A", "B5651D", "5E8C31", "7B4F9D", "8C8C8C", "A23B3B", "C9A227", "3A8C8C")
+#: One colour per chemistry in every chart (fade lines, bars by chemistry); a chemistry
+#: id not listed takes the next of SERIES_COLOURS.
+CHEMISTRY_COLOURS = {"vrla": "6B4F2F", "lfp": "2F5D8A", "nmc": "A23B3B", "lto": "4F8A2E", "lisocl2": "7B4F9D"}
+#: One colour per cost part in every chart (Spending by year, the Summary's cost groups);
+#: none of them is a chemistry's colour.
+COST_COLOURS = {"packs": "5B7083", "equipment": "5B7083", "labour": "9FB3C8", "trips": "C9A227",
+                "trips_and_labour": "C9A227", "disposal": "7A7A7A", "thermal": "3A8C8C",
+                "downtime": "D98C3F", "risk": "B0B0B0", "failure_risk": "B0B0B0", "residual": "D9D2C3"}
+#: Line of the state of health at which a pack is replaced, in every fade chart.
+REPLACE_AT_COLOUR = "7A7A7A"
+
+
+def chemistry_colour(chemistry, order=()) -> str:
+    """The chart colour of a chemistry id (stable across every chart of a workbook)."""
+    key = str(chemistry or "")
+    if key in CHEMISTRY_COLOURS:
+        return CHEMISTRY_COLOURS[key]
+    others = [c for c in SERIES_COLOURS if c not in CHEMISTRY_COLOURS.values()]
+    index = list(order).index(key) if key in order else sum(map(ord, key))
+    return others[index % len(others)]
+
+#: Crew pages: body text size [pt]; they print at 100 % (no fit-to-page), so this is the
+#: printed size, the 8 pt a printed work instruction should not go below: the smallest
+#: readable size keeps a 1,000-site rollout to about 20 sites a page.
+CREW_FONT_PT = 8
+CREW_FONT = Font(name=FONT_NAME, size=CREW_FONT_PT, color="1F2A36")
+CREW_BOLD = Font(name=FONT_NAME, size=CREW_FONT_PT, bold=True, color="1F2A36")
+CREW_TRIP_FONT = Font(name=FONT_NAME, size=10, bold=True, color="1F2A36")
+CREW_FLAG_FONT = Font(name=FONT_NAME, size=CREW_FONT_PT, bold=True, color="7A2E0E")
+FLAG_FILL = PatternFill("solid", fgColor="F6DDCC")
+TOTAL_BORDER = Border(top=Side(style="thin", color="1F2A36"), bottom=Side(style="double", color="1F2A36"))
 
 INTEGER = "#,##0"
 ONE_DECIMAL = "0.0"
@@ -55,6 +86,12 @@ def money_format_dash_zero(currency: str) -> str:
     return f'{base};-{base};"-"'
 
 
+def money_format_cents(currency: str) -> str:
+    """:func:`money_format` with cents, for the reconciliation's differences."""
+    base = money_format(currency)
+    return base.replace("#,##0", "#,##0.00", 1)
+
+
 def currency_label(currency) -> str:
     """The currency label for headers (e.g. ``[EUR]``); blank when the study gives none."""
     return "".join(ch for ch in str(currency or "") if ch not in '"\\').strip()
@@ -68,6 +105,36 @@ def style_header_row(ws, row: int, first_col: int, last_col: int) -> None:
         cell.fill = HEADER_FILL
         cell.border = HEADER_BORDER
         cell.alignment = HEADER_ALIGN
+
+
+def landscape_at_scale(ws, *, scale: int = 100, area: str | None = None, top_in: float = 0.5,
+                       bottom_in: float = 0.5) -> None:
+    """Landscape A4 at a fixed print scale (no fit-to-page), side margins as
+    :func:`landscape_fit_width`: the cell styles print at ``scale`` percent of their size.
+    The columns must fit the narrower of A4 and Letter (see :data:`PRINT_WIDTH_CHARS`)."""
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.scale = scale
+    ws.sheet_properties.pageSetUpPr = PageSetupProperties(fitToPage=False)
+    ws.page_margins.left = ws.page_margins.right = 0.4
+    ws.page_margins.top, ws.page_margins.bottom = top_in, bottom_in
+    ws.oddFooter.center.text = "&A  page &P of &N"
+    if area:
+        ws.print_area = area
+
+
+#: Sum of column widths (character units) that prints on one landscape page of both A4
+#: and Letter at 100 % with 0.4 in side margins. Letter is the narrower: 11 in - 0.8 in =
+#: 734 pt. LibreOffice prints a column of width w about 7.0 w pt wide (measured on its PDF
+#: of these workbooks; Excel prints narrower, about 5.25 w + 4 pt after ECMA-376 Part 1,
+#: §18.3.1.13), so 100 units take about 700 pt.
+PRINT_WIDTH_CHARS = 100
+#: Printed width of one unit of column width [pt] in LibreOffice (measured, see above).
+PT_PER_WIDTH = 7.0
+#: Printable height of a landscape page at 100 % [pt] with 0.5 in margins: A4 is the
+#: shorter, 210 mm = 595 pt, less the margins and the footer; LibreOffice fills about
+#: 490 pt of it (measured on its PDF), and 485 keeps a manual page break ahead of its own.
+PRINT_HEIGHT_PT = 485
 
 
 def landscape_fit_width(ws, *, title_rows: str | None = None, title_cols: str | None = None,

@@ -16,13 +16,16 @@ from openpyxl.chart import Reference
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.pagebreak import Break
 
+from planner.plan.attention import attention_of
 from planner.plan.cautions import DEFER_INSTRUCTION, STANDARD_CAUTIONS, derived_site_warnings
 from planner.plan.numbers import finite_number
 from planner.report import charts, styles
-from planner.report.cells import cell_value, put
+from planner.report.cells import cell_value, put, write_rows
+from planner.report.charts import CHART_HEIGHT_CM, CHART_WIDTH_CM
 from planner.report.tables import (
     CHART_ROWS,
     Column,
+    column_at,
     field_of,
     mapping_of,
     plan_sites,
@@ -30,44 +33,68 @@ from planner.report.tables import (
     title,
     write_table,
 )
-from planner.report.wording import coverage_text, downtime_share, drivers_text, plan_status_text
+from planner.report.wording import (
+    chemistry_name,
+    comparison_label,
+    coverage_text,
+    downtime_share,
+    drivers_text,
+    plan_status_text,
+)
 
 #: How many of the most expensive sites the Summary lists.
 TOP_SITES = 10
 #: Longest list of sites not served written out on the Summary (beyond it: a count).
 MAX_UNSERVED_LISTED = 10
-#: Cost groups of a comparison row: (JSON key, header word).
+#: Cost groups of a comparison row: (JSON key, header words). Their sum is the row's total.
 COST_GROUPS = (("equipment", "Equipment"), ("trips_and_labour", "Trips and labour"),
-               ("downtime", "Days off air"), ("failure_risk", "Failure risk"))
+               ("failure_risk", "Expected failure cost"), ("downtime", "Days off air"))
+#: First column of the chart data block, right of the printed area.
+CHART_DATA_COL = 16
+
+
+def plan_cost_groups(plan) -> dict:
+    """The plan's own cost groups: the plan's ``cost_groups``, else summed from the
+    sites' cost breakdowns (equipment = packs + disposal + residual value)."""
+    stored = plan.get("cost_groups")
+    if isinstance(stored, Mapping) and all(finite_number(stored.get(k)) is not None for k, _ in COST_GROUPS):
+        return {k: float(stored[k]) for k, _ in COST_GROUPS}
+    out = dict.fromkeys((k for k, _ in COST_GROUPS), 0.0)
+    for site in plan_sites(plan):
+        b = mapping_of(site.get("cost_breakdown"))
+        out["equipment"] += sum(finite_number(b.get(k)) or 0.0 for k in ("packs", "disposal", "residual"))
+        out["trips_and_labour"] += sum(finite_number(b.get(k)) or 0.0 for k in ("trips", "labour"))
+        out["failure_risk"] += finite_number(b.get("failure_risk")) or 0.0
+        out["downtime"] += finite_number(b.get("downtime")) or 0.0
+    return out
 
 
 def _facts(plan, fmt) -> list[tuple[str, object, str | None]]:
     study = mapping_of(plan.get("study"))
-    solver = mapping_of(plan.get("solver"))
     cur = fmt["cur"]
     sites = plan_sites(plan)
-    unserved = seq(plan.get("unserved_sites"))
+    attention = attention_of(plan)
+    groups = {g.get("cause"): g for g in seq(attention.get("groups")) if isinstance(g, Mapping)}
+    threshold = finite_number(attention.get("lost_load_threshold_frac")) or 0.0
     installed = sum(finite_number(s.get("capacity_wh")) or 0.0 for s in sites) / 1000.0
-    replacements = sum(len(seq(s.get("replacement_years"))) for s in sites)
+    packs = [len(seq(s.get("replacement_years"))) for s in sites]
     trips = sum(finite_number(t.get("trip_count")) or 1 for t in seq(plan.get("trips")) if isinstance(t, Mapping))
     inflation = finite_number(study.get("inflation_frac"))
     return [
         (f"Total present cost [{cur}]", plan.get("total_present_cost"), fmt["money"]),
         ("Plan status", plan_status_text(plan), None),
         ("Sites planned", len(sites), styles.INTEGER),
-        ("Sites no design can serve", len(unserved), styles.INTEGER),
-        ("Sites whose life the service-life limit decides", plan.get("service_life_limited_sites"),
+        (f"Sites not served (no design, or losing more than {threshold:.0%} of their load)",
+         len(seq(attention.get("sites_not_served"))), styles.INTEGER),
+        ("Sites that may fail before their next visit", (groups.get("at_risk") or {}).get("count", 0),
          styles.INTEGER),
-        ("Installed capacity of the chosen packs [kWh]", installed, styles.ONE_DECIMAL),
-        ("Pack replacements over the horizon", replacements, styles.INTEGER),
+        ("Installed capacity of the first new packs [kWh]", installed, styles.ONE_DECIMAL),
+        ("First packs put in", sum(1 for n in packs if n), styles.INTEGER),
+        ("Replacements after the first pack", sum(max(n - 1, 0) for n in packs), styles.INTEGER),
         ("Crew trips over the horizon", trips, styles.INTEGER),
         ("Horizon [years]", study.get("horizon_years"), styles.INTEGER),
         ("Real discount rate [%]", study.get("discount_rate_frac"), styles.PERCENT_FINE),
         ("Inflation [%/year]", inflation if inflation else None, styles.PERCENT_FINE),
-        ("Solver", solver.get("name"), None),
-        ("Optimality gap [%]", solver.get("gap_frac"), styles.PERCENT_FINE),
-        (f"Best bound [{cur}]", solver.get("best_bound"), fmt["money"]),
-        ("Solve time [s]", solver.get("seconds"), styles.ONE_DECIMAL),
         ("Sites file", study.get("sites_file"), None),
     ]
 
@@ -80,34 +107,57 @@ def _facts_table(ws, plan, fmt, top: int) -> int:
     _, end = write_table(ws, top, 1, cols, kept, drop_empty=False)
     for offset, (_, value, number_format) in enumerate(kept):
         cell = ws.cell(row=top + 1 + offset, column=2)
+        label = ws.cell(row=top + 1 + offset, column=1)
+        label.alignment = styles.WRAP_TOP
         if number_format and isinstance(cell_value(value), float | int):
             cell.number_format = number_format
+            cell.alignment = styles.TOP
         elif isinstance(cell.value, str) and len(cell.value) > 20:
-            # a sentence (plan status): wrap it, label and value both read from the top; the
-            # row height is set once the column widths are final (_fit_sentences)
-            cell.alignment = ws.cell(row=cell.row, column=1).alignment = styles.WRAP_TOP
+            # a sentence (plan status): merged over the columns to its right so it is never
+            # cut; the row height is set once the column widths are final (_fit_sentences)
+            cell.alignment = styles.WRAP_TOP
+            ws.merge_cells(start_row=cell.row, start_column=2, end_row=cell.row, end_column=3)
     ws.cell(row=top + 1, column=1).font = ws.cell(row=top + 1, column=2).font = styles.HEADER_FONT
     return end
 
 
-def _comparison(ws, plan, fmt, top: int) -> int:
-    """The whole fleet forced to each chemistry; returns the last row written."""
-    rows = [c for c in seq(plan.get("chemistry_comparison")) if isinstance(c, Mapping)]
-    if not rows:
-        return top - 1
-    cur = fmt["cur"]
+def _comparison_rows(plan, fmt) -> list[dict]:
+    """The plan itself, then the fleet forced to each chemistry wherever it can serve."""
+    names = fmt["chemistry_names"]
     n_sites = len(plan_sites(plan))
-    put(ws, top, 1, "The whole fleet with one chemistry wherever it can serve "
+    mine = plan_cost_groups(plan)
+    total = finite_number(plan.get("total_present_cost"))
+    served = n_sites - len(seq(attention_of(plan).get("sites_not_served")))
+    rows = [{"case": "This plan", "short": "This plan", "total": total, **mine,
+             "share": (mine["downtime"] / total) if total else None,
+             "coverage": f"serves {served:,} of {n_sites:,} sites", "drivers": None}]
+    for c in seq(plan.get("chemistry_comparison")):
+        if not isinstance(c, Mapping):
+            continue
+        rows.append({"case": comparison_label(c, names), "short": chemistry_name(c.get("chemistry"), names),
+                     "total": c.get("total_with_others_present_cost"),
+                     **{k: c.get(k) for k, _ in COST_GROUPS}, "share": downtime_share(c),
+                     "coverage": coverage_text(c, n_sites, names), "drivers": drivers_text(c, fmt["cur"])})
+    return rows
+
+
+def _comparison(ws, plan, fmt, top: int) -> tuple[int, list[dict]]:
+    """This plan and the whole fleet forced to each chemistry; returns the last row written."""
+    rows = _comparison_rows(plan, fmt)
+    if len(rows) == 1 and not seq(plan.get("chemistry_comparison")):
+        return top - 1, []
+    cur = fmt["cur"]
+    put(ws, top, 1, "This plan, and the whole fleet with one chemistry wherever it can serve "
                     "(the other sites keep their best design)").font = styles.SECTION_FONT
-    cols = [Column("Chemistry", field_of("chemistry"), width=12),
-            Column(f"Fleet present cost, others keep their best [{cur}]",
-                   field_of("total_with_others_present_cost"), fmt["money"], width=16)]
-    cols += [Column(f"{word} [{cur}]", field_of(key), fmt["money"], optional=True, width=13)
+    # money columns take their width from the values (a fleet's days off air run to millions)
+    cols = [Column("Case", field_of("case"), width=40),
+            Column(f"Fleet present cost [{cur}]", field_of("total"), fmt["money"])]
+    cols += [Column(f"{word} [{cur}]", field_of(key), fmt["money"], optional=True)
              for key, word in COST_GROUPS]
-    cols += [Column("Days off air share [%]", downtime_share, styles.PERCENT, optional=True, width=10),
-             Column("Coverage", lambda r: coverage_text(r, n_sites), width=34),
+    cols += [Column("Days off air share [%]", field_of("share"), styles.PERCENT, optional=True, width=10),
+             Column("Coverage", field_of("coverage"), width=34),
              Column("Sites that make most of the difference to the plan",
-                    lambda r: drivers_text(r, cur) or "", width=40)]
+                    lambda r: r["drivers"] or "", width=40)]
     kept, last = write_table(ws, top + 1, 1, cols, rows)
     for row in range(top + 2, last + 1):
         lines = 1
@@ -117,35 +167,58 @@ def _comparison(ws, plan, fmt, top: int) -> int:
             cell.alignment = styles.WRAP_TOP_INDENT if col.fmt is None else styles.TOP
             if col.fmt is None and col.width:
                 lines = max(lines, -(-len(str(cell.value or "")) // int(col.width - 2)))
-        ws.row_dimensions[row].height = 15 * min(lines, 4)
-    return last
+        ws.row_dimensions[row].height = 15 * min(lines, 6)
+    for c in range(1, len(kept) + 1):
+        ws.cell(row=top + 2, column=c).font = styles.HEADER_FONT
+    return last, rows
 
 
-def _comparison_chart(ws, plan, fmt, comp_top: int, comp_last: int, anchor: str) -> None:
-    """Stacked columns per chemistry: where each fleet cost goes (days off air stand out)."""
-    if comp_last <= comp_top + 1:
+def _comparison_charts(ws, rows, fmt, anchor_row: int) -> None:
+    """Stacked columns per case without days off air, and days off air on a chart of its
+    own (they can be hundreds of times the rest). The chart data sit right of the
+    printed area, in COST_GROUPS order."""
+    if len(rows) < 2:
         return
-    header = comp_top + 1
-    headers = [ws.cell(row=header, column=c).value for c in range(1, ws.max_column + 1)]
-    group_cols = [i + 1 for i, h in enumerate(headers)
-                  if isinstance(h, str) and any(h.startswith(word + " [") for _, word in COST_GROUPS)]
-    if not group_cols:
-        return
+    left = CHART_DATA_COL
+    put(ws, 1, left, "Chart data").font = styles.NOTE_FONT
+    data = [[r["short"]] + [finite_number(r.get(k)) or 0.0 for k, _ in COST_GROUPS] for r in rows]
+    for offset, (_, word) in enumerate(COST_GROUPS, start=1):
+        put(ws, 2, left + offset, word)
+    write_rows(ws, 3, left, data, [None] + [fmt["money"]] * len(COST_GROUPS))
+    last = 2 + len(rows)
+    categories = Reference(ws, min_col=left, min_row=3, max_row=last)
+    keys = [k for k, _ in COST_GROUPS]
+    parts = [Reference(ws, min_col=left + 1 + i, min_row=2, max_row=last)
+             for i, k in enumerate(keys) if k != "downtime"]
+    height = CHART_HEIGHT_CM + 0.6 * len(rows)
     charts.stacked_bar_chart(
-        ws, title="Fleet present cost with each chemistry, by cost group",
-        categories=Reference(ws, min_col=1, min_row=header + 1, max_row=comp_last),
-        series=[Reference(ws, min_col=c, min_row=header, max_row=comp_last) for c in group_cols],
-        y_title=f"Present cost [{fmt['cur']}]", y_format=fmt["money"], anchor=anchor)
+        ws, title="Fleet present cost by case, without days off air",
+        categories=categories, series=parts, y_title=f"Present cost [{fmt['cur']}]", y_format=fmt["money"],
+        anchor=f"A{anchor_row}", colours=[styles.COST_COLOURS[k] for k in keys if k != "downtime"],
+        horizontal=True, width_cm=CHART_WIDTH_CM * 1.2, height_cm=height)
+    if any(row[1 + keys.index("downtime")] for row in data):
+        charts.bar_chart(
+            ws, title="Days off air by case (on their own scale)", categories=categories,
+            values=Reference(ws, min_col=left + 1 + keys.index("downtime"), min_row=3, max_row=last),
+            y_title=f"Present cost [{fmt['cur']}]", y_format=fmt["money"],
+            anchor=f"{column_at(ws, CHART_WIDTH_CM * 1.2 + 0.5)}{anchor_row}",
+            colour=styles.COST_COLOURS["downtime"], horizontal=True, width_cm=CHART_WIDTH_CM * 1.2,
+            height_cm=height)
 
 
-def fleet_groups(sites, key: str) -> list[dict]:
+def chart_rows_of(rows) -> int:
+    """Sheet rows the comparison charts take (their height at the default row height)."""
+    return int((CHART_HEIGHT_CM + 0.6 * len(rows)) / 0.53) + 1
+
+
+def fleet_groups(sites, key: str, label=None) -> list[dict]:
     """Per value of ``key`` (region, chemistry): sites, kWh installed, present cost,
-    replacements. Sorted by present cost, largest first."""
+    replacements. Sorted by present cost, largest first; ``label`` names a group."""
     groups: dict[str, dict] = {}
     for site in sites:
         name = str(cell_value(site.get(key)) or "(none)")
-        g = groups.setdefault(name, {"group": name, "sites": 0, "installed_kwh": 0.0,
-                                     "present_cost": 0.0, "replacements": 0})
+        g = groups.setdefault(name, {"group": label(name) if label else name, "key": name, "sites": 0,
+                                     "installed_kwh": 0.0, "present_cost": 0.0, "replacements": 0})
         g["sites"] += 1
         g["installed_kwh"] += (finite_number(site.get("capacity_wh")) or 0.0) / 1000.0
         g["present_cost"] += finite_number(site.get("present_cost")) or 0.0
@@ -154,7 +227,7 @@ def fleet_groups(sites, key: str) -> list[dict]:
 
 
 def _group_table(ws, top: int, label: str, groups, fmt) -> int:
-    cols = [Column(label, field_of("group"), width=20),
+    cols = [Column(label, field_of("group"), width=40),
             Column("Sites", field_of("sites"), styles.INTEGER, width=8),
             Column("Installed [kWh]", field_of("installed_kwh"), styles.ONE_DECIMAL, width=11),
             Column(f"Present cost [{fmt['cur']}]", field_of("present_cost"), fmt["money"], width=14),
@@ -165,16 +238,18 @@ def _group_table(ws, top: int, label: str, groups, fmt) -> int:
 
 def _overview(ws, plan, fmt, top: int) -> int:
     sites = plan_sites(plan)
+    names = fmt["chemistry_names"]
     put(ws, top, 1, "Fleet overview").font = styles.SECTION_FONT
-    by_chem = fleet_groups(sites, "chemistry")
+    by_chem = fleet_groups(sites, "chemistry", lambda c: chemistry_name(c, names))
     chem_top = top + 1
-    chem_last = _group_table(ws, chem_top, "Chemistry", by_chem, fmt)
+    chem_last = _group_table(ws, chem_top, "Chemistry of the first new pack", by_chem, fmt)
     if chem_last > chem_top:
-        charts.bar_chart(ws, title="Present cost by chemistry of the chosen packs",
+        charts.bar_chart(ws, title="Present cost by chemistry of the first new pack",
                          categories=Reference(ws, min_col=1, min_row=chem_top + 1, max_row=chem_last),
                          values=Reference(ws, min_col=4, min_row=chem_top + 1, max_row=chem_last),
                          y_title=f"Present cost [{fmt['cur']}]", y_format=fmt["money"],
-                         anchor=f"G{chem_top}")
+                         anchor=f"{column_at(ws, 0.2 * 80)}{chem_top}", horizontal=True,
+                         point_colours=[styles.chemistry_colour(g["key"]) for g in by_chem])
     region_top = max(chem_last, chem_top + CHART_ROWS) + 2
     return _group_table(ws, region_top, "Region", fleet_groups(sites, "region"), fmt)
 
@@ -188,7 +263,7 @@ def _top_sites(ws, plan, fmt, top: int) -> int:
                     "(every site: sheet Sites)").font = styles.SECTION_FONT
     cols = [Column("Site id", field_of("id"), width=12), Column("Site name", field_of("name")),
             Column("Region", field_of("region"), optional=True),
-            Column("Chemistry", field_of("chemistry"), width=10),
+            Column("Chemistry", lambda s: chemistry_name(s.get("chemistry"), fmt["chemistry_names"]), width=22),
             Column("Pack size [Wh]", field_of("capacity_wh"), styles.INTEGER, width=9),
             Column("Replacement years", field_of("replacement_years"), width=12),
             Column(f"Present cost [{fmt['cur']}]", field_of("present_cost"), fmt["money"], width=13),
@@ -200,17 +275,20 @@ def _top_sites(ws, plan, fmt, top: int) -> int:
 
 
 def _unserved(ws, plan, top: int) -> int:
-    unserved = [u for u in seq(plan.get("unserved_sites")) if isinstance(u, Mapping)]
+    attention = attention_of(plan)
+    groups = [g for g in seq(attention.get("groups")) if isinstance(g, Mapping) and g.get("not_served")]
+    cases = [{**i, "cause": g.get("title")} for g in groups for i in seq(g.get("items")) if isinstance(i, Mapping)]
     put(ws, top, 1, "Sites not served").font = styles.SECTION_FONT
-    if not unserved:
-        put(ws, top + 1, 1, "Every site has a plan.")
+    if not cases:
+        put(ws, top + 1, 1, "Every site is served.")
         return top + 1
-    if len(unserved) > MAX_UNSERVED_LISTED:
-        put(ws, top + 1, 1, f"{len(unserved):,} sites cannot be served by any design; each is listed with its "
-                            "reason on sheet Cautions.")
+    if len(cases) > MAX_UNSERVED_LISTED:
+        put(ws, top + 1, 1, f"{len(cases):,} sites are not served; each is listed with its cause and "
+                            "the suggested fix on sheet Needs attention.")
         return top + 1
-    cols = [Column("Site id", field_of("id"), width=12), Column("Reason", field_of("reason"), width=90)]
-    _, last = write_table(ws, top + 1, 1, cols, unserved)
+    cols = [Column("Site id", field_of("id"), width=12), Column("Cause", field_of("cause"), width=30),
+            Column("What", field_of("detail"), width=70)]
+    _, last = write_table(ws, top + 1, 1, cols, cases)
     return last
 
 
@@ -231,14 +309,19 @@ def _safety(ws, plan, top: int) -> int:
 
 
 def _fit_sentences(ws, first: int, last: int) -> None:
-    """Rows of the facts table whose value wraps get the height of their lines (LibreOffice
-    does not grow rows for wrapped text on load; about one character per width unit)."""
-    width = ws.column_dimensions["B"].width or 10
+    """Rows of the facts table whose label or value wraps get the height of their lines
+    (LibreOffice does not grow rows for wrapped text on load; about one character per
+    width unit). A long value spans columns B and C."""
+    label_width = ws.column_dimensions["A"].width or 10
+    width = (ws.column_dimensions["B"].width or 10) + (ws.column_dimensions["C"].width or 10)
     for row in range(first, last + 1):
-        value = ws.cell(row=row, column=2).value
+        value, label = ws.cell(row=row, column=2).value, ws.cell(row=row, column=1).value
+        lines = 1
         if isinstance(value, str) and len(value) > 20:
             lines = -(-int(len(value) * 1.1) // max(int(width) - 1, 1))
-            ws.row_dimensions[row].height = 15 * min(max(lines, 1), 4)
+        if isinstance(label, str):
+            lines = max(lines, -(-int(len(label) * 1.1) // max(int(label_width) - 1, 1)))
+        ws.row_dimensions[row].height = 15 * min(max(lines, 1), 6)
 
 
 def summary_sheet(ws, plan, fmt) -> None:
@@ -246,18 +329,24 @@ def summary_sheet(ws, plan, fmt) -> None:
     cur = fmt["cur"]
     title(ws, f"Battery plan: {study.get('name') or 'study'}",
           f"Money in {cur or 'the study currency'}, present value at the study start, real terms; "
-          "years count from the start (year 0 = first installation). Year by year: sheet Spending by year.")
+          "years count from the start (year 0 = first installation). Year by year: sheet Spending by year. "
+          "What to act on first: sheet Needs attention.")
     put(ws, 3, 1, "The plan").font = styles.SECTION_FONT
     facts_end = _facts_table(ws, plan, fmt, 4)
-    comp_top = max(facts_end, 3 + CHART_ROWS) + 2
-    comp_last = _comparison(ws, plan, fmt, comp_top)
-    _comparison_chart(ws, plan, fmt, comp_top, comp_last, anchor="D3")
-    # Page 2 starts with the fleet overview: no table is cut from its header.
+    comp_top = facts_end + 2
+    comp_last, rows = _comparison(ws, plan, fmt, comp_top)
+    comparison_columns = sum(1 for c in range(1, CHART_DATA_COL) if ws.cell(row=comp_top + 1, column=c).value)
+    # Page 2 starts with the charts and the fleet overview: no chart is cut by a page.
+    # the charts two rows below the break, so no chart frame is drawn at the foot of page 1
+    chart_top = comp_last + 3
     ws.row_breaks.append(Break(id=comp_last + 1))
-    row = _overview(ws, plan, fmt, comp_last + 2) + 2
+    _comparison_charts(ws, rows, fmt, chart_top)
+    after = chart_top + (chart_rows_of(rows) if len(rows) > 1 else 0)
+    row = _overview(ws, plan, fmt, after + 1) + 2
     row = _top_sites(ws, plan, fmt, row) + 2
     row = _unserved(ws, plan, row) + 2
     last = _safety(ws, plan, row)
     _fit_sentences(ws, 5, facts_end)
     ws.freeze_panes = "A3"
-    styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(ws.max_column)}{last}")
+    width = max(comparison_columns, 8)
+    styles.landscape_fit_width(ws, area=f"A1:{get_column_letter(width)}{last}")

@@ -23,6 +23,12 @@ MONTH_ABBR = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oc
 CHART_ROWS = 16
 #: Columns a chart of charts.CHART_WIDTH_CM occupies at width 10 (about 1.9 cm each).
 CHART_COLS = 9
+#: A table with one row per site (or per warning) prints whole up to this many rows; a
+#: longer one prints its first PRINT_FIRST_ROWS rows and says so in the page header, so
+#: a 1,000-site workbook prints in a few dozen pages. Every row stays in the file, with a
+#: filter on the header: filter, then print the selection.
+PRINT_ALL_ROWS_MAX = 120
+PRINT_FIRST_ROWS = 30
 
 
 @dataclass(frozen=True)
@@ -91,13 +97,14 @@ def _indent_text_after_numbers(ws, top, left, kept, last) -> None:
 
 
 def _fit_header_height(ws, row, left, kept) -> None:
-    # Headers wrap; give the row enough lines (15 points each) for the longest one.
+    # Headers wrap; give the row enough lines (15 points each) for the longest one (a header
+    # naming a chemistry in full runs to five or six lines in a money column).
     lines = 1
     for offset, col in enumerate(kept):
         width = ws.column_dimensions[get_column_letter(left + offset)].width or 10
         lines = max(lines, math.ceil(len(col.header) * 1.1 / max(width - 1, 1)))
     current = ws.row_dimensions[row].height or 15
-    ws.row_dimensions[row].height = max(current, 15 * min(lines, 4))
+    ws.row_dimensions[row].height = max(current, 15 * min(lines, 6))
 
 
 def _set_widths(ws, left, kept, matrix, keep) -> None:
@@ -127,10 +134,23 @@ def _display_len(value) -> int:
     return len(value)
 
 
-def title(ws, text: str, note: str | None = None) -> None:
+def title(ws, text: str, note: str | None = None, note_width: float | None = None) -> None:
+    """Sheet title in row 1 and a note in row 2; with ``note_width`` (character units) the
+    note wraps within that width (merged over the columns it spans) and row 2 is sized."""
     put(ws, 1, 1, text).font = styles.TITLE_FONT
     if note:
-        put(ws, 2, 1, note).font = styles.NOTE_FONT
+        cell = put(ws, 2, 1, note)
+        cell.font = styles.NOTE_FONT
+        if note_width:
+            cell.alignment = styles.WRAP_TOP
+            edge, col = 0.0, 1
+            while edge < note_width and col < 100:
+                letter = get_column_letter(col)
+                edge += (ws.column_dimensions[letter].width if letter in ws.column_dimensions else None) or 8.43
+                col += 1
+            ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=max(col - 1, 1))
+            lines = math.ceil(len(note) * 1.1 / max(note_width, 1))
+            ws.row_dimensions[2].height = 15 * max(lines, 1)
 
 
 def plan_sites(plan) -> list[dict]:
@@ -147,9 +167,9 @@ def mapping_of(value) -> Mapping:
     return value if isinstance(value, Mapping) else {}
 
 
-def chart_page_breaks(ws, chart_rows: int, per_page: int = 3) -> None:
+def chart_page_breaks(ws, chart_rows: int, per_page: int = 3, rows_each: int = CHART_ROWS) -> None:
     # Break pages between chart rows so that no chart is cut across two pages.
-    for row in range(2 + per_page * CHART_ROWS, 2 + chart_rows, per_page * CHART_ROWS):
+    for row in range(2 + per_page * rows_each, 2 + chart_rows, per_page * rows_each):
         ws.row_breaks.append(Break(id=row))
 
 
@@ -167,6 +187,37 @@ def wrap_rows(ws, first: int, last: int, n_cols: int) -> None:
             width = ws.column_dimensions[get_column_letter(col)].width or 10
             lines = max(lines, math.ceil(len(str(cell.value or "")) * 1.1 / max(width - 1, 1)))
         ws.row_dimensions[row].height = 15 * lines
+
+
+def column_at(ws, offset_cm: float) -> str:
+    """Letter of the first column that starts at least ``offset_cm`` from the sheet's left
+    edge (columns of the default width 8.43 count 1.7 cm, about 0.2 cm per unit)."""
+    edge, col = 0.0, 1
+    while edge < offset_cm and col < 200:
+        width = ws.column_dimensions[get_column_letter(col)].width if get_column_letter(col) in \
+            ws.column_dimensions else None
+        edge += 0.2 * (width or 8.43)
+        col += 1
+    return get_column_letter(col)
+
+
+def long_table_print_area(ws, first_row: int, header_row: int, last_row: int, last_col: int,
+                          what: str = "rows", first_rows: int = PRINT_FIRST_ROWS) -> str:
+    """Set the print area of a sheet ending in a long table; return the area.
+
+    Rows ``first_row`` to ``last_row`` print whole up to :data:`PRINT_ALL_ROWS_MAX` table
+    rows; beyond, the area ends after :data:`PRINT_FIRST_ROWS` rows and the page header
+    says how many of how many print.
+    """
+    n_rows = max(last_row - header_row, 0)
+    end = last_row
+    if n_rows > max(PRINT_ALL_ROWS_MAX, first_rows):
+        end = header_row + first_rows
+        ws.oddHeader.center.text = (f"&A: the first {first_rows:,} of {n_rows:,} {what} print; "
+                                    "every row is in the file (filter, then print the selection)")
+    area = f"A{first_row}:{get_column_letter(max(last_col, 1))}{max(end, first_row)}"
+    ws.print_area = area
+    return area
 
 
 def study_start_year(plan) -> int | None:
@@ -195,15 +246,35 @@ def plan_horizon_years(plan) -> int:
     return max([(max(lengths, default=1) - 1) // 12, int(max(years, default=0)) + 1, 1])
 
 
-def install_text(rep) -> str:
-    """What a visit installs, short: 'LFP 1.2 kWh + heater-box'."""
+def kwh_text(capacity_wh) -> str:
+    """A pack size in kWh, to two significant figures up to 10 kWh ('1.2 kWh', '110 kWh')."""
+    wh = cell_value(capacity_wh)
+    if not isinstance(wh, int | float):
+        return ""
+    kwh = wh / 1000.0
+    return f"{kwh:.2g} kWh" if kwh < 10 else f"{kwh:,.0f} kWh"
+
+
+def measure_text(measure) -> str:
+    """A thermal measure id in words ('insulated box'); empty for none."""
+    if not measure or measure == "none":
+        return ""
+    return str(measure).replace("-", " ")
+
+
+def install_text(rep, *, new_measure: bool = True, unit: bool = True) -> str:
+    """What a visit installs, short: 'LFP 1.2 kWh + heater box' (the measure only when
+    ``new_measure``: a kit already in place is not carried again; ``unit=False`` leaves
+    out 'kWh' where the header says it)."""
     if not rep:
         return ""
-    kwh = cell_value(rep.get("capacity_wh"))
-    text = str(rep.get("chemistry") or "").upper()
-    if isinstance(kwh, (int, float)):
-        text += f" {kwh / 1000.0:.2g} kWh"
-    measure = rep.get("thermal_measure")
-    if measure and measure != "none":
-        text += f" + {measure}"
+    from planner.report.wording import chemistry_code
+
+    text = chemistry_code(rep.get("chemistry"))
+    size = kwh_text(rep.get("capacity_wh"))
+    if size:
+        text += f" {size if unit else size.replace(' kWh', '')}"
+    measure = measure_text(rep.get("thermal_measure"))
+    if measure and new_measure and rep.get("thermal_measure") != "site-heater":
+        text += f" + {measure if unit else measure.split()[-1]}"
     return text

@@ -1,22 +1,28 @@
 """The plan workbook: one sheet per question a planner asks.
 
-Sheets: Summary (fleet overview), Spending by year, Sites at risk, Field evidence, Sites,
-Capacity fade, Fade by year, Visit schedule, Trip list, Cost comparison, Climate,
-Assumptions and sources, Cautions. The input is the plan dict laid out in ``docs/plan-json.md``; optional
-parts that are missing are left out, never faked. The layout is described in
-``docs/workbook.md``; each sheet is built in the module named beside it below.
+Sheets: Needs attention (first: what to act on), Summary (fleet overview), Spending by
+year, Sites at risk, Field evidence, Sites, Capacity fade, Fade by year, Visit schedule,
+Trip list, Crew trips, Cost comparison, Climate, Site map, Assumptions and sources,
+Cautions. The input is
+the plan dict laid out in ``docs/plan-json.md``; optional parts that are missing are left
+out, never faked. The layout is described in ``docs/workbook.md``; each sheet is built in
+the module named beside it in :data:`SHEETS`, and adding a sheet is one entry there.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
 from pathlib import Path
 
 from openpyxl import Workbook
 
 from planner.fileio import write_atomically
 from planner.report import styles
+from planner.report.attention_sheet import attention_sheet
+from planner.report.crew_sheet import crew_sheet
 from planner.report.evidence_sheet import evidence_sheet
+from planner.report.map_sheet import map_sheet
 from planner.report.money_sheets import cost_sheet, spending_sheet
 from planner.report.reference_sheets import assumptions_sheet, cautions_sheet
 from planner.report.risk_sheet import risk_sheet
@@ -24,24 +30,40 @@ from planner.report.schedule_sheets import trip_sheet, visit_grid_sheet
 from planner.report.site_sheets import climate_sheet, fade_sheet, fade_table_sheet, sites_sheet
 from planner.report.summary_sheet import summary_sheet
 from planner.report.tables import mapping_of, plan_horizon_years
+from planner.report.wording import chemistry_names
 
-#: Sheet names, in order (plain words of our own), and the function that fills each.
+
+@dataclass(frozen=True)
+class Sheet:
+    """One sheet of the workbook: its name (plain words of our own) and the function that
+    fills it, ``fill(ws, plan, fmt)``; ``fmt`` holds the currency label (``cur``), the
+    money number format (``money``), the horizon in years (``horizon``) and the
+    chemistry names (``chemistry_names``)."""
+
+    name: str
+    fill: Callable
+
+
+#: The sheets, in order.
 SHEETS = (
-    ("Summary", lambda ws, plan, fmt, h: summary_sheet(ws, plan, fmt)),
-    ("Spending by year", lambda ws, plan, fmt, h: spending_sheet(ws, plan, fmt)),
-    ("Sites at risk", lambda ws, plan, fmt, h: risk_sheet(ws, plan, fmt)),
-    ("Field evidence", lambda ws, plan, fmt, h: evidence_sheet(ws, plan, fmt)),
-    ("Sites", lambda ws, plan, fmt, h: sites_sheet(ws, plan, fmt)),
-    ("Capacity fade", lambda ws, plan, fmt, h: fade_sheet(ws, plan)),
-    ("Fade by year", lambda ws, plan, fmt, h: fade_table_sheet(ws, plan, h)),
-    ("Visit schedule", lambda ws, plan, fmt, h: visit_grid_sheet(ws, plan, h)),
-    ("Trip list", lambda ws, plan, fmt, h: trip_sheet(ws, plan, fmt)),
-    ("Cost comparison", lambda ws, plan, fmt, h: cost_sheet(ws, plan, fmt)),
-    ("Climate", lambda ws, plan, fmt, h: climate_sheet(ws, plan)),
-    ("Assumptions and sources", lambda ws, plan, fmt, h: assumptions_sheet(ws, plan)),
-    ("Cautions", lambda ws, plan, fmt, h: cautions_sheet(ws, plan)),
+    Sheet("Needs attention", attention_sheet),
+    Sheet("Summary", summary_sheet),
+    Sheet("Spending by year", spending_sheet),
+    Sheet("Sites at risk", risk_sheet),
+    Sheet("Field evidence", evidence_sheet),
+    Sheet("Sites", sites_sheet),
+    Sheet("Capacity fade", fade_sheet),
+    Sheet("Fade by year", fade_table_sheet),
+    Sheet("Visit schedule", visit_grid_sheet),
+    Sheet("Trip list", trip_sheet),
+    Sheet("Crew trips", crew_sheet),
+    Sheet("Cost comparison", cost_sheet),
+    Sheet("Climate", climate_sheet),
+    Sheet("Site map", map_sheet),
+    Sheet("Assumptions and sources", assumptions_sheet),
+    Sheet("Cautions", cautions_sheet),
 )
-SHEET_NAMES = tuple(name for name, _ in SHEETS)
+SHEET_NAMES = tuple(sheet.name for sheet in SHEETS)
 
 
 def build_workbook(plan: Mapping) -> Workbook:
@@ -50,13 +72,13 @@ def build_workbook(plan: Mapping) -> Workbook:
         raise TypeError(f"plan must be a mapping, got {type(plan).__name__}")
     study = mapping_of(plan.get("study"))
     cur = styles.currency_label(study.get("currency"))
-    fmt = {"cur": cur, "money": styles.money_format(cur)}
-    horizon = plan_horizon_years(plan)
+    fmt = {"cur": cur, "money": styles.money_format(cur), "horizon": plan_horizon_years(plan),
+           "chemistry_names": chemistry_names(plan)}
     wb = Workbook()
-    for index, (name, fill) in enumerate(SHEETS):
+    for index, sheet in enumerate(SHEETS):
         ws = wb.active if index == 0 else wb.create_sheet()
-        ws.title = name
-        fill(ws, plan, fmt, horizon)
+        ws.title = sheet.name
+        sheet.fill(ws, plan, fmt)
     return wb
 
 

@@ -7,20 +7,27 @@ Climates are cached, because a fleet repeats a few climates over many sites.
 
 from __future__ import annotations
 
-import functools
 import warnings
 import zlib
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
-from planner.climate import ClimateWarning, TypicalYear, load_climate
+from planner.climate import ClimateWarning, TypicalYear
+from planner.climate.solar import extra_radiation_many, solar_geometry
 from planner.climate.summary import TemperatureSummary, summarize_temperatures
 from planner.energy.balance import ChargingShortfall, charging_shortfall
 from planner.energy.loads import hourly_load_w, peak_power_w, read_hourly_load_csv
 from planner.energy.mains import float_charge_power_w, mains_available
-from planner.energy.pv import pv_dc_power_w
+from planner.energy.pv import pv_dc_power_many_w, pv_dc_power_w
+from planner.errors import InputError
+from planner.site.location import (
+    SiteClimate,
+    describe_shared,
+    has_location,
+    shared_climate,
+    site_years,
+)
 from planner.study.loading import Site, Study
 from planner.thermal.battery import battery_temperature_fleet
 from planner.thermal.enclosures import Enclosure
@@ -54,6 +61,7 @@ class SiteModel:
     # False: the battery temperature already holds the heater's effect, so charging
     # follows it alone (no lithium charged below its limit while a heater warms up)
     heater_enables_charge: bool = True
+    site_climate: SiteClimate | None = None   # how the site's year was made (location)
 
     @property
     def heater_on(self) -> np.ndarray:
@@ -79,7 +87,8 @@ class SiteModel:
                            design_temp_c=self.design_temp_c, access_months=self.access_months,
                            pv_tilt_deg=self.pv_tilt_deg, pv_azimuth_deg=self.pv_azimuth_deg,
                            heater_energy_wh_per_year=self.heater_energy_wh_per_year,
-                           thermal_measure=self.thermal_measure, warnings=list(self.warnings))
+                           thermal_measure=self.thermal_measure, warnings=list(self.warnings),
+                           site_climate=self.site_climate)
 
 
 @dataclass(frozen=True)
@@ -99,21 +108,16 @@ class SiteSummary:
     heater_energy_wh_per_year: float = 0.0
     thermal_measure: str = ""
     warnings: list[str] = field(default_factory=list)
+    site_climate: SiteClimate | None = None
 
 
 def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) -> list[SiteModel]:
     """Climate, battery temperature, load and charging power of every site of ``study``.
 
-    The enclosure model runs once for the whole fleet (vectorised across sites).
+    The enclosure model runs once for the whole fleet (vectorised across sites), and so
+    do the sun, sky and PV of the sites with their own position.
     """
-    years, notices = [], []
-    for site in study.sites:
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always", ClimateWarning)
-            years.append(_climate(study, site.climate, study.settings["study"]["warming_k"]
-                                  + site.warming_k + extra_warming_k))
-        notices.append([f"climate {site.climate}: {w.message}" for w in caught
-                        if issubclass(w.category, ClimateWarning)])
+    years, described, notices = _years(study, extra_warming_k)
     internal = [site.load_w if site.electronics_heat_w is None else site.electronics_heat_w
                 for site in study.sites]
     setpoints = np.array([np.nan if site.heater_setpoint_c is None else site.heater_setpoint_c
@@ -121,11 +125,12 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
     thermal = battery_temperature_fleet(years, [site.enclosure for site in study.sites],
                                         internal_heat_w=np.array(internal),
                                         heater_setpoint_c=setpoints)
+    own_sky_pv = _own_sky_pv_per_wp(study.sites, years)
     models = []
     for j, (site, year) in enumerate(zip(study.sites, years)):
         model = _model_site(study, site, year, thermal.temp_battery_c[:, j],
                             thermal.heater_power_w[:, j], thermal.hvac_power_w[:, j],
-                            thermal.enclosures[j])
+                            thermal.enclosures[j], own_sky_pv.get(j), described[j])
         model.warnings.extend(notices[j])
         models.append(model)
         if progress:
@@ -133,7 +138,42 @@ def model_sites(study: Study, *, extra_warming_k: float = 0.0, progress=None) ->
     return models
 
 
-def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w, enclosure):
+def _years(study: Study, extra_warming_k: float):
+    """Each site's typical year, how it was made, and the notices for its warnings."""
+    warming = [study.settings["study"]["warming_k"] + site.warming_k + extra_warming_k
+               for site in study.sites]
+    located = [j for j, site in enumerate(study.sites) if has_location(site)
+               or "stations" in study.climates.get(site.climate, {})
+               or "normals" in study.climates.get(site.climate, {})]
+    years, described = [None] * len(study.sites), [None] * len(study.sites)
+    located_set = set(located)
+    notices = [[] for _ in study.sites]
+    for j, site in enumerate(study.sites):
+        if j in located_set:
+            continue
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", ClimateWarning)
+            try:
+                years[j] = shared_climate(study, site.climate, warming[j])
+            except InputError as err:  # name the site as well as the file
+                raise InputError(f"{site.where()}, column climate (site {site.id}): {err}",
+                                 source=study.sites_path.name) from None
+        described[j] = describe_shared(study, site, years[j])
+        notices[j] = [f"climate {site.climate}: {w.message}" for w in caught
+                      if issubclass(w.category, ClimateWarning)]
+    if located:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", ClimateWarning)
+            made = site_years(study, [study.sites[j] for j in located], [warming[j] for j in located])
+        repaired = [f"climate: {w.message}" for w in caught if issubclass(w.category, ClimateWarning)]
+        for k, (j, (year, how)) in enumerate(zip(located, made)):
+            years[j], described[j] = year, how
+            notices[j] = list(how.warnings) + (repaired if k == 0 else [])
+    return years, described, notices
+
+
+def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w, enclosure,
+                pv_per_wp=None, site_climate=None):
     summary = summarize_temperatures(year.temp_air_c, temp_battery_c)
     burst = dict(burst_w=site.burst_w, burst_duration_s=site.burst_s,
                  burst_interval_min=site.burst_every_min,
@@ -150,13 +190,10 @@ def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w,
 
     tilt = azimuth = None
     if site.charging == "pv":
-        tilt = site.pv_tilt_deg
-        if tilt is None:
-            tilt = min(abs(year.latitude_deg) + 15.0, 90.0)
-        azimuth = site.pv_azimuth_deg
-        if azimuth is None:
-            azimuth = 180.0 if year.latitude_deg >= 0 else 0.0
-        charge = site.pv_wp * _pv_per_wp(year, tilt, azimuth, tuple(site.pv_snow_months))
+        tilt, azimuth = _pv_orientation(site, year)
+        if pv_per_wp is None:
+            pv_per_wp = _pv_per_wp(year, tilt, azimuth, tuple(site.pv_snow_months))
+        charge = site.pv_wp * pv_per_wp
     elif site.charging == "mains":
         up = mains_available(outages_per_year=site.outages_per_year,
                              mean_outage_h=site.outage_mean_h, seed=_stable_seed(site.id))
@@ -175,23 +212,8 @@ def _model_site(study, site, year, temp_battery_c, heater_power_w, hvac_power_w,
         access_months=study.access_months(site),
         pv_tilt_deg=tilt, pv_azimuth_deg=azimuth,
         warnings=_temperature_warnings(site, temp_battery_c, heater_power_w),
+        site_climate=site_climate,
     )
-
-
-def _climate(study: Study, name: str, warming_k: float) -> TypicalYear:
-    """The site's typical year; a [climates.<name>] entry (checked at load) names a file."""
-    options = dict(study.climates.get(name, {}))
-    source = options.pop("file", name)
-    return _cached_climate(source, str(study.path.parent), tuple(sorted(options.items())),
-                           warming_k)
-
-
-# Sites sharing a climate and a warming get the same TypicalYear object, which lets the
-# fleet enclosure model build their solar drive once (it groups sites by object).
-@functools.lru_cache(maxsize=64)
-def _cached_climate(source, base_dir, options, warming_k):
-    return load_climate(source, base_dir=Path(base_dir), options=dict(options) or None,
-                        warming_k=warming_k)
 
 
 # PVWatts power is proportional to the array's nameplate (pvlib pvwatts_dc: pdc0 scales
@@ -207,10 +229,53 @@ def _pv_per_wp(year: TypicalYear, tilt, azimuth, snow_months) -> np.ndarray:
     if hit is None or hit[0] is not year:
         if len(_PV_CACHE) > 256:
             _PV_CACHE.clear()
+        sun = solar_geometry(year.latitude_deg, year.longitude_deg, year.altitude_m,
+                             year.utc_offset_h)
         hit = (year, pv_dc_power_w(year, array_wp=1.0, tilt_deg=tilt, azimuth_deg=azimuth,
-                                   snow_months=snow_months))
+                                   snow_months=snow_months,
+                                   solar_apparent_zenith_deg=sun["apparent_zenith"].to_numpy(),
+                                   solar_azimuth_deg=sun["azimuth"].to_numpy()))
         _PV_CACHE[key] = hit
     return hit[1]
+
+
+#: PV arrays of sites with their own sun computed together (bounds temporary arrays).
+PV_BLOCK_SITES = 128
+
+
+def _own_sky_pv_per_wp(sites, years) -> dict[int, np.ndarray]:
+    """PV power per Wp of the PV sites whose year carries its own sun, all at once."""
+    picks = [j for j, (site, year) in enumerate(zip(sites, years))
+             if site.charging == "pv" and year.sun is not None]
+    out = {}
+    month = years[picks[0]].times().month.to_numpy() if picks else None
+    for start in range(0, len(picks), PV_BLOCK_SITES):
+        part = picks[start:start + PV_BLOCK_SITES]
+        ys = [years[j] for j in part]
+        ghi, dni, dhi, temp, wind = (np.column_stack([getattr(y, name) for y in ys]) for name in
+                                     ("ghi_w_m2", "dni_w_m2", "dhi_w_m2", "temp_air_c",
+                                      "wind_speed_m_s"))
+        power = pv_dc_power_many_w(
+            ghi, dni, dhi, temp, wind,
+            solar_apparent_zenith_deg=np.column_stack([y.sun.apparent_zenith_deg for y in ys]),
+            solar_azimuth_deg=np.column_stack([y.sun.azimuth_deg for y in ys]),
+            dni_extra_w_m2=extra_radiation_many([y.utc_offset_h for y in ys]), month=month,
+            array_wp=1.0, tilt_deg=[_pv_orientation(sites[j], y)[0] for j, y in zip(part, ys)],
+            azimuth_deg=[_pv_orientation(sites[j], y)[1] for j, y in zip(part, ys)],
+            snow_months=[tuple(sites[j].pv_snow_months) for j in part])
+        out.update({j: power[:, c] for c, j in enumerate(part)})
+    return out
+
+
+def _pv_orientation(site: Site, year: TypicalYear) -> tuple[float, float]:
+    """Tilt and azimuth of a site's array: given, or |latitude| + 15 facing the equator."""
+    tilt = site.pv_tilt_deg
+    if tilt is None:
+        tilt = min(abs(year.latitude_deg) + 15.0, 90.0)
+    azimuth = site.pv_azimuth_deg
+    if azimuth is None:
+        azimuth = 180.0 if year.latitude_deg >= 0 else 0.0
+    return tilt, azimuth
 
 
 def _stable_seed(text: str) -> int:

@@ -291,39 +291,49 @@ def helped_chemistries(study: Study, base, measure: Measure, model: SiteModel,
     the site's designs without it (``base``, a SiteDesigns) and the battery temperature
     with it (``variant``): every one when the measure cuts the energy today's heater draws;
     those left out for a temperature limit; those whose charging the cold blocks (cold
-    measures at a cold site); and those whose life ends by aging
-    rather than at the service-life limit, when the measure slows that aging: a cooler
-    aging-effective temperature (Arrhenius), or a warmer coldest hour for a chemistry
-    whose cycling ages faster in the cold (lithium plating below its crossover). A smaller
+    measures at a cold site) or the heat blocks (measures that lower the hottest battery
+    hour); and those whose life the ceiling of the study ([service_life]) does not decide
+    for every design, when the measure slows what ends them: a cooler aging-effective
+    temperature (cell fade by Arrhenius, electronics and imbalance by their own rules), or
+    a warmer coldest hour for a chemistry whose cycling ages faster in the cold (lithium
+    plating while charging). A smaller
     pack from less cold derating alone is not counted: it saves a part of one pack's
     price, less than a measure costs."""
     cold = measure.helps in ("cold", "both") and model.design_temp_c < cold_limit_c(study)
+    cools = measure.helps in ("hot", "both")
     cooler = warmer = True  # without the variant's temperature: any aging may change
     saves = False
     if variant is not None:
         cooler = variant.temperatures.effective_temp_c < model.temperatures.effective_temp_c - 0.5
         warmer = variant.design_temp_c > model.design_temp_c + 0.5
+        cools = cools and variant.temperatures.battery_max_c < model.temperatures.battery_max_c - 0.5
         # less heater energy (a box around today's heater): every design's energy balance gains
         saves = float(np.sum(variant.heater_power_w)) < 0.95 * float(np.sum(model.heater_power_w))
     out = []
     for chem in study.settings["candidates"]["chemistries"]:
         why = base.excluded.get(chem, "")
         mine = [o for o in base.outcomes if o.design.chemistry == chem]
-        aging = bool(mine) and not any(o.limiting_cause == "service-life limit" for o in mine)
+        # Life is the measure's business unless the user's [service_life] ceiling decides
+        # every design: cell fade and the components (electronics halving per 10 K, cell
+        # imbalance drifting faster when warm, seals by condensation) all see temperature.
+        aging = bool(mine) and not all(o.limiting_cause == "service-life limit" for o in mine)
         if "°C" in why or (mine and saves):
             out.append(chem)
-        elif mine and cold and any(o.charge_blocked_hours > 0 for o in mine):
+        elif mine and cold and any(o.charge_blocked_cold_hours > 0 for o in mine):
             out.append(chem)
+        elif mine and cools and any(o.charge_blocked_hot_hours > 0 for o in mine):
+            out.append(chem)   # heat blocks its charging: a cooler battery gets it back
         elif aging and (cooler or (warmer and _ages_faster_cold(chem))):
             out.append(chem)
     return tuple(out)
 
 
 def _ages_faster_cold(chemistry: str) -> bool:
-    """The chemistry's cycle-aging law has a low-temperature (plating) branch."""
+    """The chemistry's cycle-aging law has a plating term (grows as charging cools)."""
     chem = get_chemistry(chemistry)
     params = chem.aging_sets.get(chem.default_aging_set)
-    return params is not None and "plating_below_c" in params.cycle
+    # the plating term's parameters (planner.aging.plating, a later stage: read as data)
+    return params is not None and "plating_share_ref" in params.cycle
 
 
 def with_chemistries(study: Study, chemistries: tuple[str, ...]) -> Study:

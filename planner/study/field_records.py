@@ -14,7 +14,6 @@ likewise. The columns are in :mod:`planner.study.schema` (``TEST_COLUMNS``, ``LO
 from __future__ import annotations
 
 import datetime as dt
-import io
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -26,12 +25,13 @@ import pandas as pd
 
 from planner.errors import InputError
 from planner.fileio import read_input_bytes
+from planner.inputs.numbers import shown
+from planner.inputs.tables import Table, read_table
 from planner.study.schema import LOG_COLUMNS, TEST_COLUMNS, Field, closest
 
 #: A test may report at most this share of its pack's rated capacity.
 MAX_CAPACITY_FRAC = 1.5
 _DATE = re.compile(r"^(\d{4})-(\d{2})-(\d{2})(?:[ T]00:00(?::00)?)?$")
-_HOURS_PER_DAY = 24.0
 
 
 @dataclass(frozen=True)
@@ -108,51 +108,29 @@ def years_between(earlier: dt.date, later: dt.date) -> float:
 # ---------------------------------------------------------------- reading tables
 
 
-def read_table(path: Path, *, what: str, csv_only: bool = False) -> pd.DataFrame:
-    """A CSV (or XLSX) table as text cells, headers stripped, every line kept so that
-    ``frame.index + 2`` is the row an editor shows (blank rows are dropped later)."""
+def read_records_table(path: Path, *, what: str, csv_only: bool = False) -> Table:
+    """A CSV (or XLSX) table of records through the planner's one table reader
+    (:mod:`planner.inputs.tables`: rows numbered as an editor or spreadsheet shows them,
+    blank rows skipped but counted, headers checked)."""
     source = str(path)
     suffix = path.suffix.lower()
     allowed = (".csv",) if csv_only else (".csv", ".xlsx")
     if suffix not in allowed:
         raise InputError(f"{what} must be {' or '.join(allowed)}, found '{path.suffix}'", source=source)
-    data = io.BytesIO(read_input_bytes(path, what=what))
-    try:
-        if suffix == ".csv":
-            frame = pd.read_csv(data, dtype=str, keep_default_na=False, skipinitialspace=True,
-                                skip_blank_lines=False, encoding="utf-8-sig")
-        else:
-            from planner.study.loading import _read_first_sheet
-
-            frame = _read_first_sheet(data, source)
-    except pd.errors.EmptyDataError:
-        raise InputError(f"{what} is empty: expected a header row and one row per record",
-                         source=source) from None
-    except InputError:
-        raise
-    except Exception as err:  # noqa: BLE001 - any parser failure is a user-file problem
-        message = str(err).splitlines()[0] if str(err) else err.__class__.__name__
-        raise InputError(f"cannot read {what}: {message}", source=source) from None
-    frame.columns = [str(c).strip() for c in frame.columns]
-    return frame
+    return read_table(read_input_bytes(path, what=what), source=source, kind=suffix[1:], what=what)
 
 
-def _check_columns(frame: pd.DataFrame, specs: tuple[Field, ...], source: str) -> None:
+def _check_columns(table: Table, specs: tuple[Field, ...], what: str) -> None:
     by_name = {s.name: s for s in specs}
-    for column in frame.columns:
+    for column in table.columns:
         if column not in by_name:
-            raise InputError(f"unknown column '{column}'{closest(column, by_name)}", source=source)
+            raise InputError(f"unknown column '{column}'{closest(column, by_name)}", source=table.source)
     for spec in specs:
-        if spec.required and spec.name not in frame.columns:
+        if spec.required and not table.has(spec.name):
             raise InputError(f"missing column '{spec.name}': expected {spec.expectation()}",
-                             source=source)
-
-
-def _non_blank(frame: pd.DataFrame) -> pd.DataFrame:
-    if frame.empty:
-        return frame
-    text = frame.astype(str).apply(lambda c: c.str.strip())
-    return frame[(text != "").any(axis=1)]
+                             source=table.source)
+    if len(table) == 0:
+        raise InputError(f"{what} has no rows: expected one row per record", source=table.source)
 
 
 def _parse_date(text: str) -> dt.date:
@@ -162,23 +140,23 @@ def _parse_date(text: str) -> dt.date:
     return dt.date(int(match.group(1)), int(match.group(2)), int(match.group(3)))
 
 
-def _cell(spec: Field, text: str, row: int, source: str):
-    """One cell parsed by the study's own rules (one number syntax for every table)."""
-    from planner.study.loading import _parse
+def _cell(spec: Field, text: str, where: str, source: str):
+    """One cell parsed by the study's own rules (:func:`planner.study.loading.parse_field`,
+    the planner's one number parser)."""
+    from planner.study.loading import parse_field
 
-    text = text.strip()
     if text == "":
         if spec.required:
-            raise InputError(f"row {row}, column {spec.name}: empty; expected {spec.expectation()}",
+            raise InputError(f"{where}, column {spec.name}: empty; expected {spec.expectation()}",
                              source=source)
         return spec.default
     try:
         if spec.kind == "date":
             return _parse_date(text)
-        return _parse(spec, text, from_text=True)
+        return parse_field(spec, text, from_text=True)
     except (ValueError, TypeError, OverflowError):
         unit = f" [{spec.unit}]" if spec.unit else ""
-        raise InputError(f"row {row}, column {spec.name}: found {text[:40]!r}; expected "
+        raise InputError(f"{where}, column {spec.name}: found {shown(text)}; expected "
                          f"{spec.expectation()}{unit}", source=source) from None
 
 
@@ -190,34 +168,34 @@ def read_capacity_tests(path: Path, sites, start_year: int) -> tuple[list[Capaci
 
     ``sites`` are the study's site rows (``Site``), ``start_year`` its first year.
     """
-    source = str(path)
-    frame = read_table(path, what="the capacity-test table")
-    _check_columns(frame, TEST_COLUMNS, source)
+    table = read_records_table(path, what="the capacity-test table")
+    source = table.source
+    _check_columns(table, TEST_COLUMNS, "the capacity-test table")
     by_id = {s.id: s for s in sites}
     epoch = study_epoch(start_year)
     tests, skipped = [], []
-    for index, record in _non_blank(frame).iterrows():
-        row = int(index) + 2  # the header is row 1
-        values = {spec.name: _cell(spec, str(record.get(spec.name, "")), row, source)
+    for row in table.rows:
+        where = row.where()
+        values = {spec.name: _cell(spec, table.cell(row, spec.name), where, source)
                   for spec in TEST_COLUMNS}
-        test = CapacityTest(row=row, **values)
+        test = CapacityTest(row=row.number, **values)
         site = by_id.get(test.site_id)
         if site is None:
-            raise InputError(f"row {row}, column site_id: unknown site '{test.site_id}'"
+            raise InputError(f"{where}, column site_id: unknown site '{test.site_id}'"
                              f"{closest(test.site_id, by_id)}; expected an id of the sites table",
                              source=source)
-        why = _check_test(test, site, epoch, row, source)
+        why = _check_test(test, site, epoch, where, source)
         if why:
-            skipped.append(f"{path.name} row {row}: {why}; row skipped")
+            skipped.append(f"{path.name} {where}: {why}; row skipped")
             continue
         tests.append(test)
     return tests, skipped
 
 
-def _check_test(test: CapacityTest, site, epoch: dt.date, row: int, source: str) -> str:
+def _check_test(test: CapacityTest, site, epoch: dt.date, where: str, source: str) -> str:
     """Raise for an impossible row; return why a possible one is skipped ('' to keep)."""
     def fail(column, message):
-        raise InputError(f"row {row}, column {column}: {message}", source=source)
+        raise InputError(f"{where}, column {column}: {message}", source=source)
 
     if test.test_date >= epoch:
         fail("test_date", f"{test.test_date.isoformat()} is not before the study's start "
@@ -255,41 +233,39 @@ def _check_test(test: CapacityTest, site, epoch: dt.date, row: int, source: str)
 
 def read_battery_log(path: Path, sites, start_year: int) -> tuple[dict[str, SiteLog], list[str]]:
     """Checked battery log of ``path`` by site id, and the warnings of samples skipped."""
-    source = str(path)
-    frame = read_table(path, what="the battery log", csv_only=True)
-    _check_columns(frame, LOG_COLUMNS, source)
-    frame = _non_blank(frame)
-    if frame.empty:
-        raise InputError("the battery log has no rows: expected one row per sample", source=source)
-    rows = frame.index.to_numpy() + 2
-    text = {c.name: frame[c.name].astype(str).str.strip() for c in LOG_COLUMNS}
+    table = read_records_table(path, what="the battery log", csv_only=True)
+    source = table.source
+    _check_columns(table, LOG_COLUMNS, "the battery log")
+    rows = table.rows
+    stamps = table.column("timestamp")
     for spec in LOG_COLUMNS:
-        empty = (text[spec.name] == "").to_numpy()
-        if empty.any():
-            raise InputError(f"row {rows[np.argmax(empty)]}, column {spec.name}: empty; expected "
-                             f"{spec.expectation()}", source=source)
+        for row, text in zip(rows, table.column(spec.name)):
+            if text == "":
+                raise InputError(f"{row.where()}, column {spec.name}: empty; expected "
+                                 f"{spec.expectation()}", source=source)
+            break  # the first row only here: the number columns check every cell below
     epoch = pd.Timestamp(study_epoch(start_year))
-    hours = _timestamps_h(text["timestamp"], rows, epoch, source)
-    numbers = {c.name: _numbers(c, text[c.name], rows, source) for c in LOG_COLUMNS
-               if c.kind == "float"}
-    ids = text["site_id"].to_numpy()
+    hours = _timestamps_h(stamps, rows, epoch, source)
+    numbers = {c.name: _numbers(table, c) for c in LOG_COLUMNS if c.kind == "float"}
+    ids = np.array(table.column("site_id"), dtype=object)
     by_id = {s.id: s for s in sites}
     logs, skipped = {}, []
     for site_id in pd.unique(ids):
         sel = np.flatnonzero(ids == site_id)
         site = by_id.get(site_id)
         if site is None:
-            raise InputError(f"row {rows[sel[0]]}, column site_id: unknown site '{site_id}'"
-                             f"{closest(site_id, by_id)}; expected an id of the sites table",
+            where = rows[sel[0]].where() if site_id else rows[sel[0]].where()
+            found = f"unknown site '{site_id}'{closest(site_id, by_id)}" if site_id else "empty"
+            raise InputError(f"{where}, column site_id: {found}; expected an id of the sites table",
                              source=source)
         t = hours[sel]
         step = np.diff(t)
         if (step <= 0).any():
             bad = int(np.argmax(step <= 0)) + 1
             what = "repeats the time of" if step[bad - 1] == 0 else "is earlier than"
-            raise InputError(f"row {rows[sel[bad]]}, column timestamp: {text['timestamp'].iloc[sel[bad]]} "
-                             f"{what} row {rows[sel[bad - 1]]} of site {site_id}; expected the site's "
-                             "samples in time order, each time once", source=source)
+            raise InputError(f"{rows[sel[bad]].where()}, column timestamp: {stamps[sel[bad]]} "
+                             f"{what} {rows[sel[bad - 1]].where()} of site {site_id}; expected the "
+                             "site's samples in time order, each time once", source=source)
         if not site.has_existing_pack:
             skipped.append(f"{path.name}: site {site_id} has no pack in service; its samples skipped")
             continue
@@ -301,48 +277,49 @@ def read_battery_log(path: Path, sites, start_year: int) -> tuple[dict[str, Site
                            f"than its pack in service ({int(site.existing_installed_year)}); skipped")
         sel = sel[keep]
         if sel.size:
-            logs[site_id] = SiteLog(site_id, int(rows[sel[0]]), hours[sel], numbers["pack_voltage_v"][sel],
-                                    numbers["current_a"][sel], numbers["battery_temp_c"][sel])
+            logs[site_id] = SiteLog(site_id, int(rows[sel[0]].number), hours[sel],
+                                    numbers["pack_voltage_v"][sel], numbers["current_a"][sel],
+                                    numbers["battery_temp_c"][sel])
     return logs, skipped
 
 
-def _timestamps_h(column: pd.Series, rows, epoch: pd.Timestamp, source: str) -> np.ndarray:
+def _timestamps_h(column: list[str], rows, epoch: pd.Timestamp, source: str) -> np.ndarray:
     """Hours from ``epoch`` of every timestamp; checked form and before the study."""
-    norm = column.str.replace("T", " ", n=1, regex=False)
+    text = pd.Series(column, dtype=object)
+    norm = text.str.replace("T", " ", n=1, regex=False)
     norm = norm.where(norm.str.len() != 16, norm + ":00")
     parsed = pd.to_datetime(norm, format="%Y-%m-%d %H:%M:%S", errors="coerce")
     bad = parsed.isna().to_numpy()
     if bad.any():
         k = int(np.argmax(bad))
-        raise InputError(f"row {rows[k]}, column timestamp: found {column.iloc[k][:40]!r}; expected "
+        found = shown(column[k]) if column[k] else "empty"
+        raise InputError(f"{rows[k].where()}, column timestamp: found {found}; expected "
                          "a date and time YYYY-MM-DD HH:MM or YYYY-MM-DD HH:MM:SS", source=source)
     hours = ((parsed - epoch) / pd.Timedelta(hours=1)).to_numpy(dtype=float)
     late = hours >= 0
     if late.any():
         k = int(np.argmax(late))
-        raise InputError(f"row {rows[k]}, column timestamp: {column.iloc[k]} is not before the "
+        raise InputError(f"{rows[k].where()}, column timestamp: {column[k]} is not before the "
                          f"study's start ({epoch.date().isoformat()}); expected an earlier time",
                          source=source)
     return hours
 
 
-def _numbers(spec: Field, column: pd.Series, rows, source: str) -> np.ndarray:
-    """A column of plain decimals (the study's one number syntax), range-checked."""
-    from planner.study.loading import _PLAIN_DECIMAL
-
-    ok = column.str.fullmatch(_PLAIN_DECIMAL.pattern.strip("^$")).to_numpy(dtype=bool).copy()
-    values = np.full(len(column), np.nan)
-    values[ok] = column[ok].astype(float).to_numpy()
-    ok &= np.isfinite(values)
+def _numbers(table: Table, spec: Field) -> np.ndarray:
+    """A column of plain decimals (the planner's one number parser), range-checked."""
+    unit = f" [{spec.unit}]" if spec.unit else ""
+    values = table.numbers(spec.name, what=spec.expectation() + unit, exponent=False,
+                           allow_blank=False)
+    ok = np.ones(values.size, dtype=bool)
     if spec.minimum is not None:
         ok &= values >= spec.minimum
     if spec.maximum is not None:
         ok &= values <= spec.maximum
     if not ok.all():
         k = int(np.argmax(~ok))
-        unit = f" [{spec.unit}]" if spec.unit else ""
-        raise InputError(f"row {rows[k]}, column {spec.name}: found {column.iloc[k][:40]!r}; "
-                         f"expected {spec.expectation()}{unit}", source=source)
+        raise InputError(f"{table.rows[k].where()}, column {spec.name}: found "
+                         f"{shown(table.cell(table.rows[k], spec.name))}; expected "
+                         f"{spec.expectation()}{unit}", source=table.source)
     return values
 
 

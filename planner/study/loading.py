@@ -1,38 +1,43 @@
 """Load and validate a study: the TOML settings file and its sites table.
 
-Everything is checked before any computation. Each problem is an
-:class:`~planner.errors.InputError` naming the file, the key path or the row and
-column, what was found and what was expected.
+Everything is checked before any computation, and every mistake found is reported
+together (:class:`~planner.errors.MistakeList`): each is one line naming the file, the
+key path or the row and column, what was found and what was expected. Numbers go
+through the one number parser (:mod:`planner.inputs.numbers`), paths through the one resolver
+(:func:`planner.fileio.resolve_path`), tables through :mod:`planner.inputs.tables`.
+
+Paths in a study are relative to the study file's real folder: a study opened through a
+symbolic link reads its sites table, climate and load files, and writes its
+``[output]`` files, beside the file the link points to, so a study means the same
+whatever name it is opened by.
 """
 
 from __future__ import annotations
 
-import io
-import math
 import os
 import re
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
-import numpy as np
-import pandas as pd
-
-from planner.errors import InputError
-from planner.fileio import check_input_file, read_input_bytes
+from planner.errors import InputError, MistakeList
+from planner.fileio import read_input_bytes, resolve_path
+from planner.inputs.numbers import NumberError, parse_number, shown
 from planner.study.field_records import FieldData, load_field_data
 from planner.study.schema import (
     NAMED_SECTIONS,
     SECTIONS,
-    SITE_COLUMNS,
+    THERMAL_MEASURE_IDS,
     Field,
     closest,
 )
 
 ALL_MONTHS = tuple(range(1, 13))
+#: What a [climates.<name>] table may point at (exactly one): key -> words for messages.
+CLIMATE_KINDS = {"file": "climate file", "stations": "station folder", "normals": "normals table"}
 
 
 @dataclass(frozen=True)
@@ -41,6 +46,7 @@ class Site:
 
     row: int
     values: Mapping[str, Any]
+    line: int | None = None   # first line in a text editor, where it differs from the row
 
     def __getattr__(self, name):
         # "values" itself is not there yet while a copy is being unpickled (worker processes)
@@ -55,6 +61,11 @@ class Site:
     def has_existing_pack(self) -> bool:
         return bool(self.values["existing_chemistry"])
 
+    def where(self) -> str:
+        """``row 6`` as the spreadsheet shows it (``row 6 (line 8)`` after a multi-line cell)."""
+        return f"row {self.row}" if self.line in (None, self.row) else \
+            f"row {self.row} (line {self.line})"
+
 
 @dataclass(frozen=True)
 class Study:
@@ -67,6 +78,9 @@ class Study:
     climates: Mapping[str, Mapping[str, Any]]
     sites: tuple[Site, ...]
     sites_path: Path
+    #: Rows of each normals climate's table: climate name -> row id -> checked values.
+    normals: Mapping[str, Mapping[str, Mapping[str, Any]]] = field(
+        default_factory=lambda: MappingProxyType({}))
     # capacity tests and battery logs of the packs in service ([field_data]); None: none
     field_data: FieldData | None = None
 
@@ -110,22 +124,30 @@ class Study:
                 if path is not None:
                     files.setdefault(path, what)
         for name, options in self.climates.items():
-            files.setdefault((base / str(options["file"])).resolve(), f"climate file of [climates.{name}]")
+            for key, what in CLIMATE_KINDS.items():
+                if key in options:
+                    files.setdefault(_real(base / str(options[key])), f"{what} of [climates.{name}]")
+            if "stations" in options:
+                from planner.climate.stations import scan_station_folder
+
+                for station in scan_station_folder(base / str(options["stations"])).stations:
+                    files.setdefault(_real(station.path), f"station file of [climates.{name}]")
         for site in self.sites:
             if site.load_file:
-                files.setdefault((base / site.load_file).resolve(), f"load file of site {site.id}")
+                files.setdefault(_real(base / site.load_file), f"load file of site {site.id}")
             if site.climate not in self.climates and _exists(base / site.climate):
-                files.setdefault((base / site.climate).resolve(), f"climate file of site {site.id}")
+                files.setdefault(_real(base / site.climate), f"climate file of site {site.id}")
         return files
+
+
+def _real(path: Path) -> Path:
+    return Path(os.path.realpath(path))
 
 
 # ---------------------------------------------------------------- value parsing
 
 _MONTH_RANGE = re.compile(r"^\s*([0-9]{1,2})\s*-\s*([0-9]{1,2})\s*$")
 _PLAIN_INTEGER = re.compile(r"^[0-9]{1,2}$")
-#: The one number syntax of a sites-table cell: optional sign, digits, optional decimals
-#: ("2", "-1.5", ".5", "60."). No exponent, digit separators, inf or nan.
-_PLAIN_DECIMAL = re.compile(r"^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)$")
 
 
 def parse_months(text) -> tuple[int, ...]:
@@ -146,20 +168,20 @@ def parse_months(text) -> tuple[int, ...]:
         items = [t for t in re.split(r"[;\s]+", text) if t]
     months = []
     for item in items:
-        if isinstance(item, str):
-            if not _PLAIN_INTEGER.match(item):  # "1e1" is not October
-                raise ValueError
-            item = int(item)
-        if isinstance(item, bool) or float(item) != int(float(item)):
+        if isinstance(item, str) and not _PLAIN_INTEGER.match(item):  # "1e1" is not October
             raise ValueError
-        months.append(int(float(item)))
-    if not months or any(not 1 <= m <= 12 for m in months):
+        months.append(parse_number(item, minimum=1, maximum=12, integer=True))
+    if not months:
         raise ValueError
     return tuple(sorted(set(months)))
 
 
-def _parse(spec: Field, value, *, from_text: bool):
-    """Convert one raw value to the field's kind and check its range; ValueError if bad."""
+def parse_field(spec: Field, value, *, from_text: bool):
+    """Convert one raw value to the field's kind and check its range; ValueError if bad.
+
+    ``from_text``: a sites-table cell (plain decimals, lists separated by ';'); otherwise
+    a TOML value of its own type.
+    """
     kind = spec.kind
     if kind == "months":
         return parse_months(value)
@@ -172,7 +194,7 @@ def _parse(spec: Field, value, *, from_text: bool):
             if not all(isinstance(v, str) and v for v in value):
                 raise ValueError
             return tuple(value)
-        return tuple(_check_range(spec, _number(v, from_text)) for v in value)
+        return tuple(_number(spec, v) for v in value)
     if kind == "str":
         if from_text:
             value = str(value).strip()
@@ -192,68 +214,53 @@ def _parse(spec: Field, value, *, from_text: bool):
         if not isinstance(value, bool):
             raise ValueError
         return value
-    number = _number(value, from_text)
-    if kind == "int":
-        if number != int(number):
-            raise ValueError
-        number = int(number)
-    return _check_range(spec, number)
+    number = _number(spec, value)
+    return int(number) if kind == "int" else number
 
 
-def _number(value, from_text: bool) -> float:
-    if isinstance(value, bool):
-        raise ValueError
-    if from_text:
-        text = str(value).strip()
-        if not _PLAIN_DECIMAL.match(text):  # "1_0" is not 10, "1e1" not 10
-            raise ValueError
-        value = float(text)
-    if not isinstance(value, (int, float)) or not math.isfinite(value):
-        raise ValueError
-    return float(value)
-
-
-def _check_range(spec: Field, number: float) -> float:
-    if spec.minimum is not None:
-        if number < spec.minimum or (spec.exclusive_minimum and number == spec.minimum):
-            raise ValueError
-    if spec.maximum is not None and number > spec.maximum:
-        raise ValueError
-    return number
+def _number(spec: Field, value) -> float:
+    # One parser for every number (planner.inputs.numbers): no exponent in a table cell's text.
+    return float(parse_number(value, minimum=spec.minimum, maximum=spec.maximum,
+                              exclusive_minimum=spec.exclusive_minimum,
+                              integer=spec.kind == "int", exponent=False))
 
 
 def _shown(value) -> str:
-    text = repr(value) if isinstance(value, str) else str(value)
-    return text if len(text) <= 40 else text[:37] + "..."
+    return shown(value)
 
 
-def _validate_table(table, specs, *, where: str, source: str) -> dict[str, Any]:
-    """Check one TOML table against its field specs; fill defaults."""
+def _validate_table(table, specs, *, where: str, source: str, mistakes: MistakeList,
+                    bad: set) -> dict[str, Any]:
+    """Check one TOML table against its field specs; fill defaults.
+
+    Every mistake goes to ``mistakes``; a key that failed gets its default (``None`` if it
+    has none) and its ``(where, key)`` goes to ``bad``, so later checks can skip it.
+    """
+    out = {spec.name: (None if spec.required else spec.default) for spec in specs}
     if not isinstance(table, dict):
-        raise InputError(f"[{where}] must be a table of keys", source=source)
+        mistakes.add(InputError(f"[{where}] must be a table of keys", source=source))
+        bad.update((where, spec.name) for spec in specs)
+        return out
     by_name = {s.name: s for s in specs}
     for key in table:
         if key not in by_name:
-            raise InputError(
-                f"unknown key [{where}].{key}{closest(key, by_name)}", source=source
-            )
-    out = {}
+            mistakes.add(InputError(f"unknown key [{where}].{key}{closest(key, by_name)}",
+                                    source=source))
     for spec in specs:
         if spec.name not in table:
             if spec.required:
-                raise InputError(f"missing key [{where}].{spec.name}: expected {spec.expectation()}",
-                                 source=source)
-            out[spec.name] = spec.default
+                mistakes.add(InputError(f"missing key [{where}].{spec.name}: expected "
+                                        f"{spec.expectation()}", source=source))
+                bad.add((where, spec.name))
             continue
         value = table[spec.name]
         try:
-            out[spec.name] = _parse(spec, value, from_text=False)
+            out[spec.name] = parse_field(spec, value, from_text=False)
         except (ValueError, TypeError):
-            raise InputError(
+            bad.add((where, spec.name))
+            mistakes.add(InputError(
                 f"[{where}].{spec.name} = {_shown(value)}: expected {spec.expectation()}"
-                + (f" [{spec.unit}]" if spec.unit else ""),
-                source=source,
-            ) from None
+                + (f" [{spec.unit}]" if spec.unit else ""), source=source))
     return out
 
 
@@ -261,9 +268,74 @@ def _validate_table(table, specs, *, where: str, source: str) -> dict[str, Any]:
 
 
 def load_study(path) -> Study:
-    """Read, validate and return the study at ``path`` (TOML) with its sites table."""
-    path = Path(path)
-    source = str(path)
+    """Read, validate and return the study at ``path`` (TOML) with its sites table.
+
+    Raises
+    ------
+    planner.errors.InputError
+        One mistake; :class:`planner.errors.InputErrors` (a subclass) for several, each
+        on a line of its own.
+    """
+    source = os.fspath(path) if not isinstance(path, bytes) else os.fsdecode(path)
+    real = resolve_path(path, what="a study file (TOML)")
+    doc = _read_toml(path, source)
+    mistakes, bad = MistakeList(), set()
+
+    known = set(SECTIONS) | set(NAMED_SECTIONS)
+    for key in doc:
+        if key not in known:
+            mistakes.add(InputError(f"unknown section [{key}]{closest(key, known)}", source=source))
+    if "study" not in doc:
+        mistakes.add(InputError("missing section [study]: expected at least [study].sites_file",
+                                source=source))
+    settings = {}
+    for name, specs in SECTIONS.items():
+        if name not in doc and any(spec.required for spec in specs):  # said once, above
+            settings[name] = {spec.name: None if spec.required else spec.default for spec in specs}
+            continue
+        settings[name] = _validate_table(doc.get(name, {}), specs, where=name, source=source,
+                                         mistakes=mistakes, bad=bad)
+    named = _named_sections(doc, source, mistakes, bad)
+
+    _check_chemistries(settings["candidates"]["chemistries"], named["prices"], source, mistakes)
+    _check_rates(settings["study"], bad, source, mistakes)
+    if ("thermal", "measures") not in bad:
+        with mistakes.catch():
+            check_measure_ids(settings["thermal"]["measures"], "[thermal].measures", source)
+
+    from planner.study.sites import check_study_files, read_sites_table, validate_sites
+
+    base = real.parent
+    sites, sites_path, normals = (), None, {}
+    if settings["study"]["sites_file"]:
+        with mistakes.catch():
+            sites_path = resolve_path(base / settings["study"]["sites_file"], what="the sites table")
+            table = read_sites_table(sites_path)
+            start_year = None if ("study", "start_year") in bad else settings["study"]["start_year"]
+            chemistries = () if ("candidates", "chemistries") in bad else \
+                settings["candidates"]["chemistries"]
+            sites = tuple(validate_sites(table, mistakes, start_year=start_year,
+                                         chemistries=chemistries))
+            if len(table) and all(table.has(c) for c in ("region", "climate")):
+                normals = check_study_files(sites, table, named, base, sites_path, source,
+                                            mistakes)
+    mistakes.raise_if_any()
+    # field records are checked against valid sites only: after every other mistake
+    field_data = load_field_data(settings, base, sites)
+    return Study(
+        path=real,
+        settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
+        prices=MappingProxyType(named["prices"]),
+        regions=MappingProxyType(named["regions"]),
+        climates=MappingProxyType(named["climates"]),
+        sites=sites,
+        sites_path=sites_path,
+        normals=MappingProxyType(normals),
+        field_data=field_data,
+    )
+
+
+def _read_toml(path, source: str) -> dict:
     data = read_input_bytes(path, what="a study file (TOML)")
     try:
         # A byte-order mark, as some Windows editors write, is not part of the TOML.
@@ -272,77 +344,87 @@ def load_study(path) -> Study:
         raise InputError(f"cannot read the file ({err.__class__.__name__}): expected UTF-8 TOML",
                          source=source) from None
     try:
-        doc = tomllib.loads(text)
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"not valid TOML: {err}", source=source) from None
     except RecursionError:
         raise InputError("not valid TOML for a study: arrays or tables nested too deeply",
                          source=source) from None
 
-    known = set(SECTIONS) | set(NAMED_SECTIONS)
-    for key in doc:
-        if key not in known:
-            raise InputError(f"unknown section [{key}]{closest(key, known)}", source=source)
-    if "study" not in doc:
-        raise InputError("missing section [study]: expected at least [study].sites_file",
-                         source=source)
 
-    settings = {
-        name: _validate_table(doc.get(name, {}), specs, where=name, source=source)
-        for name, specs in SECTIONS.items()
-    }
+def _named_sections(doc, source: str, mistakes: MistakeList, bad: set) -> dict:
+    """[prices.<chemistry>], [regions.<name>], [climates.<name>]: each sub-table checked."""
     named = {}
     for name, specs in NAMED_SECTIONS.items():
         table = doc.get(name, {})
-        if not isinstance(table, dict):
-            raise InputError(f"[{name}] must hold sub-tables like [{name}.<name>]", source=source)
         named[name] = {}
+        if not isinstance(table, dict):
+            mistakes.add(InputError(f"[{name}] must hold sub-tables like [{name}.<name>]",
+                                    source=source))
+            continue
         for sub, sub_table in table.items():
             where = f"{name}.{sub}"
             if specs is None:
                 if not isinstance(sub_table, dict):
-                    raise InputError(f"[{where}] must be a table of keys", source=source)
+                    mistakes.add(InputError(f"[{where}] must be a table of keys", source=source))
+                    continue
                 named[name][sub] = MappingProxyType(dict(sub_table))
             else:
-                named[name][sub] = MappingProxyType(
-                    _validate_table(sub_table, specs, where=where, source=source))
-
-    _check_chemistries(settings["candidates"]["chemistries"], named["prices"], source)
-
-    base = path.parent
-    sites_path = (base / settings["study"]["sites_file"]).resolve()
-    raw = read_sites_table(sites_path)
-    sites = tuple(_validate_sites(raw, sites_path, settings, named))
-    _check_regions(sites, named["regions"], source)
-    _check_climates(sites, named["climates"], base, sites_path, source)
-    field_data = load_field_data(settings, base, sites)
-    return Study(
-        path=path.resolve(),
-        settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
-        prices=MappingProxyType(named["prices"]),
-        regions=MappingProxyType(named["regions"]),
-        climates=MappingProxyType(named["climates"]),
-        sites=sites,
-        sites_path=sites_path,
-        field_data=field_data,
-    )
+                named[name][sub] = MappingProxyType(_validate_table(
+                    sub_table, specs, where=where, source=source, mistakes=mistakes, bad=bad))
+    return named
 
 
-def _check_chemistries(chosen, prices, source):
+def _check_chemistries(chosen, prices, source, mistakes: MistakeList):
     from planner.chemistry import CHEMISTRY_IDS
 
     for chem in chosen:
         if chem not in CHEMISTRY_IDS:
-            raise InputError(
+            mistakes.add(InputError(
                 f"[candidates].chemistries: unknown chemistry '{chem}'{closest(chem, CHEMISTRY_IDS)};"
-                f" expected some of {', '.join(CHEMISTRY_IDS)}", source=source)
+                f" expected some of {', '.join(CHEMISTRY_IDS)}", source=source))
     if len(set(chosen)) != len(chosen):
-        raise InputError("[candidates].chemistries lists a chemistry twice", source=source)
+        mistakes.add(InputError("[candidates].chemistries lists a chemistry twice", source=source))
     for chem in prices:
         if chem not in CHEMISTRY_IDS:
-            raise InputError(
+            mistakes.add(InputError(
                 f"[prices.{chem}]: unknown chemistry{closest(chem, CHEMISTRY_IDS)};"
-                f" expected one of {', '.join(CHEMISTRY_IDS)}", source=source)
+                f" expected one of {', '.join(CHEMISTRY_IDS)}", source=source))
+
+
+def _check_rates(study: Mapping, bad: set, source: str, mistakes: MistakeList):
+    """The real rate a nominal rate and inflation give must lie where present values keep
+    their meaning (:data:`planner.economics.MIN_REAL_RATE_FRAC` says why)."""
+    from planner.economics import MAX_REAL_RATE_FRAC, MIN_REAL_RATE_FRAC, real_rate
+
+    nominal, inflation = study["nominal_rate_frac"], study["inflation_frac"]
+    if nominal is None or {("study", "nominal_rate_frac"), ("study", "inflation_frac")} & bad:
+        return
+    real = float(real_rate(nominal, inflation))
+    if not MIN_REAL_RATE_FRAC <= real <= MAX_REAL_RATE_FRAC:
+        mistakes.add(InputError(
+            f"[study].nominal_rate_frac = {nominal:g} with inflation_frac = {inflation:g} gives a "
+            f"real discount rate of {real:+.1%} a year; expected a real rate from "
+            f"{MIN_REAL_RATE_FRAC:+.1%} to {MAX_REAL_RATE_FRAC:+.0%} (below it a pack's residual "
+            "value at the horizon could be worth more today than its price)", source=source))
+
+
+def check_measure_ids(ids, where: str, source: str) -> tuple[str, ...]:
+    """Thermal measure ids of ``[thermal].measures`` or a site's column: known ids, or
+    ``none`` alone."""
+    ids = tuple(ids)
+    if "none" in ids:
+        if len(ids) > 1:
+            raise InputError(f"{where}: 'none' together with {', '.join(i for i in ids if i != 'none')};"
+                             " expected 'none' alone (no measure) or some of "
+                             f"{', '.join(THERMAL_MEASURE_IDS)}", source=source)
+        return ()
+    for i in ids:
+        if i not in THERMAL_MEASURE_IDS:
+            raise InputError(f"{where}: unknown thermal measure {_shown(i)}"
+                             f"{closest(i, THERMAL_MEASURE_IDS)}; expected 'none' or some of "
+                             f"{', '.join(THERMAL_MEASURE_IDS)}", source=source)
+    return ids
 
 
 def _exists(path: Path) -> bool:
@@ -354,177 +436,4 @@ def _exists(path: Path) -> bool:
     return True
 
 
-def _check_regions(sites, regions, source: str):
-    """A [regions.<name>] table no site uses is a mistake (most often a misspelling): its
-    trip costs would silently not apply. Sites of a region without a table use [costs]."""
-    used = sorted({site.region for site in sites})
-    for name in regions:
-        if name not in used:
-            hint = closest(name, used) or f"; the sites' regions are {', '.join(used)}"
-            raise InputError(f"[regions.{name}] is used by no site{hint}; expected a region "
-                             "named in the sites table's region column", source=source)
-
-
-def _check_climates(sites, climates, base: Path, sites_path: Path, source: str):
-    """Every site's climate must be bundled, a [climates.<name>] entry or an existing file."""
-    from planner.climate import list_bundled
-
-    bundled = [name for name, _ in list_bundled()]
-    for name, options in climates.items():
-        if "file" not in options:
-            raise InputError(f"[climates.{name}] has no key 'file': expected the climate file's path",
-                             source=source)
-        if _exists(base / str(options["file"])):
-            check_input_file(base / str(options["file"]), what="a climate file")
-        else:
-            raise InputError(f"[climates.{name}].file = {_shown(options['file'])}: file not found; "
-                             "expected an EPW, TMY3, TMY2 or CSV file beside the study", source=source)
-    for site in sites:
-        if site.load_file and _exists(base / site.load_file):
-            check_input_file(base / site.load_file, what="an hourly load CSV")
-        elif site.load_file:
-            raise InputError(f"row {site.row}, column load_file: {_shown(site.load_file)} not found; "
-                             "expected an hourly load CSV beside the study", source=str(sites_path))
-        name = site.climate
-        if name in bundled or name in climates:
-            continue
-        if _exists(base / name):
-            check_input_file(base / name, what="a climate file")
-            continue
-        raise InputError(
-            f"row {site.row}, column climate: found {_shown(name)}{closest(name, bundled)}; expected a "
-            f"bundled climate ({', '.join(bundled)}), a [climates.<name>] entry or a climate file",
-            source=str(sites_path))
-
-
-# ---------------------------------------------------------------- sites table
-
-
-def read_sites_table(path: Path) -> pd.DataFrame:
-    """The sites table as text cells (CSV or XLSX), headers stripped."""
-    source = str(path)
-    suffix = path.suffix.lower()
-    if suffix not in (".csv", ".xlsx"):
-        raise InputError(f"sites table must be .csv or .xlsx, found '{path.suffix}'", source=source)
-    data = io.BytesIO(read_input_bytes(path, what="the sites table"))
-    try:
-        if suffix == ".csv":
-            frame = pd.read_csv(data, dtype=str, keep_default_na=False, skipinitialspace=True,
-                                comment=None, encoding="utf-8-sig")
-        else:
-            frame = _read_first_sheet(data, source)
-    except pd.errors.EmptyDataError:
-        raise InputError("the sites table is empty: expected a header row and one row per site",
-                         source=source) from None
-    except Exception as err:  # noqa: BLE001 - any parser failure is a user-file problem
-        message = str(err).splitlines()[0] if str(err) else err.__class__.__name__
-        raise InputError(f"cannot read the sites table: {message}", source=source) from None
-    frame.columns = [str(c).strip() for c in frame.columns]
-    return frame
-
-
-def _read_first_sheet(data, source: str) -> pd.DataFrame:
-    """The first sheet as text; numbers written in plain decimals (never ``1e-05``)."""
-    book = pd.ExcelFile(data, engine="openpyxl")
-    frame = pd.read_excel(book, sheet_name=book.sheet_names[0], dtype=object,
-                          keep_default_na=False)
-    if frame.columns.empty and len(book.sheet_names) > 1:
-        raise InputError(f"the first sheet ('{book.sheet_names[0]}') is empty; expected the "
-                         "sites table on the first sheet", source=source)
-    frame.attrs["sheets"] = list(book.sheet_names)
-    return frame.apply(lambda column: column.map(_cell_text))
-
-
-def _cell_text(value) -> str:
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, float):
-        return np.format_float_positional(value, trim="-") if math.isfinite(value) else str(value)
-    return str(value)
-
-
-def _table_hint(frame: pd.DataFrame, column: str) -> str:
-    """Why a header may look unknown: a ';'-separated CSV, or the table on another sheet."""
-    if len(frame.columns) == 1 and (";" in column or "\t" in column):
-        return "; the header looks separated by ';' or tabs: expected a comma-separated CSV"
-    sheets = frame.attrs.get("sheets") or []
-    if len(sheets) > 1:
-        return (f"; the table is read from the first sheet ('{sheets[0]}') of "
-                f"{', '.join(repr(s) for s in sheets)}")
-    return ""
-
-
-def _validate_sites(frame: pd.DataFrame, path: Path, settings, named) -> list[Site]:
-    source = str(path)
-    by_name = {s.name: s for s in SITE_COLUMNS}
-    for column in frame.columns:
-        if column not in by_name:
-            hint = closest(column, by_name) + _table_hint(frame, column)
-            raise InputError(f"unknown column '{_shown(column)[1:-1]}'{hint}", source=source)
-    for spec in SITE_COLUMNS:
-        if spec.required and spec.name not in frame.columns:
-            raise InputError(f"missing column '{spec.name}': expected {spec.expectation()}",
-                             source=source)
-    if frame.empty:
-        raise InputError("the sites table has no rows: expected one row per site", source=source)
-
-    sites, seen = [], {}
-    for index, record in enumerate(frame.to_dict("records")):
-        row = index + 2  # spreadsheet row number: the header is row 1
-        values = {}
-        for spec in SITE_COLUMNS:
-            cell = str(record.get(spec.name, "")).strip()
-            if cell == "":
-                if spec.required:
-                    raise InputError(f"row {row}, column {spec.name}: empty; expected "
-                                     f"{spec.expectation()}", source=source)
-                values[spec.name] = spec.default
-                continue
-            try:
-                values[spec.name] = _parse(spec, cell, from_text=True)
-            except (ValueError, TypeError, OverflowError):
-                unit = f" [{spec.unit}]" if spec.unit else ""
-                raise InputError(f"row {row}, column {spec.name}: found {_shown(cell)}; expected "
-                                 f"{spec.expectation()}{unit}", source=source) from None
-        site_id = values["id"]
-        if site_id in seen:
-            raise InputError(f"row {row}, column id: duplicate site id '{site_id}' "
-                             f"(first on row {seen[site_id]}); expected unique ids", source=source)
-        seen[site_id] = row
-        values["name"] = values["name"] or site_id
-        _check_site_rules(values, row, source, settings["study"]["start_year"])
-        sites.append(Site(row=row, values=MappingProxyType(values)))
-    return sites
-
-
-def _check_site_rules(values, row, source, start_year):
-    """Rules that involve more than one column."""
-    def fail(column, message):
-        raise InputError(f"row {row}, column {column}: {message}", source=source)
-
-    if values["charging"] == "pv" and values["pv_wp"] <= 0:
-        fail("pv_wp", "empty or 0 with charging = pv; expected the PV array size in Wp (> 0)")
-    bursts = [values["burst_w"] > 0, values["burst_s"] > 0, values["burst_every_min"] > 0]
-    if any(bursts) and not all(bursts):
-        fail("burst_w", "burst_w, burst_s and burst_every_min go together; expected all three > 0")
-    if all(bursts) and values["burst_s"] > values["burst_every_min"] * 60:
-        fail("burst_s", "a burst longer than the time between bursts; expected burst_s <= "
-                        "60 x burst_every_min")
-    for column, count in (("load_schedule_w", 24), ("load_monthly_factors", 12)):
-        if values[column] and len(values[column]) != count:
-            fail(column, f"{len(values[column])} values; expected {count} separated by ';'")
-    existing = values["existing_chemistry"]
-    if existing:
-        from planner.chemistry import CHEMISTRY_IDS
-
-        if existing not in CHEMISTRY_IDS:
-            fail("existing_chemistry", f"unknown chemistry '{existing}'"
-                 f"{closest(existing, CHEMISTRY_IDS)}; expected one of {', '.join(CHEMISTRY_IDS)}")
-        if values["existing_capacity_wh"] <= 0:
-            fail("existing_capacity_wh", "empty with an existing pack; expected its capacity in Wh")
-        if values["existing_installed_year"] <= 0:
-            fail("existing_installed_year", "empty with an existing pack; expected the year it was "
-                                            "installed")
-        if values["existing_installed_year"] > start_year:
-            fail("existing_installed_year", f"{values['existing_installed_year']} is after the study's "
-                                            f"start_year {start_year}; expected an earlier year")
+__all__ = ["Site", "Study", "load_study", "parse_months", "parse_field", "NumberError"]

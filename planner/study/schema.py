@@ -89,7 +89,9 @@ STUDY = (
     F("warming_k", "float", 0.0, "K", -5.0, 10.0,
       doc="Added to every hourly air temperature (climate-change sensitivity)."),
     F("report_soh_frac", "float", 0.8, "fraction", 0.5, 0.99,
-      doc="State of health used to report a 'life' figure (planning uses the site requirement)."),
+      doc="State of health at which the plan also reports each chosen pack's years "
+          "(years_to_report_soh, Sites column 'Years to ... SOH'); lives and replacements use "
+          "each site's own end of life (eol_soh_frac)."),
 )
 
 CANDIDATES = (
@@ -154,6 +156,9 @@ LIMITS = (
     F("payload_kg_per_trip", "float", 0.0, "kg", 0.0, 1e6, doc="0 means no limit."),
 )
 
+#: Thermal measure ids (planner.site.thermal_measures prices each; a test keeps the two equal).
+THERMAL_MEASURE_IDS = ("insulated-box", "heater", "heater-box", "sun-shield", "vault")
+
 THERMAL = (
     F("measures", "strs", ("insulated-box", "heater-box", "sun-shield", "vault"),
       doc="Thermal measures a new installation may add where they can matter (heaters and the "
@@ -187,6 +192,22 @@ SOLVER = (
     F("gap_rel_frac", "float", 0.005, "fraction", 0.0, 0.5, doc="Relative optimality gap to stop at."),
 )
 
+LOCATION = (
+    F("station_distance_limit_km", "float", 150.0, "km", 1.0, 20000.0,
+      doc="A site farther than this from its nearest station (a climate of [climates.<name>] "
+          "with stations) gets a warning naming the distance. A typical year stands for its "
+          "region's monthly statistics, not its day-to-day weather; monthly temperature and "
+          "irradiation stay similar over roughly 100-200 km of open terrain (from memory)."),
+    F("station_altitude_limit_m", "float", 500.0, "m", 1.0, 9000.0,
+      doc="A site whose altitude differs from its station's (or its named normals') by more "
+          "than this gets a warning with the shift applied: real gradients near the ground "
+          "range about 4-8 K/km and valleys hold cold air on clear nights (from memory), so "
+          "500 m leaves the standard-gradient shift about 1 K uncertain."),
+    F("lapse_rate_k_per_km", "float", 6.5, "K/km", 0.0, 10.0,
+      doc="Air temperature falls this much per km of altitude when a climate is moved to a "
+          "site's altitude_m (ICAO standard atmosphere 6.5 K/km; 0 switches the shift off)."),
+)
+
 OUTPUT = (
     F("workbook", "str", "", doc="Workbook path; default output/<study file name>.xlsx."),
     F("json", "str", "", doc="Optional JSON path for the same plan."),
@@ -195,12 +216,14 @@ OUTPUT = (
     F("sensitivity", "bool", True, doc="Re-solve for trip cost, discount rate and warming."),
 )
 
-# Longest planned service per chemistry: the fade laws leave out seals, dry-out and
-# electronics, so a cap applies (chemistries.toml holds the default with its source).
+# The user's ceiling on service per chemistry. Seals, electronics, imbalance and standby
+# drain have lives of their own per site (chemistries.toml [<id>.components]); the lower
+# of the ceiling and those applies.
 SERVICE_LIFE = tuple(
     F(chem_id, "float", None, "years", 1.0, 60.0,
       doc=f"Longest service planned for a {chem_id} pack (a vendor's design life or warranty); "
-          "blank = the chemistry library's value (`planner life --list`).")
+          "the lower of it and the component lives applies; blank = no ceiling "
+          "(`planner life --list` shows the component lives' sources).")
     for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
 
 # Field records of the packs in service (planner.evidence): capacity tests and battery
@@ -231,6 +254,7 @@ SECTIONS = {
     "service_life": SERVICE_LIFE,
     "limits": LIMITS,
     "thermal": THERMAL,
+    "location": LOCATION,
     "solver": SOLVER,
     "output": OUTPUT,
     "field_data": FIELD_DATA,
@@ -243,7 +267,21 @@ SITE_COLUMNS = (
     F("id", "str", doc="Unique site id."),
     F("name", "str", "", doc="Site name; defaults to the id."),
     F("region", "str", doc="Trip region: one planned trip serves every site of its region visited that year."),
-    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry, or an EPW/TMY3/TMY2 file."),
+    F("climate", "str", doc="Bundled climate name, a [climates.<name>] entry (a weather file, a "
+      "folder of station files or a table of monthly normals), or an EPW/TMY3/TMY2 file."),
+    F("latitude_deg", "float", None, "deg N", -90.0, 90.0,
+      doc="Site latitude (south negative). With longitude_deg: sun, irradiance and PV at the "
+          "site's own position; required by station-folder and normals climates."),
+    F("longitude_deg", "float", None, "deg E", -180.0, 180.0,
+      doc="Site longitude (west negative); given with latitude_deg."),
+    F("altitude_m", "float", None, "m", -500.0, 8850.0,
+      doc="Site altitude above sea level: the climate's air temperature is moved to it by "
+          "[location].lapse_rate_k_per_km; blank = the climate's own altitude."),
+    F("utc_offset_h", "float", None, "h", -12.0, 14.0,
+      doc="Local standard time minus UTC at the site (with coordinates); blank = the nautical "
+          "zone round(longitude / 15)."),
+    F("normals_id", "str", "",
+      doc="Row of the site's normals table (a climate with normals); blank = the site's id."),
     F("enclosure", "str", "cabinet-sun", choices=("cabinet-sun", "cabinet-shade", "vault", "shelter"),
       doc="Enclosure kind (sets the thermal model's defaults)."),
     F("load_w", "float", unit="W", minimum=0.0, maximum=5000.0, doc="Continuous load (mean power)."),
@@ -278,6 +316,10 @@ SITE_COLUMNS = (
     F("electronics_heat_w", "float", None, "W", 0.0, 5000.0,
       doc="Heat released in the enclosure by electronics; blank = the load's mean power."),
     F("warming_k", "float", 0.0, "K", -5.0, 10.0, doc="Added to the study's warming offset."),
+    F("condensation", "str", "auto", choices=("auto", "dry", "occasional", "frequent"),
+      doc="How often moisture condenses on the pack (it ages seals and terminals): auto = "
+          "from the weather file's dew point when it has one, else by enclosure (shelter "
+          "dry, vault frequent, cabinets occasional)."),
     F("existing_chemistry", "str", "", doc="Chemistry of the pack installed today (blank: new pack at start)."),
     F("existing_capacity_wh", "float", 0.0, "Wh", 0.0, 1e7),
     F("existing_installed_year", "int", 0, "calendar year", 0, 2100),
@@ -338,6 +380,33 @@ LOG_COLUMNS = (
     F("battery_temp_c", "float", unit="°C", minimum=-60.0, maximum=90.0, doc="Battery temperature."),
 )
 
+MONTHS = ("jan", "feb", "mar", "apr", "may", "jun", "jul", "aug", "sep", "oct", "nov", "dec")
+CLOUDINESS = ("clear", "few", "scattered", "broken", "overcast")
+
+#: Columns of a monthly-normals table ([climates.<name>] normals = "file").
+NORMALS_COLUMNS = (
+    F("id", "str", doc="A site id, or a name sites give in their normals_id column."),
+    *(F(f"tmin_{m}_c", "float", unit="°C", minimum=-90.0, maximum=60.0,
+        doc="Mean daily minimum air temperature of the month." if m == "jan" else "")
+      for m in MONTHS),
+    *(F(f"tmax_{m}_c", "float", unit="°C", minimum=-90.0, maximum=60.0,
+        doc="Mean daily maximum air temperature of the month." if m == "jan" else "")
+      for m in MONTHS),
+    *(F(f"ghi_{m}_kwh_m2_day", "float", None, "kWh/m² per day", 0.0, 12.0,
+        doc="Monthly mean daily global horizontal irradiation (all 12 or none)."
+        if m == "jan" else "")
+      for m in MONTHS),
+    F("cloudiness", "str", "", choices=CLOUDINESS,
+      doc="Instead of irradiation: the usual cloud amount (clear 0, few 1-2, scattered 3-4, "
+          "broken 5-7, overcast 8 oktas), turned into clearness by Kasten & Czeplak (1980)."),
+    F("altitude_m", "float", None, "m", -500.0, 8850.0,
+      doc="Altitude the normals were measured at; blank = the site's own (no lapse shift)."),
+    F("wind_speed_m_s", "float", 2.0, "m/s", 0.0, 40.0, doc="Mean wind speed (constant)."),
+    F("day_to_day_sd_k", "float", 2.0, "K", 0.0, 10.0,
+      doc="Standard deviation of the day-to-day anomaly of daily mean temperature."),
+    F("notes", "str", "", doc="Free text (where the normals come from)."),
+)
+
 
 def reference_markdown() -> str:
     """The study-file reference (``docs/study-file.md``), generated from the tables above."""
@@ -360,12 +429,41 @@ def reference_markdown() -> str:
         f"{MAX_MONEY:g} and `[limits].annual_budget` at most {MAX_BUDGET:g}, in any currency: far above",
         "any real amount, and small enough that fleet sums stay finite for the optimizer.",
         "",
-        "A `[regions.<region>]` table that no site uses is an error (the closest region of the",
-        "sites is suggested); sites in a region without a table use the `[costs]` defaults.",
+        "A `[regions.<region>]` or `[climates.<name>]` table that no site uses is an error (the",
+        "closest name of the sites is suggested); sites in a region without a table use the",
+        "`[costs]` defaults.",
         "",
         "Numbers in the sites table are plain decimals: an optional sign, digits and an optional",
         "decimal point (`2`, `-1.5`, `0.25`). Exponents (`1e1`), digit separators (`1_0`, `1,000`),",
-        "`inf` and `nan` are errors; months are whole numbers 1-12.",
+        "`inf` and `nan` are errors; months are whole numbers 1-12. Every number of the study, the",
+        "sites table, a climate declaration or a command-line option goes through one parser",
+        "(`planner.inputs.numbers`): non-finite values and huge integers are refused like any value out of",
+        "range.",
+        "",
+        "Every mistake of the study and its sites table is reported in one run, one line each (at",
+        "most 20, then a count of the rest); a row with a bad cell skips the rules that join",
+        "several columns. Rows are numbered as a spreadsheet shows them: the header is row 1 and",
+        "blank rows count (a row after a value spanning several lines also gives its line in an",
+        "editor). Rows whose cells are all blank are skipped. A row with more fields than the",
+        "header, a header name used twice and an unnamed header cell above values are errors",
+        "naming the row or the column's position.",
+        "",
+        "Rules that join keys or columns: with `nominal_rate_frac`, the real rate",
+        "(1 + nominal)/(1 + inflation) - 1 must lie from -1.5 % to 50 % a year (below about -1.65 %",
+        "a pack's residual value at a 60-year horizon would be worth more today than its price,",
+        "and the total present cost loses its meaning; `planner.economics.MIN_REAL_RATE_FRAC`);",
+        "`existing_capacity_wh`, `existing_installed_year` and `existing_soh_frac` need",
+        "`existing_chemistry`; a `system_voltage_v` below one cell of every candidate chemistry",
+        "(or of the pack in service) is an error, and a chemistry whose single cell is above it is",
+        "not offered at that site (the plan says so in the site's warnings); `thermal_measures`",
+        "and `[thermal].measures` take `none` alone or known ids. A measured `existing_soh_frac`",
+        "caps the pack's health from the study's start: the pack continues from the point of its",
+        "simulated fade curve at that health, or, when the measurement is below the whole curve,",
+        "fades from it at the curve's relative pace (`planner.aging.measured`).",
+        "",
+        "Paths are relative to the study file's real folder: a study opened through a symbolic",
+        "link reads its tables and writes its `[output]` files beside the file the link points to.",
+        "`[output].json = \"-\"` prints the JSON on standard output, as `--json -` does.",
         "",
         "Input files (the study, its sites table, climate and load files) must be regular files of",
         f"at most {_input_limit_mib()} MiB each; a folder, device, named pipe or socket is refused before",
@@ -381,8 +479,16 @@ def reference_markdown() -> str:
               "Optional, one table per region named in the sites table.", "",
               *rows(NAMED_SECTIONS["regions"]), ""]
     lines += ["## [climates.<name>]", "",
-              "Optional: a user climate file and how to read it (`file` plus the reading options",
-              "in `docs/climate.md`); sites then name it in their `climate` column.", ""]
+              "Optional, one table per user climate; sites name it in their `climate` column. Each",
+              "holds exactly one of:", "",
+              "- `file`: a weather file (EPW, TMY3, TMY2 or plain CSV) and its reading options",
+              "  (`docs/climate.md`);",
+              "- `stations`: a folder of weather files; each site (with `latitude_deg` and",
+              "  `longitude_deg`) takes the nearest station by great-circle distance, its air",
+              "  temperature moved to the site's `altitude_m` (`[location]`);",
+              "- `normals`: a table (CSV or XLSX) of monthly normals, columns below; each site",
+              "  (with coordinates) takes the row named by its `normals_id` or its `id`.", "",
+              "Paths are relative to the study file.", ""]
     lines += ["## Sites table columns", "",
               "One row per site. Months are written `6-9`, `11-3` (wrapping), `5;6;7` or `all`.", "",
               *rows(SITE_COLUMNS), ""]
@@ -399,6 +505,11 @@ def reference_markdown() -> str:
               "CSV), sorted by time within each site, no time twice. Samples before the pack's",
               "installation year are skipped with a warning (a pack replaced since).", "",
               *rows(LOG_COLUMNS), ""]
+    lines += ["## Normals table columns", "",
+              "One row per site or per named set of normals; every month of `tmin_<mon>_c` and",
+              "`tmax_<mon>_c` (`jan` ... `dec`) is required, the minimum below the maximum. The",
+              "same columns exist for every month where the first one is described.", "",
+              *rows(NORMALS_COLUMNS), ""]
     lines += ["## Complete example", "", "`scenarios/corvale.toml` with `scenarios/corvale_sites.csv`;",
               "`planner new DIR` writes a commented starter with every key.", ""]
     return "\n".join(lines)

@@ -45,6 +45,8 @@ ALBEDO_FRAC = 0.2
 #: Default electric power of a battery heater pad, W (from memory: pads for
 #: 100-200 Ah packs are typically 20-100 W).
 DEFAULT_HEATER_POWER_W = 50.0
+#: Sites whose enclosure irradiance is computed together (bounds the temporary arrays).
+FLUX_BLOCK_SITES = 128
 
 
 # --------------------------------------------------------------------------- drives
@@ -66,15 +68,45 @@ def surface_irradiance_w_m2(year: TypicalYear, tilt_deg: float, azimuth_deg: flo
 
     from planner.climate.solar import solar_geometry
 
-    sun = solar_geometry(year.latitude_deg, year.longitude_deg, year.altitude_m,
-                         year.utc_offset_h)
+    if year.sun is not None:
+        zenith, azimuth = year.sun.apparent_zenith_deg, year.sun.azimuth_deg
+    else:
+        sun = solar_geometry(year.latitude_deg, year.longitude_deg, year.altitude_m,
+                             year.utc_offset_h)
+        zenith, azimuth = sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy()
     parts = pvlib.irradiance.get_total_irradiance(
-        tilt_deg, azimuth_deg, sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy(),
+        tilt_deg, azimuth_deg, zenith, azimuth,
         year.dni_w_m2, year.ghi_w_m2, year.dhi_w_m2, albedo=ALBEDO_FRAC, model="isotropic")
     beam = np.nan_to_num(np.asarray(parts["poa_direct"], float))
     sky = np.nan_to_num(np.asarray(parts["poa_sky_diffuse"], float))
     grd = np.nan_to_num(np.asarray(parts["poa_ground_diffuse"], float))
     return np.maximum(beam * (1.0 - beam_shading_frac) + sky * sky_view_frac + grd, 0.0)
+
+
+def enclosure_flux_many_w(years: Sequence[TypicalYear], enclosures: Sequence[Enclosure]) -> np.ndarray:
+    """Area-weighted irradiance on the top and four walls of n enclosures, (8760, n), W.
+
+    The same isotropic-sky transposition as :func:`surface_irradiance_w_m2` (Liu & Jordan
+    1963: beam DNI cos(AOI) >= 0, sky DHI (1 + cos tilt)/2, ground GHI albedo
+    (1 - cos tilt)/2) in closed form for many sites with their own sun (``year.sun``):
+    on four walls at right angles the beam projections sum to
+    DNI sin(z) (|cos(dA)| + |sin(dA)|), dA = sun azimuth - first wall's azimuth.
+    """
+    zen = np.radians(np.column_stack([y.sun.apparent_zenith_deg for y in years]))
+    azi = np.radians(np.column_stack([y.sun.azimuth_deg for y in years]))
+    dni = np.column_stack([y.dni_w_m2 for y in years])
+    ghi = np.column_stack([y.ghi_w_m2 for y in years])
+    dhi = np.column_stack([y.dhi_w_m2 for y in years])
+    top = np.array([e.area_top_m2 for e in enclosures])[None, :]
+    wall = np.array([e.area_wall_m2 for e in enclosures])[None, :]
+    beam_kept = 1.0 - np.array([e.beam_shading_frac for e in enclosures])[None, :]
+    sky = np.array([e.sky_view_frac for e in enclosures])[None, :]
+    facing = azi - np.radians([e.azimuth_deg for e in enclosures])[None, :]
+    beam_top = np.maximum(dni * np.cos(zen), 0.0)
+    beam_walls = np.maximum(dni * np.sin(zen), 0.0) * (np.abs(np.cos(facing))
+                                                        + np.abs(np.sin(facing)))
+    return (top * (beam_top * beam_kept + dhi * sky)
+            + wall * (beam_walls * beam_kept + 2.0 * (dhi * sky + ghi * ALBEDO_FRAC)))
 
 
 def solar_gain_w(year: TypicalYear, enclosure: Enclosure) -> np.ndarray:
@@ -124,14 +156,28 @@ def ground_temperature_c(year: TypicalYear, enclosure: Enclosure) -> np.ndarray:
         diffusivity_m2_day=enclosure.soil_diffusivity_m2_day)
 
 
-def equilibrium_temp_c(year: TypicalYear, enclosure: Enclosure, internal_heat_w=0.0):
-    """Free equilibrium temperature T_drive + (Q_solar + Q_internal) / UA, degC (8760,)."""
+def equilibrium_temp_c(year: TypicalYear, enclosure: Enclosure, internal_heat_w=0.0,
+                       flux_w=None):
+    """Free equilibrium temperature T_drive + (Q_solar + Q_internal) / UA, degC (8760,).
+
+    ``flux_w``: the enclosure's area-weighted irradiance when already computed
+    (:func:`enclosure_flux_many_w`); otherwise :func:`solar_gain_w` computes it.
+    """
     ua = enclosure.total_ua_w_k
     drive = year.temp_air_c * (enclosure.ua_w_k / ua)
     if enclosure.ground_ua_w_k > 0:
         drive = drive + ground_temperature_c(year, enclosure) * (enclosure.ground_ua_w_k / ua)
-    gain = solar_gain_w(year, enclosure) + np.asarray(internal_heat_w, float)
+    gain = solar_gain_w(year, enclosure) if flux_w is None else _gain_from_flux(flux_w, enclosure)
+    gain = gain + np.asarray(internal_heat_w, float)
     return drive + gain / ua
+
+
+def _gain_from_flux(flux_w, enclosure: Enclosure) -> np.ndarray:
+    """Sol-air heat gain from the area-weighted irradiance (see :func:`solar_gain_w`)."""
+    area = enclosure.area_top_m2 + 4.0 * enclosure.area_wall_m2
+    if area <= 0 or enclosure.absorptance_frac <= 0:
+        return np.zeros(HOURS_PER_YEAR)
+    return enclosure.ua_w_k / area * enclosure.absorptance_frac * flux_w / H_OUT_W_M2K
 
 
 # --------------------------------------------------------------------------- public API
@@ -204,9 +250,16 @@ def battery_temperature_fleet(years: Sequence[TypicalYear], enclosures: Sequence
     for j in range(n):
         inverse[j] = groups.setdefault((id(years[j]), encl[j]), len(groups))
     drives = np.empty((HOURS_PER_YEAR, len(groups)))
+    first = {g: j for j, g in reversed(list(enumerate(inverse.tolist())))}
+    # Sites with their own sun: the enclosures' irradiance of all of them in one pass.
+    own = [g for g in range(len(groups)) if years[first[g]].sun is not None]
+    flux = {}
+    for start in range(0, len(own), FLUX_BLOCK_SITES):
+        part = own[start:start + FLUX_BLOCK_SITES]
+        block = enclosure_flux_many_w([years[first[g]] for g in part], [encl[first[g]] for g in part])
+        flux.update({g: block[:, c] for c, g in enumerate(part)})
     for (_, e), g in groups.items():
-        j = int(np.argmax(inverse == g))
-        drives[:, g] = equilibrium_temp_c(years[j], e)
+        drives[:, g] = equilibrium_temp_c(years[first[g]], e, flux_w=flux.get(g))
     temp_eq = drives[:, inverse]
     internal = np.asarray(internal_heat_w, dtype=float)
     if not np.all(np.isfinite(internal)) or np.any(internal < 0) or np.any(internal > 1e6):
