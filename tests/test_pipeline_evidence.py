@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from planner.pipeline import run_study
+from planner.pipeline import evidence_only, run_study
 from planner.study.loading import load_study
 
 SITES = ("id,region,climate,enclosure,load_w,charging,pv_wp,autonomy_days,existing_chemistry,"
@@ -66,9 +66,11 @@ def test_slower_measured_fade_replaces_later_within_the_service_limit(tmp_path, 
     a = site(plan, "A-1")
     assert a["field_evidence"]["factor_p90"] < 0.8
     assert a["replacement_years"][0] > site(lab, "A-1")["replacement_years"][0]
-    # VRLA service-life limit of the chemistry library, 12 years: never kept past it
-    assert a["existing_pack"]["remaining_life_years"] <= 12 - 5 + 1e-9
-    assert a["replacement_years"][0] <= 12 - 5
+    # never kept past its service limit (the pack's components, planner.designs.service)
+    _, designs = evidence_only(load_study(tmp_path / "study.toml"))
+    limit = designs["A-1"].existing.service_limit_years
+    assert a["existing_pack"]["remaining_life_years"] <= limit + 1e-9
+    assert a["replacement_years"][0] <= limit
 
 
 def test_faster_measured_fade_replaces_earlier(tmp_path, lab):
@@ -86,7 +88,10 @@ def test_failed_cell_flags_a_visit_and_leaves_the_factor(tmp_path):
     (tmp_path / "a").mkdir()
     (tmp_path / "b").mkdir()
     without = site(plan_of(tmp_path / "a", slow), "A-1")
-    with_cell = site(plan_of(tmp_path / "b", slow + failed), "A-1")
+    plan = plan_of(tmp_path / "b", slow + failed)
+    with_cell = site(plan, "A-1")
+    groups = {g["cause"]: g for g in plan["needs_attention"]["groups"]}
+    assert [i["id"] for i in groups["failed_cell"]["items"]] == ["A-1"]  # first page of the plan
     fe = with_cell["field_evidence"]
     assert fe["visit_recommended"] and "1.45 V" in fe["failed_cell"]
     assert any("failed cell" in w for w in with_cell["warnings"])
@@ -126,3 +131,30 @@ def test_value_of_a_test_is_listed_for_every_pack_in_service(lab):
         assert math.isclose(r["net_value"], r["value"] - r["test_cost"], abs_tol=0.02)
     values = [r["net_value"] for r in ranked]
     assert values == sorted(values, reverse=True)
+
+
+def test_a_test_that_pays_needs_attention():
+    """An invented plan whose ranking says one test pays: it is listed with its net value."""
+    from planner.plan.attention import needs_attention
+
+    plan = {"study": {"start_year": 2027}, "sites": [{"id": "S-1", "name": "Gauge"}],
+            "field_data": {"test_value": [
+                {"site_id": "S-1", "value": 900.0, "test_cost": 300.0, "net_value": 600.0,
+                 "replacement_year_after_test_low": 1, "replacement_year_after_test_high": 6},
+                {"site_id": "S-2", "value": 0.0, "test_cost": 300.0, "net_value": -300.0}]}}
+    groups = {g["cause"]: g for g in needs_attention(plan)["groups"]}
+    (item,) = groups["test_pays"]["items"]
+    assert item["id"] == "S-1" and item["cost"] == 600.0 and "2028" in item["detail"]
+
+
+def test_every_documented_field_key_is_written_with_records(tmp_path):
+    import importlib.util
+    from pathlib import Path
+
+    spec = importlib.util.spec_from_file_location(
+        "pipeline_tests", Path(__file__).resolve().parent / "test_pipeline.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    plan = plan_of(tmp_path, ACCEPT + "A-1,2026-07-01,performance,9.5,95,25,10,,,\n")
+    written = module._plan_keys(plan)
+    assert module.field_record_keys() - written == set()
