@@ -224,7 +224,8 @@ def _attention_lines(plan, currency) -> list[str]:
     lines = ["  needs attention (every case on the workbook's Needs attention sheet):"]
     for group in groups:
         count = group.get("count", 0)
-        noun = "trips" if group.get("cause") == "heavy_trip" else "sites"
+        noun = "trip" if group.get("cause") == "heavy_trip" else "site"
+        noun += "" if count == 1 else "s"
         cost = group.get("cost")
         money = (f"; {group.get('cost_meaning')} {cost:,.0f} {currency}".rstrip()
                  if isinstance(cost, int | float) and math.isfinite(cost) else "")

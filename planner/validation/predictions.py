@@ -32,8 +32,11 @@ def storage_loss(chem, temp_c, soc, years=1):
     return float(result.calendar_loss_frac[-1, 0])
 
 
-def cycling(chem, temp_c, *, dod=0.8, per_day=1.0, c_rate=0.5, charge_c_rate=None, years=40):
-    """Regular cycling from full (the profile of ``planner life``): the FadeResult."""
+def cycling(chem, temp_c, *, dod=0.8, per_day=1.0, c_rate=0.5, charge_c_rate=None, years=40,
+            aging_set=None):
+    """Regular cycling from full (the profile of ``planner life``): the FadeResult.
+
+    ``aging_set`` picks a set other than the chemistry's default."""
     from planner.aging import age_lanes
     from planner.aging.profiles import cycling_profile
 
@@ -41,12 +44,13 @@ def cycling(chem, temp_c, *, dod=0.8, per_day=1.0, c_rate=0.5, charge_c_rate=Non
     soc, current = cycling_profile(float(chem.usable_fraction(volts)), dod, per_day, c_rate)
     rate = c_rate if charge_c_rate is None else charge_c_rate
     return age_lanes(chem, np.full((H, 1), temp_c), soc[:, None], current[:, None], volts, years,
-                     peak_c_rate=c_rate, charge_c_rate=rate)
+                     peak_c_rate=c_rate, charge_c_rate=rate, aging_set=aging_set)
 
 
-def cycles_to_80(chem, temp_c, *, dod, per_day, c_rate, years=40):
+def cycles_to_80(chem, temp_c, *, dod, per_day, c_rate, years=40, aging_set=None):
     """Cycles to 80 % SOH of :func:`cycling`."""
-    result = cycling(chem, temp_c, dod=dod, per_day=per_day, c_rate=c_rate, years=years)
+    result = cycling(chem, temp_c, dod=dod, per_day=per_day, c_rate=c_rate, years=years,
+                     aging_set=aging_set)
     return float(result.years_to_soh(0.8)[0]) * 365.0 * per_day
 
 
