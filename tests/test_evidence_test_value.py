@@ -11,7 +11,7 @@ import pytest
 from planner.evidence._kernels import t4_cdf
 from planner.evidence.hierarchy import D_GRID, D_LOG_WEIGHT, G_GRID
 from planner.evidence.lives import PackCurve
-from planner.evidence.test_value import _predictive_results, _site_value, _t4_quantile
+from planner.evidence.sample_information import _predictive_results, _site_value, _t4_quantile
 
 H, RATE, C_FAIL = 10, 0.03, 5000.0
 MONTHS = np.arange(12 * 60 + 1)
