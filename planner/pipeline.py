@@ -16,11 +16,13 @@ from __future__ import annotations
 
 from dataclasses import replace
 from functools import partial
+from types import MappingProxyType
 
 import numpy as np
 
 from planner.designs.evaluation import evaluate_fleet
 from planner.designs.load_growth import evaluate_with_growth
+from planner.evidence import rank_tests, update_fleet
 from planner.optimize import solve_fleet
 from planner.optimize.analysis import (
     compare_chemistry,
@@ -132,7 +134,8 @@ def site_chunks(study: Study, extra_warming_k: float = 0.0) -> list:
     is recomputed, on the workers and while the parent solves the base plan.
     """
     size = chunk_sites(len(study.sites))
-    return [(replace(study, sites=study.sites[i:i + size]), extra_warming_k)
+    # field records are read in the planner's process, never by the per-site pieces
+    return [(replace(study, sites=study.sites[i:i + size], field_data=None), extra_warming_k)
             for i in range(0, len(study.sites), size)]
 
 
@@ -166,9 +169,11 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
         # The warming case's sites start in the background while the fleet is solved.
         warm_handle = pool.submit(_plan_sites_piece, site_chunks(study, WARMING_SENSITIVITY_K)) \
             if sensitivity_on and pool.workers > 1 else None
+        with log.stage("field evidence"):
+            evidence = update_fleet(study, designs)
         advance(0, "Optimising the fleet")
         with log.stage("optimizer"):
-            problem = build_problem(study, summaries, designs, dict(enumerate(hints)))
+            problem = build_problem(study, summaries, designs, dict(enumerate(hints)), evidence=evidence)
             solution = solve_fleet(problem)
         advance(1, "Comparing chemistries and sensitivity cases")
         # Every comparison and sensitivity case is a full solve: each gets half the main limit.
@@ -182,6 +187,10 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                                       for chem in chems])
         cases_handle = pool.submit(_solve, sensitivity_problems(resolve, time_limit_s=limit)) \
             if sensitivity_on else None
+        # while the workers re-solve: where one more capacity test pays
+        with log.stage("value of a capacity test"):
+            test_values = rank_tests(study, problem, solution, designs, evidence) \
+                if study.settings["field_data"]["test_value"] else []
         warm = None
         if sensitivity_on:
             # The warming case's sites were queued first: the planner's process solves its
@@ -192,7 +201,7 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                     warm_handle = pool.submit(_plan_sites_piece,
                                               site_chunks(study, WARMING_SENSITIVITY_K))
                 warm_summaries, warm_designs, _ = _join(pool.gather(warm_handle, progress=step))
-                warm = solve_fleet(build_problem(study, warm_summaries, warm_designs))
+                warm = solve_fleet(build_problem(study, warm_summaries, warm_designs, evidence=evidence))
         with log.stage("comparison and sensitivity solves"):
             comparison = pool.gather(compare_handle)
             cases = []
@@ -203,9 +212,29 @@ def run_study(study: Study, *, progress=None, workers: int = 1, log: StageLog | 
                 cases.append(compare_solutions(f"warming +{WARMING_SENSITIVITY_K:g} K", solution, warm))
     advance(1, "Writing the plan")
     with log.stage("plan assembly"):
-        plan = assemble_plan(study, summaries, designs, problem, solution, comparison, cases)
+        plan = assemble_plan(study, summaries, designs, problem, solution, comparison, cases,
+                             evidence=evidence, test_values=test_values)
     advance(1, "Writing the plan")
     return plan
+
+
+def evidence_only(study: Study, site_ids=None):
+    """Field evidence without a plan (``planner evidence``): the packs in service of the
+    sites with field records (and of ``site_ids``) are simulated, no candidate pack, and
+    their posteriors computed. Returns ``(FleetEvidence or None, {site id: SiteDesigns})``."""
+    data = study.field_data
+    wanted = set(site_ids or ())
+    if data is not None:
+        wanted |= {t.site_id for t in data.tests} | set(data.logs)
+    sites = tuple(s for s in study.sites if s.id in wanted and s.has_existing_pack)
+    if not sites:
+        return update_fleet(replace(study, sites=()), []), {}
+    settings = dict(study.settings)
+    settings["candidates"] = MappingProxyType({**study.settings["candidates"], "chemistries": ()})
+    settings["output"] = MappingProxyType({**study.settings["output"], "sensitivity": False})
+    sub = replace(study, sites=sites, settings=MappingProxyType(settings))
+    designs = evaluate_with_growth(sub, model_sites(sub), _evaluate)
+    return update_fleet(sub, designs), {s.id: d for s, d in zip(sites, designs)}
 
 
 def _compare(chem_problem, **options):

@@ -62,6 +62,7 @@ def test_new_writes_a_starter_that_validates(runner, tmp_path):
     assert result.exit_code == 0, result.output
     study = load_study(target / "study.toml")
     assert len(study.sites) == 2
+    assert len(study.field_data.tests) == 2  # the example capacity tests
     # A second run must not overwrite the planner's files.
     again = runner.invoke(cli, ["new", str(target)])
     assert again.exit_code == 2 and "already exists" in again.output

@@ -1,4 +1,5 @@
-"""Command line: ``planner plan``, ``planner new``, ``planner climate``, ``planner life``.
+"""Command line: ``planner plan``, ``planner new``, ``planner climate``, ``planner life``,
+``planner evidence``.
 
 Each command lives in its own module of this package and is imported only when
 used, so ``planner --help`` stays fast. Errors the user can fix are
@@ -32,6 +33,7 @@ _COMMANDS = {
     "new": ("planner.cli.new", "new_command"),
     "climate": ("planner.cli.climate", "climate_command"),
     "life": ("planner.cli.life", "life_command"),
+    "evidence": ("planner.cli.evidence", "evidence_command"),
 }
 
 

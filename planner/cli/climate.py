@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from planner.cli.params import Number
+from planner.cli.terminal import emit_json
 from planner.errors import InputError, OutputError
 
 
@@ -103,13 +104,7 @@ def climate_command(source, enclosure, warming_k, heater_setpoint_c, csv_path, a
                 "heater_energy_kwh": round(float(thermal.heater_power_w.sum()) / 1000, 3),
                 "hvac_energy_kwh": round(float(thermal.hvac_power_w.sum()) / 1000, 3), **data}
         text = json.dumps(full, indent=2, sort_keys=False)
-        if json_out and json_out != "-":
-            from planner.fileio import atomic_path
-
-            with atomic_path(Path(json_out), what="climate JSON") as tmp:
-                Path(tmp).write_text(text + "\n", encoding="utf-8")
-        if as_json or json_out == "-":
-            click.echo(text)
+        if emit_json(text, as_json=as_json, json_out=json_out, what="climate JSON"):
             return
     _print_summary(year, enclosure, warming_k, thermal, data)
 

@@ -11,6 +11,7 @@ import numpy as np
 from planner import HOURS_PER_YEAR
 from planner.aging.profiles import cycling_profile
 from planner.cli.params import Number
+from planner.cli.terminal import emit_json
 from planner.errors import InputError
 
 DAYS_PER_YEAR = 365
@@ -259,10 +260,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         out["c_rate"] = c_rate
     else:
         out["soc_frac"] = float(soc[0])
-    if json_out and json_out != "-":
-        _write_json(json_out, out)
-    if as_json or json_out == "-":
-        click.echo(json.dumps(out, indent=2))
+    if emit_json(json.dumps(out, indent=2), as_json=as_json, json_out=json_out, what="life JSON"):
         return
     click.echo(f"{chem.name}, aging set {result.aging_set}")
     click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
@@ -354,16 +352,6 @@ def _pack_percentiles(chem, result, eol_soh, mean_temp_c, series_cells, cell_spr
     rows, dist = life_summary(result, prefix="years_to_eol", **options)
     return {**rows[0], "series_cells": series_cells, "balancing": options["balancing"],
             "draws": dist.draws, "pack_notes": list(dist.notes)}
-
-
-def _write_json(path: str, data: dict) -> None:
-    """The result as JSON at ``path``, written atomically (planner.fileio)."""
-    from pathlib import Path
-
-    from planner.fileio import atomic_path
-
-    with atomic_path(Path(path), what="life JSON") as tmp:
-        Path(tmp).write_text(json.dumps(data, indent=2) + "\n", encoding="utf-8")
 
 
 def _given(name: str) -> bool:

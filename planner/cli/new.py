@@ -20,8 +20,20 @@ EXAMPLE_SITES = [
      "system_voltage_v": "12"},
     {"id": "pipe-01", "name": "Valve station monitor", "region": "desert", "climate": "hot-desert",
      "enclosure": "cabinet-sun", "load_w": "4", "charging": "pv", "pv_wp": "80",
-     "autonomy_days": "4", "system_voltage_v": "12"},
+     "autonomy_days": "4", "system_voltage_v": "12", "existing_chemistry": "vrla",
+     "existing_capacity_wh": "1200", "existing_installed_year": "2024"},
 ]
+
+# Invented capacity tests of the pack in service at pipe-01 (the starter's field records).
+EXAMPLE_TESTS = [
+    {"site_id": "pipe-01", "test_date": "2024-03-05", "kind": "acceptance", "duration_h": "10.1",
+     "capacity_pct": "99", "start_temp_c": "22", "rate_h": "10", "end_voltage_v_per_cell": "1.80",
+     "notes": "commissioning test"},
+    {"site_id": "pipe-01", "test_date": "2026-06-18", "kind": "performance", "duration_h": "9.4",
+     "capacity_pct": "95", "start_temp_c": "33", "rate_h": "10", "end_voltage_v_per_cell": "1.80",
+     "lowest_cell_v": "1.76", "lowest_cell_id": "block 2", "notes": "not corrected on site"},
+]
+TESTS_FILE = "capacity_tests.csv"
 
 EXAMPLE_REGIONS = {
     "mountains": {"trip_cost": 6000.0, "access_months": (6, 7, 8, 9, 10)},
@@ -33,15 +45,17 @@ EXAMPLE_REGIONS = {
 @click.argument("directory", type=click.Path(file_okay=False, path_type=Path))
 @click.option("--force", is_flag=True, help="Overwrite study.toml and sites.csv if they exist.")
 def new_command(directory, force):
-    """Write a starter study into DIRECTORY: a commented study.toml and a sites.csv
-    with every column and two example rows. It validates and runs as it is.
+    """Write a starter study into DIRECTORY: a commented study.toml, a sites.csv
+    with every column and two example rows, and capacity_tests.csv with every column of
+    the field records and two example tests. It validates and runs as it is.
 
     \b
     Example:
       planner new my-network && planner plan my-network/study.toml
     """
     study_path, sites_path = directory / "study.toml", directory / "sites.csv"
-    for path in (study_path, sites_path):
+    tests_path = directory / TESTS_FILE
+    for path in (study_path, sites_path, tests_path):
         if path.exists() and not force:
             raise InputError("already exists; expected a new folder (or use --force)",
                              source=str(path))
@@ -51,11 +65,12 @@ def new_command(directory, force):
         raise OutputError(f"could not create the folder: {err.strerror}; expected a folder "
                           "you may write in", source=str(directory)) from None
     with OutputBatch() as batch:  # both files or neither
-        for path, text in ((sites_path, starter_sites_csv()), (study_path, starter_study_toml())):
+        for path, text in ((sites_path, starter_sites_csv()), (tests_path, starter_tests_csv()),
+                           (study_path, starter_study_toml())):
             batch.add(path, lambda tmp, text=text: Path(tmp).write_text(text, encoding="utf-8"),
                       what="starter study")
         batch.commit()
-    click.echo(f"wrote {study_path} and {sites_path}", err=True)
+    click.echo(f"wrote {study_path}, {sites_path} and {tests_path}", err=True)
 
 
 def _toml_value(spec: Field, value) -> str:
@@ -107,8 +122,14 @@ def starter_study_toml() -> str:
            *sites_guide()]
     for section, specs in SECTIONS.items():
         out.append(f"[{section}]")
+        if section == "field_data":
+            out += ["# Field records of the packs in service: capacity tests (every column in",
+                    f"# {TESTS_FILE}) and an optional battery log (CSV: timestamp, site_id,",
+                    "# pack_voltage_v, current_a, battery_temp_c). docs/study-file.md lists the columns."]
         for spec in specs:
             value = "sites.csv" if spec.name == "sites_file" else spec.default
+            if spec.name == "capacity_tests_file":
+                value = TESTS_FILE
             if value is None:
                 out.append(f"# {spec.name} =" + _comment(spec))
                 continue
@@ -134,6 +155,18 @@ def starter_study_toml() -> str:
     out.append("# climate column. See docs/climate.md for the options, for example:")
     out.append('# [climates.my-logger]\n# file = "logger.csv"\n# temperature_unit = "C"')
     return "\n".join(out) + "\n"
+
+
+def starter_tests_csv() -> str:
+    """The capacity-test table header with every column and the example tests."""
+    from planner.study.schema import TEST_COLUMNS
+
+    buffer = io.StringIO()
+    writer = csv.DictWriter(buffer, fieldnames=[s.name for s in TEST_COLUMNS], lineterminator="\n")
+    writer.writeheader()
+    for row in EXAMPLE_TESTS:
+        writer.writerow(row)
+    return buffer.getvalue()
 
 
 def starter_sites_csv() -> str:

@@ -302,5 +302,26 @@ def _summary(plan, out) -> str:
     if len(unserved) > MAX_UNSERVED_LINES:
         lines.append(f"  ... and {len(unserved) - MAX_UNSERVED_LINES:,} more sites no design can serve "
                      "(all on the workbook's Needs attention sheet)")
+    lines += _field_lines(plan, currency)
     lines.append(f"  workbook: {printable(out)}")
     return "\n".join(lines)
+
+
+def _field_lines(plan, currency) -> list[str]:
+    """What the field records changed and where one more test pays (sheet Field evidence)."""
+    data = plan.get("field_data") or {}
+    lines = []
+    priced = [s for s in plan["sites"] if (s.get("field_evidence") or {}).get("factor_p50") is not None]
+    if priced:
+        own = sum(1 for s in priced if s["field_evidence"].get("records_used"))
+        lines.append(f"  field records: {len(priced)} packs in service priced by them ({own} with "
+                     "records of their own)")
+    ranked = data.get("test_value") or []
+    worth = [r for r in ranked if (r.get("net_value") or 0) > 0]
+    if ranked:
+        best = ranked[0]
+        lines.append(f"  one more capacity test pays at {len(worth)} of {len(ranked)} packs in service; "
+                     f"best {printable(best['site_id'])}: net {best['net_value']:,.0f} {currency}")
+    for site_id in data.get("visits_recommended") or []:
+        lines.append(f"  VISIT RECOMMENDED {printable(site_id)}: a failed cell in the pack in service")
+    return lines

@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 import numpy as np
 
+from planner.cli.terminal import emit_json
 from planner.errors import InputError
 
 MONTHS = "Jan Feb Mar Apr May Jun Jul Aug Sep Oct Nov Dec".split()
@@ -57,13 +58,7 @@ def show_site_climate(study_path, site_id, *, as_json: bool, csv_path, writer, j
                            "source": model.year.source, "enclosure": site.enclosure,
                            "site_climate": described, "monthly": table,
                            **model.temperatures.to_dict()}, indent=2)
-        if json_out and json_out != "-":
-            from planner.fileio import atomic_path
-
-            with atomic_path(Path(json_out), what="climate JSON") as tmp:
-                Path(tmp).write_text(text + "\n", encoding="utf-8")
-        if as_json or json_out == "-":
-            click.echo(text)
+        if emit_json(text, as_json=as_json, json_out=json_out, what="climate JSON"):
             return
     click.echo("\n".join(_lines(site, model, described, table)))
 

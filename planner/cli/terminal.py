@@ -72,3 +72,22 @@ def stop_on_signals():
     finally:
         for number, handler in previous.items():
             signal.signal(number, handler)
+
+
+def emit_json(text: str, *, as_json: bool, json_out, what: str) -> bool:
+    """Write a command's JSON where it was asked for: a file (``json_out``, written
+    atomically), standard output (``--json`` or ``json_out == "-"``), or both. True when
+    the JSON went to standard output (the command then prints nothing else)."""
+    if json_out and json_out != "-":
+        from pathlib import Path
+
+        from planner.fileio import atomic_path
+
+        with atomic_path(Path(json_out), what=what) as tmp:
+            Path(tmp).write_text(text + "\n", encoding="utf-8")
+    if as_json or json_out == "-":
+        import click
+
+        click.echo(text)
+        return True
+    return False

@@ -113,6 +113,13 @@ class Outcome:
     far_from_best: bool = False
     charge_blocked_cold_hours: float = 0.0   # below the minimum charge temperature
     charge_blocked_hot_hours: float = 0.0    # above the maximum charge temperature
+    # the pack in service only: calendar and cycle loss by month from its installation
+    # (float32), which field records scale (planner.evidence)
+    install_calendar_loss_frac: np.ndarray | None = None
+    install_cycle_loss_frac: np.ndarray | None = None
+    # the pack in service at a site whose load grows: (requirement share of rated
+    # capacity, growth per year, years from now the growth starts to count)
+    requirement_growth: tuple[float, float, float] | None = None
 
 
 @dataclass

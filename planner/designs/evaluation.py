@@ -330,6 +330,9 @@ def _outcomes(lanes_of: _ChunkLanes, chem, members, fade, duty) -> list[Outcome]
             charge_blocked_cold_hours=float(duty.blocked_cold[j]),
             charge_blocked_hot_hours=float(duty.blocked_hot[j]),
             mean_soc_frac=float(duty.mean_soc[j])))
+        if d.is_existing:
+            out[-1].install_calendar_loss_frac = fade.calendar_loss_frac[:, col].astype(np.float32)
+            out[-1].install_cycle_loss_frac = fade.cycle_loss_frac[:, col].astype(np.float32)
     return out
 
 

@@ -63,6 +63,15 @@ def scaled_model(model: SiteModel, factor: float) -> SiteModel:
                                peak_load_w=float(model.peak_load_w * factor))
 
 
+def requirement_share(outcome: Outcome, model: SiteModel) -> float:
+    """Share of the pack's rated capacity the site's requirement takes at ``model``'s load
+    (through the charge-voltage window, at the coldest battery temperature)."""
+    d = outcome.design
+    chem = get_chemistry(d.chemistry)
+    return requirement_wh(model) / (d.pack.capacity_wh * window_frac(chem, d.charge_voltage_v_per_cell)
+                                    * float(chem.available_capacity_fraction(model.design_temp_c)))
+
+
 def grown_life_years(outcome: Outcome, model: SiteModel, growth_frac_per_year: float, lag_years: float) -> float:
     """Life of a pack while the load keeps growing after the load it was designed for.
 
@@ -73,9 +82,7 @@ def grown_life_years(outcome: Outcome, model: SiteModel, growth_frac_per_year: f
     if growth_frac_per_year <= 0.0 or outcome.soh_monthly is None or len(outcome.soh_monthly) == 0:
         return outcome.life_years
     d = outcome.design
-    chem = get_chemistry(d.chemistry)
-    share = requirement_wh(model) / (d.pack.capacity_wh * window_frac(chem, d.charge_voltage_v_per_cell)
-                                     * float(chem.available_capacity_fraction(model.design_temp_c)))
+    share = requirement_share(outcome, model)
     life = life_under_growth(outcome.soh_monthly, share, worn_out_soh_frac(d.chemistry),
                              growth_frac_per_year, lag_years)
     return float(min(outcome.life_years, life))
@@ -128,8 +135,10 @@ def evaluate_with_growth(study: Study, models: list[SiteModel], evaluate) -> lis
         if out[j] is None:  # the first step holds the pack in service today
             existing = designs.existing
             if existing is not None:
+                lag = float(step.last_year + 1)
                 existing = dataclasses.replace(
-                    existing, life_years=grown_life_years(existing, run, g, float(step.last_year + 1)))
+                    existing, life_years=grown_life_years(existing, run, g, lag),
+                    requirement_growth=(requirement_share(existing, run), g, lag))
             out[j] = dataclasses.replace(designs, outcomes=outcomes, existing=existing)
         else:
             out[j].outcomes.extend(outcomes)

@@ -31,6 +31,12 @@ from planner.pack.structure import PARAMETER_SOURCES as PACK_SOURCES
 from planner.plan.attention import needs_attention
 from planner.plan.comparison import comparison_rows, cost_groups, fleet_cost
 from planner.plan.costing import pack_price
+from planner.plan.field_evidence import (
+    field_assumption_rows,
+    field_data_section,
+    site_field_evidence,
+    site_warnings,
+)
 from planner.plan.spending import spending_by_region, spending_by_year
 from planner.plan.visit_risk import risk_before_next_visit
 from planner.site.model import SiteModel
@@ -63,8 +69,10 @@ def sawtooth(horizon_years: int, replacement_years, new_curve, existing_curve=No
     return [round(v, 5) if math.isfinite(v) else None for v in out.tolist()]
 
 
-def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistry, options) -> dict:
+def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistry, options,
+                evidence=None) -> dict:
     site = model.site
+    site_ev = evidence.site(site.id) if evidence is not None else None
     horizon = study.settings["study"]["horizon_years"]
     candidate = plan.candidate if plan is not None else None
     chosen = _find(designs, candidate.design_id) if candidate else None
@@ -125,6 +133,8 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             "chemistry_name": chem.name,
         })
         existing_curve = existing.soh_monthly if existing is not None else None
+        if site_ev is not None:  # the pack in service as its field records say
+            existing_curve = site_ev.soh_from_now(12 * horizon + 1)
         replacements = plan.replacement_years if plan else ()
         installed = [_find(designs, c.design_id) for c in plan.installations] if plan else []
         entry["soh_by_month"] = sawtooth(horizon, replacements,
@@ -148,11 +158,15 @@ def _site_entry(study, model: SiteModel, designs: SiteDesigns, plan, by_chemistr
             entry["warnings"].append("life leans on extrapolated aging laws: " + "; ".join(notes))
     entry["replacements"] = _replacements(designs, plan) if plan else []
     if existing is not None:
+        remaining = existing.life_years if site_ev is None else options.existing.remaining_life_years
         entry["existing_pack"] = {
             "chemistry": existing.design.chemistry, "capacity_wh": existing.design.pack.capacity_wh,
             "age_years": existing.design.existing_age_years,
             "pack_mass_kg": existing.design.pack.mass_kg,
-            "remaining_life_years": _finite(existing.life_years)}
+            "remaining_life_years": _finite(remaining),
+            "remaining_life_years_predicted": _finite(existing.life_years)}
+    entry["field_evidence"] = site_field_evidence(evidence, site.id, study.settings["study"]["start_year"])
+    entry["warnings"] += site_warnings(evidence, site.id)
     shortfall = model.charging_shortfall
     if shortfall is not None:
         # The source, not the pack, limits this site: say it first, with the two numbers.
@@ -315,6 +329,8 @@ def _assumptions(study: Study) -> list[dict]:
     rows = []
     illustrative = study.settings["costs"]["illustrative"]
     for section, specs in SECTIONS.items():
+        if section == "field_data" and study.field_data is None:
+            continue  # listed only for a study with field records
         for spec in specs:
             value = study.settings[section][spec.name]
             source = "study file"
@@ -345,6 +361,7 @@ def _assumptions(study: Study) -> list[dict]:
     for name, source in PACK_SOURCES.items():
         rows.append({"group": "pack spread", "name": name, "value": "", "unit": "", "source": source})
     rows += _design_rule_rows(study)
+    rows += field_assumption_rows(study)
     rows += [{"group": "method", "name": name, "value": "", "unit": "", "source": source}
              for name, source in METHODS]
     rows.append({"group": "method", "name": "planner version", "value": __version__, "unit": "",
@@ -439,15 +456,17 @@ def _plain(value):
 
 
 def assemble_plan(study, models, designs, problem: FleetProblem, solution: FleetSolution,
-                  comparison, cases) -> dict:
-    """The plan dict of docs/plan-json.md."""
+                  comparison, cases, *, evidence=None, test_values=()) -> dict:
+    """The plan dict of docs/plan-json.md. ``evidence`` and ``test_values`` are the field
+    records' posteriors (:func:`planner.evidence.update_fleet`) and the value of one more
+    capacity test per site (:func:`planner.evidence.rank_tests`)."""
     from planner.plan.cautions import STANDARD_CAUTIONS
 
     plans = {p.site_id: p for p in solution.sites}
     options = {o.site_id: o for o in problem.sites}
     # each chemistry's plan per site, looked up by id (a scan per site grew as n^2)
     by_chemistry = [(r, {p.site_id: p for p in r.solution.sites}) for r in comparison]
-    sites = [_site_entry(study, m, d, plans.get(m.site.id), by_chemistry, options[m.site.id])
+    sites = [_site_entry(study, m, d, plans.get(m.site.id), by_chemistry, options[m.site.id], evidence)
              for m, d in zip(models, designs)]
     s = study.settings["study"]
     spend = {"start_year": s["start_year"], "inflation_frac": s["inflation_frac"]}
@@ -493,6 +512,7 @@ def assemble_plan(study, models, designs, problem: FleetProblem, solution: Fleet
         "unserved_sites": [{"id": u.site_id, "reason": u.reason, "limit": u.limit}
                            for u in solution.unserved],
         "binding_limits": list(solution.binding_limits),
+        "field_data": field_data_section(study, evidence, list(test_values), s["horizon_years"]),
     }
     plan["needs_attention"] = needs_attention(plan)
     return plan

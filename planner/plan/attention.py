@@ -185,6 +185,35 @@ def _component_limit(plan, context) -> list[dict]:
     return out
 
 
+def _failed_cell(plan, context) -> list[dict]:
+    out = []
+    for site in _sites(plan):
+        evidence = site.get("field_evidence")
+        if isinstance(evidence, Mapping) and evidence.get("visit_recommended"):
+            out.append(_item(site, f"capacity test found a failed cell: {evidence.get('failed_cell')}"))
+    return out
+
+
+def _test_pays(plan, context) -> list[dict]:
+    data = plan.get("field_data") if isinstance(plan.get("field_data"), Mapping) else {}
+    by_id = {s.get("id"): s for s in _sites(plan)}
+    out = []
+    for rank in data.get("test_value") or []:
+        if not isinstance(rank, Mapping):
+            continue
+        net = finite_number(rank.get("net_value"))
+        if net is None or net <= 0:
+            continue
+        site = by_id.get(rank.get("site_id"), {"id": rank.get("site_id")})
+        low, high = rank.get("replacement_year_after_test_low"), rank.get("replacement_year_after_test_high")
+        out.append(_item(site, f"one more capacity test in {_calendar(0, context)} is worth "
+                               f"{finite_number(rank.get('value')) or 0:,.0f} for "
+                               f"{finite_number(rank.get('test_cost')) or 0:,.0f}: its result may move "
+                               f"the replacement anywhere from {_calendar(low, context)} to "
+                               f"{_calendar(high, context)}", net, None))
+    return out
+
+
 def _heavy_trips(plan, context) -> list[dict]:
     limit = context["payload_kg"]
     out = []
@@ -215,6 +244,9 @@ CAUSES: tuple[Cause, ...] = (
           lambda plan, ctx: _loses_load(plan, ctx, above=True), not_served=True),
     Cause("at_risk", "May fail before the next visit", "expected failure cost before the visit",
           "an earlier visit", _at_risk),
+    Cause("failed_cell", "A failed cell in the pack in service", "",
+          "visit to replace the cell or the pack (the fade factor leaves that test out)",
+          _failed_cell),
     Cause("heavy_trip", "Trip heavier than one lift or vehicle carries", "",
           "split the trip, or set [limits] payload_kg_per_trip so the plan splits it",
           _heavy_trips),
@@ -227,6 +259,8 @@ CAUSES: tuple[Cause, ...] = (
     Cause("component_limit", "Life set by a service limit (a component or the ceiling), not by fade", "",
           "nothing to change; a longer service life from the supplier would move the visit",
           _component_limit, examples=0),
+    Cause("test_pays", "One more capacity test pays", "expected saving less the test's cost, present value",
+          "test the pack in year 0 (sheet Field evidence ranks every pack in service)", _test_pays),
 )
 
 

@@ -17,6 +17,7 @@ import numpy as np
 from planner.chemistry import get_chemistry
 from planner.designs.candidates import Outcome, SiteDesigns, requirement_wh
 from planner.economics import spv, upv
+from planner.evidence.fleet import FleetEvidence
 from planner.optimize import Candidate, ExistingPack, FleetProblem, SiteOptions
 from planner.pack.life_risk import chemistry_life_log_sigma, failure_prob_by_age
 from planner.site.model import SiteModel
@@ -136,12 +137,35 @@ def _unserved_reason(model: SiteModel, designs: SiteDesigns, hint: str = "") -> 
     return f"no candidate serves site {model.site.id} ({'; '.join(reasons)})" + (f"; {hint}" if hint else "")
 
 
+def existing_pack(study: Study, outcome: Outcome, site_id: str,
+                  evidence: FleetEvidence | None = None) -> ExistingPack:
+    """The pack in service as the optimizer sees it: its remaining life and the
+    probability it fails before each age. With field records of its site (or its
+    chemistry), both come from the posterior predictive of :mod:`planner.evidence`;
+    otherwise from the laboratory prediction."""
+    costs = study.settings["costs"]
+    d = outcome.design
+    remaining, probs = outcome.life_years, failure_probabilities(study, outcome)
+    site_ev = evidence.site(site_id) if evidence is not None else None
+    if site_ev is not None:
+        belief = site_ev.existing_life(outcome)
+        remaining = belief.replace_by_years()
+        probs = belief.failure_prob_by_age(study.settings["study"]["horizon_years"] + 1)
+    return ExistingPack(
+        remaining_life_years=min(remaining, LIFE_CAP_YEARS), chemistry=d.chemistry,
+        capacity_wh=d.pack.capacity_wh, mass_kg=d.pack.mass_kg,
+        disposal_cost=d.pack.mass_kg * costs["disposal_per_kg"], failure_prob_by_age=probs)
+
+
 def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesigns],
-                  hints: dict[int, str] | None = None) -> FleetProblem:
+                  hints: dict[int, str] | None = None,
+                  evidence: FleetEvidence | None = None) -> FleetProblem:
     """The optimizer's view of the study: sites, candidates with costs, limits.
 
     ``hints[i]`` adds a line to site i's reason when no candidate serves it (what
     thermal measure would, :func:`planner.site.thermal_measures.evaluate_with_measures`).
+    ``evidence`` (field records, :func:`planner.evidence.update_fleet`) replaces the
+    predicted life of the packs in service it covers by their posterior predictive.
     """
     costs = study.settings["costs"]
     sites = []
@@ -151,12 +175,7 @@ def build_problem(study: Study, models: list[SiteModel], designs: list[SiteDesig
         offered = [_candidate(study, model, o) for o in offered_outcomes(site_designs)]
         existing = None
         if site_designs.existing is not None:
-            e = site_designs.existing
-            existing = ExistingPack(
-                remaining_life_years=min(e.life_years, LIFE_CAP_YEARS), chemistry=e.design.chemistry,
-                capacity_wh=e.design.pack.capacity_wh, mass_kg=e.design.pack.mass_kg,
-                disposal_cost=e.design.pack.mass_kg * costs["disposal_per_kg"],
-                failure_prob_by_age=failure_probabilities(study, e))
+            existing = existing_pack(study, site_designs.existing, site.id, evidence)
         unplanned = costs["unplanned_trip_cost"]
         if unplanned is None:
             unplanned = 1.5 * region["trip_cost"]

@@ -158,3 +158,8 @@ def stacked_bar_chart(ws, *, title: str, categories: Reference, series: list[Ref
     _show_axes(chart)
     ws.add_chart(chart, anchor)
     return chart
+
+
+#: Public names of the two helpers for sheets that build their own charts.
+colour_series = _colour
+show_axes = _show_axes

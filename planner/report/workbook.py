@@ -1,8 +1,9 @@
 """The plan workbook: one sheet per question a planner asks.
 
 Sheets: Needs attention (first: what to act on), Summary (fleet overview), Spending by
-year, Sites at risk, Sites, Capacity fade, Fade by year, Visit schedule, Trip list, Crew
-trips, Cost comparison, Climate, Site map, Assumptions and sources, Cautions. The input is
+year, Sites at risk, Field evidence, Sites, Capacity fade, Fade by year, Visit schedule,
+Trip list, Crew trips, Cost comparison, Climate, Site map, Assumptions and sources,
+Cautions. The input is
 the plan dict laid out in ``docs/plan-json.md``; optional parts that are missing are left
 out, never faked. The layout is described in ``docs/workbook.md``; each sheet is built in
 the module named beside it in :data:`SHEETS`, and adding a sheet is one entry there.
@@ -20,6 +21,7 @@ from planner.fileio import write_atomically
 from planner.report import styles
 from planner.report.attention_sheet import attention_sheet
 from planner.report.crew_sheet import crew_sheet
+from planner.report.evidence_sheet import evidence_sheet
 from planner.report.map_sheet import map_sheet
 from planner.report.money_sheets import cost_sheet, spending_sheet
 from planner.report.reference_sheets import assumptions_sheet, cautions_sheet
@@ -48,6 +50,7 @@ SHEETS = (
     Sheet("Summary", summary_sheet),
     Sheet("Spending by year", spending_sheet),
     Sheet("Sites at risk", risk_sheet),
+    Sheet("Field evidence", evidence_sheet),
     Sheet("Sites", sites_sheet),
     Sheet("Capacity fade", fade_sheet),
     Sheet("Fade by year", fade_table_sheet),

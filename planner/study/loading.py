@@ -26,6 +26,7 @@ from typing import Any
 from planner.errors import InputError, MistakeList
 from planner.fileio import read_input_bytes, resolve_path
 from planner.inputs.numbers import NumberError, parse_number, shown
+from planner.study.field_records import FieldData, load_field_data
 from planner.study.schema import (
     NAMED_SECTIONS,
     SECTIONS,
@@ -80,6 +81,8 @@ class Study:
     #: Rows of each normals climate's table: climate name -> row id -> checked values.
     normals: Mapping[str, Mapping[str, Mapping[str, Any]]] = field(
         default_factory=lambda: MappingProxyType({}))
+    # capacity tests and battery logs of the packs in service ([field_data]); None: none
+    field_data: FieldData | None = None
 
     @property
     def name(self) -> str:
@@ -115,6 +118,11 @@ class Study:
         """Every file the study reads, with words saying what it is (for output checks)."""
         base = self.path.parent
         files = {self.path: "the study file", self.sites_path: "the study's sites table"}
+        if self.field_data is not None:
+            for path, what in ((self.field_data.tests_path, "the study's capacity-test table"),
+                               (self.field_data.logs_path, "the study's battery log")):
+                if path is not None:
+                    files.setdefault(path, what)
         for name, options in self.climates.items():
             for key, what in CLIMATE_KINDS.items():
                 if key in options:
@@ -221,6 +229,30 @@ def _shown(value) -> str:
     return shown(value)
 
 
+def row_values(row, columns, source: str, mistakes: MistakeList) -> dict[str, Any]:
+    """One table row's cells parsed against ``columns`` (``(spec, index, required)``:
+    the field and where it sits in the row); an empty cell takes the field's default, a
+    bad or missing required cell goes to ``mistakes`` with the row the user sees."""
+    where = row.where()
+    values = {}
+    cells, n_cells = row.cells, len(row.cells)
+    for spec, index, required in columns:
+        cell = cells[index] if index is not None and index < n_cells else ""
+        if cell == "":
+            if required:
+                mistakes.add(InputError(f"{where}, column {spec.name}: empty; expected "
+                                        f"{spec.expectation()}", source=source))
+            values[spec.name] = spec.default
+            continue
+        try:
+            values[spec.name] = parse_field(spec, cell, from_text=True)
+        except (ValueError, TypeError):
+            unit = f" [{spec.unit}]" if spec.unit else ""
+            mistakes.add(InputError(f"{where}, column {spec.name}: found {_shown(cell)}; "
+                                    f"expected {spec.expectation()}{unit}", source=source))
+    return values
+
+
 def _validate_table(table, specs, *, where: str, source: str, mistakes: MistakeList,
                     bad: set) -> dict[str, Any]:
     """Check one TOML table against its field specs; fill defaults.
@@ -312,6 +344,8 @@ def load_study(path) -> Study:
                 normals = check_study_files(sites, table, named, base, sites_path, source,
                                             mistakes)
     mistakes.raise_if_any()
+    # field records are checked against valid sites only: after every other mistake
+    field_data = load_field_data(settings, base, sites)
     return Study(
         path=real,
         settings=MappingProxyType({k: MappingProxyType(v) for k, v in settings.items()}),
@@ -321,6 +355,7 @@ def load_study(path) -> Study:
         sites=sites,
         sites_path=sites_path,
         normals=MappingProxyType(normals),
+        field_data=field_data,
     )
 
 

@@ -17,7 +17,7 @@ from typing import Any
 from planner.errors import InputError, MistakeList
 from planner.fileio import read_input_bytes
 from planner.inputs.tables import read_table
-from planner.study.loading import _shown, parse_field
+from planner.study.loading import _shown, row_values
 from planner.study.schema import MONTHS, NORMALS_COLUMNS, closest
 
 
@@ -46,9 +46,11 @@ def read_normals_table(path: Path) -> dict[str, Mapping[str, Any]]:
                                 "named normal", source=source))
     mistakes.raise_if_any()
     out: dict[str, Mapping[str, Any]] = {}
+    columns = [(spec, table.index_of(spec.name), spec.required) for spec in NORMALS_COLUMNS]
     for row in table.rows:
-        values = _row_values(table, row, mistakes)
-        if values is None:
+        count = len(mistakes)
+        values = row_values(row, columns, source, mistakes)
+        if len(mistakes) > count:
             continue
         where = row.where()
         _check_row(values, where, source, mistakes)
@@ -59,27 +61,6 @@ def read_normals_table(path: Path) -> dict[str, Mapping[str, Any]]:
         out[values["id"]] = MappingProxyType(dict(values, row=row.number))
     mistakes.raise_if_any()
     return out
-
-
-def _row_values(table, row, mistakes: MistakeList) -> dict | None:
-    """One row's cells parsed against the columns; None when a cell is bad."""
-    count = len(mistakes)
-    values = {}
-    for spec in NORMALS_COLUMNS:
-        cell = table.cell(row, spec.name)
-        if cell == "":
-            if spec.required:
-                mistakes.add(InputError(f"{row.where()}, column {spec.name}: empty; expected "
-                                        f"{spec.expectation()}", source=table.source))
-            values[spec.name] = spec.default
-            continue
-        try:
-            values[spec.name] = parse_field(spec, cell, from_text=True)
-        except (ValueError, TypeError):
-            unit = f" [{spec.unit}]" if spec.unit else ""
-            mistakes.add(InputError(f"{row.where()}, column {spec.name}: found {_shown(cell)}; "
-                                    f"expected {spec.expectation()}{unit}", source=table.source))
-    return values if len(mistakes) == count else None
 
 
 def _check_row(values, where: str, source: str, mistakes: MistakeList) -> None:

@@ -19,7 +19,7 @@ class Field:
     """One key of the study file or one column of the sites table."""
 
     name: str
-    kind: str  # "float", "int", "str", "bool", "months", "floats", "strs"
+    kind: str  # "float", "int", "str", "bool", "months", "floats", "strs", "date", "timestamp"
     default: Any = REQUIRED
     unit: str = ""
     minimum: float | None = None
@@ -42,6 +42,8 @@ class Field:
             "months": "months 1-12 (e.g. 6-9 or 5;6;7)",
             "floats": "a list of numbers (in a table cell: separated by ';')",
             "strs": "a list of names",
+            "date": "a date YYYY-MM-DD",
+            "timestamp": "a date and time YYYY-MM-DD HH:MM or YYYY-MM-DD HH:MM:SS",
         }[self.kind]
         if self.choices:
             return "one of " + ", ".join(self.choices)
@@ -224,6 +226,27 @@ SERVICE_LIFE = tuple(
           "(`planner life --list` shows the component lives' sources).")
     for chem_id in ("vrla", "lfp", "nmc", "lto", "lisocl2"))
 
+# Field records of the packs in service (planner.evidence): capacity tests and battery
+# logs update each site's fade, and the plan says where one more test pays.
+FIELD_DATA = (
+    F("capacity_tests_file", "str", "",
+      doc="Capacity-test table (CSV or XLSX, columns below), relative to the study file; "
+          "blank = none."),
+    F("battery_log_file", "str", "",
+      doc="Battery log (CSV, columns below), relative to the study file; blank = none."),
+    F("lead_acid_correction", "str", "iec60896-21", choices=("iec60896-21", "ieee450-time"),
+      doc="How a lead-acid test is corrected to 25 °C: the IEC 60896-21 rule C = Ca / (1 + "
+          "λ(θ - 25)) (λ 0.006/K at 10-20 h rates, 0.01/K at 1-3 h, interpolated between) or "
+          "the IEEE 450 time-adjusted method (vented-cell factors). Tests run by the IEEE 450 "
+          "rate-adjusted method are already corrected: mark them corrected_to_25c = yes."),
+    F("test_labour_h", "float", 6.0, "h", 0.0, 200.0,
+      doc="Crew hours one capacity test takes on site (discharge, recharge, records): its "
+          "cost where a visit is planned anyway."),
+    F("test_value", "bool", True,
+      doc="Rank the sites with a pack in service by the value of one more capacity test "
+          "(workbook sheet Field evidence, JSON field_data.test_value)."),
+)
+
 SECTIONS = {
     "study": STUDY,
     "candidates": CANDIDATES,
@@ -234,6 +257,7 @@ SECTIONS = {
     "location": LOCATION,
     "solver": SOLVER,
     "output": OUTPUT,
+    "field_data": FIELD_DATA,
 }
 # Sections whose sub-tables are named by the user: [prices.<chemistry>], [regions.<name>],
 # [climates.<name>] (options for a user climate file, checked by planner.climate).
@@ -304,6 +328,57 @@ SITE_COLUMNS = (
     F("notes", "str", "", doc="Free text, copied to the plan."),
 )
 
+
+TEST_KINDS = ("acceptance", "performance", "service", "partial")
+
+# One row per capacity test of a pack in service ([field_data].capacity_tests_file).
+TEST_COLUMNS = (
+    F("site_id", "str", doc="Site id of the sites table."),
+    F("test_date", "date", doc="Day of the test; before the study's start_year and not before "
+                               "the pack's installation year."),
+    F("kind", "str", "performance", choices=TEST_KINDS,
+      doc="acceptance (new pack: fixes its initial capacity), performance or service (run to "
+          "the end voltage), partial (stopped early: capacity at least what was delivered)."),
+    F("duration_h", "float", unit="h", minimum=0.0, exclusive_minimum=True, maximum=1000.0,
+      doc="Duration of the discharge."),
+    F("capacity_ah", "float", None, "Ah", 0.0, 1e6,
+      doc="Charge delivered; give this or capacity_pct (at most 150 % of rated)."),
+    F("capacity_pct", "float", None, "% of rated", 0.0, 150.0,
+      doc="Capacity delivered as a percentage of the pack's rated capacity."),
+    F("start_temp_c", "float", None, "°C", -40.0, 70.0,
+      doc="Battery (electrolyte or cell) temperature at the start; needed unless corrected_to_25c."),
+    F("corrected_to_25c", "bool", False,
+      doc="yes when the figure is already corrected to 25 °C (for example an IEEE 450 "
+          "rate-adjusted test); it is then used as given."),
+    F("rate_h", "float", None, "h", 0.0, 1000.0, exclusive_minimum=True,
+      doc="Discharge rate in hours of rated capacity (10 for a C/10 test); blank: from the "
+          "current, the power or the duration."),
+    F("discharge_current_a", "float", None, "A", 0.0, 1e5, exclusive_minimum=True,
+      doc="Constant discharge current, if the test ran at one."),
+    F("discharge_power_w", "float", None, "W", 0.0, 1e7, exclusive_minimum=True,
+      doc="Constant discharge power, if the test ran at one."),
+    F("end_voltage_v_per_cell", "float", None, "V/cell", 0.0, 5.0, exclusive_minimum=True,
+      doc="End voltage per cell (the string's mean at the end of the test)."),
+    F("stopped_early", "bool", False,
+      doc="yes when the test ended before the end voltage (treated like kind = partial)."),
+    F("lowest_cell_v", "float", None, "V", 0.0, 5.0,
+      doc="Lowest cell (or block, per cell) voltage at the end of the test."),
+    F("lowest_cell_id", "str", "", doc="Which cell or block read lowest."),
+    F("tested_pack_installed_year", "int", None, "calendar year", 1900, 2100,
+      doc="Installation year of the pack tested, if not the pack in service today (a pack "
+          "replaced since: the row is skipped with a warning)."),
+    F("notes", "str", "", doc="Free text."),
+)
+
+# One row per logged sample ([field_data].battery_log_file), sorted by time per site.
+LOG_COLUMNS = (
+    F("timestamp", "timestamp", doc="Local standard time of the sample, before the study's start."),
+    F("site_id", "str", doc="Site id of the sites table."),
+    F("pack_voltage_v", "float", unit="V", minimum=0.0, maximum=1000.0, doc="Pack voltage."),
+    F("current_a", "float", unit="A", minimum=-1e5, maximum=1e5,
+      doc="Pack current, positive while charging."),
+    F("battery_temp_c", "float", unit="°C", minimum=-60.0, maximum=90.0, doc="Battery temperature."),
+)
 
 MONTHS = ("jan", "feb", "mar", "apr", "may", "jun", "jul", "aug", "sep", "oct", "nov", "dec")
 CLOUDINESS = ("clear", "few", "scattered", "broken", "overcast")
@@ -417,6 +492,19 @@ def reference_markdown() -> str:
     lines += ["## Sites table columns", "",
               "One row per site. Months are written `6-9`, `11-3` (wrapping), `5;6;7` or `all`.", "",
               *rows(SITE_COLUMNS), ""]
+    lines += ["## Capacity-test table columns", "",
+              "One row per discharge test of a pack in service (`[field_data].capacity_tests_file`,",
+              "CSV or XLSX). Dates are days of the calendar; a test on or after 1 January of",
+              "`start_year`, or before the pack's installation year, is an error; a test of a pack",
+              "replaced since (`tested_pack_installed_year` earlier than the site's",
+              "`existing_installed_year`) is skipped with a warning. How tests are used:",
+              "`docs/field-data.md`.", "",
+              *rows(TEST_COLUMNS), ""]
+    lines += ["## Battery-log columns", "",
+              "Samples of pack voltage, current and temperature (`[field_data].battery_log_file`,",
+              "CSV), sorted by time within each site, no time twice. Samples before the pack's",
+              "installation year are skipped with a warning (a pack replaced since).", "",
+              *rows(LOG_COLUMNS), ""]
     lines += ["## Normals table columns", "",
               "One row per site or per named set of normals; every month of `tmin_<mon>_c` and",
               "`tmax_<mon>_c` (`jan` ... `dec`) is required, the minimum below the maximum. The",

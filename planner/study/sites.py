@@ -23,7 +23,7 @@ from planner.study.loading import (
     _exists,
     _shown,
     check_measure_ids,
-    parse_field,
+    row_values,
 )
 from planner.study.normals import read_normals_table
 from planner.study.schema import SITE_COLUMNS, closest
@@ -83,22 +83,7 @@ def validate_sites(table: Table, mistakes: MistakeList, *, start_year: int | Non
     for row in table.rows:
         where = row.where()
         count = len(mistakes)
-        values = {}
-        cells, n_cells = row.cells, len(row.cells)
-        for spec, index, required in columns:
-            cell = cells[index] if index is not None and index < n_cells else ""
-            if cell == "":
-                if required:
-                    mistakes.add(InputError(f"{where}, column {spec.name}: empty; expected "
-                                            f"{spec.expectation()}", source=source))
-                values[spec.name] = spec.default
-                continue
-            try:
-                values[spec.name] = parse_field(spec, cell, from_text=True)
-            except (ValueError, TypeError):
-                unit = f" [{spec.unit}]" if spec.unit else ""
-                mistakes.add(InputError(f"{where}, column {spec.name}: found {_shown(cell)}; "
-                                        f"expected {spec.expectation()}{unit}", source=source))
+        values = row_values(row, columns, source, mistakes)
         site_id = values["id"]
         if site_id in seen:
             mistakes.add(InputError(f"{where}, column id: duplicate site id '{site_id}' (first "
