@@ -157,9 +157,9 @@ def _life_json(*args):
 
 @pytest.mark.parametrize("chem_id", ["lfp", "nmc"])
 def test_cold_storage_lasts_longer_and_is_flagged(chem_id):
-    # common practice: cold storage lengthens life. The calendar fits rest on tests of
-    # about 2 years at 0-60 °C (lfp) and 1.4 years (nmc: 35-50 °C, its cold slope from a
-    # study down to 0 °C): decades at 5 °C are far beyond the tests, so the life carries
+    # common practice: cold storage lengthens life. The default calendar laws rest on
+    # tests of about 1.5 years at 10-45 °C (Gasper et al. 2023; their cold slope from
+    # studies down to 0 °C): decades at 5 °C are far beyond the tests, so the life carries
     # the flag.
     warm = _life_json("--chemistry", chem_id, "--temp-c", "25", "--years", "200")
     cold = _life_json("--chemistry", chem_id, "--temp-c", "5", "--years", "200")
@@ -171,28 +171,32 @@ def test_cold_storage_lasts_longer_and_is_flagged(chem_id):
 def test_lfp_storage_below_the_fit_uses_the_cold_study_activation_energy():
     # Naumann 2018 (storage study from 0 to 60 °C, Ea = 17,126 J/mol): with sqrt(t) in the
     # coefficient convention the 25 -> 5 °C life ratio is exp(2 Ea/R (1/278.15 - 1/298.15))
-    # = 2.70 (computed); the same for the small-cell and the large-format level.
+    # = 2.70 (computed); the same for the small-cell and the large-format level of that law
+    # (the default's large-format law takes this slope below 10 °C only:
+    # test_aging_large_format.py).
     expected = math.exp(2 * 17126 / R * (1 / 278.15 - 1 / 298.15))
     life25 = _life_json("--chemistry", "lfp", "--temp-c", "25", "--years", "200",
                         "--aging-set", "published")["years_to_eol"]
     life5 = _life_json("--chemistry", "lfp", "--temp-c", "5", "--years", "200",
                        "--aging-set", "published")["years_to_eol"]
     assert life5 / life25 == pytest.approx(expected, rel=0.01)
-    default = get_chemistry("lfp").aging
-    temp_part = calendar_rate_parts(default.calendar_model, default.calendar, None)[0]
+    one_point = get_chemistry("lfp").aging_set("large-format")
+    temp_part = calendar_rate_parts(one_point.calendar_model, one_point.calendar, None)[0]
     # the state grows as k^2 (square-root law): the life ratio is the rate ratio
     assert float(temp_part(25.0) / temp_part(5.0)) == pytest.approx(expected, rel=1e-9)
 
 
 def test_nmc_storage_below_its_fit_takes_the_slope_of_a_cold_storage_study():
     # Schmalstieg et al. 2014's 58 kJ/mol rests on storage at 35-50 °C (from memory); below
-    # 35 °C the default takes the slope of a 75 Ah NMC cell stored from 0 to 55 °C (Smith et
-    # al. 2017: Ea = 35,392 J/mol on sqrt(t), a 25 -> 5 °C life ratio of
-    # exp(2 Ea/R (1/278.15 - 1/298.15)) = 7.79, computed), not the extrapolated 58 kJ/mol
-    # (9.4, computed: exp(6976 K (1/278.15 - 1/298.15))^(4/3)).
+    # 35 °C the set "large-format" (that law at a large-format level) takes the slope of a
+    # 75 Ah NMC cell stored from 0 to 55 °C (Smith et al. 2017: Ea = 35,392 J/mol on
+    # sqrt(t), a 25 -> 5 °C life ratio of exp(2 Ea/R (1/278.15 - 1/298.15)) = 7.79,
+    # computed), not the extrapolated 58 kJ/mol (9.4, computed:
+    # exp(6976 K (1/278.15 - 1/298.15))^(4/3)). The default's large-format law takes
+    # Smith's slope below 10 °C only (test_aging_large_format.py).
     smith = math.exp(2 * 35392 / R * (1 / 278.15 - 1 / 298.15))
-    default = get_chemistry("nmc").aging
-    temp_part = calendar_rate_parts(default.calendar_model, default.calendar, None)[0]
+    one_point = get_chemistry("nmc").aging_set("large-format")
+    temp_part = calendar_rate_parts(one_point.calendar_model, one_point.calendar, None)[0]
     # the state grows as k^(1/0.75): the life ratio is the ratio of the state's rates
     assert float(temp_part(25.0) / temp_part(5.0)) == pytest.approx(smith, rel=1e-3)
     published = get_chemistry("nmc").aging_set("published-storage")
@@ -206,8 +210,8 @@ def test_nmc_storage_below_its_fit_takes_the_slope_of_a_cold_storage_study():
 @pytest.mark.parametrize("chem_id", ["lfp", "nmc"])
 def test_no_storage_gain_below_the_coldest_storage_test(chem_id):
     # Research note cold-and-scale §2: the Arrhenius gain is not extrapolated below the
-    # lowest storage temperature that supports it (0 °C for both defaults: Naumann et al.
-    # 2018, from memory; Smith et al. 2017): the calendar rate at -20 °C is that at 0 °C.
+    # lowest storage temperature that supports it (0 °C for both defaults: the cold slopes
+    # of Naumann et al. 2018, from memory; Smith et al. 2017): the calendar rate at -20 °C is that at 0 °C.
     default = get_chemistry(chem_id).aging
     temp_part = calendar_rate_parts(default.calendar_model, default.calendar, None)[0]
     assert float(temp_part(-20.0)) == pytest.approx(float(temp_part(0.0)), rel=1e-12)

@@ -49,20 +49,22 @@ def test_lfp_stored_full_life_at_25_and_45_c(aging_set):
     assert 2.0 <= life25 / life45 <= 8.0
 
 
-def test_lfp_default_level_rests_on_a_large_format_cell():
-    # The default's calendar level: 1.712 % lost in a year stored full at 25 °C, the life
-    # model Gasper et al. 2023 fitted to a 250 Ah LFP cell evaluated there (computed, the
-    # calibration row gasper2023/calendar-models/soc100-25C-1y-lfp); Naumann et al. 2018's
-    # own level (a 26650 cell) is 6.78 % (the set "published": 8.7 years to 80 %). Its
-    # shape is unchanged: above 25 °C the heat sensitivity of Wang et al. 2011 (Eq. 5 at
-    # C/2: a 25->45 °C life ratio of 4.28, computed), which Swierczynski et al. 2015
-    # supports (4.55, a validation row); the "naumann" set alone gives AF(45)^2 =
+def test_lfp_sets_at_one_level_keep_the_small_cells_shape():
+    # The default is the large-format cell's own law (tests/test_aging_large_format.py).
+    # The set "large-format" keeps the shape of Naumann et al. 2018 at the level Gasper et
+    # al. 2023's model of a 250 Ah LFP cell has at one point: 1.712 % lost in a year stored
+    # full at 25 °C (computed); Naumann's own level (a 26650 cell) is 6.78 % (the set
+    # "published": 8.7 years to 80 %). Above 25 °C both take the heat sensitivity of Wang
+    # et al. 2011 (Eq. 5 at C/2: a 25->45 °C life ratio of 4.28, computed), which
+    # Swierczynski et al. 2015 supports (4.55); the "naumann" set alone gives AF(45)^2 =
     # exp(2 Ea/R (1/298.15 - 1/318.15)) = 2.38.
     chem = get_chemistry("lfp")
-    assert chem.default_aging_set == "large-format"
-    year = age_lanes(chem, np.full((H, 1), 25.0), np.ones((H, 1)), None, 3.55, 1)
+    assert chem.default_aging_set == "large-format-fitted"
+    year = age_lanes(chem, np.full((H, 1), 25.0), np.ones((H, 1)), None, 3.55, 1,
+                     aging_set="large-format")
     assert float(year.calendar_loss_frac[-1, 0]) == pytest.approx(0.01712, rel=0.01)
-    default = _storage_years("lfp", 25.0, years=300) / _storage_years("lfp", 45.0, years=300)
+    default = _storage_years("lfp", 25.0, years=300, aging_set="large-format") / _storage_years(
+        "lfp", 45.0, years=300, aging_set="large-format")
     assert default == pytest.approx(4.28, rel=0.01)
     published = _storage_years("lfp", 25.0, aging_set="published") / _storage_years(
         "lfp", 45.0, aging_set="published")
@@ -104,28 +106,32 @@ def test_nmc_default_is_stationary_grade():
     # common practice for stationary NMC (modules rated for thousands of cycles): at one
     # cycle a day, 80 % depth, 25 °C and C/2, with calendar fade at full charge included,
     # at least 1,500 cycles to 80 %; the consumer set lasts a fraction of that. The
-    # default's calendar level is that of large-format NMC cells (Gasper et al. 2023:
-    # 2.45 % a year stored full at 25 °C, geometric mean of two cells) and its cycle term
-    # is calibrated to 5,000 rated cycles alone (datasheets, from memory): it meets the
-    # 1,500. The set at the level of Schmalstieg et al. 2014's consumer cell
-    # ("published-storage", 4.4 % a year) does not (about 1,200).
+    # default's calendar law is that of large-format NMC cells (Gasper et al. 2023: 2.45 %
+    # a year stored full at 25 °C, geometric mean of two cells' models, held at its
+    # end-of-test rate past 1.5 years) and its cycle term is calibrated to 5,000 rated
+    # cycles alone (datasheets, from memory): it meets the 1,500, as does the earlier set
+    # at the same level on Schmalstieg's t^0.75 ("large-format"). The set at the level of
+    # Schmalstieg et al. 2014's consumer cell ("published-storage", 4.4 % a year) does not
+    # (about 1,200).
     chem = get_chemistry("nmc")
-    assert chem.default_aging_set == "large-format"
+    assert chem.default_aging_set == "large-format-fitted"
     from planner.aging.profiles import cycling_profile
     soc, current = cycling_profile(1.0, 0.8, 1.0, 0.5)
     cycles = {}
-    for aging_set, overrides in (("large-format", None), ("stationary", None),
-                                 ("schmalstieg", None), ("published-storage", None),
-                                 ("large-format", {"calendar.scale": 0.0})):
+    for aging_set, overrides in (("large-format-fitted", None), ("large-format", None),
+                                 ("stationary", None), ("schmalstieg", None),
+                                 ("published-storage", None),
+                                 ("large-format-fitted", {"calendar.loss_frac_year_ref": 0.0})):
         result = age_lanes(chem, np.full((H, 1), 25.0), soc[:, None], current[:, None], 4.20,
                            30, peak_c_rate=0.5, charge_c_rate=0.5, aging_set=aging_set,
                            overrides=overrides)
         cycles[aging_set, overrides is None] = float(result.years_to_soh(0.8)[0]) * 365
+    assert cycles["large-format-fitted", True] >= 1500
     assert cycles["large-format", True] >= 1500
     assert cycles["stationary", True] >= 1500
     assert cycles["published-storage", True] < 1500
-    assert cycles["schmalstieg", True] < 0.5 * cycles["large-format", True]
-    assert 4900 <= cycles["large-format", False] <= 5100
+    assert cycles["schmalstieg", True] < 0.5 * cycles["large-format-fitted", True]
+    assert 4900 <= cycles["large-format-fitted", False] <= 5100
 
 
 def test_full_depth_cycle_life_by_chemistry():
@@ -206,12 +212,15 @@ def test_state_carries_over():
 def test_existing_pack_from_losses():
     # A pack with 10 % calendar loss continues from an equivalent time (research note §6.1):
     # for sqrt(t) at constant conditions, t_eq = (0.1 / k)^2, so the remaining life to 80 %
-    # is the fresh life minus t_eq.
-    fresh = age_lanes("lfp", np.full((H, 1), 25.0), np.ones((H, 1)), None, 3.55, 200)
+    # is the fresh life minus t_eq (a square-root law kept to the end: the set
+    # "large-format"; the default's held law in test_aging_large_format.py).
+    fresh = age_lanes("lfp", np.full((H, 1), 25.0), np.ones((H, 1)), None, 3.55, 200,
+                      aging_set="large-format")
     life = float(fresh.years_to_soh(0.8)[0])
     t_eq = life * (0.1 / 0.2) ** 2
     old = age_lanes("lfp", np.full((H, 1), 25.0), np.ones((H, 1)), None, 3.55, 200,
-                    initial_state=AgingState.from_losses(0.1, 0.0, age_years=t_eq))
+                    initial_state=AgingState.from_losses(0.1, 0.0, age_years=t_eq),
+                    aging_set="large-format")
     assert float(old.years_to_soh(0.8)[0]) == pytest.approx(life - t_eq, rel=1e-6)
 
 
@@ -293,11 +302,14 @@ def test_soh_never_increases(chem_id, seed, depth):
 def test_engine_equals_plain_hourly_loop_with_reference_rainflow():
     # Independent reference: hour-by-hour textbook equivalent-time update (research note
     # §6.1) with math.exp, and cycles from the reference `rainflow` package on the year
-    # started and closed at its maximum (ASTM E1049 practice for repeated histories).
+    # started and closed at its maximum (ASTM E1049 practice for repeated histories). On
+    # the set with Naumann et al. 2018's square-root calendar law (the default's
+    # large-format law is checked against its closed form in test_aging_large_format.py).
     import rainflow
 
     chem = get_chemistry("lfp")
-    cal_p, cyc_p = chem.aging.calendar, chem.aging.cycle
+    params = chem.aging_set("large-format")
+    cal_p, cyc_p = params.calendar, params.cycle
     rng = np.random.default_rng(11)
     hours = np.arange(H)
     temp = 18.0 + 8.0 * np.sin(2 * np.pi * hours / H) + rng.normal(0.0, 2.0, H)
@@ -305,7 +317,7 @@ def test_engine_equals_plain_hourly_loop_with_reference_rainflow():
     current = soc - np.roll(soc, -1)
     years = 3
     result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], 3.55, years,
-                       rate_bin_k=None, soc_bin_frac=None)
+                       rate_bin_k=None, soc_bin_frac=None, aging_set="large-format")
 
     def arrhenius(temp_c, ea, ref_c):
         return math.exp(-ea / 8.314462618 * (1 / (temp_c + 273.15) - 1 / (ref_c + 273.15)))

@@ -89,17 +89,19 @@ def test_splitting_a_constant_period_changes_nothing(k, pieces, z):
 @settings(max_examples=30, deadline=None)
 @given(st.floats(-20.0, 55.0), st.floats(0.0, 1.0), st.integers(1, 25))
 def test_engine_constant_conditions_equal_closed_form(temp_c, soc, years):
-    # Naumann et al. 2018 closed form k(T, SOC) sqrt(t) at every month end, exact mode.
+    # Naumann et al. 2018 closed form k(T, SOC) sqrt(t) at every month end, exact mode (the
+    # set with that law; the default's law in test_aging_large_format.py).
     chem = get_chemistry("lfp")
-    p = chem.aging.calendar
+    p = chem.aging_set("large-format").calendar
     result = age_lanes(chem, np.full((8760, 1), temp_c), np.full((8760, 1), soc), None, 3.55, years,
-                       rate_bin_k=None, soc_bin_frac=None)
+                       rate_bin_k=None, soc_bin_frac=None, aging_set="large-format")
     month_hours = np.concatenate([[0], np.cumsum(np.tile([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31],
                                                          years))]) * 24.0
     closed = cal.naumann2018_calendar_loss(temp_c, soc, month_hours * 3600.0, **p)
     np.testing.assert_allclose(result.calendar_loss_frac[:, 0], closed, rtol=1e-9, atol=1e-15)
     # Binned lookup tables (the default) stay within 0.1 % of the exact rates.
-    binned = age_lanes(chem, np.full((8760, 1), temp_c), np.full((8760, 1), soc), None, 3.55, years)
+    binned = age_lanes(chem, np.full((8760, 1), temp_c), np.full((8760, 1), soc), None, 3.55, years,
+                       aging_set="large-format")
     np.testing.assert_allclose(binned.calendar_loss_frac[:, 0], closed, rtol=1e-3, atol=1e-12)
 
 

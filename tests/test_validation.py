@@ -83,14 +83,21 @@ def test_every_perturbation_fails_a_validation_row_unless_a_stated_gap(coverage)
     # +-20 %; the gaps are listed with their reason in the report
     uncaught = {(c.mutation.set_id, c.mutation.what) for c in coverage if not c.failed}
     assert uncaught == set(KNOWN_GAPS)
+    # The calendar laws of the lithium-ion defaults are the large-format cells' models:
+    # their own data are calibration rows now, so a 30 % milder NMC heat law is a stated
+    # gap (the independent NMC storage rows, Smith et al. 2017's Kokam cell at 35 kJ/mol
+    # and the trade's halving per 10 K, lie on both sides of it). The time law past the
+    # tests (the exponent, shallower, and where the rate is held) must be rejected.
     required = {(LFP, w) for w in (
         "calendar activation energy +30 %", "calendar activation energy -30 %",
         "sign of the calendar activation energy", "cold (plating) activation energy x2",
-        "throughput_exponent +20 %")}
+        "throughput_exponent +20 %", "calendar time exponent -20 %",
+        "storage test length x2 (where the rate is held)")}
     required |= {(NMC, w) for w in (
-        "calendar activation energy +30 %", "calendar activation energy -30 %",
-        "sign of the calendar activation energy", "cold (plating) activation energy x2",
-        "throughput_exponent +20 %", "throughput_exponent -20 %")}
+        "calendar activation energy +30 %", "sign of the calendar activation energy",
+        "cold (plating) activation energy x2", "throughput_exponent +20 %",
+        "throughput_exponent -20 %", "calendar time exponent -20 %",
+        "storage test length x2 (where the rate is held)")}
     assert not required & uncaught
 
 
@@ -111,13 +118,17 @@ def test_report_separates_validation_from_calibration(rows):
 
 def test_side_by_side_rows_check_both_lithium_defaults_at_calendar_and_cycling():
     # Gasper et al. 2023 (J. Energy Storage 73, 109042): LFP and NMC cells aged under one
-    # test matrix; the ordering or ratio of NMC over LFP at one condition, checked on the
-    # two defaults together, stored and cycling
+    # test matrix. Both defaults' calendar laws are those cells' models, so the stored rows
+    # are calibration rows of both (the calendar conditions the study fitted); cycling
+    # side by side, the ratio of NMC over LFP checks the two defaults' cycle laws together.
     side = [r for r in REFERENCES if r.kind == "validation" and {LFP, NMC} <= set(r.sets)]
-    assert any("stored" in r.condition for r in side)
-    assert any("cycles" in r.condition for r in side)
+    assert side and all("cycles" in r.condition for r in side)
     for r in side:
         assert r.key.startswith("gasper2023/") and r.key not in FITTED_TARGETS[LFP] | FITTED_TARGETS[NMC]
+    for chem in ("lfp", "nmc"):
+        for temp in ("10C", "25C", "45C"):
+            key = f"gasper2023/calendar-models/soc100-{temp}-1y-{chem}"
+            assert key in FITTED_TARGETS[LFP if chem == "lfp" else NMC]
 
 
 @pytest.mark.parametrize("lfp_set, nmc_set", [("published", None), (None, "published-storage")])
@@ -127,19 +138,22 @@ def test_side_by_side_rows_reject_the_two_lithium_ions_on_unequal_footing(lfp_se
     # cell behind its published law (LFP: Naumann et al. 2018, 6.8 % a year stored full at
     # 25 °C; NMC: Schmalstieg et al. 2014, 4.4 %) and the other at the large-format level
     # (1.7 % and 2.4 %) breaks that ratio either way, so the row must fail.
+    # (The row checks the sets that keep the small cells' laws at the large-format level at
+    # one point, "large-format"; the defaults' laws are those cells' models.)
     from dataclasses import replace
 
     from planner.chemistry import get_chemistry
 
-    chosen = {"lfp": lfp_set, "nmc": nmc_set}
+    chosen = {"lfp": lfp_set or "large-format", "nmc": nmc_set or "large-format"}
 
     def chem_of(cid):
-        chem = get_chemistry(cid)
-        return replace(chem, default_aging_set=chosen[cid]) if chosen.get(cid) else chem
+        return replace(get_chemistry(cid), default_aging_set=chosen[cid])
 
-    side = tuple(r for r in REFERENCES if r.key == "gasper2023/calendar-models/soc100-45C-1y-nmc-over-lfp")
-    rows = validate.run_validation(chem_of, side)
-    assert rows and not rows[0].passed
+    (row,) = (r for r in REFERENCES if r.key == "gasper2023/calendar-models/soc100-45C-1y-nmc-over-lfp")
+    low, high = row.band
+    assert low <= validate._side_by_side(row.key, lambda cid: replace(
+        get_chemistry(cid), default_aging_set="large-format")) <= high
+    assert not low <= validate._side_by_side(row.key, chem_of) <= high
 
 
 def test_main_writes_the_report_and_exit_code(tmp_path):

@@ -455,6 +455,10 @@ def calendar_rate_parts(model: str, params, chemistry):
             return linear ** (1.0 / z)
 
         return temp_part, soc_part, z
+    if model in ("gasper2023_lfp", "gasper2023_nmc"):
+        # imported here: the large-format laws build on this module's helpers
+        from planner.aging.large_format import large_format_rate_parts
+        return large_format_rate_parts(model, p)
     if model == "arrhenius_halving":
         def temp_part(temp_c):
             return p["loss_at_end_frac"] / (arrhenius_halving_life_years(temp_c, **p) * HOURS_PER_YEAR)

@@ -106,3 +106,66 @@ def repeat_year(state0, monthly_increment, horizon_years: int):
     out[0] = state0
     out[1:] = np.asarray(state0, dtype=float)[None, :] + grid.reshape(12 * horizon_years, -1)
     return out
+
+
+def held_loss_from_state(state, exponent, held_state):
+    r"""Loss of a state when the law keeps, past ``held_state``, the rate it has there.
+
+    .. math::
+
+        Q = \begin{cases} S^z & S \le S_h \\ S_h^z + z\,S_h^{z-1}\,(S - S_h) & S > S_h \end{cases}
+
+    with :math:`S` = ``state``, :math:`z` = ``exponent`` and :math:`S_h` =
+    ``held_state`` (the state a lane reached at the end of the longest test behind its
+    law; None: the plain power law, :func:`loss_from_state`). Linear in the state past
+    the hold, so at constant conditions the loss grows at the slope of the end of the
+    test (:func:`planner.aging.large_format.held_loss`).
+    """
+    power = loss_from_state(state, exponent)
+    if held_state is None:
+        return power
+    s = np.maximum(np.asarray(state, dtype=float), 0.0)
+    h = np.asarray(held_state, dtype=float)  # (n_lanes,) broadcasts over rows of months
+    past = (s > h) & (h > 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        linear = h ** exponent + exponent * h ** (exponent - 1.0) * (s - h)
+    return np.where(past, linear, power)
+
+
+def held_state_from_loss(loss_frac, exponent, held_state):
+    """State of a loss under :func:`held_loss_from_state` (its inverse)."""
+    power = state_from_loss(np.maximum(np.asarray(loss_frac, dtype=float), 0.0), exponent)
+    if held_state is None:
+        return power
+    q = np.asarray(loss_frac, dtype=float)
+    h = np.asarray(held_state, dtype=float)
+    at_hold = np.where(h > 0.0, h, 0.0) ** exponent
+    past = (q > at_hold) & (h > 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        linear = h + (q - at_hold) / (exponent * h ** (exponent - 1.0))
+    return np.where(past, linear, power)
+
+
+def state_after(state0, monthly_increment, elapsed_years, month_start_year_frac):
+    """State of each lane ``elapsed_years`` into the repeated year, linear within a month.
+
+    Parameters
+    ----------
+    state0 : ndarray, shape (n_lanes,)
+    monthly_increment : ndarray, shape (12, n_lanes)
+    elapsed_years : float or ndarray, shape (n_lanes,)
+        Years from the start (>= 0).
+    month_start_year_frac : ndarray, shape (12,)
+        Year fraction at which each month starts (0 for January).
+    """
+    inc = np.asarray(monthly_increment, dtype=float)
+    elapsed = np.maximum(np.asarray(elapsed_years, dtype=float), 0.0)
+    whole = np.floor(elapsed)
+    part = elapsed - whole
+    bounds = np.append(np.asarray(month_start_year_frac, dtype=float), 1.0)
+    cum = np.vstack([np.zeros((1, inc.shape[1])), np.cumsum(inc, axis=0)])
+    month = np.clip(np.searchsorted(bounds, part, side="right") - 1, 0, 11)
+    within = (part - bounds[month]) / (bounds[month + 1] - bounds[month])
+    lanes = np.arange(inc.shape[1])
+    partial = cum[month, lanes] + within * inc[month, lanes]
+    return np.asarray(state0, dtype=float) + whole * cum[-1] + partial

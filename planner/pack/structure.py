@@ -522,11 +522,16 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
     - time exponents: the engine's own (``calendar_rate_parts`` / ``cycle_exponent``
       of :mod:`planner.aging`): 0.5 for the square-root laws of Naumann et al.
       2018/2020, 0.75 for the Schmalstieg et al. 2014 calendar law, 1 for laws
-      linear in time (halving rule, Woehler/Palmgren-Miner);
+      linear in time (halving rule, Woehler/Palmgren-Miner) and for a calendar law held
+      at its end-of-test rate (``hold_after_years``): the lives these sets give lie far
+      past the hold, where the loss is linear in time and a cell's rate factor scales
+      its life as ``1/m``;
     - activation energy: ``activation_energy_j_mol`` as given; ``temp_coefficient_k``
       x R (Schmalstieg's ``exp(-6976/T)`` is 58 kJ/mol, notes 2.1); a halving or
       doubling step dT at T_ref is the Arrhenius law with
-      ``Ea = R T_ref (T_ref + dT) ln 2 / dT`` (exactly a factor 2 over dT).
+      ``Ea = R T_ref (T_ref + dT) ln 2 / dT`` (exactly a factor 2 over dT); a
+      large-format calendar law its local slope stored full at 25 °C
+      (:func:`planner.aging.large_format.effective_activation_energy_j_mol`).
 
     A law without a temperature term gets ``default_activation_energy_j_mol``
     (50 kJ/mol, the middle of the 50-70 kJ/mol of SEI growth, notes 6.3) only if it
@@ -534,6 +539,10 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
     """
     from planner.aging.calendar import calendar_rate_parts
     from planner.aging.cycle import cycle_exponent
+    from planner.aging.large_format import (
+        LARGE_FORMAT_MODELS,
+        effective_activation_energy_j_mol,
+    )
 
     def ea_of(params):
         p = dict(params)
@@ -553,8 +562,15 @@ def stress_parameters(aging_params, *, default_activation_energy_j_mol=50e3):
     except (ValueError, KeyError, AttributeError) as err:
         raise InputError(f"aging set: found an unknown law ({err}), expected one of the aging "
                          "engine's calendar and cycle models", source="life") from None
+    if aging_params.calendar.get("hold_after_years"):
+        z_cal = 1.0
+    if aging_params.calendar_model in LARGE_FORMAT_MODELS:
+        calendar_ea = effective_activation_energy_j_mol(aging_params.calendar_model,
+                                                        aging_params.calendar)
+    else:
+        calendar_ea = ea_of(aging_params.calendar)
     return {
-        "activation_energy_j_mol": ea_of(aging_params.calendar),
+        "activation_energy_j_mol": calendar_ea,
         "cycle_activation_energy_j_mol": ea_of(aging_params.cycle),
         "calendar_time_exponent": z_cal,
         "cycle_time_exponent": z_cyc,

@@ -13,7 +13,8 @@ H = 8760
 YEAR_S = 365 * 24 * 3600.0
 LONG_YEARS = 600
 """Horizon for ratios of storage lives of sets that last centuries in storage (the
-large-format calendar levels: LFP at half charge and 25 °C lasts about 350 years)."""
+small cells' laws at a large-format level: LFP at half charge and 25 °C lasts about 350
+years)."""
 
 
 def storage_years(chem, temp_c, soc=None, years=80):
@@ -33,6 +34,22 @@ def storage_loss(chem, temp_c, soc, years=1):
     result = age_lanes(chem, np.full((H, 1), temp_c), np.full((H, 1), soc), None,
                        chem.default_charge_voltage_v_per_cell, years)
     return float(result.calendar_loss_frac[-1, 0])
+
+
+def storage_loss_at(chem, temp_c, soc, years):
+    """Calendar loss after ``years`` (a whole number of months) stored at a temperature and
+    state of charge."""
+    months = int(round(12 * years))
+    result = storage_result(chem, temp_c, soc, -(-months // 12))
+    return float(result.calendar_loss_frac[months, 0])
+
+
+def storage_result(chem, temp_c, soc, years):
+    """The FadeResult of storage at a temperature and state of charge."""
+    from planner.aging import age_lanes
+
+    return age_lanes(chem, np.full((H, 1), temp_c), np.full((H, 1), soc), None,
+                     chem.default_charge_voltage_v_per_cell, years)
 
 
 def cycling(chem, temp_c, *, dod=0.8, per_day=1.0, c_rate=0.5, charge_c_rate=None, years=40,

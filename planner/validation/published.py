@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 from dataclasses import dataclass, replace
 from pathlib import Path
 from types import MappingProxyType
@@ -69,6 +70,10 @@ def _lfp(key, chem_of):
         return pred.storage_years(lfp, 25.0)
     if key == "common-practice/storage/lfp-45C-full":
         return pred.storage_years(lfp, 45.0)
+    if key.startswith("common-practice/storage/life-halves-per-10K"):
+        return pred.storage_years(lfp, 25.0) / pred.storage_years(lfp, 35.0)
+    if key.startswith("naumann2018/calendar-model/") and key.endswith("-soc100-1y"):
+        return _storage_loss_ratio(lfp, key)
     if key == "naumann2018/calendar-model/60C-soc50-1y":
         return pred.storage_loss(lfp, 60.0, 0.5)
     if key == "naumann2018/calendar-model/60C-over-25C-soc50-1y":
@@ -87,6 +92,13 @@ def _lfp(key, chem_of):
         return float(pred.cycling(lfp, 25.0).years_to_soh(0.8)[0]) * 365.0
     del cal
     raise KeyError(key)
+
+
+def _storage_loss_ratio(chem, key):
+    """Loss of a year stored full at one temperature over that at another, as a key
+    ``.../<hot>C-over-<cold>C-soc100-1y`` names them."""
+    hot, cold = re.search(r"/(\d+)C-over-(\d+)C-soc100-1y$", key).groups()
+    return pred.storage_loss(chem, float(hot), 1.0) / pred.storage_loss(chem, float(cold), 1.0)
 
 
 def _split_charge_ratio(lfp):
@@ -115,9 +127,11 @@ def _nmc(key, chem_of):
         from planner.aging import age_lanes
         from planner.aging.profiles import cycling_profile
         soc, current = cycling_profile(1.0, 0.8, 1.0, 0.5)
+        # the cycle term alone: the calendar law's level set to nothing
+        level = "loss_frac_year_ref" if "loss_frac_year_ref" in nmc.aging.calendar else "scale"
         result = age_lanes(nmc, np.full((pred.H, 1), 25.0), soc[:, None], current[:, None], 4.20,
                            30, peak_c_rate=0.5, charge_c_rate=0.5,
-                           overrides={"calendar.scale": 0.0})
+                           overrides={f"calendar.{level}": 0.0})
         return float(result.years_to_soh(0.8)[0]) * 365.0
     warranty_set = NMC_WARRANTY.split("/")[1]
     if key == "common-practice/stationary-nmc/warranty-70pct-10y":
@@ -137,6 +151,10 @@ def _nmc(key, chem_of):
         return pred.storage_years(nmc, 25.0, years=300) / pred.storage_years(nmc, 60.0)
     if key == "smith2017/calendar-model/life-ratio-60C-over-35C":
         return pred.storage_years(nmc, 35.0, years=300) / pred.storage_years(nmc, 60.0)
+    if key.startswith("common-practice/storage/life-halves-per-10K"):
+        return pred.storage_years(nmc, 25.0) / pred.storage_years(nmc, 35.0)
+    if key.startswith("smith2017/calendar-model/") and key.endswith("-soc100-1y"):
+        return _storage_loss_ratio(nmc, key)
     if key == "smith2017/calendar-model/life-ratio-5C-over-25C":
         return (pred.storage_years(nmc, 5.0, years=pred.LONG_YEARS)
                 / pred.storage_years(nmc, 25.0, years=pred.LONG_YEARS))
@@ -162,14 +180,18 @@ def _consumer_cycles(nmc):
 
 
 def _side_by_side(key, chem_of):
-    """The large-format cells of one test matrix: each default alone (its calendar level,
-    heat and daily cycling) or NMC over LFP at one condition, as the study reports."""
+    """The large-format cells of one test matrix: each chemistry alone (stored at a state
+    of charge, temperature and duration; cycled daily) or NMC over LFP at one condition, as
+    the study reports."""
     lfp, nmc = chem_of("lfp"), chem_of("nmc")
     temp = 45.0 if "45C-" in key else 25.0
     if key == "gasper2023/cycle-models/25C-80dod-c2-daily-lfp":
         return pred.cycles_to_80(lfp, 25.0, dod=0.8, per_day=1.0, c_rate=0.5)
-    if key.endswith(("1y-lfp", "1y-nmc")):
-        return pred.storage_loss(lfp if key.endswith("-lfp") else nmc, temp, 1.0)
+    stored = re.search(r"/soc(\d+)-(\d+)C-([\d.]+)y-(lfp|nmc)$", key)
+    if stored:
+        soc, temp_c, years, chem_id = stored.groups()
+        return pred.storage_loss_at(lfp if chem_id == "lfp" else nmc, float(temp_c),
+                                    int(soc) / 100.0, float(years))
     if key.startswith("gasper2023/calendar-models/"):
         return pred.storage_loss(nmc, temp, 1.0) / pred.storage_loss(lfp, temp, 1.0)
     if key.startswith("gasper2023/cycle-models/"):
@@ -256,6 +278,9 @@ def predict(reference: Reference, chem_of) -> float:
     the row names (the side-by-side rows: both lithium-ion defaults)."""
     sets = reference.sets
     if reference.key.startswith("gasper2023/"):
+        # each chemistry by the first set of it the row names
+        for set_id in reversed(sets):
+            chem_of = _with_set(chem_of, set_id)
         return float(_side_by_side(reference.key, chem_of))
     if sets and sets[0].startswith("lfp/"):
         return float(_lfp(reference.key, _with_set(chem_of, sets[0])))
@@ -298,13 +323,19 @@ def run_validation(chem_of=None, references=REFERENCES) -> list[Row]:
 # ------------------------------------------------------------------ mutations
 @dataclass(frozen=True)
 class Mutation:
-    """A perturbation of one parameter of a default aging set."""
+    """A perturbation of one parameter of a default aging set (``key``: one name, or
+    several perturbed together where one law spreads a quantity over several, as the NMC
+    law's heat sensitivity over its two cells' temperature coefficients)."""
 
     set_id: str
     what: str
     part: str
-    key: str
+    key: str | tuple[str, ...]
     factor: float
+
+    @property
+    def keys(self) -> tuple[str, ...]:
+        return (self.key,) if isinstance(self.key, str) else tuple(self.key)
 
     def chem_of(self):
         from planner.chemistry import get_chemistry
@@ -313,7 +344,8 @@ class Mutation:
         chem = get_chemistry(chem_id)
         params = chem.aging_set(set_name)
         values = dict(getattr(params, self.part))
-        values[self.key] *= self.factor
+        for key in self.keys:
+            values[key] *= self.factor
         sets = dict(chem.aging_sets)
         sets[set_name] = replace(params, **{self.part: MappingProxyType(values)})
         changed = replace(chem, aging_sets=MappingProxyType(sets))
@@ -321,7 +353,7 @@ class Mutation:
 
 
 def _mutations(set_id, calendar_ea, cold_ea=None, low_storage_ea=None, exponent=None,
-               exponent_part="cycle"):
+               exponent_part="cycle", time_law=False):
     out = [Mutation(set_id, "calendar activation energy +30 %", "calendar", calendar_ea, 1.3),
            Mutation(set_id, "calendar activation energy -30 %", "calendar", calendar_ea, 0.7),
            Mutation(set_id, "sign of the calendar activation energy", "calendar", calendar_ea, -1.0)]
@@ -333,14 +365,20 @@ def _mutations(set_id, calendar_ea, cold_ea=None, low_storage_ea=None, exponent=
     if exponent:
         out += [Mutation(set_id, f"{exponent} +20 %", exponent_part, exponent, 1.2),
                 Mutation(set_id, f"{exponent} -20 %", exponent_part, exponent, 0.8)]
+    if time_law:
+        out += [Mutation(set_id, "calendar time exponent +20 %", "calendar", "time_exponent", 1.2),
+                Mutation(set_id, "calendar time exponent -20 %", "calendar", "time_exponent", 0.8),
+                Mutation(set_id, "storage test length x2 (where the rate is held)", "calendar",
+                         "hold_after_years", 2.0)]
     return out
 
 
 MUTATIONS = (
     *_mutations(LFP, "activation_energy_j_mol", "plating_activation_energy_j_mol",
-                "low_temp_activation_energy_j_mol", "throughput_exponent"),
-    *_mutations(NMC, "temp_coefficient_k", "plating_activation_energy_j_mol",
-                "low_temp_activation_energy_j_mol", "throughput_exponent"),
+                "low_temp_activation_energy_j_mol", "throughput_exponent", time_law=True),
+    *_mutations(NMC, ("cell_a_temp_coefficient", "cell_b_temp_coefficient"),
+                "plating_activation_energy_j_mol", "low_temp_activation_energy_j_mol",
+                "throughput_exponent", time_law=True),
     *_mutations(VRLA, "halving_step_k", None, None, "woehler_exponent"),
     *_mutations(LTO, "activation_energy_j_mol"),
 )
@@ -450,8 +488,8 @@ def render_markdown(rows: list[Row], coverage: list[Coverage] | None = None) -> 
             gap = KNOWN_GAPS.get((m.set_id, m.what))
             failed_rows = ", ".join(f"`{k}`" for k in c.failed) or (
                 f"**none**: {gap}" if gap else "**none**")
-            lines.append(f"| {m.set_id} | {m.what} | `{m.part}.{m.key}` x {m.factor:g} | "
-                         f"{failed_rows} |")
+            names = " and ".join(f"`{m.part}.{k}`" for k in m.keys)
+            lines.append(f"| {m.set_id} | {m.what} | {names} x {m.factor:g} | {failed_rows} |")
         lines.append("")
     return "\n".join(lines)
 
