@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import math
+from dataclasses import dataclass
 
 import click
 import numpy as np
@@ -140,7 +141,6 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         _print_list()
         return
     from planner.aging import age_lanes
-    from planner.aging.envelope import extrapolation_notes
     from planner.chemistry import get_chemistry
 
     if chem_id is None:
@@ -148,6 +148,56 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
                          source="life")
     chem = get_chemistry(chem_id)
     params = chem.aging_set(aging_set)
+    _check_options(chem, temp_c, climate, dod_frac, cycles_per_day, eol_soh, years, c_rate,
+                   charge_voltage_v)
+    volts = chem.default_charge_voltage_v_per_cell if charge_voltage_v is None else charge_voltage_v
+    duty = _duty(chem, volts, temp_c, soc_frac, dod_frac, cycles_per_day, c_rate)
+    temp, temp_text = _temperature(temp_c, climate, enclosure)
+    result = age_lanes(chem, temp[:, None], duty.soc[:, None], duty.current[:, None], volts, years,
+                       peak_c_rate=duty.peak_c_rate, charge_c_rate=duty.peak_c_rate,
+                       aging_set=params.name)
+    out = _life_fields(chem, params, result, duty, temp, temp_text, volts, eol_soh, c_rate)
+    pack_options = (series_cells, cell_spread_frac, balancing, draws)
+    if any(option is not None for option in pack_options) or across_models:
+        model_sets = None
+        if across_models:
+            model_sets = [age_lanes(chem, temp[:, None], duty.soc[:, None], duty.current[:, None],
+                                    volts, years, peak_c_rate=duty.peak_c_rate,
+                                    charge_c_rate=duty.peak_c_rate, aging_set=name)
+                          for name in chem.aging_sets]
+        out.update(_pack_percentiles(chem, result, out["eol_soh_applied"], float(temp.mean()),
+                                     *pack_options, model_sets=model_sets))
+        for p in ("p10", "p50", "p90"):  # the plan's names beside years_to_eol_pNN
+            if f"years_to_eol_{p}" in out:
+                out[f"life_{p}_years"] = out[f"years_to_eol_{p}"]
+    if duty.cycling:
+        reached = out["years_to_eol"] is not None
+        out["cycles_to_eol"] = (out["years_to_eol"] * DAYS_PER_YEAR * cycles_per_day
+                                if reached else None)
+        out["dod_frac"] = dod_frac
+        out["cycles_per_day"] = cycles_per_day
+        out["c_rate"] = c_rate
+    else:
+        out["soc_frac"] = float(duty.soc[0])
+    if emit_json(json.dumps(out, indent=2), as_json=as_json, json_out=json_out, what="life JSON"):
+        return
+    click.echo("\n".join(_summary_lines(chem, params, out, years)))
+
+
+@dataclass(frozen=True)
+class _Profile:
+    """The synthetic year a pack is aged with: hourly SOC and current (+ discharge)."""
+
+    soc: np.ndarray
+    current: np.ndarray
+    cycling: bool
+    peak_c_rate: float | None   # the cycles' nominal C-rate (also their charge rate)
+    top_frac: float             # usable fraction at the charge voltage
+
+
+def _check_options(chem, temp_c, climate, dod_frac, cycles_per_day, eol_soh, years, c_rate,
+                   charge_voltage_v) -> None:
+    """Options that cannot go together, or lie outside what the models take."""
     if (temp_c is None) == (climate is None):
         raise InputError("give exactly one of --temp-c T or --climate SOURCE", source="life")
     if temp_c is not None and not -60.0 <= temp_c <= 90.0:
@@ -171,9 +221,12 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     if not low - 1e-9 <= volts <= high + 1e-9:
         raise InputError(f"--charge-voltage-v-per-cell is {volts:g} V per cell; expected {low:g} to "
                          f"{high:g} V per cell for {chem.id}", source="life")
+
+
+def _duty(chem, volts, temp_c, soc_frac, dod_frac, cycles_per_day, c_rate) -> _Profile:
+    """Regular cycling (with --dod-frac/--cycles-per-day) or storage at one SOC."""
     top = float(chem.usable_fraction(volts))
-    cycling = dod_frac is not None
-    if cycling:
+    if dod_frac is not None:
         if not chem.rechargeable:
             raise InputError(f"{chem.id} is not rechargeable; drop --dod-frac/--cycles-per-day "
                              "and give the load as --c-rate", source="life")
@@ -188,20 +241,22 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         if temp_c is not None:
             _refuse_blocked_charging(chem, temp_c)
         soc, current = cycling_profile(top, dod_frac, cycles_per_day, c_rate)
-        peak = charge_rate = c_rate
-    else:
-        stored = top if soc_frac is None else soc_frac
-        if not 0.0 <= stored <= top + 1e-9:
-            raise InputError(f"--soc-frac is {stored:g}; expected 0 to {top:g} (usable fraction "
-                             f"at {volts:g} V per cell)", source="life")
-        soc = np.full(HOURS_PER_YEAR, stored)
-        # A primary cell feeds its load (--c-rate given explicitly); a stored pack carries none.
-        load = c_rate if not chem.rechargeable and _given("c_rate") else 0.0
-        current = np.full(HOURS_PER_YEAR, load)
-        peak = charge_rate = None
-    temp, temp_text = _temperature(temp_c, climate, enclosure)
-    result = age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts, years,
-                       peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=params.name)
+        return _Profile(soc, current, True, c_rate, top)
+    stored = top if soc_frac is None else soc_frac
+    if not 0.0 <= stored <= top + 1e-9:
+        raise InputError(f"--soc-frac is {stored:g}; expected 0 to {top:g} (usable fraction "
+                         f"at {volts:g} V per cell)", source="life")
+    # A primary cell feeds its load (--c-rate given explicitly); a stored pack carries none.
+    load = c_rate if not chem.rechargeable and _given("c_rate") else 0.0
+    return _Profile(np.full(HOURS_PER_YEAR, stored), np.full(HOURS_PER_YEAR, load), False, None,
+                    top)
+
+
+def _life_fields(chem, params, result, duty: _Profile, temp, temp_text, volts, eol_soh,
+                 c_rate) -> dict:
+    """The JSON fields of one life: end of life, losses, extrapolation, blocked charging."""
+    from planner.aging.envelope import extrapolation_notes
+
     # The knee-free laws are not carried below the lowest state of health their tests
     # reached (aging set envelope): a lower --eol-soh is raised to it and said.
     floor = params.envelope.lowest_soh_frac if params.envelope is not None else None
@@ -217,7 +272,7 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
         "battery_mean_temp_c": round(float(temp.mean()), 3),
         # for primary cells the nominal voltage: they are not charged
         "charge_voltage_v_per_cell": volts,
-        "usable_fraction": top,
+        "usable_fraction": duty.top_frac,
         "eol_soh": eol_soh,
         "eol_soh_frac": eol_soh,  # the plan's name for eol_soh
         "eol_soh_applied": applied,
@@ -232,67 +287,58 @@ def life_command(chem_id, temp_c, climate, enclosure, soc_frac, charge_voltage_v
     notes = extrapolation_notes(
         params.envelope, mean_temp_c=float(temp.mean()),
         life_years=eol_years if reached else math.inf,
-        efc_per_year=float(result.efc_per_year[0]), c_rate=c_rate if cycling else None,
-        soc_frac=None if cycling else float(soc[0]))
+        efc_per_year=float(result.efc_per_year[0]), c_rate=c_rate if duty.cycling else None,
+        soc_frac=None if duty.cycling else float(duty.soc[0]))
     out["life_extrapolated"] = bool(notes)
     out["extrapolation_notes"] = notes
-    blocked = _blocked_charging_hours(chem, temp, current) if cycling else None
-    if blocked is not None:
-        out["charge_blocked_hours_per_year"] = blocked[0] + blocked[1]
-        out["charge_blocked_cold_hours_per_year"] = blocked[0]
-        out["charge_blocked_hot_hours_per_year"] = blocked[1]
-    pack_options = (series_cells, cell_spread_frac, balancing, draws)
-    if any(option is not None for option in pack_options) or across_models:
-        model_sets = None
-        if across_models:
-            model_sets = [age_lanes(chem, temp[:, None], soc[:, None], current[:, None], volts,
-                                    years, peak_c_rate=peak, charge_c_rate=charge_rate, aging_set=name)
-                          for name in chem.aging_sets]
-        out.update(_pack_percentiles(chem, result, applied, float(temp.mean()), *pack_options,
-                                     model_sets=model_sets))
-        for p in ("p10", "p50", "p90"):  # the plan's names beside years_to_eol_pNN
-            if f"years_to_eol_{p}" in out:
-                out[f"life_{p}_years"] = out[f"years_to_eol_{p}"]
-    if cycling:
-        out["cycles_to_eol"] = eol_years * DAYS_PER_YEAR * cycles_per_day if reached else None
-        out["dod_frac"] = dod_frac
-        out["cycles_per_day"] = cycles_per_day
-        out["c_rate"] = c_rate
-    else:
-        out["soc_frac"] = float(soc[0])
-    if emit_json(json.dumps(out, indent=2), as_json=as_json, json_out=json_out, what="life JSON"):
-        return
-    click.echo(f"{chem.name}, aging set {result.aging_set}")
-    click.echo(f"battery temperature: {temp_text} (mean {out['battery_mean_temp_c']:.1f} °C)")
+    if duty.cycling:
+        cold, hot = _blocked_charging_hours(chem, temp, duty.current)
+        out["charge_blocked_hours_per_year"] = cold + hot
+        out["charge_blocked_cold_hours_per_year"] = cold
+        out["charge_blocked_hot_hours_per_year"] = hot
+    return out
+
+
+def _summary_lines(chem, params, out: dict, years: int) -> list[str]:
+    """What ``planner life`` prints on a terminal."""
+    volts, applied, eol_soh = out["charge_voltage_v_per_cell"], out["eol_soh_applied"], out["eol_soh"]
+    lines = [f"{chem.name}, aging set {out['aging_set']}",
+             f"battery temperature: {out['battery_temperature']} "
+             f"(mean {out['battery_mean_temp_c']:.1f} °C)"]
     if chem.rechargeable:
-        click.echo(f"charge voltage {volts:.2f} V per cell, usable fraction {top:.2f}")
+        lines.append(f"charge voltage {volts:.2f} V per cell, usable fraction "
+                     f"{out['usable_fraction']:.2f}")
     else:
-        click.echo(f"nominal voltage {volts:.2f} V per cell (primary cells are not charged)")
+        lines.append(f"nominal voltage {volts:.2f} V per cell (primary cells are not charged)")
     if applied > eol_soh:
-        click.echo(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests behind "
-                   f"aging set {params.name} end there, and the laws have no knee below it")
-    if reached:
-        extra = f", {out['cycles_to_eol']:.0f} cycles" if cycling else ""
-        click.echo(f"reaches {applied:.0%} SOH after {eol_years:.1f} years{extra}")
+        lines.append(f"end of life raised from {eol_soh:.0%} to {applied:.0%} SOH: the tests "
+                     f"behind aging set {params.name} end there, and the laws have no knee below it")
+    if out["years_to_eol"] is not None:
+        extra = f", {out['cycles_to_eol']:.0f} cycles" if "cycles_to_eol" in out else ""
+        lines.append(f"reaches {applied:.0%} SOH after {out['years_to_eol']:.1f} years{extra}")
     else:
-        click.echo(f"stays above {applied:.0%} SOH for the {years} years computed")
+        lines.append(f"stays above {applied:.0%} SOH for the {years} years computed")
+    cal, cyc = out["calendar_loss_frac"], out["cycle_loss_frac"]
     if chem.rechargeable:
-        click.echo(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
+        lines.append(f"loss then: calendar {cal:.1%}, cycling {cyc:.1%}")
     else:
-        click.echo(f"capacity gone then: self-discharge {cal:.1%}, drawn by the load {cyc:.1%}")
-    for note in notes:
-        click.echo(f"extrapolated: {note}")
-    if blocked is not None and blocked[0] + blocked[1] > 0:
-        click.echo(f"charging blocked: {blocked[0]:.0f} h of the profile's charging hours fall "
-                   f"below {chem.charge_temp_min_c:g} °C and {blocked[1]:.0f} h above "
-                   f"{chem.charge_temp_max_c:g} °C; a plan does not charge then (planner plan), "
-                   "the cycles above still count them")
+        lines.append(f"capacity gone then: self-discharge {cal:.1%}, drawn by the load {cyc:.1%}")
+    lines += [f"extrapolated: {note}" for note in out["extrapolation_notes"]]
+    cold = out.get("charge_blocked_cold_hours_per_year", 0)
+    hot = out.get("charge_blocked_hot_hours_per_year", 0)
+    if cold + hot > 0:
+        lines.append(f"charging blocked: {cold:.0f} h of the profile's charging hours fall "
+                     f"below {chem.charge_temp_min_c:g} °C and {hot:.0f} h above "
+                     f"{chem.charge_temp_max_c:g} °C; a plan does not charge then (planner plan), "
+                     "the cycles above still count them")
     if "years_to_eol_p50" in out:
         def shown(value):
             return f"{value:.1f}" if value is not None else f">{years}"
-        click.echo(f"pack of {out['series_cells']} cells in series, {out['balancing']} balancing, "
-                   f"{out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
-                   f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} years")
+        lines.append(f"pack of {out['series_cells']} cells in series, {out['balancing']} "
+                     f"balancing, {out['draws']} draws: P10 {shown(out['years_to_eol_p10'])}, "
+                     f"P50 {shown(out['years_to_eol_p50'])}, P90 {shown(out['years_to_eol_p90'])} "
+                     "years")
+    return lines
 
 
 def _refuse_blocked_charging(chem, temp_c: float) -> None:
